@@ -1,0 +1,384 @@
+//! Singular points: where the field (or its gradient) is unbounded, and how strongly.
+//!
+//! # Algorithm
+//! Around each vertex of the arrangement the incident pieces, ordered by the angle of their
+//! true tangents, cut the plane into sectors, each filled by a dielectric, a conductor or
+//! the outside. A maximal run of dielectric sectors between two *walls* (a conductor: the
+//! potential is fixed, u = 0; the outside: zero normal flux, ∂u/∂n = 0, or a fixed potential
+//! if the outer boundary is an electrode) carries local solutions
+//! u = r^λ·Φ(φ). In a sector of permittivity ε, Φ = a·cos(λφ) + b·sin(λφ), and across an
+//! interface Φ and ε·Φ′ are continuous. Writing the state as s = (Φ, ε·Φ′/λ), a sector of
+//! opening θ and permittivity ε maps it by
+//!
+//! ```text
+//! M(θ, ε) = [  cos λθ       sin λθ / ε ]
+//!           [ −ε sin λθ     cos λθ     ]
+//! ```
+//!
+//! A conductor wall starts with s = (0, 1) and ends with Φ = 0; a zero-flux wall starts with
+//! s = (1, 0) and ends with ε·Φ′ = 0. The admissible exponents are the positive roots of the
+//! resulting scalar function of λ; the smallest one governs. With one dielectric this gives
+//! the classical λ = π/θ₀ (conductor–conductor or flux–flux walls) and λ = π/(2θ₀) (mixed
+//! walls). A vertex surrounded only by dielectrics (no wall) is periodic: λ solves
+//! tr M(λ) = 2.
+//!
+//! The field behaves like r^(λ−1): infinite at the point when λ < 1. For Lagrange elements of
+//! order p, any non-integer λ < p limits the convergence rate on a uniform mesh, so such points
+//! are also graded (see [`crate::SizeField`]).
+//!
+//! # References
+//! - J. D. Jackson, *Classical Electrodynamics*, 3rd ed., Wiley 1999, §2.11 (field near a
+//!   conducting wedge, λ = π/θ₀).
+//! - P. Grisvard, *Elliptic Problems in Nonsmooth Domains*, Pitman 1985 (corner singularities
+//!   of interface and mixed problems).
+//! - T. Takuma, "Field behavior at a triple junction in composite dielectric arrangements",
+//!   IEEE Trans. Electr. Insul. 26(3) (1991) 500–509.
+//!
+//! # Limitations
+//! A corner on the symmetry axis of an axisymmetric model is a conical point whose exponent
+//! follows from Legendre functions, not from this planar analysis; such points are found and
+//! flagged `on_axis`, and graded with the planar exponent of the meridian section (treating
+//! the axis as a zero-flux wall), which is a documented approximation.
+
+use crate::arrangement::{Arrangement, Side};
+use crate::error::MeshError;
+use crate::geometry::{Fill, Geometry, OuterBoundary, Symmetry, Xy};
+use std::f64::consts::TAU;
+
+/// What kind of singular point this is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SingularKind {
+    /// A conductor corner or edge facing a single dielectric.
+    ConductorCorner,
+    /// A conductor meets two or more dielectrics (a triple junction).
+    TripleJunction,
+    /// A corner of the outer (zero-flux) boundary or where an interface meets it.
+    BoundaryCorner,
+    /// Dielectrics of different permittivity meet at a corner away from any conductor.
+    DielectricCorner,
+}
+
+impl SingularKind {
+    /// A short label for reports.
+    pub fn label(&self) -> &'static str {
+        match self {
+            SingularKind::ConductorCorner => "conductor corner",
+            SingularKind::TripleJunction => "triple junction",
+            SingularKind::BoundaryCorner => "boundary corner",
+            SingularKind::DielectricCorner => "dielectric corner",
+        }
+    }
+}
+
+/// One sector of a corner: its opening and its fill.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Sector {
+    /// Opening angle, radians.
+    pub angle: f64,
+    /// Relative permittivity.
+    pub permittivity: f64,
+}
+
+/// What bounds a run of dielectric sectors.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Wall {
+    /// Fixed potential (a conductor): Dirichlet.
+    Potential,
+    /// Zero normal flux: Neumann.
+    ZeroFlux,
+}
+
+/// A point where the field or its gradient is singular.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SingularPoint {
+    /// Location, metres.
+    pub at: Xy,
+    /// Kind of point.
+    pub kind: SingularKind,
+    /// Total opening angle of the dielectric run that gives the smallest exponent, radians.
+    pub opening: f64,
+    /// Singular exponent λ: the potential varies like r^λ, the field like r^(λ−1).
+    pub lambda: f64,
+    /// The dielectric regions (shape indices) around the point, in angular order.
+    pub regions: Vec<u32>,
+    /// The conductor at the point, if any.
+    pub conductor: Option<u32>,
+    /// On the axis of an axisymmetric model (a conical point; see the module docs).
+    pub on_axis: bool,
+}
+
+impl SingularPoint {
+    /// True when the field itself is unbounded (λ < 1).
+    pub fn is_field_singular(&self) -> bool {
+        self.lambda < 1.0 - LAMBDA_TOL
+    }
+}
+
+/// Exponents within this distance of an integer are treated as that integer (a smooth
+/// solution, e.g. a straight boundary or a fillet joint, where round-off leaves θ₀ ≈ π).
+pub(crate) const LAMBDA_TOL: f64 = 1e-6;
+
+/// Smallest positive exponent λ ≤ `lambda_max` for a run of dielectric sectors between two
+/// walls, or `None` if there is none in that range.
+///
+/// `walls = None` means the sectors go all the way round (no wall, periodic).
+pub fn wedge_exponent(sectors: &[Sector], walls: Option<(Wall, Wall)>, lambda_max: f64) -> Option<f64> {
+    let f = |lam: f64| -> f64 {
+        let mut s = match walls {
+            Some((Wall::Potential, _)) => [0.0, 1.0],
+            Some((Wall::ZeroFlux, _)) => [1.0, 0.0],
+            None => [1.0, 0.0],
+        };
+        let mut m = [[1.0, 0.0], [0.0, 1.0]];
+        for sec in sectors {
+            let (sn, cs) = (lam * sec.angle).sin_cos();
+            let e = sec.permittivity;
+            let t = [[cs, sn / e], [-e * sn, cs]];
+            s = [t[0][0] * s[0] + t[0][1] * s[1], t[1][0] * s[0] + t[1][1] * s[1]];
+            m = [
+                [t[0][0] * m[0][0] + t[0][1] * m[1][0], t[0][0] * m[0][1] + t[0][1] * m[1][1]],
+                [t[1][0] * m[0][0] + t[1][1] * m[1][0], t[1][0] * m[0][1] + t[1][1] * m[1][1]],
+            ];
+        }
+        match walls {
+            Some((_, Wall::Potential)) => s[0],
+            Some((_, Wall::ZeroFlux)) => s[1],
+            None => m[0][0] + m[1][1] - 2.0,
+        }
+    };
+    // Scan for sign changes (and, for the periodic case, touching zeros), then bisect.
+    let steps = 4000;
+    let lo = 1e-6;
+    let h = (lambda_max - lo) / steps as f64;
+    let mut prev_l = lo;
+    let mut prev_f = f(lo);
+    let mut prev_prev_f = prev_f;
+    for k in 1..=steps {
+        let l = lo + k as f64 * h;
+        let fl = f(l);
+        if fl == 0.0 {
+            return Some(l);
+        }
+        if prev_f.signum() != fl.signum() {
+            let (mut a, mut b, mut fa) = (prev_l, l, prev_f);
+            for _ in 0..200 {
+                let m = 0.5 * (a + b);
+                let fm = f(m);
+                if fm.signum() == fa.signum() {
+                    a = m;
+                    fa = fm;
+                } else {
+                    b = m;
+                }
+                if b - a < 1e-15 {
+                    break;
+                }
+            }
+            return Some(0.5 * (a + b));
+        }
+        if walls.is_none() && k >= 2 {
+            // A local extremum of |f| close to zero without a sign change: a double root.
+            if prev_f.abs() < prev_prev_f.abs() && prev_f.abs() < fl.abs() {
+                let (mut a, mut b) = (prev_l - h, l);
+                for _ in 0..200 {
+                    let m1 = a + (b - a) * 0.382;
+                    let m2 = a + (b - a) * 0.618;
+                    if f(m1).abs() < f(m2).abs() {
+                        b = m2;
+                    } else {
+                        a = m1;
+                    }
+                    if b - a < 1e-14 {
+                        break;
+                    }
+                }
+                let m = 0.5 * (a + b);
+                if f(m).abs() < 1e-9 {
+                    return Some(m);
+                }
+            }
+        }
+        prev_prev_f = prev_f;
+        prev_l = l;
+        prev_f = fl;
+    }
+    None
+}
+
+/// Finds every point of the arrangement where the solution is singular for elements of
+/// order `order` (λ < order and not an integer).
+pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(usize, SingularPoint)>, MeshError> {
+    let scale = geo.scale();
+    let lambda_max = order.max(1) as f64;
+    // Incident directions per vertex: (angle, left side of the outgoing direction).
+    let mut inc: Vec<Vec<(f64, Side)>> = vec![Vec::new(); arr.vertices.len()];
+    for pc in &arr.pieces {
+        let t0 = pc.curve.tangent_at(0.0);
+        inc[pc.v[0]].push((t0[1].atan2(t0[0]), pc.left));
+        let t1 = pc.curve.tangent_at(1.0);
+        inc[pc.v[1]].push(((-t1[1]).atan2(-t1[0]), pc.right));
+    }
+    let mut out = Vec::new();
+    for (vi, dirs) in inc.iter_mut().enumerate() {
+        if dirs.len() < 2 {
+            continue;
+        }
+        dirs.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let at = arr.vertices[vi];
+        let n = dirs.len();
+        // Sector k goes from direction k to direction k+1 (counter-clockwise).
+        let sectors: Vec<(f64, Side)> = (0..n)
+            .map(|k| {
+                let a0 = dirs[k].0;
+                let a1 = if k + 1 < n { dirs[k + 1].0 } else { dirs[0].0 + TAU };
+                (a1 - a0, dirs[k].1)
+            })
+            .collect();
+        let conductors: Vec<u32> = sectors
+            .iter()
+            .filter_map(|s| if let Side::Conductor(c) = s.1 { Some(c) } else { None })
+            .collect();
+        if let Some(&c0) = conductors.first() {
+            if let Some(&c1) = conductors.iter().find(|&&c| c != c0) {
+                return Err(MeshError::ConductorsTouch {
+                    first: geo.conductors[c0 as usize].clone(),
+                    second: geo.conductors[c1 as usize].clone(),
+                    at,
+                });
+            }
+        }
+        let on_axis = geo.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale;
+        let wall_of = |s: Side| -> Option<Wall> {
+            match s {
+                Side::Conductor(_) => Some(Wall::Potential),
+                Side::Outside => Some(if geo.outer == OuterBoundary::FixedPotential && !on_axis_side(geo, at, scale) {
+                    Wall::Potential
+                } else {
+                    Wall::ZeroFlux
+                }),
+                Side::Region(_) => None,
+            }
+        };
+        let eps = |s: Side| -> f64 {
+            match s {
+                Side::Region(k) => match geo.shapes[k as usize].fill {
+                    Fill::Dielectric { permittivity } => permittivity,
+                    Fill::Conductor { .. } => 1.0,
+                },
+                _ => 1.0,
+            }
+        };
+        let mut best: Option<SingularPoint> = None;
+        let mut consider = |lam: Option<f64>, opening: f64, regions: Vec<u32>, kind: SingularKind| {
+            if let Some(l) = lam {
+                let near_int = (l - l.round()).abs() <= LAMBDA_TOL;
+                if l < lambda_max - LAMBDA_TOL && !near_int && best.as_ref().is_none_or(|b| l < b.lambda) {
+                    best = Some(SingularPoint {
+                        at,
+                        kind,
+                        opening,
+                        lambda: l,
+                        regions,
+                        conductor: conductors.first().copied(),
+                        on_axis,
+                    });
+                }
+            }
+        };
+        let wall_idx: Vec<usize> = (0..n).filter(|&k| wall_of(sectors[k].1).is_some()).collect();
+        if wall_idx.is_empty() {
+            // Only dielectrics around the point.
+            let secs: Vec<Sector> = sectors.iter().map(|s| Sector { angle: s.0, permittivity: eps(s.1) }).collect();
+            let distinct = secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+            if distinct {
+                let regions = sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
+                consider(wedge_exponent(&secs, None, lambda_max), TAU, regions, SingularKind::DielectricCorner);
+            }
+        } else {
+            // Runs of dielectric sectors between consecutive walls.
+            for (w, &k0) in wall_idx.iter().enumerate() {
+                let k1 = wall_idx[(w + 1) % wall_idx.len()];
+                let start = wall_of(sectors[k0].1).unwrap();
+                let end = wall_of(sectors[k1].1).unwrap();
+                let mut secs = Vec::new();
+                let mut regions = Vec::new();
+                let mut k = (k0 + 1) % n;
+                while k != k1 {
+                    secs.push(Sector { angle: sectors[k].0, permittivity: eps(sectors[k].1) });
+                    if let Side::Region(r) = sectors[k].1 {
+                        regions.push(r);
+                    }
+                    k = (k + 1) % n;
+                }
+                if secs.is_empty() {
+                    continue;
+                }
+                let opening: f64 = secs.iter().map(|s| s.angle).sum();
+                let has_cond = matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
+                let multi = secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+                let kind = match (has_cond, multi) {
+                    (true, false) => SingularKind::ConductorCorner,
+                    (true, true) => SingularKind::TripleJunction,
+                    (false, _) => SingularKind::BoundaryCorner,
+                };
+                consider(wedge_exponent(&secs, Some((start, end)), lambda_max), opening, regions, kind);
+            }
+        }
+        if let Some(b) = best {
+            out.push((vi, b));
+        }
+    }
+    out.sort_by(|(_, a), (_, b)| a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1])));
+    Ok(out)
+}
+
+/// In an axisymmetric model the outside beyond x = 0 is the axis (a symmetry line), never an
+/// electrode, even when the outer boundary is.
+fn on_axis_side(geo: &Geometry, at: Xy, scale: f64) -> bool {
+    geo.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::f64::consts::PI;
+
+    fn one(angle: f64) -> Vec<Sector> {
+        vec![Sector { angle, permittivity: 1.0 }]
+    }
+
+    #[test]
+    fn single_dielectric_wedges() {
+        // Jackson §2.11: conducting wedge of opening θ₀ → λ = π/θ₀.
+        for theta in [1.25 * PI, 1.5 * PI, 1.75 * PI, 2.0 * PI] {
+            let l = wedge_exponent(&one(theta), Some((Wall::Potential, Wall::Potential)), 2.0).unwrap();
+            assert!((l - PI / theta).abs() < 1e-12, "{theta}: {l}");
+        }
+        // Mixed walls: λ = π/(2θ₀) (Grisvard 1985, mixed Dirichlet–Neumann corner).
+        let l = wedge_exponent(&one(PI), Some((Wall::Potential, Wall::ZeroFlux)), 2.0).unwrap();
+        assert!((l - 0.5).abs() < 1e-12);
+        // Flux–flux walls: λ = π/θ₀.
+        let l = wedge_exponent(&one(1.5 * PI), Some((Wall::ZeroFlux, Wall::ZeroFlux)), 2.0).unwrap();
+        assert!((l - 2.0 / 3.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn equal_permittivity_split_changes_nothing() {
+        // Two sectors α, β of equal permittivity behave as one wedge of α + β.
+        let (a, b) = (0.6 * PI, 0.9 * PI);
+        let s = vec![Sector { angle: a, permittivity: 3.0 }, Sector { angle: b, permittivity: 3.0 }];
+        let l = wedge_exponent(&s, Some((Wall::Potential, Wall::Potential)), 2.0).unwrap();
+        assert!((l - PI / (a + b)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn knife_edge_between_two_dielectrics() {
+        // A thin electrode (θ₀ = 2π) lying in the plane interface between two dielectrics:
+        // with Φ₁ = b₁ sin λφ and Φ₂ = b₂ sin λ(2π − φ), continuity at φ = π gives b₁ = b₂ and
+        // the flux condition (ε₁ + ε₂) cos λπ = 0, so λ = 1/2 for any permittivities
+        // (derived here by hand from the matching conditions).
+        let s = vec![Sector { angle: PI, permittivity: 1.0 }, Sector { angle: PI, permittivity: 5.0 }];
+        let l = wedge_exponent(&s, Some((Wall::Potential, Wall::Potential)), 2.0).unwrap();
+        assert!((l - 0.5).abs() < 1e-12, "{l}");
+    }
+}

@@ -1,0 +1,186 @@
+//! The mesher's error type: every variant names the shape, the place and the fix.
+
+use crate::geometry::Xy;
+use std::fmt;
+
+/// Everything that can be wrong with a geometry or a mesh.
+///
+/// Coordinates in messages are in metres, as the geometry holds them; the command-line front
+/// end converts them back to the model's length unit.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum MeshError {
+    /// The geometry has no shape at all.
+    NoDomain,
+    /// The first shape (the domain) is a conductor.
+    DomainIsConductor {
+        /// Shape name.
+        shape: String,
+    },
+    /// Two shapes share a name.
+    DuplicateName {
+        /// The repeated name.
+        name: String,
+    },
+    /// A shape refers to a conductor that does not exist.
+    UnknownConductor {
+        /// Shape name.
+        shape: String,
+        /// The bad index.
+        index: u32,
+    },
+    /// A number that must be finite and positive is not.
+    BadNumber {
+        /// Shape name (or the mesh-control section).
+        shape: String,
+        /// Which quantity.
+        what: String,
+        /// The value given.
+        value: f64,
+    },
+    /// A shape without curves or with fewer than three corners.
+    EmptyShape {
+        /// Shape name.
+        shape: String,
+    },
+    /// A curve whose start and end coincide.
+    DegenerateCurve {
+        /// Shape name.
+        shape: String,
+        /// Where.
+        at: Xy,
+    },
+    /// The outline does not return to its start.
+    NotClosed {
+        /// Shape name.
+        shape: String,
+        /// End of the curve before the gap.
+        gap_from: Xy,
+        /// Start of the curve after the gap.
+        gap_to: Xy,
+    },
+    /// An arc radius shorter than half its chord.
+    ArcTooShort {
+        /// Shape name.
+        shape: String,
+        /// Arc start.
+        from: Xy,
+        /// Arc end.
+        to: Xy,
+        /// Radius given.
+        radius: f64,
+        /// Half the chord: the smallest possible radius.
+        min_radius: f64,
+    },
+    /// The outline encloses no area.
+    ZeroArea {
+        /// Shape name.
+        shape: String,
+    },
+    /// The outline crosses itself.
+    SelfIntersecting {
+        /// Shape name.
+        shape: String,
+        /// A crossing point.
+        at: Xy,
+    },
+    /// A shape reaches outside the domain (the first shape).
+    OutsideDomain {
+        /// Shape name.
+        shape: String,
+        /// Domain shape name.
+        domain: String,
+        /// A point of the shape outside the domain.
+        at: Xy,
+    },
+    /// A point with x < 0 in an axisymmetric model.
+    NegativeRadius {
+        /// Shape name.
+        shape: String,
+        /// The offending point.
+        at: Xy,
+    },
+    /// Two different conductors touch, so the potential would jump at a point.
+    ConductorsTouch {
+        /// First conductor name.
+        first: String,
+        /// Second conductor name.
+        second: String,
+        /// Where they touch.
+        at: Xy,
+    },
+    /// A parameter of the meshing run is out of range.
+    BadParameter {
+        /// Parameter name.
+        name: &'static str,
+        /// Value given.
+        value: f64,
+        /// Allowed range, in words.
+        allowed: &'static str,
+    },
+    /// The triangulation library rejected the input (overlapping constraints after the
+    /// arrangement step); this points to a bug or to features below the resolution limit.
+    Triangulation {
+        /// What went wrong.
+        detail: String,
+    },
+    /// A mesh fails a consistency check.
+    InvalidMesh {
+        /// What failed, with ids and coordinates.
+        detail: String,
+    },
+}
+
+fn p(x: &Xy) -> String {
+    format!("({:.6e}, {:.6e}) m", x[0], x[1])
+}
+
+impl fmt::Display for MeshError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use MeshError::*;
+        match self {
+            NoDomain => write!(f, "the model has no shape; the first shape is the domain (for example a rectangle filled with the surrounding dielectric)"),
+            DomainIsConductor { shape } => write!(f, "shape '{shape}' is the first shape, so it is the domain, but it is a conductor; put the surrounding dielectric first"),
+            DuplicateName { name } => write!(f, "two shapes are named '{name}'; give each shape its own name"),
+            UnknownConductor { shape, index } => write!(f, "shape '{shape}' refers to conductor #{index}, which does not exist"),
+            BadNumber { shape, what, value } => write!(f, "shape '{shape}': {what} is {value}; it must be a finite number greater than zero"),
+            EmptyShape { shape } => write!(f, "shape '{shape}' has too few points or curves to enclose an area"),
+            DegenerateCurve { shape, at } => write!(f, "shape '{shape}' has a curve of zero length at {}; remove the repeated point", p(at)),
+            NotClosed { shape, gap_from, gap_to } => write!(f, "the outline of shape '{shape}' is not closed: it stops at {} and continues at {}; make each piece start where the previous one ends, and the last end at the start", p(gap_from), p(gap_to)),
+            ArcTooShort { shape, from, to, radius, min_radius } => write!(f, "shape '{shape}': the arc from {} to {} has radius {radius:e} m, shorter than half its chord ({min_radius:e} m); no circle of that radius passes through both points, so use a radius of at least {min_radius:e} m", p(from), p(to)),
+            ZeroArea { shape } => write!(f, "shape '{shape}' encloses no area; check its size and points"),
+            SelfIntersecting { shape, at } => write!(f, "the outline of shape '{shape}' crosses itself near {}; reorder its points so that the outline goes round once", p(at)),
+            OutsideDomain { shape, domain, at } => write!(f, "shape '{shape}' reaches outside the domain '{domain}' at {}; enlarge the domain or move the shape inside it", p(at)),
+            NegativeRadius { shape, at } => write!(f, "shape '{shape}' reaches x = {:.6e} m < 0 in an axisymmetric model (x is the radius); keep every point at x ≥ 0, the axis is x = 0", at[0]),
+            ConductorsTouch { first, second, at } => write!(f, "conductors '{first}' and '{second}' touch at {}; the potential cannot jump between them at a point: separate them by a dielectric gap or make them one conductor", p(at)),
+            BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
+            Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
+            InvalidMesh { detail } => write!(f, "invalid mesh: {detail}"),
+        }
+    }
+}
+
+impl std::error::Error for MeshError {}
+
+impl MeshError {
+    /// The shape the error is about, if it is about one (lets a front end point at the
+    /// shape's entry in the model file).
+    pub fn shape(&self) -> Option<&str> {
+        use MeshError::*;
+        match self {
+            DomainIsConductor { shape }
+            | UnknownConductor { shape, .. }
+            | BadNumber { shape, .. }
+            | EmptyShape { shape }
+            | DegenerateCurve { shape, .. }
+            | NotClosed { shape, .. }
+            | ArcTooShort { shape, .. }
+            | ZeroArea { shape }
+            | SelfIntersecting { shape, .. }
+            | OutsideDomain { shape, .. }
+            | NegativeRadius { shape, .. } => Some(shape),
+            DuplicateName { name } => Some(name),
+            _ => None,
+        }
+    }
+}

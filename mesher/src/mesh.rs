@@ -1,0 +1,366 @@
+//! The mesh handed to the solver: plain arrays and `u32` ids, tags on every boundary and
+//! interface edge, optional P2 mid-edge nodes (on the true arc for curved boundaries).
+
+use crate::corners::SingularPoint;
+use crate::error::MeshError;
+use crate::geometry::{norm, sub, Symmetry, Xy};
+use std::collections::HashMap;
+
+/// What a tagged edge bounds.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum EdgeTag {
+    /// The outer boundary of the domain.
+    Outer,
+    /// The symmetry axis x = 0 of an axisymmetric model.
+    Axis,
+    /// The surface of conductor `c` (index into [`Mesh::conductor_names`]).
+    Conductor(u32),
+    /// An interface between two dielectric regions (shape indices, smaller first; the first
+    /// region lies on the left of the edge's node order).
+    Interface(u32, u32),
+}
+
+/// A boundary or interface edge.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct TaggedEdge {
+    /// End nodes, ordered so that the (first) dielectric region lies on the left.
+    pub nodes: [u32; 2],
+    /// What the edge bounds.
+    pub tag: EdgeTag,
+    /// Index into [`Mesh::arcs`] when the edge lies on a circular arc of the geometry.
+    pub arc: Option<u32>,
+}
+
+/// A circle of the geometry that boundary edges follow.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ArcGeom {
+    /// Centre, metres.
+    pub center: Xy,
+    /// Radius, metres.
+    pub radius: f64,
+}
+
+/// A triangular mesh of the dielectric regions of a cross-section.
+///
+/// Invariants (checked by [`Mesh::validate`]): triangles are counter-clockwise with positive
+/// area; every edge belongs to one or two triangles; every edge with one triangle and every
+/// edge between two regions is tagged, and tags agree with the regions on both sides; no two
+/// nodes coincide; for order 2, mid-edge nodes are shared between neighbours and lie at the
+/// chord midpoint, or on the arc for curved boundary edges.
+#[derive(Clone, Debug)]
+pub struct Mesh {
+    /// Planar or axisymmetric.
+    pub symmetry: Symmetry,
+    /// Node coordinates, metres. For order 2 the mid-edge nodes follow the vertices.
+    pub nodes: Vec<Xy>,
+    /// Number of vertex nodes (the first `num_vertices` entries of `nodes`).
+    pub num_vertices: u32,
+    /// Triangles as counter-clockwise vertex triples.
+    pub triangles: Vec<[u32; 3]>,
+    /// Region (shape index) of each triangle.
+    pub regions: Vec<u32>,
+    /// For order 2: the node in the middle of local edge k (from vertex k to vertex k+1).
+    /// Empty for order 1.
+    pub mid_nodes: Vec<[u32; 3]>,
+    /// Boundary and interface edges with their tags.
+    pub edges: Vec<TaggedEdge>,
+    /// Circles that curved edges follow.
+    pub arcs: Vec<ArcGeom>,
+    /// Names of all shapes, by shape index (regions index into this).
+    pub shape_names: Vec<String>,
+    /// Names of the conductors, by conductor index.
+    pub conductor_names: Vec<String>,
+    /// Points where the field or its gradient is singular.
+    pub singular_points: Vec<SingularPoint>,
+}
+
+/// Quality and size figures of a mesh.
+#[derive(Clone, Debug, PartialEq)]
+pub struct MeshStats {
+    /// Number of nodes (vertices plus mid-edge nodes).
+    pub num_nodes: usize,
+    /// Number of triangles.
+    pub num_triangles: usize,
+    /// Smallest interior angle, degrees.
+    pub min_angle_deg: f64,
+    /// Largest circumradius to shortest edge ratio (1/(2 sin θ_min) per triangle).
+    pub max_radius_edge_ratio: f64,
+    /// Smallest and largest edge length, metres.
+    pub edge_length_range_m: [f64; 2],
+    /// (shape index, triangles, area in m²) per region, in shape order.
+    pub per_region: Vec<(u32, usize, f64)>,
+}
+
+impl Mesh {
+    /// Element order: 1 (linear) or 2 (quadratic).
+    pub fn order(&self) -> u8 {
+        if self.mid_nodes.is_empty() {
+            1
+        } else {
+            2
+        }
+    }
+
+    /// Number of nodes.
+    pub fn num_nodes(&self) -> usize {
+        self.nodes.len()
+    }
+
+    /// Number of triangles.
+    pub fn num_triangles(&self) -> usize {
+        self.triangles.len()
+    }
+
+    /// Signed area of triangle `t`.
+    pub fn triangle_area(&self, t: usize) -> f64 {
+        let [a, b, c] = self.triangles[t].map(|i| self.nodes[i as usize]);
+        0.5 * ((b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]))
+    }
+
+    /// Size of the model (diagonal of the nodes' bounding box), for relative tolerances.
+    pub fn scale(&self) -> f64 {
+        let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
+        for p in &self.nodes {
+            bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
+        }
+        (bb[2] - bb[0]).hypot(bb[3] - bb[1])
+    }
+
+    /// Quality statistics.
+    pub fn stats(&self) -> MeshStats {
+        let mut min_angle = f64::INFINITY;
+        let mut max_ratio: f64 = 0.0;
+        let mut emin = f64::INFINITY;
+        let mut emax: f64 = 0.0;
+        let mut per: HashMap<u32, (usize, f64)> = HashMap::new();
+        for (t, tri) in self.triangles.iter().enumerate() {
+            let p = tri.map(|i| self.nodes[i as usize]);
+            let l = [norm(sub(p[1], p[2])), norm(sub(p[2], p[0])), norm(sub(p[0], p[1]))];
+            let area = self.triangle_area(t);
+            for k in 0..3 {
+                // Angle opposite edge k by the law of cosines (clamped for round-off).
+                let (a, b, c) = (l[k], l[(k + 1) % 3], l[(k + 2) % 3]);
+                let cosv = ((b * b + c * c - a * a) / (2.0 * b * c)).clamp(-1.0, 1.0);
+                min_angle = min_angle.min(cosv.acos().to_degrees());
+                emin = emin.min(a);
+                emax = emax.max(a);
+            }
+            let circum = l[0] * l[1] * l[2] / (4.0 * area);
+            let shortest = l[0].min(l[1]).min(l[2]);
+            max_ratio = max_ratio.max(circum / shortest);
+            let e = per.entry(self.regions[t]).or_insert((0, 0.0));
+            e.0 += 1;
+            e.1 += area;
+        }
+        let mut per_region: Vec<(u32, usize, f64)> = per.into_iter().map(|(k, (n, a))| (k, n, a)).collect();
+        per_region.sort_by_key(|e| e.0);
+        MeshStats {
+            num_nodes: self.nodes.len(),
+            num_triangles: self.triangles.len(),
+            min_angle_deg: min_angle,
+            max_radius_edge_ratio: max_ratio,
+            edge_length_range_m: [emin, emax],
+            per_region,
+        }
+    }
+
+    /// Checks the invariants listed on [`Mesh`].
+    ///
+    /// # Errors
+    /// [`MeshError::InvalidMesh`] naming the first element, edge or node that fails, with
+    /// its coordinates.
+    pub fn validate(&self) -> Result<(), MeshError> {
+        let bad = |detail: String| Err(MeshError::InvalidMesh { detail });
+        let n = self.nodes.len();
+        if self.regions.len() != self.triangles.len() {
+            return bad(format!("{} triangles but {} region ids", self.triangles.len(), self.regions.len()));
+        }
+        if self.triangles.is_empty() {
+            return bad("the mesh has no triangle".into());
+        }
+        for (i, p) in self.nodes.iter().enumerate() {
+            if !(p[0].is_finite() && p[1].is_finite()) {
+                return bad(format!("node {i} has a non-finite coordinate {p:?}"));
+            }
+            if self.symmetry == Symmetry::Axisymmetric && p[0] < -1e-12 * self.scale() {
+                return bad(format!("node {i} at {p:?} has negative radius in an axisymmetric mesh"));
+            }
+        }
+        let scale = self.scale();
+        let nv = self.num_vertices as usize;
+        let mut used = vec![false; n];
+        for (t, tri) in self.triangles.iter().enumerate() {
+            for &v in tri {
+                if v as usize >= nv {
+                    return bad(format!("triangle {t} refers to vertex {v}, but there are {nv} vertices"));
+                }
+                used[v as usize] = true;
+            }
+            if self.regions[t] as usize >= self.shape_names.len() {
+                return bad(format!("triangle {t} has region {} but there are {} shapes", self.regions[t], self.shape_names.len()));
+            }
+            let a = self.triangle_area(t);
+            if !(a > 0.0) {
+                let c = tri.map(|i| self.nodes[i as usize]);
+                return bad(format!("triangle {t} with corners {c:?} is not counter-clockwise (area {a:e})"));
+            }
+        }
+        // Edge → adjacent (triangle, local edge).
+        let mut adj: HashMap<(u32, u32), Vec<(u32, u8)>> = HashMap::with_capacity(self.triangles.len() * 2);
+        for (t, tri) in self.triangles.iter().enumerate() {
+            for k in 0..3 {
+                let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                adj.entry((a.min(b), a.max(b))).or_default().push((t as u32, k as u8));
+            }
+        }
+        let mut tags: HashMap<(u32, u32), &TaggedEdge> = HashMap::with_capacity(self.edges.len());
+        for e in &self.edges {
+            let [a, b] = e.nodes;
+            let key = (a.min(b), a.max(b));
+            if tags.insert(key, e).is_some() {
+                return bad(format!("edge {a}–{b} is tagged twice"));
+            }
+            let Some(tris) = adj.get(&key) else {
+                return bad(format!("tagged edge {a}–{b} at {:?}–{:?} is not an edge of any triangle", self.nodes[a as usize], self.nodes[b as usize]));
+            };
+            match e.tag {
+                EdgeTag::Interface(r1, r2) => {
+                    let mut rs: Vec<u32> = tris.iter().map(|&(t, _)| self.regions[t as usize]).collect();
+                    rs.sort();
+                    if rs != [r1, r2] {
+                        return bad(format!("edge {a}–{b} is tagged as the interface {r1}/{r2} but borders regions {rs:?}"));
+                    }
+                }
+                EdgeTag::Axis if self.symmetry != Symmetry::Axisymmetric => {
+                    return bad(format!("edge {a}–{b} is tagged as the axis in a planar mesh"));
+                }
+                _ => {
+                    if tris.len() != 1 {
+                        return bad(format!("edge {a}–{b} is tagged {:?} but has triangles on both sides", e.tag));
+                    }
+                }
+            }
+            if e.tag == EdgeTag::Axis {
+                for v in [a, b] {
+                    if self.nodes[v as usize][0].abs() > 1e-9 * scale {
+                        return bad(format!("axis edge {a}–{b} has node {v} off the axis at {:?}", self.nodes[v as usize]));
+                    }
+                }
+            }
+            if let Some(arc) = e.arc {
+                let Some(g) = self.arcs.get(arc as usize) else {
+                    return bad(format!("edge {a}–{b} refers to arc {arc}, which does not exist"));
+                };
+                for v in [a, b] {
+                    let d = (norm(sub(self.nodes[v as usize], g.center)) - g.radius).abs();
+                    if d > 1e-9 * scale {
+                        return bad(format!("node {v} at {:?} of a curved edge is {d:e} m off its arc", self.nodes[v as usize]));
+                    }
+                }
+            }
+        }
+        for (&(a, b), tris) in &adj {
+            if tris.len() > 2 {
+                return bad(format!("edge {a}–{b} at {:?} is shared by {} triangles", self.nodes[a as usize], tris.len()));
+            }
+            let needs_tag = tris.len() == 1 || self.regions[tris[0].0 as usize] != self.regions[tris[1].0 as usize];
+            if needs_tag && !tags.contains_key(&(a, b)) {
+                return bad(format!("edge {a}–{b} from {:?} to {:?} is on a boundary or interface but has no tag", self.nodes[a as usize], self.nodes[b as usize]));
+            }
+        }
+        // Duplicate nodes.
+        let mut order: Vec<u32> = (0..n as u32).collect();
+        order.sort_by(|&i, &j| {
+            let (p, q) = (self.nodes[i as usize], self.nodes[j as usize]);
+            p[0].total_cmp(&q[0]).then(p[1].total_cmp(&q[1]))
+        });
+        for w in order.windows(2) {
+            let (p, q) = (self.nodes[w[0] as usize], self.nodes[w[1] as usize]);
+            if norm(sub(p, q)) <= 1e-13 * scale {
+                return bad(format!("nodes {} and {} coincide at {p:?}", w[0], w[1]));
+            }
+        }
+        if !self.mid_nodes.is_empty() {
+            if self.mid_nodes.len() != self.triangles.len() {
+                return bad("order-2 mesh with a mid-node triple count different from the triangle count".into());
+            }
+            let mut mid_of: HashMap<(u32, u32), u32> = HashMap::new();
+            for (t, (tri, mids)) in self.triangles.iter().zip(&self.mid_nodes).enumerate() {
+                for k in 0..3 {
+                    let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                    let key = (a.min(b), a.max(b));
+                    let m = mids[k];
+                    if (m as usize) < nv || m as usize >= n {
+                        return bad(format!("triangle {t} has mid node {m}, not a mid-edge node"));
+                    }
+                    used[m as usize] = true;
+                    if let Some(&other) = mid_of.get(&key) {
+                        if other != m {
+                            return bad(format!("edge {a}–{b} has two different mid nodes {m} and {other}"));
+                        }
+                    }
+                    mid_of.insert(key, m);
+                    let pm = self.nodes[m as usize];
+                    let arc = tags.get(&key).and_then(|e| e.arc);
+                    let d = match arc {
+                        Some(i) => {
+                            let g = self.arcs[i as usize];
+                            (norm(sub(pm, g.center)) - g.radius).abs()
+                        }
+                        None => {
+                            let (pa, pb) = (self.nodes[a as usize], self.nodes[b as usize]);
+                            norm(sub(pm, [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0]))
+                        }
+                    };
+                    if d > 1e-9 * scale {
+                        return bad(format!("mid node {m} of edge {a}–{b} is {d:e} m from where it belongs"));
+                    }
+                }
+            }
+        }
+        if let Some(i) = used.iter().position(|u| !u) {
+            return bad(format!("node {i} at {:?} belongs to no triangle", self.nodes[i]));
+        }
+        Ok(())
+    }
+
+    /// Adds mid-edge nodes (order 2). Edges on arcs get their mid node on the arc, halfway
+    /// in angle between the end nodes. Does nothing if the mesh is already of order 2.
+    pub fn make_order2(&mut self) {
+        if !self.mid_nodes.is_empty() {
+            return;
+        }
+        let arc_of: HashMap<(u32, u32), u32> = self
+            .edges
+            .iter()
+            .filter_map(|e| e.arc.map(|a| ((e.nodes[0].min(e.nodes[1]), e.nodes[0].max(e.nodes[1])), a)))
+            .collect();
+        let mut mid_of: HashMap<(u32, u32), u32> = HashMap::with_capacity(self.triangles.len() * 2);
+        let mut mids = Vec::with_capacity(self.triangles.len());
+        for tri in &self.triangles {
+            let mut m = [0u32; 3];
+            for k in 0..3 {
+                let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                let key = (a.min(b), a.max(b));
+                m[k] = *mid_of.entry(key).or_insert_with(|| {
+                    let (pa, pb) = (self.nodes[a as usize], self.nodes[b as usize]);
+                    let p = match arc_of.get(&key) {
+                        Some(&i) => {
+                            let g = self.arcs[i as usize];
+                            let (ua, ub) = (sub(pa, g.center), sub(pb, g.center));
+                            // Bisector of the two radii (the short way round).
+                            let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
+                            let ns = norm(s);
+                            [g.center[0] + g.radius * s[0] / ns, g.center[1] + g.radius * s[1] / ns]
+                        }
+                        None => [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0],
+                    };
+                    self.nodes.push(p);
+                    (self.nodes.len() - 1) as u32
+                });
+            }
+            mids.push(m);
+        }
+        self.mid_nodes = mids;
+    }
+}
