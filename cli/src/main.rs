@@ -1,1 +1,78 @@
-fn main() {}
+//! `fieldgrade`: electrostatic stress analysis of 2-D high-voltage insulation
+//! cross-sections.
+//!
+//! This is the user's world: command-line arguments, the model file and its diagnostics,
+//! and writing results. The numerics live in the `mesher` and `engine` crates. Errors become
+//! text and exit codes here and only here: 0 success, 1 a run that failed (I/O, meshing),
+//! 2 a model file or argument the user must fix.
+#![forbid(unsafe_code)]
+#![warn(missing_debug_implementations)]
+
+mod diag;
+mod mesh_cmd;
+mod model;
+mod output;
+mod svg;
+
+use clap::{Parser, Subcommand};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+/// Electrostatic stress analysis of 2-D high-voltage insulation cross-sections.
+#[derive(Parser, Debug)]
+#[command(name = "fieldgrade", version, about, long_about = None)]
+struct Args {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Mesh a model: print node and triangle counts, quality and the singular points found;
+    /// optionally write the mesh (VTU) and a drawing (SVG).
+    Mesh {
+        /// The model file (TOML).
+        model: PathBuf,
+        /// Write the mesh as a VTK XML unstructured grid.
+        #[arg(long, value_name = "FILE.vtu")]
+        out: Option<PathBuf>,
+        /// Draw the mesh with regions coloured and singular points marked.
+        #[arg(long, value_name = "FILE.svg")]
+        svg: Option<PathBuf>,
+        /// Element order, overriding the model's [mesh] order.
+        #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
+        order: Option<u8>,
+        /// Print the statistics as JSON instead of a table.
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+/// An error whose message is complete as it stands (a model-file diagnostic).
+#[derive(Debug)]
+struct UserError(String);
+impl std::fmt::Display for UserError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+impl std::error::Error for UserError {}
+
+fn main() -> ExitCode {
+    let args = Args::parse();
+    let result = match args.command {
+        Command::Mesh { model, out, svg, order, json } => mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json }),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            if let Some(u) = e.downcast_ref::<UserError>() {
+                eprint!("{u}");
+                ExitCode::from(2)
+            } else {
+                eprintln!("error: {e:#}");
+                ExitCode::from(1)
+            }
+        }
+    }
+}

@@ -131,13 +131,46 @@ pub enum MeshError {
     },
 }
 
-fn p(x: &Xy) -> String {
-    format!("({:.6e}, {:.6e}) m", x[0], x[1])
-}
-
 impl fmt::Display for MeshError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        self.render(f, 1.0, "m")
+    }
+}
+
+/// Lengths in the unit the user wrote the model in.
+struct Len(f64, f64, &'static str);
+impl fmt::Display for Len {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{} {}", fmt_num(self.0 / self.1), self.2)
+    }
+}
+fn fmt_num(v: f64) -> String {
+    if v == 0.0 || (1e-3..1e6).contains(&v.abs()) {
+        let s = format!("{v:.6}");
+        let s = s.trim_end_matches('0').trim_end_matches('.');
+        s.to_string()
+    } else {
+        format!("{v:.6e}")
+    }
+}
+
+impl MeshError {
+    /// The message with coordinates and lengths given in the model's unit
+    /// (`metres_per_unit`, e.g. 0.001 for millimetres, named `unit`).
+    pub fn message_in(&self, metres_per_unit: f64, unit: &'static str) -> String {
+        struct W<'a>(&'a MeshError, f64, &'static str);
+        impl fmt::Display for W<'_> {
+            fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                self.0.render(f, self.1, self.2)
+            }
+        }
+        W(self, metres_per_unit, unit).to_string()
+    }
+
+    fn render(&self, f: &mut fmt::Formatter<'_>, k: f64, unit: &'static str) -> fmt::Result {
         use MeshError::*;
+        let p = |x: &Xy| format!("({}, {}) {unit}", fmt_num(x[0] / k), fmt_num(x[1] / k));
+        let l = |v: f64| Len(v, k, unit);
         match self {
             NoDomain => write!(f, "the model has no shape; the first shape is the domain (for example a rectangle filled with the surrounding dielectric)"),
             DomainIsConductor { shape } => write!(f, "shape '{shape}' is the first shape, so it is the domain, but it is a conductor; put the surrounding dielectric first"),
@@ -147,17 +180,18 @@ impl fmt::Display for MeshError {
             EmptyShape { shape } => write!(f, "shape '{shape}' has too few points or curves to enclose an area"),
             DegenerateCurve { shape, at } => write!(f, "shape '{shape}' has a curve of zero length at {}; remove the repeated point", p(at)),
             NotClosed { shape, gap_from, gap_to } => write!(f, "the outline of shape '{shape}' is not closed: it stops at {} and continues at {}; make each piece start where the previous one ends, and the last end at the start", p(gap_from), p(gap_to)),
-            ArcTooShort { shape, from, to, radius, min_radius } => write!(f, "shape '{shape}': the arc from {} to {} has radius {radius:e} m, shorter than half its chord ({min_radius:e} m); no circle of that radius passes through both points, so use a radius of at least {min_radius:e} m", p(from), p(to)),
+            ArcTooShort { shape, from, to, radius, min_radius } => write!(f, "shape '{shape}': the arc from {} to {} has radius {}, shorter than half its chord ({}); no circle of that radius passes through both points, so use a radius of at least {}", p(from), p(to), l(*radius), l(*min_radius), l(*min_radius)),
             ZeroArea { shape } => write!(f, "shape '{shape}' encloses no area; check its size and points"),
             SelfIntersecting { shape, at } => write!(f, "the outline of shape '{shape}' crosses itself near {}; reorder its points so that the outline goes round once", p(at)),
             OutsideDomain { shape, domain, at } => write!(f, "shape '{shape}' reaches outside the domain '{domain}' at {}; enlarge the domain or move the shape inside it", p(at)),
-            NegativeRadius { shape, at } => write!(f, "shape '{shape}' reaches x = {:.6e} m < 0 in an axisymmetric model (x is the radius); keep every point at x ≥ 0, the axis is x = 0", at[0]),
+            NegativeRadius { shape, at } => write!(f, "shape '{shape}' reaches x = {} < 0 in an axisymmetric model (x is the radius); keep every point at x ≥ 0, the axis is x = 0", l(at[0])),
             ConductorsTouch { first, second, at } => write!(f, "conductors '{first}' and '{second}' touch at {}; the potential cannot jump between them at a point: separate them by a dielectric gap or make them one conductor", p(at)),
             BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
             Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
             InvalidMesh { detail } => write!(f, "invalid mesh: {detail}"),
         }
     }
+
 }
 
 impl std::error::Error for MeshError {}

@@ -58,6 +58,7 @@ mod mesh;
 mod refine;
 mod size_field;
 mod triangulate;
+mod vtu;
 
 pub use corners::{wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
@@ -66,3 +67,4 @@ pub use mesh::{ArcGeom, EdgeTag, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
 pub use size_field::SizeField;
 pub use triangulate::generate;
+pub use vtu::{write_vtu, CellArray, NodeArray};

@@ -1,0 +1,235 @@
+//! `fieldgrade mesh`: mesh a model and report what was built.
+
+use crate::model::{self, Model};
+use crate::output::write_atomic;
+use crate::svg::write_mesh_svg;
+use crate::UserError;
+use anyhow::Result;
+use mesher::{generate, MeshOutcome, Symmetry};
+use serde::Serialize;
+use std::path::PathBuf;
+
+/// A validated `mesh` run.
+#[derive(Debug)]
+pub struct MeshRun {
+    /// Model file.
+    pub model: PathBuf,
+    /// VTU output.
+    pub out: Option<PathBuf>,
+    /// SVG output.
+    pub svg: Option<PathBuf>,
+    /// Element order override.
+    pub order: Option<u8>,
+    /// JSON to stdout.
+    pub json: bool,
+}
+
+/// Statistics of a meshing run, in the model's length unit.
+#[derive(Serialize, Debug)]
+pub struct MeshReport {
+    /// Model name.
+    pub model: String,
+    /// "planar" or "axisymmetric".
+    pub symmetry: &'static str,
+    /// Length unit of every length below.
+    pub length_unit: &'static str,
+    /// Element order.
+    pub order: u8,
+    /// Node count.
+    pub nodes: usize,
+    /// Triangle count.
+    pub triangles: usize,
+    /// Smallest interior angle, degrees.
+    pub min_angle_deg: f64,
+    /// Largest circumradius-to-shortest-edge ratio.
+    pub max_radius_edge_ratio: f64,
+    /// Shortest edge.
+    pub edge_length_min: f64,
+    /// Longest edge.
+    pub edge_length_max: f64,
+    /// Refinement finished within the node budget.
+    pub refinement_complete: bool,
+    /// Why not, if not.
+    pub note: Option<String>,
+    /// Per region.
+    pub regions: Vec<RegionReport>,
+    /// Singular points.
+    pub singular_points: Vec<SingularReport>,
+}
+
+/// One region's figures.
+#[derive(Serialize, Debug)]
+pub struct RegionReport {
+    /// Shape name.
+    pub name: String,
+    /// Material name.
+    pub material: String,
+    /// Triangle count.
+    pub triangles: usize,
+    /// Area in the model unit squared.
+    pub area: f64,
+}
+
+/// One singular point.
+#[derive(Serialize, Debug)]
+pub struct SingularReport {
+    /// x (r).
+    pub x: f64,
+    /// y (z).
+    pub y: f64,
+    /// Kind, in words.
+    pub kind: &'static str,
+    /// Opening angle of the dielectric wedge, degrees.
+    pub opening_deg: f64,
+    /// Exponent λ of the potential.
+    pub lambda: f64,
+    /// Exponent λ − 1 of the field.
+    pub field_exponent: f64,
+    /// True if the field itself is unbounded.
+    pub field_singular: bool,
+    /// Conductor at the point.
+    pub conductor: Option<String>,
+    /// Regions around the point.
+    pub regions: Vec<String>,
+    /// On the symmetry axis (conical point; planar exponent used).
+    pub on_axis: bool,
+}
+
+/// Builds the report for a mesh of a model.
+pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
+    let mesh = &out.mesh;
+    let st = mesh.stats();
+    let k = model.unit_m;
+    let regions = st
+        .per_region
+        .iter()
+        .map(|&(r, n, a)| RegionReport {
+            name: mesh.shape_names[r as usize].clone(),
+            material: model.shape_material[r as usize].map(|m| model.materials[m].name.clone()).unwrap_or_default(),
+            triangles: n,
+            area: a / (k * k),
+        })
+        .collect();
+    let singular_points = mesh
+        .singular_points
+        .iter()
+        .map(|s| SingularReport {
+            x: s.at[0] / k,
+            y: s.at[1] / k,
+            kind: s.kind.label(),
+            opening_deg: s.opening.to_degrees(),
+            lambda: s.lambda,
+            field_exponent: s.lambda - 1.0,
+            field_singular: s.is_field_singular(),
+            conductor: s.conductor.map(|c| mesh.conductor_names[c as usize].clone()),
+            regions: s.regions.iter().map(|&r| mesh.shape_names[r as usize].clone()).collect(),
+            on_axis: s.on_axis,
+        })
+        .collect();
+    MeshReport {
+        model: model.name.clone(),
+        symmetry: match mesh.symmetry {
+            Symmetry::Planar => "planar",
+            Symmetry::Axisymmetric => "axisymmetric",
+        },
+        length_unit: model.unit,
+        order: mesh.order(),
+        nodes: st.num_nodes,
+        triangles: st.num_triangles,
+        min_angle_deg: st.min_angle_deg,
+        max_radius_edge_ratio: st.max_radius_edge_ratio,
+        edge_length_min: st.edge_length_range_m[0] / k,
+        edge_length_max: st.edge_length_range_m[1] / k,
+        refinement_complete: out.complete,
+        note: out.reason.clone(),
+        regions,
+        singular_points,
+    }
+}
+
+/// The report as a text table.
+pub fn render_text(r: &MeshReport) -> String {
+    use std::fmt::Write;
+    let u = r.length_unit;
+    let mut s = String::new();
+    let _ = writeln!(s, "model        {}", r.model);
+    let _ = writeln!(s, "symmetry     {}", r.symmetry);
+    let _ = writeln!(s, "order        {} ({})", r.order, if r.order == 1 { "linear" } else { "quadratic" });
+    let _ = writeln!(s, "nodes        {}", r.nodes);
+    let _ = writeln!(s, "triangles    {}", r.triangles);
+    let _ = writeln!(s, "min angle    {:.1}°", r.min_angle_deg);
+    let _ = writeln!(s, "radius/edge  {:.3} (worst circumradius to shortest edge)", r.max_radius_edge_ratio);
+    let _ = writeln!(s, "edge length  {} … {} {u}", sig(r.edge_length_min), sig(r.edge_length_max));
+    let _ = writeln!(s, "refinement   {}", if r.refinement_complete { "complete" } else { "INCOMPLETE (node budget reached)" });
+    if let Some(n) = &r.note {
+        let _ = writeln!(s, "note         {n}");
+    }
+    let _ = writeln!(s, "\nregions");
+    let _ = writeln!(s, "  {:<20} {:<14} {:>10} {:>14}", "shape", "material", "triangles", format!("area ({u}²)"));
+    for g in &r.regions {
+        let _ = writeln!(s, "  {:<20} {:<14} {:>10} {:>14}", g.name, g.material, g.triangles, sig(g.area));
+    }
+    let _ = writeln!(s, "\nsingular points ({})", r.singular_points.len());
+    if r.singular_points.is_empty() {
+        let _ = writeln!(s, "  none: no re-entrant conductor corner, triple junction or dielectric corner");
+    } else {
+        let _ = writeln!(s, "  {:<4} {:<18} {:>12} {:>12} {:>9} {:>8} {:>10}  at", "", "kind", format!("x ({u})"), format!("y ({u})"), "opening", "λ", "|E| ~ r^");
+        for (i, p) in r.singular_points.iter().enumerate() {
+            let mut who = p.regions.join("/");
+            if let Some(c) = &p.conductor {
+                who = format!("{c} | {who}");
+            }
+            if p.on_axis {
+                who.push_str(" (on axis: conical point, planar exponent)");
+            }
+            let _ = writeln!(s, "  S{:<3} {:<18} {:>12} {:>12} {:>8.1}° {:>8.4} {:>10.4}  {}", i + 1, p.kind, sig(p.x), sig(p.y), p.opening_deg, p.lambda, p.field_exponent, who);
+        }
+        if r.singular_points.iter().any(|p| p.field_singular) {
+            let _ = writeln!(s, "  λ < 1: the field is infinite at the point and its computed peak grows as the mesh is refined;");
+            let _ = writeln!(s, "  the mesh is graded towards it. Model the real edge radius before quoting a peak stress there.");
+        }
+    }
+    s
+}
+
+/// Four significant digits, without scientific notation for everyday magnitudes.
+fn sig(v: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    let a = v.abs();
+    if (1e-3..1e6).contains(&a) {
+        let digits = (3 - a.log10().floor() as i32).max(0) as usize;
+        format!("{v:.digits$}")
+    } else {
+        format!("{v:.3e}")
+    }
+}
+
+/// Runs `fieldgrade mesh`.
+///
+/// # Errors
+/// Model errors (as [`UserError`]), meshing errors and I/O errors.
+pub fn run(run: &MeshRun) -> Result<()> {
+    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    if let Some(o) = run.order {
+        model.params.order = o;
+    }
+    let out = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
+    let rep = report(&model, &out);
+    if let Some(p) = &run.out {
+        write_atomic(p, |w| {
+            let mut w = w;
+            mesher::write_vtu(&out.mesh, &[], &[], &mut w)
+        })?;
+    }
+    if let Some(p) = &run.svg {
+        write_atomic(p, |w| write_mesh_svg(&out.mesh, &model.name, model.unit_m, model.unit, w))?;
+    }
+    if run.json {
+        println!("{}", serde_json::to_string_pretty(&rep)?);
+    } else {
+        print!("{}", render_text(&rep));
+    }
+    Ok(())
+}

@@ -1,0 +1,568 @@
+//! The model file (TOML): parsing, checking with diagnostics that point into the file, and
+//! conversion to the mesher's [`Geometry`] (SI units) and meshing parameters.
+//!
+//! Every key is documented in `docs/model-format.md`.
+
+use crate::diag::ModelError;
+use mesher::{Curve, Fill, Geometry, MeshError, OuterBoundary, Outline, RefineParams, Shape, SizePoint, Symmetry, Xy};
+use serde::Deserialize;
+use std::ops::Range;
+use std::path::Path;
+use toml::Spanned;
+
+type S<T> = Spanned<T>;
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawModel {
+    model: Option<S<RawHeader>>,
+    #[serde(default)]
+    material: Vec<S<RawMaterial>>,
+    #[serde(default)]
+    conductor: Vec<S<RawConductor>>,
+    #[serde(default)]
+    shape: Vec<S<RawShape>>,
+    boundary: Option<S<RawBoundary>>,
+    mesh: Option<S<RawMesh>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawHeader {
+    name: Option<String>,
+    symmetry: Option<S<String>>,
+    length_unit: Option<S<String>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawMaterial {
+    name: S<String>,
+    permittivity: S<f64>,
+    allowable_stress_kv_per_mm: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawConductor {
+    name: S<String>,
+    potential_v: Option<S<f64>>,
+    floating: Option<S<bool>>,
+    charge_c: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawShape {
+    name: S<String>,
+    material: Option<S<String>>,
+    conductor: Option<S<String>>,
+    max_size: Option<S<f64>>,
+    rectangle: Option<S<RawRect>>,
+    circle: Option<S<RawCircle>>,
+    polygon: Option<S<Vec<S<[f64; 2]>>>>,
+    path: Option<S<RawPath>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawRect {
+    corner: S<[f64; 2]>,
+    size: S<[f64; 2]>,
+    fillet: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawCircle {
+    center: S<[f64; 2]>,
+    radius: S<f64>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawPath {
+    start: S<[f64; 2]>,
+    steps: Vec<S<RawStep>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawStep {
+    line_to: Option<S<[f64; 2]>>,
+    arc_to: Option<S<[f64; 2]>>,
+    radius: Option<S<f64>>,
+    turn: Option<S<String>>,
+    large: Option<bool>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawBoundary {
+    outer: Option<S<String>>,
+    potential_v: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawMesh {
+    max_size: Option<S<f64>>,
+    min_size: Option<S<f64>>,
+    order: Option<S<i64>>,
+    min_angle_deg: Option<S<f64>>,
+    gradation: Option<S<f64>>,
+    chord_tolerance: Option<S<f64>>,
+    grading_fraction: Option<S<f64>>,
+    grade_corners: Option<bool>,
+    max_nodes: Option<S<i64>>,
+    #[serde(default)]
+    point: Vec<S<RawPoint>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawPoint {
+    at: S<[f64; 2]>,
+    size: S<f64>,
+}
+
+/// A dielectric material.
+#[derive(Clone, Debug)]
+pub struct Material {
+    /// Name.
+    pub name: String,
+    /// Relative permittivity.
+    pub permittivity: f64,
+    /// Allowable design stress, kV/mm (user or company data).
+    pub allowable_stress_kv_per_mm: Option<f64>,
+}
+
+/// How a conductor's potential is set.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ConductorKind {
+    /// Held at a potential, volts.
+    Fixed {
+        /// Potential, V.
+        potential_v: f64,
+    },
+    /// Floating: unknown potential, given net charge (C, or C/m in planar models).
+    Floating {
+        /// Net charge.
+        charge_c: f64,
+    },
+}
+
+/// A conductor of the model.
+#[derive(Clone, Debug)]
+pub struct Conductor {
+    /// Name.
+    pub name: String,
+    /// Fixed or floating.
+    pub kind: ConductorKind,
+}
+
+/// A checked model, ready to mesh.
+#[derive(Clone, Debug)]
+pub struct Model {
+    /// The model's name (from `[model] name`, or the file stem).
+    pub name: String,
+    /// Geometry in SI units.
+    pub geometry: Geometry,
+    /// Meshing parameters in SI units.
+    pub params: RefineParams,
+    /// Materials.
+    pub materials: Vec<Material>,
+    /// Material index of each shape (None for conductor shapes).
+    pub shape_material: Vec<Option<usize>>,
+    /// Conductors.
+    pub conductors: Vec<Conductor>,
+    /// Outer boundary potential, if the outer boundary is an electrode.
+    pub outer_potential_v: Option<f64>,
+    /// Metres per model length unit.
+    pub unit_m: f64,
+    /// Name of the model length unit.
+    pub unit: &'static str,
+    /// Byte spans of each shape's `name` value, for pointing at shapes in errors.
+    shape_spans: Vec<Range<usize>>,
+    source: String,
+    path: std::path::PathBuf,
+}
+
+impl Model {
+    /// Turns a mesher error into a diagnostic pointing at the shape it concerns.
+    pub fn mesh_error(&self, e: &MeshError) -> ModelError {
+        let span = e.shape().and_then(|name| self.geometry.shapes.iter().position(|s| s.name == name)).map(|i| self.shape_spans[i].clone());
+        let mut err = ModelError::new(&self.path, &self.source, span, e.message_in(self.unit_m, self.unit));
+        if let Some(name) = e.shape() {
+            err = err.key(format!("in shape '{name}'"));
+        }
+        err
+    }
+}
+
+fn units(name: &str) -> Option<(f64, &'static str)> {
+    Some(match name {
+        "m" => (1.0, "m"),
+        "cm" => (1e-2, "cm"),
+        "mm" => (1e-3, "mm"),
+        "um" | "µm" => (1e-6, "µm"),
+        "in" => (0.0254, "in"),
+        _ => return None,
+    })
+}
+
+/// Reads, parses and checks a model file.
+///
+/// # Errors
+/// A [`ModelError`] naming file, line, column and key, for unreadable files, TOML syntax
+/// errors, unknown keys, and every inconsistency listed in `docs/model-format.md`.
+pub fn load(path: &Path) -> Result<Model, ModelError> {
+    let source = std::fs::read_to_string(path).map_err(|e| {
+        ModelError::new(path, "", None, format!("cannot read the model file: {e}")).help("check the path and that the file is readable UTF-8 text")
+    })?;
+    parse(path, &source)
+}
+
+/// Parses and checks model text (`path` is used in messages only).
+///
+/// # Errors
+/// See [`load`].
+pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
+    let err = |span: Range<usize>, msg: String| ModelError::new(path, source, Some(span), msg);
+    let raw: RawModel = toml::from_str(source).map_err(|e| {
+        let msg = e.message().trim().to_string();
+        let help = if msg.contains("unknown field") {
+            Some("check the spelling; every key is listed in docs/model-format.md")
+        } else if msg.contains("missing field") {
+            Some("add the missing key; docs/model-format.md shows an example of each table")
+        } else {
+            None
+        };
+        let mut m = ModelError::new(path, source, e.span(), format!("the model file is not valid: {msg}"));
+        if let Some(h) = help {
+            m = m.help(h);
+        }
+        m
+    })?;
+
+    // [model]
+    let (mut name, mut symmetry, mut unit_m, mut unit) = (None, Symmetry::Planar, 1e-3, "mm");
+    if let Some(h) = &raw.model {
+        let h = h.get_ref();
+        name = h.name.clone();
+        if let Some(s) = &h.symmetry {
+            symmetry = match s.get_ref().as_str() {
+                "planar" => Symmetry::Planar,
+                "axisymmetric" => Symmetry::Axisymmetric,
+                other => return Err(err(s.span(), format!("unknown symmetry '{other}'")).key("model.symmetry").help("use \"planar\" or \"axisymmetric\"")),
+            };
+        }
+        if let Some(u) = &h.length_unit {
+            (unit_m, unit) = units(u.get_ref()).ok_or_else(|| err(u.span(), format!("unknown length unit '{}'", u.get_ref())).key("model.length_unit").help("use one of \"m\", \"cm\", \"mm\", \"um\", \"in\""))?;
+        }
+    }
+    let name = name.unwrap_or_else(|| path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default());
+
+    let positive = |v: &S<f64>, key: String, what: &str| -> Result<f64, ModelError> {
+        let x = *v.get_ref();
+        if x.is_finite() && x > 0.0 {
+            Ok(x)
+        } else {
+            Err(err(v.span(), format!("{what} must be a finite number greater than zero, not {x}")).key(key))
+        }
+    };
+    let finite_xy = |v: &S<[f64; 2]>, key: String| -> Result<Xy, ModelError> {
+        let p = *v.get_ref();
+        if p.iter().all(|c| c.is_finite()) {
+            Ok([p[0] * unit_m, p[1] * unit_m])
+        } else {
+            Err(err(v.span(), format!("coordinates must be finite numbers, not [{}, {}]", p[0], p[1])).key(key))
+        }
+    };
+
+    // [[material]]
+    let mut materials: Vec<Material> = Vec::new();
+    for (i, m) in raw.material.iter().enumerate() {
+        let m = m.get_ref();
+        let n = m.name.get_ref();
+        if n.trim().is_empty() {
+            return Err(err(m.name.span(), "a material name is empty".into()).key(format!("material[{i}].name")));
+        }
+        if materials.iter().any(|o| &o.name == n) {
+            return Err(err(m.name.span(), format!("material '{n}' is defined twice")).key(format!("material[{i}].name")).help("give each material its own name"));
+        }
+        let eps = positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
+        let allow = match &m.allowable_stress_kv_per_mm {
+            Some(a) => Some(positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?),
+            None => None,
+        };
+        materials.push(Material { name: n.clone(), permittivity: eps, allowable_stress_kv_per_mm: allow });
+    }
+
+    // [[conductor]]
+    let mut conductors: Vec<Conductor> = Vec::new();
+    for (i, c) in raw.conductor.iter().enumerate() {
+        let span = c.span();
+        let c = c.get_ref();
+        let n = c.name.get_ref();
+        if conductors.iter().any(|o| &o.name == n) {
+            return Err(err(c.name.span(), format!("conductor '{n}' is defined twice")).key(format!("conductor[{i}].name")).help("give each conductor its own name; several shapes may refer to one conductor"));
+        }
+        let floating = c.floating.as_ref().map(|f| *f.get_ref()).unwrap_or(false);
+        let kind = match (&c.potential_v, floating) {
+            (Some(v), false) => {
+                let x = *v.get_ref();
+                if !x.is_finite() {
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}")).key(format!("conductor[{i}].potential_v")));
+                }
+                if let Some(q) = &c.charge_c {
+                    return Err(err(q.span(), "a conductor at a fixed potential cannot also have a given charge".into()).key(format!("conductor[{i}].charge_c")).help("remove charge_c, or replace potential_v by floating = true"));
+                }
+                ConductorKind::Fixed { potential_v: x }
+            }
+            (None, true) => {
+                let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
+                if !q.is_finite() {
+                    return Err(err(c.charge_c.as_ref().unwrap().span(), "the charge must be a finite number".into()).key(format!("conductor[{i}].charge_c")));
+                }
+                ConductorKind::Floating { charge_c: q }
+            }
+            (Some(v), true) => return Err(err(v.span(), format!("conductor '{n}' has both a potential and floating = true")).key(format!("conductor[{i}]")).help("keep potential_v for an electrode, or floating = true for a floating conductor")),
+            (None, false) => return Err(err(span, format!("conductor '{n}' has neither a potential nor floating = true")).key(format!("conductor[{i}]")).help("add potential_v = <volts>, or floating = true")),
+        };
+        conductors.push(Conductor { name: n.clone(), kind });
+    }
+
+    // [[shape]]
+    if raw.shape.is_empty() {
+        return Err(ModelError::new(path, source, None, "the model has no shape").key("shape").help("add a first [[shape]]: it is the domain, e.g. a rectangle filled with the surrounding dielectric"));
+    }
+    let mut shapes: Vec<Shape> = Vec::new();
+    let mut shape_material = Vec::new();
+    let mut shape_spans = Vec::new();
+    for (i, sh) in raw.shape.iter().enumerate() {
+        let whole = sh.span();
+        let sh = sh.get_ref();
+        let sname = sh.name.get_ref().clone();
+        let key = |k: &str| format!("shape[{i}].{k}");
+        if shapes.iter().any(|o| o.name == sname) {
+            return Err(err(sh.name.span(), format!("shape '{sname}' is defined twice")).key(key("name")).help("give each shape its own name"));
+        }
+        let (fill, mat) = match (&sh.material, &sh.conductor) {
+            (Some(m), None) => {
+                let k = materials.iter().position(|x| &x.name == m.get_ref()).ok_or_else(|| {
+                    let known: Vec<&str> = materials.iter().map(|x| x.name.as_str()).collect();
+                    err(m.span(), format!("unknown material '{}' in shape '{sname}'", m.get_ref())).key(key("material")).help(if known.is_empty() { "define it in a [[material]] table".to_string() } else { format!("known materials: {}", known.join(", ")) })
+                })?;
+                (Fill::Dielectric { permittivity: materials[k].permittivity }, Some(k))
+            }
+            (None, Some(c)) => {
+                let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
+                    let known: Vec<&str> = conductors.iter().map(|x| x.name.as_str()).collect();
+                    err(c.span(), format!("unknown conductor '{}' in shape '{sname}'", c.get_ref())).key(key("conductor")).help(if known.is_empty() { "define it in a [[conductor]] table".to_string() } else { format!("known conductors: {}", known.join(", ")) })
+                })?;
+                (Fill::Conductor { conductor: k as u32 }, None)
+            }
+            (Some(m), Some(_)) => return Err(err(m.span(), format!("shape '{sname}' has both a material and a conductor")).key(key("material")).help("a shape is either a dielectric (material = ...) or a conductor (conductor = ...)")),
+            (None, None) => return Err(err(sh.name.span(), format!("shape '{sname}' has neither a material nor a conductor")).key(key("material")).help("add material = \"<name>\" or conductor = \"<name>\"")),
+        };
+        if i == 0 && mat.is_none() {
+            return Err(err(sh.name.span(), format!("the first shape '{sname}' is the domain and must be a dielectric, not a conductor")).key(key("conductor")).help("put the surrounding dielectric (e.g. a rectangle of air or oil) first"));
+        }
+        let kinds = [sh.rectangle.is_some(), sh.circle.is_some(), sh.polygon.is_some(), sh.path.is_some()].iter().filter(|b| **b).count();
+        if kinds != 1 {
+            return Err(err(whole, format!("shape '{sname}' must have exactly one of rectangle, circle, polygon or path (it has {kinds})")).key(format!("shape[{i}]")));
+        }
+        let me = |e: MeshError, span: Range<usize>| err(span, e.message_in(unit_m, unit));
+        let outline = if let Some(r) = &sh.rectangle {
+            let r = r.get_ref();
+            let c = finite_xy(&r.corner, key("rectangle.corner"))?;
+            let s = *r.size.get_ref();
+            for (k, v) in s.iter().enumerate() {
+                if !(v.is_finite() && *v > 0.0) {
+                    return Err(err(r.size.span(), format!("the rectangle's {} must be a finite number greater than zero, not {v}", ["width", "height"][k])).key(key("rectangle.size")));
+                }
+            }
+            let fillet = match &r.fillet {
+                Some(f) => {
+                    let v = *f.get_ref();
+                    if !(v.is_finite() && v >= 0.0 && v <= 0.5 * s[0].min(s[1])) {
+                        return Err(err(f.span(), format!("the fillet radius {v} must be between 0 and half the shorter side ({})", 0.5 * s[0].min(s[1]))).key(key("rectangle.fillet")));
+                    }
+                    v * unit_m
+                }
+                None => 0.0,
+            };
+            Outline::rectangle(&sname, c, [s[0] * unit_m, s[1] * unit_m], fillet).map_err(|e| me(e, r.size.span()))?
+        } else if let Some(c) = &sh.circle {
+            let c = c.get_ref();
+            let center = finite_xy(&c.center, key("circle.center"))?;
+            let rad = positive(&c.radius, key("circle.radius"), "the radius")?;
+            Outline::circle(&sname, center, rad * unit_m).map_err(|e| me(e, c.radius.span()))?
+        } else if let Some(p) = &sh.polygon {
+            let mut pts = Vec::new();
+            for (k, q) in p.get_ref().iter().enumerate() {
+                pts.push(finite_xy(q, key(&format!("polygon[{k}]")))?);
+            }
+            for k in 0..pts.len() {
+                if pts.len() >= 2 && pts[k] == pts[(k + 1) % pts.len()] {
+                    let q = &p.get_ref()[(k + 1) % pts.len()];
+                    return Err(err(q.span(), format!("polygon point {} repeats the point before it", (k + 1) % pts.len())).key(key("polygon")).help("remove the repeated point; the outline closes by itself"));
+                }
+            }
+            Outline::polygon(&sname, &pts).map_err(|e| me(e, p.span()))?
+        } else {
+            let pth = sh.path.as_ref().unwrap();
+            let pr = pth.get_ref();
+            let mut at = finite_xy(&pr.start, key("path.start"))?;
+            let mut curves = Vec::new();
+            for (k, st) in pr.steps.iter().enumerate() {
+                let sspan = st.span();
+                let st = st.get_ref();
+                let kk = key(&format!("path.steps[{k}]"));
+                match (&st.line_to, &st.arc_to) {
+                    (Some(to), None) => {
+                        if st.radius.is_some() || st.turn.is_some() || st.large.is_some() {
+                            return Err(err(sspan, "a line_to step takes no radius, turn or large".into()).key(kk).help("use arc_to for an arc"));
+                        }
+                        let to = finite_xy(to, kk.clone())?;
+                        if to == at {
+                            return Err(err(sspan, "this step does not move: it ends where it starts".into()).key(kk));
+                        }
+                        curves.push(Curve::Line { from: at, to });
+                        at = to;
+                    }
+                    (None, Some(to_s)) => {
+                        let to = finite_xy(to_s, kk.clone())?;
+                        let Some(r) = &st.radius else {
+                            return Err(err(sspan, "an arc_to step needs a radius".into()).key(kk).help("add radius = <length>, and turn = \"ccw\" or \"cw\""));
+                        };
+                        let rad = positive(r, format!("{kk}.radius"), "the arc radius")?;
+                        let ccw = match st.turn.as_ref().map(|t| t.get_ref().as_str()) {
+                            None | Some("ccw") => true,
+                            Some("cw") => false,
+                            Some(o) => return Err(err(st.turn.as_ref().unwrap().span(), format!("unknown turn '{o}'")).key(format!("{kk}.turn")).help("use \"ccw\" (counter-clockwise, the default) or \"cw\"")),
+                        };
+                        let c = Curve::arc_through(&sname, at, to, rad * unit_m, ccw, st.large.unwrap_or(false)).map_err(|e| me(e, r.span()))?;
+                        curves.push(c);
+                        at = to;
+                    }
+                    _ => return Err(err(sspan, "each step needs exactly one of line_to or arc_to".into()).key(kk)),
+                }
+            }
+            Outline::new(&sname, curves).map_err(|e| me(e, pth.span()))?
+        };
+        let max_size_m = match &sh.max_size {
+            Some(h) => Some(positive(h, key("max_size"), "max_size")? * unit_m),
+            None => None,
+        };
+        shapes.push(Shape { name: sname, outline, fill, max_size_m });
+        shape_material.push(mat);
+        shape_spans.push(sh.name.span());
+    }
+
+    // [boundary]
+    let mut outer = OuterBoundary::ZeroFlux;
+    let mut outer_potential_v = None;
+    if let Some(b) = &raw.boundary {
+        let bspan = b.span();
+        let b = b.get_ref();
+        let kind = b.outer.as_ref().map(|o| (o.get_ref().as_str(), o.span()));
+        match kind {
+            None | Some(("zero_flux", _)) => {
+                if let Some(v) = &b.potential_v {
+                    return Err(err(v.span(), "potential_v is given but the outer boundary is zero_flux".into()).key("boundary.potential_v").help("set outer = \"potential\" to hold the outer boundary at this potential"));
+                }
+            }
+            Some(("potential", _)) => {
+                let v = b.potential_v.as_ref().ok_or_else(|| err(bspan.clone(), "outer = \"potential\" needs potential_v".into()).key("boundary.potential_v").help("add potential_v = 0.0 for an earthed enclosure"))?;
+                let x = *v.get_ref();
+                if !x.is_finite() {
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}")).key("boundary.potential_v"));
+                }
+                outer = OuterBoundary::FixedPotential;
+                outer_potential_v = Some(x);
+            }
+            Some((o, span)) => return Err(err(span, format!("unknown outer boundary '{o}'")).key("boundary.outer").help("use \"zero_flux\" (the default) or \"potential\"")),
+        }
+    }
+
+    // [mesh]
+    let mut params = RefineParams::new();
+    let mut size_points = Vec::new();
+    if let Some(m) = &raw.mesh {
+        let m = m.get_ref();
+        if let Some(h) = &m.max_size {
+            params = params.with_max_size_m(positive(h, "mesh.max_size".into(), "max_size")? * unit_m);
+        }
+        if let Some(h) = &m.min_size {
+            params = params.with_min_size_m(positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
+        }
+        if let Some(o) = &m.order {
+            let v = *o.get_ref();
+            if v != 1 && v != 2 {
+                return Err(err(o.span(), format!("element order {v} is not available")).key("mesh.order").help("use 1 (linear) or 2 (quadratic)"));
+            }
+            params = params.with_order(v as u8);
+        }
+        let ranged = |v: &Option<S<f64>>, key: &str, lo: f64, hi: f64, lo_open: bool| -> Result<Option<f64>, ModelError> {
+            match v {
+                None => Ok(None),
+                Some(s) => {
+                    let x = *s.get_ref();
+                    let ok = x.is_finite() && (if lo_open { x > lo } else { x >= lo }) && x <= hi;
+                    if ok {
+                        Ok(Some(x))
+                    } else {
+                        Err(err(s.span(), format!("{key} = {x} is out of range")).key(format!("mesh.{key}")).help(format!("use a value {} {lo} and at most {hi}", if lo_open { "above" } else { "from" })))
+                    }
+                }
+            }
+        };
+        if let Some(x) = ranged(&m.min_angle_deg, "min_angle_deg", 0.0, 33.0, true)? {
+            params = params.with_min_angle_deg(x);
+        }
+        if let Some(x) = ranged(&m.gradation, "gradation", 1.0, 3.0, true)? {
+            params = params.with_gradation(x);
+        }
+        if let Some(x) = ranged(&m.chord_tolerance, "chord_tolerance", 0.0, 0.125, true)? {
+            params = params.with_chord_tolerance(x);
+        }
+        if let Some(x) = ranged(&m.grading_fraction, "grading_fraction", 0.0, 0.99, true)? {
+            params = params.with_grading_fraction(x);
+        }
+        if let Some(g) = m.grade_corners {
+            params = params.with_grade_corners(g);
+        }
+        if let Some(n) = &m.max_nodes {
+            let v = *n.get_ref();
+            if !(16..=100_000_000).contains(&v) {
+                return Err(err(n.span(), format!("max_nodes = {v} is out of range")).key("mesh.max_nodes").help("use a count from 16 to 100000000"));
+            }
+            params = params.with_max_nodes(v as usize);
+        }
+        for (k, p) in m.point.iter().enumerate() {
+            let p = p.get_ref();
+            let at = finite_xy(&p.at, format!("mesh.point[{k}].at"))?;
+            let size = positive(&p.size, format!("mesh.point[{k}].size"), "the point size")? * unit_m;
+            size_points.push(SizePoint { at, size_m: size });
+        }
+    }
+    let geometry = Geometry { symmetry, shapes, conductors: conductors.iter().map(|c| c.name.clone()).collect(), outer, size_points };
+    let model = Model {
+        name,
+        geometry,
+        params,
+        materials,
+        shape_material,
+        conductors,
+        outer_potential_v,
+        unit_m,
+        unit,
+        shape_spans,
+        source: source.to_string(),
+        path: path.to_path_buf(),
+    };
+    model.geometry.validate().map_err(|e| model.mesh_error(&e))?;
+    Ok(model)
+}
