@@ -226,6 +226,11 @@ pub fn run(run: &MeshRun) -> Result<()> {
     if let Some(p) = &run.svg {
         write_atomic(p, |w| write_mesh_svg(&out.mesh, &model.name, model.unit_m, model.unit, w))?;
     }
+    if std::env::var_os("FIELDGRADE_TIMINGS").is_some() {
+        for (k, t) in &out.timings {
+            eprintln!("{k:>16}: {t:.3} s");
+        }
+    }
     if run.json {
         println!("{}", serde_json::to_string_pretty(&rep)?);
     } else {

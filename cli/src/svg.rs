@@ -17,9 +17,10 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
         bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
     }
     let (wd, ht) = ((bb[2] - bb[0]).max(1e-300), (bb[3] - bb[1]).max(1e-300));
-    let width = 900.0;
     let margin = 20.0;
-    let k = (width - 2.0 * margin) / wd;
+    // Fit the drawing into 900 × 900 px, keeping the aspect ratio.
+    let k = ((900.0 - 2.0 * margin) / wd).min((900.0 - 2.0 * margin) / ht);
+    let width = (wd * k + 2.0 * margin).max(640.0);
     let height = ht * k + 2.0 * margin + 40.0;
     let x = |p: [f64; 2]| margin + (p[0] - bb[0]) * k;
     let y = |p: [f64; 2]| margin + 30.0 + (bb[3] - p[1]) * k;
@@ -27,13 +28,13 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
     writeln!(w, r##"<rect width="100%" height="100%" fill="white"/>"##)?;
     writeln!(w, r##"<text x="{margin}" y="18">{} — {} triangles, {} nodes, extent {:.4} × {:.4} {unit}</text>"##, esc(title), mesh.num_triangles(), mesh.num_nodes(), wd / unit_m, ht / unit_m)?;
     // One path per region keeps the file compact.
-    let thin = (0.4f64).min(0.25 * k * mesh.stats().edge_length_range_m[0]).max(0.05);
+    let thin = 0.35;
     let mut regions: Vec<u32> = mesh.regions.clone();
     regions.sort();
     regions.dedup();
     for r in regions {
         let color = PALETTE[r as usize % PALETTE.len()];
-        write!(w, r##"<path fill="{color}" stroke="#555" stroke-width="{thin:.3}" stroke-linejoin="round" d=""##)?;
+        write!(w, r##"<path fill="{color}" stroke="#4a6a8a" stroke-width="{thin:.3}" stroke-linejoin="round" d=""##)?;
         for (t, tri) in mesh.triangles.iter().enumerate() {
             if mesh.regions[t] != r {
                 continue;

@@ -178,15 +178,15 @@ impl Mesh {
         if self.triangles.is_empty() {
             return bad("the mesh has no triangle".into());
         }
+        let scale = self.scale();
         for (i, p) in self.nodes.iter().enumerate() {
             if !(p[0].is_finite() && p[1].is_finite()) {
                 return bad(format!("node {i} has a non-finite coordinate {p:?}"));
             }
-            if self.symmetry == Symmetry::Axisymmetric && p[0] < -1e-12 * self.scale() {
+            if self.symmetry == Symmetry::Axisymmetric && p[0] < -1e-12 * scale {
                 return bad(format!("node {i} at {p:?} has negative radius in an axisymmetric mesh"));
             }
         }
-        let scale = self.scale();
         let nv = self.num_vertices as usize;
         let mut used = vec![false; n];
         for (t, tri) in self.triangles.iter().enumerate() {

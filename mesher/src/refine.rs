@@ -143,4 +143,7 @@ pub struct MeshOutcome {
     pub reason: Option<String>,
     /// The size field the mesh was built for.
     pub size_field: SizeField,
+    /// Wall-clock seconds per stage (geometry, boundary, seeding, spade bulk load, spade
+    /// refine, extract, validate), for benchmarks and the `debug` command.
+    pub timings: Vec<(&'static str, f64)>,
 }

@@ -45,6 +45,23 @@ use std::collections::VecDeque;
 
 type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
 
+/// Wall-clock laps of the meshing stages.
+struct Stopwatch {
+    last: std::time::Instant,
+    laps: Vec<(&'static str, f64)>,
+}
+
+impl Stopwatch {
+    fn new() -> Self {
+        Stopwatch { last: std::time::Instant::now(), laps: Vec::new() }
+    }
+    fn lap(&mut self, name: &'static str) {
+        let now = std::time::Instant::now();
+        self.laps.push((name, (now - self.last).as_secs_f64()));
+        self.last = now;
+    }
+}
+
 /// The boundary as straight segments, each remembering the arrangement piece it lies on.
 pub(crate) struct Pslg {
     pub points: Vec<Xy>,
@@ -58,26 +75,32 @@ pub(crate) struct Pslg {
 /// Any [`MeshError`] from geometry validation, parameter validation, the arrangement
 /// (conductors touching) or, for inputs below the resolution limit, the triangulation.
 pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, MeshError> {
+    let mut clock = Stopwatch::new();
     geo.validate()?;
     params.validate()?;
     let arr = Arrangement::build(geo)?;
     let singular = corners::find(geo, &arr, params.order)?;
     let field = size_field(geo, &arr, &singular, params);
+    clock.lap("geometry");
     let pslg = discretise(&arr, &field);
     let grid = SegmentGrid::new(&pslg.points, &pslg.segments, geo.bbox());
+    clock.lap("boundary");
     let seeds = seed(geo, &field, &pslg, &grid);
-    let (cdt, complete) = triangulate(&pslg, &seeds, &field, params)?;
+    clock.lap("seeding");
+    let (cdt, complete) = triangulate(&pslg, &seeds, &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
     if params.order == 2 {
         mesh.make_order2();
     }
+    clock.lap("extract");
     mesh.validate()?;
+    clock.lap("validate");
     let reason = if complete {
         None
     } else {
         Some(format!("the node budget of {} was reached before every triangle met the size and angle limits; raise max_nodes or coarsen the sizes", params.max_nodes))
     };
-    Ok(MeshOutcome { mesh, complete, reason, size_field: field })
+    Ok(MeshOutcome { mesh, complete, reason, size_field: field, timings: clock.laps })
 }
 
 fn size_field(geo: &Geometry, arr: &Arrangement, singular: &[(usize, SingularPoint)], params: &RefineParams) -> SizeField {
@@ -135,20 +158,28 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
     let mut samples: Vec<(f64, f64)> = Vec::new();
     for (pi, pc) in arr.pieces.iter().enumerate() {
         let len = pc.curve.length();
-        // Cumulative ∫ ds/h, sampled with steps of a quarter of the local size.
+        // Cumulative ∫ ds/h by the midpoint rule (no evaluation at the ends, where a
+        // singular point makes h tiny), with steps of a quarter of the local size that
+        // shrink wherever h drops quickly ahead.
         samples.clear();
         let mut s = 0.0;
         let mut acc = 0.0;
-        let mut h_prev = field.size_at(pc.curve.point_at(0.0));
+        let size = |s: f64| field.size_at(pc.curve.point_at((s / len).clamp(0.0, 1.0)));
+        let mut h_here = size(0.0);
         samples.push((0.0, 0.0));
         while s < len {
-            let ds = (0.25 * h_prev).min(len / 4.0).min(len - s).max(1e-3 * field.floor());
-            let s_new = (s + ds).min(len);
-            let h_new = field.size_at(pc.curve.point_at(s_new / len));
-            // Trapezoid on 1/h.
-            acc += 0.5 * (s_new - s) * (1.0 / h_prev + 1.0 / h_new);
-            s = s_new;
-            h_prev = h_new;
+            let mut ds = (0.25 * h_here).min(len / 4.0).min(len - s);
+            let mut h_mid = size(s + 0.5 * ds);
+            for _ in 0..60 {
+                if h_mid >= 0.7 * h_here || ds <= 1e-12 * len {
+                    break;
+                }
+                ds = (0.25 * h_mid).min(0.5 * ds);
+                h_mid = size(s + 0.5 * ds);
+            }
+            acc += ds / h_mid;
+            s = if len - (s + ds) <= 1e-12 * len { len } else { s + ds };
+            h_here = size(s);
             samples.push((s, acc));
         }
         let n = (acc.round() as usize).max(1);
@@ -174,7 +205,13 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
     Pslg { points, segments, piece_of }
 }
 
-/// Interior vertices from a quadtree whose leaves are no larger than the local size.
+/// Interior vertices from a quadtree whose leaves are at most twice the local size.
+///
+/// A leaf of side s at local size h receives k × k points (k = round(s/h) ≥ 1) on rows of
+/// spacing d = s/k, alternate rows shifted by ±d/4, which triangulates into isosceles
+/// triangles with angles of about 53° and 63°. Points outside the domain or closer than
+/// d/2 to a boundary segment are dropped; Delaunay refinement repairs the seams between
+/// leaves of different sizes and the layer along the boundary.
 fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> Vec<Xy> {
     let bb = geo.bbox();
     let side = (bb[2] - bb[0]).max(bb[3] - bb[1]);
@@ -187,35 +224,43 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> V
             continue;
         }
         let h = field.size_at(c);
-        if s > h && depth < 40 {
+        if s > 2.0 * h && depth < 40 {
             let q = s / 4.0;
             for (dx, dy) in [(-q, -q), (q, -q), (-q, q), (q, q)] {
                 stack.push(([c[0] + dx, c[1] + dy], s / 2.0, depth + 1));
             }
             continue;
         }
-        if !domain.contains(c) {
-            continue;
-        }
-        // Keep clear of the boundary: at least half the cell size from every segment.
-        let clear = 0.5 * s;
-        let mut ok = true;
-        grid.for_each_near(c, clear, |si| {
-            if ok {
-                let [a, b] = pslg.segments[si as usize];
-                if point_segment_distance(c, pslg.points[a as usize], pslg.points[b as usize]) < clear {
-                    ok = false;
+        let k = ((s / h).round() as usize).clamp(1, 4);
+        let d = s / k as f64;
+        for j in 0..k {
+            let shift = if (j + depth as usize) % 2 == 0 { 0.25 * d } else { -0.25 * d };
+            for i in 0..k {
+                let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
+                if p[0] > bb[2] || p[1] > bb[3] || !domain.contains(p) {
+                    continue;
+                }
+                // Keep clear of the boundary: at least half the spacing from every segment.
+                let clear = 0.5 * d;
+                let mut ok = true;
+                grid.for_each_near(p, clear, |si| {
+                    if ok {
+                        let [a, b] = pslg.segments[si as usize];
+                        if point_segment_distance(p, pslg.points[a as usize], pslg.points[b as usize]) < clear {
+                            ok = false;
+                        }
+                    }
+                });
+                if ok {
+                    out.push(p);
                 }
             }
-        });
-        if ok {
-            out.push(c);
         }
     }
     out
 }
 
-fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefineParams) -> Result<(Cdt, bool), MeshError> {
+fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefineParams, clock: &mut Stopwatch) -> Result<(Cdt, bool), MeshError> {
     let mut vertices: Vec<Point2<f64>> = Vec::with_capacity(pslg.points.len() + seeds.len());
     vertices.extend(pslg.points.iter().map(|p| Point2::new(p[0], p[1])));
     vertices.extend(seeds.iter().map(|p| Point2::new(p[0], p[1])));
@@ -233,6 +278,7 @@ fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefinePara
     if cdt.num_vertices() != n_in {
         return Err(MeshError::Triangulation { detail: "coincident input points were merged; features are closer than the resolution limit".into() });
     }
+    clock.lap("spade bulk load");
     let h_max = field.max();
     let floor = field.floor();
     let eq = 3f64.sqrt() / 4.0;
@@ -243,6 +289,7 @@ fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefinePara
         .with_min_required_area(eq * 0.1 * floor * floor)
         .with_max_additional_vertices(budget);
     let result = cdt.refine(rp);
+    clock.lap("spade refine");
     Ok((cdt, result.refinement_complete && n_in <= params.max_nodes))
 }
 
