@@ -20,7 +20,7 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
     let margin = 20.0;
     // Fit the drawing into 900 × 900 px, keeping the aspect ratio.
     let k = ((900.0 - 2.0 * margin) / wd).min((900.0 - 2.0 * margin) / ht);
-    let width = (wd * k + 2.0 * margin).max(640.0);
+    let width = (wd * k + 2.0 * margin).max(900.0);
     let height = ht * k + 2.0 * margin + 40.0;
     let x = |p: [f64; 2]| margin + (p[0] - bb[0]) * k;
     let y = |p: [f64; 2]| margin + 30.0 + (bb[3] - p[1]) * k;
@@ -60,11 +60,16 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
         }
         writeln!(w, r##""/>"##)?;
     }
+    let mut labelled: Vec<(f64, f64)> = Vec::new();
     for (i, s) in mesh.singular_points.iter().enumerate() {
         let (cx, cy) = (x(s.at), y(s.at));
         let color = if s.is_field_singular() { "#d00000" } else { "#d08000" };
         writeln!(w, r##"<circle cx="{cx:.2}" cy="{cy:.2}" r="5" fill="none" stroke="{color}" stroke-width="1.5"/>"##)?;
-        writeln!(w, r##"<text x="{:.2}" y="{:.2}" fill="{color}">S{} λ={:.3}</text>"##, cx + 6.0, cy - 6.0, i + 1, s.lambda)?;
+        // Label only points that are not on top of an already labelled one.
+        if labelled.iter().all(|&(lx, ly)| (lx - cx).hypot(ly - cy) > 14.0) {
+            writeln!(w, r##"<text x="{:.2}" y="{:.2}" fill="{color}">S{} λ={:.3}</text>"##, cx + 6.0, cy - 6.0, i + 1, s.lambda)?;
+            labelled.push((cx, cy));
+        }
     }
     // Legend.
     let ly = height - 8.0;

@@ -323,18 +323,18 @@ impl Outline {
         if curves.is_empty() {
             return Err(MeshError::EmptyShape { shape: shape.to_string() });
         }
+        for c in &curves {
+            let (nums, what): (Vec<f64>, &str) = match *c {
+                Curve::Line { from, to } => (vec![from[0], from[1], to[0], to[1]], "coordinate"),
+                Curve::Arc { center, radius, start, sweep } => (vec![center[0], center[1], radius, start, sweep], "arc centre, radius or angle"),
+            };
+            if let Some(&v) = nums.iter().find(|v| !v.is_finite()) {
+                return Err(MeshError::BadNumber { shape: shape.to_string(), what: what.into(), value: v });
+            }
+        }
         let mut bb = curves[0].bbox();
         for c in &curves {
             let b = c.bbox();
-            for v in b {
-                if !v.is_finite() {
-                    return Err(MeshError::BadNumber {
-                        shape: shape.to_string(),
-                        what: "coordinate".into(),
-                        value: v,
-                    });
-                }
-            }
             bb = [bb[0].min(b[0]), bb[1].min(b[1]), bb[2].max(b[2]), bb[3].max(b[3])];
         }
         let size = (bb[2] - bb[0]).hypot(bb[3] - bb[1]);
@@ -627,16 +627,19 @@ impl Geometry {
         for (i, s) in self.shapes.iter().enumerate() {
             let b = s.outline.bbox();
             let diag = (b[2] - b[0]).hypot(b[3] - b[1]);
-            if s.outline.signed_area().abs() <= 1e-12 * diag * diag || diag <= tol {
-                return Err(MeshError::ZeroArea { shape: s.name.clone() });
-            }
             if self.symmetry == Symmetry::Axisymmetric && b[0] < -tol {
                 let at = s.outline.sample(PI / 64.0).into_iter().fold([f64::INFINITY, 0.0], |m, p| if p[0] < m[0] { p } else { m });
                 return Err(MeshError::NegativeRadius { shape: s.name.clone(), at });
             }
             let pts = s.outline.sample(PI / 64.0);
+            if diag <= tol {
+                return Err(MeshError::ZeroArea { shape: s.name.clone() });
+            }
             if let Some(at) = self_intersection(&pts, tol) {
                 return Err(MeshError::SelfIntersecting { shape: s.name.clone(), at });
+            }
+            if s.outline.signed_area().abs() <= 1e-12 * diag * diag || diag <= tol {
+                return Err(MeshError::ZeroArea { shape: s.name.clone() });
             }
             if i > 0 {
                 let dom = &self.shapes[0].outline;

@@ -121,7 +121,7 @@ fn size_field(geo: &Geometry, arr: &Arrangement, singular: &[(usize, SingularPoi
     for pc in &arr.pieces {
         if let Curve::Arc { radius, .. } = pc.curve {
             let h_arc = 8.0 * params.chord_tolerance * radius;
-            if h_arc < f.size_at(pc.curve.point_at(0.5)) {
+            if h_arc < h_max {
                 f.add_curve(pc.curve, h_arc);
             }
         }
@@ -157,6 +157,16 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
     let mut piece_of = Vec::new();
     let mut samples: Vec<(f64, f64)> = Vec::new();
     for (pi, pc) in arr.pieces.iter().enumerate() {
+        if let Curve::Line { .. } = pc.curve {
+            // Straight pieces go in whole: points computed along an inclined line are off
+            // it by round-off, which leaves zero-area slivers between consecutive
+            // sub-segments. Delaunay refinement splits the segment instead (exactly on it,
+            // topologically), wherever the graded interior seeds encroach upon it, which
+            // makes the boundary spacing follow the size field.
+            segments.push([pc.v[0] as u32, pc.v[1] as u32]);
+            piece_of.push(pi as u32);
+            continue;
+        }
         let len = pc.curve.length();
         // Cumulative ∫ ds/h by the midpoint rule (no evaluation at the ends, where a
         // singular point makes h tiny), with steps of a quarter of the local size that
@@ -182,7 +192,8 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
             h_here = size(s);
             samples.push((s, acc));
         }
-        let n = (acc.round() as usize).max(1);
+        // Arcs round up, so that no chord exceeds the chord-tolerance length 8·c·R.
+        let n = (acc * (1.0 - 1e-9)).ceil().max(1.0) as usize;
         let mut prev = pc.v[0] as u32;
         let mut j = 0;
         for k in 1..n {

@@ -1,0 +1,60 @@
+//! Near a detected corner the element size follows the grading law h₀·(r/R)^(1−μ)
+//! (Babuška–Kellogg–Pitkäranta 1979; Apel–Sändig–Whiteman 1996): on a log–log plot of
+//! element size against distance the slope is 1 − μ with μ = f·λ/p.
+
+use crate::common::{conductor, dielectric, planar};
+use mesher::{generate, Outline, RefineParams};
+
+/// Least-squares slope of log(size) against log(distance) for triangles whose centroid is
+/// between `r0` and `r1` from `c`; size = √(4·area/√3) (edge of the equilateral triangle of
+/// the same area).
+fn slope(m: &mesher::Mesh, c: [f64; 2], r0: f64, r1: f64) -> (f64, usize) {
+    let (mut sx, mut sy, mut sxx, mut sxy, mut n) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    for (t, tri) in m.triangles.iter().enumerate() {
+        let p: Vec<[f64; 2]> = tri.iter().map(|&i| m.nodes[i as usize]).collect();
+        let g = [(p[0][0] + p[1][0] + p[2][0]) / 3.0, (p[0][1] + p[1][1] + p[2][1]) / 3.0];
+        let r = (g[0] - c[0]).hypot(g[1] - c[1]);
+        if r < r0 || r > r1 {
+            continue;
+        }
+        let h = (4.0 * m.triangle_area(t) / 3f64.sqrt()).sqrt();
+        let (x, y) = (r.ln(), h.ln());
+        sx += x;
+        sy += y;
+        sxx += x * x;
+        sxy += x * y;
+        n += 1.0;
+    }
+    ((n * sxy - sx * sy) / (n * sxx - sx * sx), n as usize)
+}
+
+#[test]
+fn element_size_follows_the_grading_law() {
+    // A square electrode corner facing air: θ₀ = 3π/2, λ = 2/3 (Jackson §2.11).
+    let geo = planar(
+        vec![
+            dielectric("air", Outline::rectangle("air", [-1.0, -1.0], [2.0, 2.0], 0.0).unwrap(), 1.0),
+            conductor("hv", Outline::rectangle("hv", [-0.5, -0.5], [0.5, 0.5], 0.0).unwrap(), 0),
+        ],
+        &["hv"],
+    );
+    for (order, f) in [(1u8, 0.85), (2, 0.85), (2, 0.5)] {
+        let params = RefineParams::new().with_order(order).with_max_size_m(0.01).with_grading_fraction(f);
+        let out = generate(&geo, &params).unwrap();
+        let m = &out.mesh;
+        let s = m.singular_points.iter().find(|s| s.at == [0.0, 0.0]).expect("corner at the origin");
+        assert!((s.lambda - 2.0 / 3.0).abs() < 1e-12);
+        let mu = f * s.lambda / order as f64;
+        // Grading radius R = half the shortest piece at the corner = 0.25. Fit well inside
+        // it and away from the first few elements.
+        let (k, n) = slope(m, [0.0, 0.0], 2e-3, 0.15);
+        assert!(n > 100, "{n} triangles in the fit");
+        let want = 1.0 - mu;
+        assert!((k - want).abs() <= 0.1 * want, "order {order}, f {f}: slope {k:.3}, law {want:.3}");
+        // And the size field itself is the law.
+        let r = 0.01;
+        let h = out.size_field.size_at([r, 0.0]);
+        let h0 = 0.01;
+        assert!((h - h0 * (r / 0.25f64).powf(1.0 - mu)).abs() < 1e-12);
+    }
+}

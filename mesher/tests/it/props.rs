@@ -1,0 +1,78 @@
+//! Property tests on random simple polygons with holes (STYLE: inputs valid by
+//! construction). A star-shaped polygon (sorted angles, random radii) is simple; holes are
+//! small star-shaped conductors placed on a ring where they cannot touch each other or the
+//! outline.
+
+use crate::common::{conductor, covered_length, dielectric, planar, total_area};
+use mesher::{generate, Outline, RefineParams};
+use proptest::prelude::*;
+use std::f64::consts::TAU;
+
+fn star(center: [f64; 2], radii: &[f64], phase: f64, jitter: &[f64]) -> Vec<[f64; 2]> {
+    let n = radii.len();
+    (0..n)
+        .map(|k| {
+            let a = phase + TAU * (k as f64 + 0.4 * jitter[k]) / n as f64;
+            [center[0] + radii[k] * a.cos(), center[1] + radii[k] * a.sin()]
+        })
+        .collect()
+}
+
+/// Outer radii in [0.7, 1.0] at n ≥ 8 angles (gaps ≤ 1.8·2π/n) keep every edge at least
+/// 0.7·cos(0.9π/8) ≈ 0.53 from the origin, clear of the holes,
+/// which stay within 0.45 of the origin.
+fn case() -> impl Strategy<Value = (Vec<f64>, Vec<f64>, usize, Vec<f64>, f64, u8)> {
+    (8usize..14)
+        .prop_flat_map(|n| {
+            (
+                prop::collection::vec(0.7f64..1.0, n),
+                prop::collection::vec(-1.0f64..1.0, n),
+                0usize..3,
+                prop::collection::vec(0.05f64..0.12, 5),
+                0.04f64..0.3,
+                1u8..3,
+            )
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 48, ..ProptestConfig::default() })]
+
+    #[test]
+    fn random_polygons_with_holes_mesh_validly((radii, jitter, holes, hole_r, h, order) in case()) {
+        let outer = star([0.0, 0.0], &radii, 0.1, &jitter);
+        let mut shapes = vec![dielectric("domain", Outline::polygon("domain", &outer).unwrap(), 1.0)];
+        let mut hole_area = 0.0;
+        let mut hole_polys = Vec::new();
+        for k in 0..holes {
+            let a = TAU * k as f64 / holes.max(1) as f64;
+            let c = [0.3 * a.cos(), 0.3 * a.sin()];
+            let pts = star(c, &hole_r, 0.3 * k as f64, &[0.0; 5]);
+            let o = Outline::polygon("hole", &pts).unwrap();
+            hole_area += o.signed_area().abs();
+            shapes.push(conductor(&format!("hole{k}"), o, 0));
+            hole_polys.push(pts);
+        }
+        let geo = planar(shapes, &["c"]);
+        let params = RefineParams::new().with_order(order).with_max_size_m(h);
+        let out = generate(&geo, &params).expect("meshing a valid polygon must succeed");
+        prop_assert!(out.complete);
+        let m = &out.mesh;
+        m.validate().unwrap();
+        // Areas: the mesh covers the domain minus the holes, to round-off.
+        let want = Outline::polygon("d", &outer).unwrap().signed_area().abs() - hole_area;
+        prop_assert!((total_area(m) - want).abs() <= 1e-9 * want, "area {} vs {}", total_area(m), want);
+        // Every input segment is covered by tagged mesh edges.
+        for poly in std::iter::once(&outer).chain(hole_polys.iter()) {
+            for k in 0..poly.len() {
+                let (a, b) = (poly[k], poly[(k + 1) % poly.len()]);
+                let l = (b[0] - a[0]).hypot(b[1] - a[1]);
+                let c = covered_length(m, a, b, 1e-12);
+                prop_assert!((c - l).abs() <= 1e-9 * l, "segment {a:?}-{b:?}: covered {c} of {l}");
+            }
+        }
+        // Quality: the refinement angle wherever input angles allow it; the star's smallest
+        // input angle can be sharp, so only a loose floor applies everywhere.
+        prop_assert!(m.stats().min_angle_deg > 1.0);
+    }
+}
