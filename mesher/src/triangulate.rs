@@ -296,7 +296,7 @@ fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefinePara
     let budget = params.max_nodes.saturating_sub(n_in);
     let rp = RefinementParameters::<f64>::new()
         .with_angle_limit(AngleLimit::from_deg(params.min_angle_deg))
-        .with_max_allowed_area(eq * (1.5 * h_max) * (1.5 * h_max))
+        .with_max_allowed_area(eq * (1.3 * h_max) * (1.3 * h_max))
         .with_min_required_area(eq * 0.1 * floor * floor)
         .with_max_additional_vertices(budget);
     let result = cdt.refine(rp);

@@ -1,0 +1,10 @@
+//! End-to-end tests of the `fieldgrade` binary, by topic.
+
+/// Running the binary and reading what it wrote.
+mod common;
+/// Every bad model file gives a located message, exit code 2, and writes nothing.
+mod errors;
+/// `fieldgrade mesh` statistics of the shipped demo models (insta snapshots).
+mod mesh_report;
+/// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.
+mod outputs;
