@@ -25,7 +25,14 @@ pub struct ModelError {
 impl ModelError {
     /// An error at `span` of `source`.
     pub fn new(path: &Path, source: &str, span: Option<Range<usize>>, message: impl Into<String>) -> Self {
-        ModelError { path: path.to_path_buf(), source: source.to_string(), span, key: None, message: message.into(), help: None }
+        ModelError {
+            path: path.to_path_buf(),
+            source: source.to_string(),
+            span,
+            key: None,
+            message: message.into(),
+            help: None,
+        }
     }
 
     /// Adds the key.

@@ -61,7 +61,9 @@ impl std::error::Error for UserError {}
 fn main() -> ExitCode {
     let args = Args::parse();
     let result = match args.command {
-        Command::Mesh { model, out, svg, order, json } => mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json }),
+        Command::Mesh { model, out, svg, order, json } => {
+            mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json })
+        }
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,6 +1,6 @@
 //! `fieldgrade mesh`: mesh a model and report what was built.
 
-use crate::model::{self, Model};
+use crate::model::{self, ConductorKind, Model};
 use crate::output::write_atomic;
 use crate::svg::write_mesh_svg;
 use crate::UserError;
@@ -51,10 +51,25 @@ pub struct MeshReport {
     pub refinement_complete: bool,
     /// Why not, if not.
     pub note: Option<String>,
+    /// The outer boundary condition, in words.
+    pub outer_boundary: String,
+    /// Conductors and how their potential is set.
+    pub conductors: Vec<ConductorReport>,
     /// Per region.
     pub regions: Vec<RegionReport>,
     /// Singular points.
     pub singular_points: Vec<SingularReport>,
+}
+
+/// One conductor.
+#[derive(Serialize, Debug)]
+pub struct ConductorReport {
+    /// Name.
+    pub name: String,
+    /// Potential in volts for a fixed conductor.
+    pub potential_v: Option<f64>,
+    /// Net charge for a floating conductor (C, or C/m in planar models).
+    pub floating_charge_c: Option<f64>,
 }
 
 /// One region's figures.
@@ -64,6 +79,10 @@ pub struct RegionReport {
     pub name: String,
     /// Material name.
     pub material: String,
+    /// Relative permittivity.
+    pub permittivity: f64,
+    /// Allowable design stress, kV/mm, if given.
+    pub allowable_stress_kv_per_mm: Option<f64>,
     /// Triangle count.
     pub triangles: usize,
     /// Area in the model unit squared.
@@ -103,11 +122,16 @@ pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
     let regions = st
         .per_region
         .iter()
-        .map(|&(r, n, a)| RegionReport {
-            name: mesh.shape_names[r as usize].clone(),
-            material: model.shape_material[r as usize].map(|m| model.materials[m].name.clone()).unwrap_or_default(),
-            triangles: n,
-            area: a / (k * k),
+        .map(|&(r, n, a)| {
+            let m = model.shape_material[r as usize].map(|m| &model.materials[m]);
+            RegionReport {
+                name: mesh.shape_names[r as usize].clone(),
+                material: m.map(|m| m.name.clone()).unwrap_or_default(),
+                permittivity: m.map(|m| m.permittivity).unwrap_or(f64::NAN),
+                allowable_stress_kv_per_mm: m.and_then(|m| m.allowable_stress_kv_per_mm),
+                triangles: n,
+                area: a / (k * k),
+            }
         })
         .collect();
     let singular_points = mesh
@@ -142,6 +166,22 @@ pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
         edge_length_max: st.edge_length_range_m[1] / k,
         refinement_complete: out.complete,
         note: out.reason.clone(),
+        outer_boundary: match model.outer_potential_v {
+            Some(v) => format!("fixed potential {v} V"),
+            None => "zero normal flux".into(),
+        },
+        conductors: model
+            .conductors
+            .iter()
+            .map(|c| match c.kind {
+                ConductorKind::Fixed { potential_v } => {
+                    ConductorReport { name: c.name.clone(), potential_v: Some(potential_v), floating_charge_c: None }
+                }
+                ConductorKind::Floating { charge_c } => {
+                    ConductorReport { name: c.name.clone(), potential_v: None, floating_charge_c: Some(charge_c) }
+                }
+            })
+            .collect(),
         regions,
         singular_points,
     }
@@ -160,20 +200,63 @@ pub fn render_text(r: &MeshReport) -> String {
     let _ = writeln!(s, "min angle    {:.1}°", r.min_angle_deg);
     let _ = writeln!(s, "radius/edge  {:.3} (worst circumradius to shortest edge)", r.max_radius_edge_ratio);
     let _ = writeln!(s, "edge length  {} … {} {u}", sig(r.edge_length_min), sig(r.edge_length_max));
-    let _ = writeln!(s, "refinement   {}", if r.refinement_complete { "complete" } else { "INCOMPLETE (node budget reached)" });
+    let _ = writeln!(
+        s,
+        "refinement   {}",
+        if r.refinement_complete { "complete" } else { "INCOMPLETE (node budget reached)" }
+    );
     if let Some(n) = &r.note {
         let _ = writeln!(s, "note         {n}");
     }
+    let _ = writeln!(s, "outer        {}", r.outer_boundary);
+    let _ = writeln!(s, "\nconductors");
+    for c in &r.conductors {
+        let how = match (c.potential_v, c.floating_charge_c) {
+            (Some(v), _) => format!("fixed at {v} V"),
+            (None, Some(q)) => format!("floating, net charge {q} C"),
+            _ => String::new(),
+        };
+        let _ = writeln!(s, "  {:<20} {how}", c.name);
+    }
     let _ = writeln!(s, "\nregions");
-    let _ = writeln!(s, "  {:<20} {:<14} {:>10} {:>14}", "shape", "material", "triangles", format!("area ({u}²)"));
+    let _ = writeln!(
+        s,
+        "  {:<20} {:<10} {:>6} {:>10} {:>10} {:>14}",
+        "shape",
+        "material",
+        "εr",
+        "E allow",
+        "triangles",
+        format!("area ({u}²)")
+    );
     for g in &r.regions {
-        let _ = writeln!(s, "  {:<20} {:<14} {:>10} {:>14}", g.name, g.material, g.triangles, sig(g.area));
+        let allow = g.allowable_stress_kv_per_mm.map(|a| format!("{a} kV/mm")).unwrap_or_else(|| "-".into());
+        let _ = writeln!(
+            s,
+            "  {:<20} {:<10} {:>6} {:>10} {:>10} {:>14}",
+            g.name,
+            g.material,
+            g.permittivity,
+            allow,
+            g.triangles,
+            sig(g.area)
+        );
     }
     let _ = writeln!(s, "\nsingular points ({})", r.singular_points.len());
     if r.singular_points.is_empty() {
         let _ = writeln!(s, "  none: no re-entrant conductor corner, triple junction or dielectric corner");
     } else {
-        let _ = writeln!(s, "  {:<4} {:<18} {:>12} {:>12} {:>9} {:>8} {:>10}  at", "", "kind", format!("x ({u})"), format!("y ({u})"), "opening", "λ", "|E| ~ r^");
+        let _ = writeln!(
+            s,
+            "  {:<4} {:<18} {:>12} {:>12} {:>9} {:>8} {:>10}  at",
+            "",
+            "kind",
+            format!("x ({u})"),
+            format!("y ({u})"),
+            "opening",
+            "λ",
+            "|E| ~ r^"
+        );
         for (i, p) in r.singular_points.iter().enumerate() {
             let mut who = p.regions.join("/");
             if let Some(c) = &p.conductor {
@@ -182,11 +265,28 @@ pub fn render_text(r: &MeshReport) -> String {
             if p.on_axis {
                 who.push_str(" (on axis: conical point, planar exponent)");
             }
-            let _ = writeln!(s, "  S{:<3} {:<18} {:>12} {:>12} {:>8.1}° {:>8.4} {:>10.4}  {}", i + 1, p.kind, sig(p.x), sig(p.y), p.opening_deg, p.lambda, p.field_exponent, who);
+            let _ = writeln!(
+                s,
+                "  S{:<3} {:<18} {:>12} {:>12} {:>8.1}° {:>8.4} {:>10.4}  {}",
+                i + 1,
+                p.kind,
+                sig(p.x),
+                sig(p.y),
+                p.opening_deg,
+                p.lambda,
+                p.field_exponent,
+                who
+            );
         }
         if r.singular_points.iter().any(|p| p.field_singular) {
-            let _ = writeln!(s, "  λ < 1: the field is infinite at the point and its computed peak grows as the mesh is refined;");
-            let _ = writeln!(s, "  the mesh is graded towards it. Model the real edge radius before quoting a peak stress there.");
+            let _ = writeln!(
+                s,
+                "  λ < 1: the field is infinite at the point and its computed peak grows as the mesh is refined;"
+            );
+            let _ = writeln!(
+                s,
+                "  the mesh is graded towards it. Model the real edge radius before quoting a peak stress there."
+            );
         }
     }
     s

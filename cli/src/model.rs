@@ -191,7 +191,10 @@ pub struct Model {
 impl Model {
     /// Turns a mesher error into a diagnostic pointing at the shape it concerns.
     pub fn mesh_error(&self, e: &MeshError) -> ModelError {
-        let span = e.shape().and_then(|name| self.geometry.shapes.iter().position(|s| s.name == name)).map(|i| self.shape_spans[i].clone());
+        let span = e
+            .shape()
+            .and_then(|name| self.geometry.shapes.iter().position(|s| s.name == name))
+            .map(|i| self.shape_spans[i].clone());
         let mut err = ModelError::new(&self.path, &self.source, span, e.message_in(self.unit_m, self.unit));
         if let Some(name) = e.shape() {
             err = err.key(format!("in shape '{name}'"));
@@ -218,7 +221,8 @@ fn units(name: &str) -> Option<(f64, &'static str)> {
 /// errors, unknown keys, and every inconsistency listed in `docs/model-format.md`.
 pub fn load(path: &Path) -> Result<Model, ModelError> {
     let source = std::fs::read_to_string(path).map_err(|e| {
-        ModelError::new(path, "", None, format!("cannot read the model file: {e}")).help("check the path and that the file is readable UTF-8 text")
+        ModelError::new(path, "", None, format!("cannot read the model file: {e}"))
+            .help("check the path and that the file is readable UTF-8 text")
     })?;
     parse(path, &source)
 }
@@ -254,11 +258,19 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             symmetry = match s.get_ref().as_str() {
                 "planar" => Symmetry::Planar,
                 "axisymmetric" => Symmetry::Axisymmetric,
-                other => return Err(err(s.span(), format!("unknown symmetry '{other}'")).key("model.symmetry").help("use \"planar\" or \"axisymmetric\"")),
+                other => {
+                    return Err(err(s.span(), format!("unknown symmetry '{other}'"))
+                        .key("model.symmetry")
+                        .help("use \"planar\" or \"axisymmetric\""))
+                }
             };
         }
         if let Some(u) = &h.length_unit {
-            (unit_m, unit) = units(u.get_ref()).ok_or_else(|| err(u.span(), format!("unknown length unit '{}'", u.get_ref())).key("model.length_unit").help("use one of \"m\", \"cm\", \"mm\", \"um\", \"in\""))?;
+            (unit_m, unit) = units(u.get_ref()).ok_or_else(|| {
+                err(u.span(), format!("unknown length unit '{}'", u.get_ref()))
+                    .key("model.length_unit")
+                    .help("use one of \"m\", \"cm\", \"mm\", \"um\", \"in\"")
+            })?;
         }
     }
     let name = name.unwrap_or_else(|| path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default());
@@ -289,7 +301,9 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             return Err(err(m.name.span(), "a material name is empty".into()).key(format!("material[{i}].name")));
         }
         if materials.iter().any(|o| &o.name == n) {
-            return Err(err(m.name.span(), format!("material '{n}' is defined twice")).key(format!("material[{i}].name")).help("give each material its own name"));
+            return Err(err(m.name.span(), format!("material '{n}' is defined twice"))
+                .key(format!("material[{i}].name"))
+                .help("give each material its own name"));
         }
         let eps = positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
         let allow = match &m.allowable_stress_kv_per_mm {
@@ -306,36 +320,55 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         let c = c.get_ref();
         let n = c.name.get_ref();
         if conductors.iter().any(|o| &o.name == n) {
-            return Err(err(c.name.span(), format!("conductor '{n}' is defined twice")).key(format!("conductor[{i}].name")).help("give each conductor its own name; several shapes may refer to one conductor"));
+            return Err(err(c.name.span(), format!("conductor '{n}' is defined twice"))
+                .key(format!("conductor[{i}].name"))
+                .help("give each conductor its own name; several shapes may refer to one conductor"));
         }
         let floating = c.floating.as_ref().map(|f| *f.get_ref()).unwrap_or(false);
         let kind = match (&c.potential_v, floating) {
             (Some(v), false) => {
                 let x = *v.get_ref();
                 if !x.is_finite() {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}")).key(format!("conductor[{i}].potential_v")));
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}"))
+                        .key(format!("conductor[{i}].potential_v")));
                 }
                 if let Some(q) = &c.charge_c {
-                    return Err(err(q.span(), "a conductor at a fixed potential cannot also have a given charge".into()).key(format!("conductor[{i}].charge_c")).help("remove charge_c, or replace potential_v by floating = true"));
+                    return Err(err(
+                        q.span(),
+                        "a conductor at a fixed potential cannot also have a given charge".into(),
+                    )
+                    .key(format!("conductor[{i}].charge_c"))
+                    .help("remove charge_c, or replace potential_v by floating = true"));
                 }
                 ConductorKind::Fixed { potential_v: x }
             }
             (None, true) => {
                 let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
                 if !q.is_finite() {
-                    return Err(err(c.charge_c.as_ref().unwrap().span(), "the charge must be a finite number".into()).key(format!("conductor[{i}].charge_c")));
+                    return Err(err(c.charge_c.as_ref().unwrap().span(), "the charge must be a finite number".into())
+                        .key(format!("conductor[{i}].charge_c")));
                 }
                 ConductorKind::Floating { charge_c: q }
             }
-            (Some(v), true) => return Err(err(v.span(), format!("conductor '{n}' has both a potential and floating = true")).key(format!("conductor[{i}]")).help("keep potential_v for an electrode, or floating = true for a floating conductor")),
-            (None, false) => return Err(err(span, format!("conductor '{n}' has neither a potential nor floating = true")).key(format!("conductor[{i}]")).help("add potential_v = <volts>, or floating = true")),
+            (Some(v), true) => {
+                return Err(err(v.span(), format!("conductor '{n}' has both a potential and floating = true"))
+                    .key(format!("conductor[{i}]"))
+                    .help("keep potential_v for an electrode, or floating = true for a floating conductor"))
+            }
+            (None, false) => {
+                return Err(err(span, format!("conductor '{n}' has neither a potential nor floating = true"))
+                    .key(format!("conductor[{i}]"))
+                    .help("add potential_v = <volts>, or floating = true"))
+            }
         };
         conductors.push(Conductor { name: n.clone(), kind });
     }
 
     // [[shape]]
     if raw.shape.is_empty() {
-        return Err(ModelError::new(path, source, None, "the model has no shape").key("shape").help("add a first [[shape]]: it is the domain, e.g. a rectangle filled with the surrounding dielectric"));
+        return Err(ModelError::new(path, source, None, "the model has no shape")
+            .key("shape")
+            .help("add a first [[shape]]: it is the domain, e.g. a rectangle filled with the surrounding dielectric"));
     }
     let mut shapes: Vec<Shape> = Vec::new();
     let mut shape_material = Vec::new();
@@ -346,32 +379,66 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         let sname = sh.name.get_ref().clone();
         let key = |k: &str| format!("shape[{i}].{k}");
         if shapes.iter().any(|o| o.name == sname) {
-            return Err(err(sh.name.span(), format!("shape '{sname}' is defined twice")).key(key("name")).help("give each shape its own name"));
+            return Err(err(sh.name.span(), format!("shape '{sname}' is defined twice"))
+                .key(key("name"))
+                .help("give each shape its own name"));
         }
         let (fill, mat) = match (&sh.material, &sh.conductor) {
             (Some(m), None) => {
                 let k = materials.iter().position(|x| &x.name == m.get_ref()).ok_or_else(|| {
                     let known: Vec<&str> = materials.iter().map(|x| x.name.as_str()).collect();
-                    err(m.span(), format!("unknown material '{}' in shape '{sname}'", m.get_ref())).key(key("material")).help(if known.is_empty() { "define it in a [[material]] table".to_string() } else { format!("known materials: {}", known.join(", ")) })
+                    err(m.span(), format!("unknown material '{}' in shape '{sname}'", m.get_ref()))
+                        .key(key("material"))
+                        .help(if known.is_empty() {
+                            "define it in a [[material]] table".to_string()
+                        } else {
+                            format!("known materials: {}", known.join(", "))
+                        })
                 })?;
                 (Fill::Dielectric { permittivity: materials[k].permittivity }, Some(k))
             }
             (None, Some(c)) => {
                 let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
                     let known: Vec<&str> = conductors.iter().map(|x| x.name.as_str()).collect();
-                    err(c.span(), format!("unknown conductor '{}' in shape '{sname}'", c.get_ref())).key(key("conductor")).help(if known.is_empty() { "define it in a [[conductor]] table".to_string() } else { format!("known conductors: {}", known.join(", ")) })
+                    err(c.span(), format!("unknown conductor '{}' in shape '{sname}'", c.get_ref()))
+                        .key(key("conductor"))
+                        .help(if known.is_empty() {
+                            "define it in a [[conductor]] table".to_string()
+                        } else {
+                            format!("known conductors: {}", known.join(", "))
+                        })
                 })?;
                 (Fill::Conductor { conductor: k as u32 }, None)
             }
-            (Some(m), Some(_)) => return Err(err(m.span(), format!("shape '{sname}' has both a material and a conductor")).key(key("material")).help("a shape is either a dielectric (material = ...) or a conductor (conductor = ...)")),
-            (None, None) => return Err(err(sh.name.span(), format!("shape '{sname}' has neither a material nor a conductor")).key(key("material")).help("add material = \"<name>\" or conductor = \"<name>\"")),
+            (Some(m), Some(_)) => {
+                return Err(err(m.span(), format!("shape '{sname}' has both a material and a conductor"))
+                    .key(key("material"))
+                    .help("a shape is either a dielectric (material = ...) or a conductor (conductor = ...)"))
+            }
+            (None, None) => {
+                return Err(err(sh.name.span(), format!("shape '{sname}' has neither a material nor a conductor"))
+                    .key(key("material"))
+                    .help("add material = \"<name>\" or conductor = \"<name>\""))
+            }
         };
         if i == 0 && mat.is_none() {
-            return Err(err(sh.name.span(), format!("the first shape '{sname}' is the domain and must be a dielectric, not a conductor")).key(key("conductor")).help("put the surrounding dielectric (e.g. a rectangle of air or oil) first"));
+            return Err(err(
+                sh.name.span(),
+                format!("the first shape '{sname}' is the domain and must be a dielectric, not a conductor"),
+            )
+            .key(key("conductor"))
+            .help("put the surrounding dielectric (e.g. a rectangle of air or oil) first"));
         }
-        let kinds = [sh.rectangle.is_some(), sh.circle.is_some(), sh.polygon.is_some(), sh.path.is_some()].iter().filter(|b| **b).count();
+        let kinds = [sh.rectangle.is_some(), sh.circle.is_some(), sh.polygon.is_some(), sh.path.is_some()]
+            .iter()
+            .filter(|b| **b)
+            .count();
         if kinds != 1 {
-            return Err(err(whole, format!("shape '{sname}' must have exactly one of rectangle, circle, polygon or path (it has {kinds})")).key(format!("shape[{i}]")));
+            return Err(err(
+                whole,
+                format!("shape '{sname}' must have exactly one of rectangle, circle, polygon or path (it has {kinds})"),
+            )
+            .key(format!("shape[{i}]")));
         }
         let me = |e: MeshError, span: Range<usize>| err(span, e.message_in(unit_m, unit));
         let outline = if let Some(r) = &sh.rectangle {
@@ -380,14 +447,28 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             let s = *r.size.get_ref();
             for (k, v) in s.iter().enumerate() {
                 if !(v.is_finite() && *v > 0.0) {
-                    return Err(err(r.size.span(), format!("the rectangle's {} must be a finite number greater than zero, not {v}", ["width", "height"][k])).key(key("rectangle.size")));
+                    return Err(err(
+                        r.size.span(),
+                        format!(
+                            "the rectangle's {} must be a finite number greater than zero, not {v}",
+                            ["width", "height"][k]
+                        ),
+                    )
+                    .key(key("rectangle.size")));
                 }
             }
             let fillet = match &r.fillet {
                 Some(f) => {
                     let v = *f.get_ref();
                     if !(v.is_finite() && v >= 0.0 && v <= 0.5 * s[0].min(s[1])) {
-                        return Err(err(f.span(), format!("the fillet radius {v} must be between 0 and half the shorter side ({})", 0.5 * s[0].min(s[1]))).key(key("rectangle.fillet")));
+                        return Err(err(
+                            f.span(),
+                            format!(
+                                "the fillet radius {v} must be between 0 and half the shorter side ({})",
+                                0.5 * s[0].min(s[1])
+                            ),
+                        )
+                        .key(key("rectangle.fillet")));
                     }
                     v * unit_m
                 }
@@ -407,7 +488,12 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             for k in 0..pts.len() {
                 if pts.len() >= 2 && pts[k] == pts[(k + 1) % pts.len()] {
                     let q = &p.get_ref()[(k + 1) % pts.len()];
-                    return Err(err(q.span(), format!("polygon point {} repeats the point before it", (k + 1) % pts.len())).key(key("polygon")).help("remove the repeated point; the outline closes by itself"));
+                    return Err(err(
+                        q.span(),
+                        format!("polygon point {} repeats the point before it", (k + 1) % pts.len()),
+                    )
+                    .key(key("polygon"))
+                    .help("remove the repeated point; the outline closes by itself"));
                 }
             }
             Outline::polygon(&sname, &pts).map_err(|e| me(e, p.span()))?
@@ -423,7 +509,9 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                 match (&st.line_to, &st.arc_to) {
                     (Some(to), None) => {
                         if st.radius.is_some() || st.turn.is_some() || st.large.is_some() {
-                            return Err(err(sspan, "a line_to step takes no radius, turn or large".into()).key(kk).help("use arc_to for an arc"));
+                            return Err(err(sspan, "a line_to step takes no radius, turn or large".into())
+                                .key(kk)
+                                .help("use arc_to for an arc"));
                         }
                         let to = finite_xy(to, kk.clone())?;
                         if to == at {
@@ -435,15 +523,22 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                     (None, Some(to_s)) => {
                         let to = finite_xy(to_s, kk.clone())?;
                         let Some(r) = &st.radius else {
-                            return Err(err(sspan, "an arc_to step needs a radius".into()).key(kk).help("add radius = <length>, and turn = \"ccw\" or \"cw\""));
+                            return Err(err(sspan, "an arc_to step needs a radius".into())
+                                .key(kk)
+                                .help("add radius = <length>, and turn = \"ccw\" or \"cw\""));
                         };
                         let rad = positive(r, format!("{kk}.radius"), "the arc radius")?;
                         let ccw = match st.turn.as_ref().map(|t| t.get_ref().as_str()) {
                             None | Some("ccw") => true,
                             Some("cw") => false,
-                            Some(o) => return Err(err(st.turn.as_ref().unwrap().span(), format!("unknown turn '{o}'")).key(format!("{kk}.turn")).help("use \"ccw\" (counter-clockwise, the default) or \"cw\"")),
+                            Some(o) => {
+                                return Err(err(st.turn.as_ref().unwrap().span(), format!("unknown turn '{o}'"))
+                                    .key(format!("{kk}.turn"))
+                                    .help("use \"ccw\" (counter-clockwise, the default) or \"cw\""))
+                            }
                         };
-                        let c = Curve::arc_through(&sname, at, to, rad * unit_m, ccw, st.large.unwrap_or(false)).map_err(|e| me(e, r.span()))?;
+                        let c = Curve::arc_through(&sname, at, to, rad * unit_m, ccw, st.large.unwrap_or(false))
+                            .map_err(|e| me(e, r.span()))?;
                         curves.push(c);
                         at = to;
                     }
@@ -471,19 +566,30 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         match kind {
             None | Some(("zero_flux", _)) => {
                 if let Some(v) = &b.potential_v {
-                    return Err(err(v.span(), "potential_v is given but the outer boundary is zero_flux".into()).key("boundary.potential_v").help("set outer = \"potential\" to hold the outer boundary at this potential"));
+                    return Err(err(v.span(), "potential_v is given but the outer boundary is zero_flux".into())
+                        .key("boundary.potential_v")
+                        .help("set outer = \"potential\" to hold the outer boundary at this potential"));
                 }
             }
             Some(("potential", _)) => {
-                let v = b.potential_v.as_ref().ok_or_else(|| err(bspan.clone(), "outer = \"potential\" needs potential_v".into()).key("boundary.potential_v").help("add potential_v = 0.0 for an earthed enclosure"))?;
+                let v = b.potential_v.as_ref().ok_or_else(|| {
+                    err(bspan.clone(), "outer = \"potential\" needs potential_v".into())
+                        .key("boundary.potential_v")
+                        .help("add potential_v = 0.0 for an earthed enclosure")
+                })?;
                 let x = *v.get_ref();
                 if !x.is_finite() {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}")).key("boundary.potential_v"));
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}"))
+                        .key("boundary.potential_v"));
                 }
                 outer = OuterBoundary::FixedPotential;
                 outer_potential_v = Some(x);
             }
-            Some((o, span)) => return Err(err(span, format!("unknown outer boundary '{o}'")).key("boundary.outer").help("use \"zero_flux\" (the default) or \"potential\"")),
+            Some((o, span)) => {
+                return Err(err(span, format!("unknown outer boundary '{o}'"))
+                    .key("boundary.outer")
+                    .help("use \"zero_flux\" (the default) or \"potential\""))
+            }
         }
     }
 
@@ -501,24 +607,29 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         if let Some(o) = &m.order {
             let v = *o.get_ref();
             if v != 1 && v != 2 {
-                return Err(err(o.span(), format!("element order {v} is not available")).key("mesh.order").help("use 1 (linear) or 2 (quadratic)"));
+                return Err(err(o.span(), format!("element order {v} is not available"))
+                    .key("mesh.order")
+                    .help("use 1 (linear) or 2 (quadratic)"));
             }
             params = params.with_order(v as u8);
         }
-        let ranged = |v: &Option<S<f64>>, key: &str, lo: f64, hi: f64, lo_open: bool| -> Result<Option<f64>, ModelError> {
-            match v {
-                None => Ok(None),
-                Some(s) => {
-                    let x = *s.get_ref();
-                    let ok = x.is_finite() && (if lo_open { x > lo } else { x >= lo }) && x <= hi;
-                    if ok {
-                        Ok(Some(x))
-                    } else {
-                        Err(err(s.span(), format!("{key} = {x} is out of range")).key(format!("mesh.{key}")).help(format!("use a value {} {lo} and at most {hi}", if lo_open { "above" } else { "from" })))
+        let ranged =
+            |v: &Option<S<f64>>, key: &str, lo: f64, hi: f64, lo_open: bool| -> Result<Option<f64>, ModelError> {
+                match v {
+                    None => Ok(None),
+                    Some(s) => {
+                        let x = *s.get_ref();
+                        let ok = x.is_finite() && (if lo_open { x > lo } else { x >= lo }) && x <= hi;
+                        if ok {
+                            Ok(Some(x))
+                        } else {
+                            Err(err(s.span(), format!("{key} = {x} is out of range")).key(format!("mesh.{key}")).help(
+                                format!("use a value {} {lo} and at most {hi}", if lo_open { "above" } else { "from" }),
+                            ))
+                        }
                     }
                 }
-            }
-        };
+            };
         if let Some(x) = ranged(&m.min_angle_deg, "min_angle_deg", 0.0, 33.0, true)? {
             params = params.with_min_angle_deg(x);
         }
@@ -537,7 +648,9 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         if let Some(n) = &m.max_nodes {
             let v = *n.get_ref();
             if !(16..=100_000_000).contains(&v) {
-                return Err(err(n.span(), format!("max_nodes = {v} is out of range")).key("mesh.max_nodes").help("use a count from 16 to 100000000"));
+                return Err(err(n.span(), format!("max_nodes = {v} is out of range"))
+                    .key("mesh.max_nodes")
+                    .help("use a count from 16 to 100000000"));
             }
             params = params.with_max_nodes(v as usize);
         }
@@ -548,7 +661,13 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             size_points.push(SizePoint { at, size_m: size });
         }
     }
-    let geometry = Geometry { symmetry, shapes, conductors: conductors.iter().map(|c| c.name.clone()).collect(), outer, size_points };
+    let geometry = Geometry {
+        symmetry,
+        shapes,
+        conductors: conductors.iter().map(|c| c.name.clone()).collect(),
+        outer,
+        size_points,
+    };
     let model = Model {
         name,
         geometry,

@@ -4,7 +4,8 @@
 use mesher::{EdgeTag, Mesh};
 use std::io::{self, Write};
 
-const PALETTE: [&str; 10] = ["#cfe3f5", "#f6dcb3", "#d5ecc2", "#e8d1ef", "#f9f0b0", "#c9ece6", "#f4c9c9", "#dcdcdc", "#e0e8b8", "#f1d8e4"];
+const PALETTE: [&str; 10] =
+    ["#cfe3f5", "#f6dcb3", "#d5ecc2", "#e8d1ef", "#f9f0b0", "#c9ece6", "#f4c9c9", "#dcdcdc", "#e0e8b8", "#f1d8e4"];
 
 /// Draws the mesh. `unit_m` and `unit` label the axes extent in the model's unit.
 ///
@@ -24,9 +25,20 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
     let height = ht * k + 2.0 * margin + 40.0;
     let x = |p: [f64; 2]| margin + (p[0] - bb[0]) * k;
     let y = |p: [f64; 2]| margin + 30.0 + (bb[3] - p[1]) * k;
-    writeln!(w, r##"<svg xmlns="http://www.w3.org/2000/svg" width="{width:.0}" height="{height:.0}" viewBox="0 0 {width:.0} {height:.0}" font-family="sans-serif" font-size="12">"##)?;
+    writeln!(
+        w,
+        r##"<svg xmlns="http://www.w3.org/2000/svg" width="{width:.0}" height="{height:.0}" viewBox="0 0 {width:.0} {height:.0}" font-family="sans-serif" font-size="12">"##
+    )?;
     writeln!(w, r##"<rect width="100%" height="100%" fill="white"/>"##)?;
-    writeln!(w, r##"<text x="{margin}" y="18">{} — {} triangles, {} nodes, extent {:.4} × {:.4} {unit}</text>"##, esc(title), mesh.num_triangles(), mesh.num_nodes(), wd / unit_m, ht / unit_m)?;
+    writeln!(
+        w,
+        r##"<text x="{margin}" y="18">{} — {} triangles, {} nodes, extent {:.4} × {:.4} {unit}</text>"##,
+        esc(title),
+        mesh.num_triangles(),
+        mesh.num_nodes(),
+        wd / unit_m,
+        ht / unit_m
+    )?;
     // One path per region keeps the file compact.
     let thin = 0.35;
     let mut regions: Vec<u32> = mesh.regions.clone();
@@ -67,13 +79,23 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
         writeln!(w, r##"<circle cx="{cx:.2}" cy="{cy:.2}" r="5" fill="none" stroke="{color}" stroke-width="1.5"/>"##)?;
         // Label only points that are not on top of an already labelled one.
         if labelled.iter().all(|&(lx, ly)| (lx - cx).hypot(ly - cy) > 14.0) {
-            writeln!(w, r##"<text x="{:.2}" y="{:.2}" fill="{color}">S{} λ={:.3}</text>"##, cx + 6.0, cy - 6.0, i + 1, s.lambda)?;
+            writeln!(
+                w,
+                r##"<text x="{:.2}" y="{:.2}" fill="{color}">S{} λ={:.3}</text>"##,
+                cx + 6.0,
+                cy - 6.0,
+                i + 1,
+                s.lambda
+            )?;
             labelled.push((cx, cy));
         }
     }
     // Legend.
     let ly = height - 8.0;
-    writeln!(w, r##"<text x="{margin}" y="{ly:.0}"><tspan fill="#000">━ conductor</tspan>  <tspan fill="#b03030">━ interface</tspan>  <tspan fill="#3050b0">━ outer/axis</tspan>  <tspan fill="#d00000">○ singular field (λ&lt;1)</tspan>  <tspan fill="#d08000">○ singular gradient</tspan></text>"##)?;
+    writeln!(
+        w,
+        r##"<text x="{margin}" y="{ly:.0}"><tspan fill="#000">━ conductor</tspan>  <tspan fill="#b03030">━ interface</tspan>  <tspan fill="#3050b0">━ outer/axis</tspan>  <tspan fill="#d00000">○ singular field (λ&lt;1)</tspan>  <tspan fill="#d08000">○ singular gradient</tspan></text>"##
+    )?;
     writeln!(w, "</svg>")
 }
 

@@ -217,9 +217,21 @@ mod tests {
         let geo = Geometry {
             symmetry: Symmetry::Planar,
             shapes: vec![
-                shape("box", Outline::rectangle("box", [0.0, 0.0], [4.0, 4.0], 0.0).unwrap(), Fill::Dielectric { permittivity: 1.0 }),
-                shape("solid", Outline::rectangle("solid", [1.0, 1.0], [2.0, 2.0], 0.0).unwrap(), Fill::Dielectric { permittivity: 4.0 }),
-                shape("hv", Outline::rectangle("hv", [2.0, 2.0], [2.0, 1.0], 0.0).unwrap(), Fill::Conductor { conductor: 0 }),
+                shape(
+                    "box",
+                    Outline::rectangle("box", [0.0, 0.0], [4.0, 4.0], 0.0).unwrap(),
+                    Fill::Dielectric { permittivity: 1.0 },
+                ),
+                shape(
+                    "solid",
+                    Outline::rectangle("solid", [1.0, 1.0], [2.0, 2.0], 0.0).unwrap(),
+                    Fill::Dielectric { permittivity: 4.0 },
+                ),
+                shape(
+                    "hv",
+                    Outline::rectangle("hv", [2.0, 2.0], [2.0, 1.0], 0.0).unwrap(),
+                    Fill::Conductor { conductor: 0 },
+                ),
             ],
             conductors: vec!["hv".into()],
             outer: OuterBoundary::ZeroFlux,
@@ -238,7 +250,12 @@ mod tests {
         }
         assert!((solid_cond - 2.0).abs() < 1e-12);
         // The outer boundary: 16 long minus the 1 unit where the conductor touches it.
-        let outer: f64 = arr.pieces.iter().filter(|p| p.left == Side::Outside || p.right == Side::Outside).map(|p| p.curve.length()).sum();
+        let outer: f64 = arr
+            .pieces
+            .iter()
+            .filter(|p| p.left == Side::Outside || p.right == Side::Outside)
+            .map(|p| p.curve.length())
+            .sum();
         assert!((outer - 16.0).abs() < 1e-12);
     }
 }

@@ -234,10 +234,8 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                 (a1 - a0, dirs[k].1)
             })
             .collect();
-        let conductors: Vec<u32> = sectors
-            .iter()
-            .filter_map(|s| if let Side::Conductor(c) = s.1 { Some(c) } else { None })
-            .collect();
+        let conductors: Vec<u32> =
+            sectors.iter().filter_map(|s| if let Side::Conductor(c) = s.1 { Some(c) } else { None }).collect();
         if let Some(&c0) = conductors.first() {
             if let Some(&c1) = conductors.iter().find(|&&c| c != c0) {
                 return Err(MeshError::ConductorsTouch {
@@ -289,9 +287,11 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
         if wall_idx.is_empty() {
             // Only dielectrics around the point.
             let secs: Vec<Sector> = sectors.iter().map(|s| Sector { angle: s.0, permittivity: eps(s.1) }).collect();
-            let distinct = secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+            let distinct =
+                secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
             if distinct {
-                let regions = sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
+                let regions =
+                    sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
                 consider(wedge_exponent(&secs, None, lambda_max), TAU, regions, SingularKind::DielectricCorner);
             }
         } else {
@@ -314,8 +314,10 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                     continue;
                 }
                 let opening: f64 = secs.iter().map(|s| s.angle).sum();
-                let has_cond = matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
-                let multi = secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+                let has_cond =
+                    matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
+                let multi =
+                    secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
                 let kind = match (has_cond, multi) {
                     (true, false) => SingularKind::ConductorCorner,
                     (true, true) => SingularKind::TripleJunction,
@@ -328,7 +330,9 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
             out.push((vi, b));
         }
     }
-    out.sort_by(|(_, a), (_, b)| a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1])));
+    out.sort_by(|(_, a), (_, b)| {
+        a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
+    });
     Ok(out)
 }
 

@@ -191,7 +191,6 @@ impl MeshError {
             InvalidMesh { detail } => write!(f, "invalid mesh: {detail}"),
         }
     }
-
 }
 
 impl std::error::Error for MeshError {}

@@ -66,20 +66,9 @@ impl Curve {
     /// # Errors
     /// [`MeshError::ArcTooShort`] if the radius is shorter than half the chord (no such arc),
     /// [`MeshError::BadNumber`] for a non-positive or non-finite radius.
-    pub fn arc_through(
-        shape: &str,
-        from: Xy,
-        to: Xy,
-        radius: f64,
-        ccw: bool,
-        large: bool,
-    ) -> Result<Curve, MeshError> {
+    pub fn arc_through(shape: &str, from: Xy, to: Xy, radius: f64, ccw: bool, large: bool) -> Result<Curve, MeshError> {
         if !(radius.is_finite() && radius > 0.0) {
-            return Err(MeshError::BadNumber {
-                shape: shape.to_string(),
-                what: "arc radius".into(),
-                value: radius,
-            });
+            return Err(MeshError::BadNumber { shape: shape.to_string(), what: "arc radius".into(), value: radius });
         }
         let d = sub(to, from);
         let chord = norm(d);
@@ -90,13 +79,7 @@ impl Curve {
         // Allow round-off: a radius equal to half the chord (a half circle) written with
         // decimals in the model file may come out a few ulps short.
         if radius < half * (1.0 - 1e-9) {
-            return Err(MeshError::ArcTooShort {
-                shape: shape.to_string(),
-                from,
-                to,
-                radius,
-                min_radius: half,
-            });
+            return Err(MeshError::ArcTooShort { shape: shape.to_string(), from, to, radius, min_radius: half });
         }
         let h = (radius * radius - half * half).max(0.0).sqrt();
         let mid = [from[0] + d[0] / 2.0, from[1] + d[1] / 2.0];
@@ -175,12 +158,9 @@ impl Curve {
     pub fn sub_curve(&self, t0: f64, t1: f64) -> Curve {
         match *self {
             Curve::Line { .. } => Curve::Line { from: self.point_at(t0), to: self.point_at(t1) },
-            Curve::Arc { center, radius, start, sweep } => Curve::Arc {
-                center,
-                radius,
-                start: start + t0 * sweep,
-                sweep: (t1 - t0) * sweep,
-            },
+            Curve::Arc { center, radius, start, sweep } => {
+                Curve::Arc { center, radius, start: start + t0 * sweep, sweep: (t1 - t0) * sweep }
+            }
         }
     }
 
@@ -326,7 +306,9 @@ impl Outline {
         for c in &curves {
             let (nums, what): (Vec<f64>, &str) = match *c {
                 Curve::Line { from, to } => (vec![from[0], from[1], to[0], to[1]], "coordinate"),
-                Curve::Arc { center, radius, start, sweep } => (vec![center[0], center[1], radius, start, sweep], "arc centre, radius or angle"),
+                Curve::Arc { center, radius, start, sweep } => {
+                    (vec![center[0], center[1], radius, start, sweep], "arc centre, radius or angle")
+                }
             };
             if let Some(&v) = nums.iter().find(|v| !v.is_finite()) {
                 return Err(MeshError::BadNumber { shape: shape.to_string(), what: what.into(), value: v });
@@ -363,14 +345,23 @@ impl Outline {
         let [x0, y0] = min;
         let [x1, y1] = [x0 + size[0], y0 + size[1]];
         if !(fillet.is_finite() && fillet >= 0.0) || fillet > 0.5 * size[0].min(size[1]) {
-            return Err(MeshError::BadNumber { shape: shape.to_string(), what: "fillet radius (must be ≥ 0 and at most half the shorter side)".into(), value: fillet });
+            return Err(MeshError::BadNumber {
+                shape: shape.to_string(),
+                what: "fillet radius (must be ≥ 0 and at most half the shorter side)".into(),
+                value: fillet,
+            });
         }
         let r = fillet;
         if r == 0.0 {
             return Outline::polygon(shape, &[[x0, y0], [x1, y0], [x1, y1], [x0, y1]]);
         }
         let mut c = Vec::new();
-        let corners = [([x1 - r, y0 + r], -PI / 2.0), ([x1 - r, y1 - r], 0.0), ([x0 + r, y1 - r], PI / 2.0), ([x0 + r, y0 + r], PI)];
+        let corners = [
+            ([x1 - r, y0 + r], -PI / 2.0),
+            ([x1 - r, y1 - r], 0.0),
+            ([x0 + r, y1 - r], PI / 2.0),
+            ([x0 + r, y0 + r], PI),
+        ];
         for (k, (center, a0)) in corners.iter().enumerate() {
             let arc = Curve::Arc { center: *center, radius: r, start: *a0, sweep: PI / 2.0 };
             let next_start = corners[(k + 1) % 4];
@@ -609,7 +600,11 @@ impl Geometry {
                     return Err(MeshError::UnknownConductor { shape: s.name.clone(), index: conductor });
                 }
                 Fill::Dielectric { permittivity } if !(permittivity.is_finite() && permittivity > 0.0) => {
-                    return Err(MeshError::BadNumber { shape: s.name.clone(), what: "relative permittivity".into(), value: permittivity });
+                    return Err(MeshError::BadNumber {
+                        shape: s.name.clone(),
+                        what: "relative permittivity".into(),
+                        value: permittivity,
+                    });
                 }
                 _ => {}
             }
@@ -628,7 +623,11 @@ impl Geometry {
             let b = s.outline.bbox();
             let diag = (b[2] - b[0]).hypot(b[3] - b[1]);
             if self.symmetry == Symmetry::Axisymmetric && b[0] < -tol {
-                let at = s.outline.sample(PI / 64.0).into_iter().fold([f64::INFINITY, 0.0], |m, p| if p[0] < m[0] { p } else { m });
+                let at =
+                    s.outline
+                        .sample(PI / 64.0)
+                        .into_iter()
+                        .fold([f64::INFINITY, 0.0], |m, p| if p[0] < m[0] { p } else { m });
                 return Err(MeshError::NegativeRadius { shape: s.name.clone(), at });
             }
             let pts = s.outline.sample(PI / 64.0);
@@ -651,15 +650,23 @@ impl Geometry {
                     let m = [(a[0] + pts[(k + 1) % n][0]) / 2.0, (a[1] + pts[(k + 1) % n][1]) / 2.0];
                     for q in [a, m] {
                         if !dom.contains(q) && dom.distance(q) > 1e-6 * scale {
-                            return Err(MeshError::OutsideDomain { shape: s.name.clone(), domain: self.shapes[0].name.clone(), at: q });
+                            return Err(MeshError::OutsideDomain {
+                                shape: s.name.clone(),
+                                domain: self.shapes[0].name.clone(),
+                                at: q,
+                            });
                         }
                     }
                 }
             }
         }
         for p in &self.size_points {
-            if !(p.size_m.is_finite() && p.size_m > 0.0) || !p.at.iter().all(|v| v.is_finite()) {
-                return Err(MeshError::BadNumber { shape: "mesh.point".into(), what: "point size".into(), value: p.size_m });
+            if !(p.size_m.is_finite() && p.size_m > 0.0 && p.at.iter().all(|v| v.is_finite())) {
+                return Err(MeshError::BadNumber {
+                    shape: "mesh.point".into(),
+                    what: "point size".into(),
+                    value: p.size_m,
+                });
             }
         }
         Ok(())

@@ -6,6 +6,11 @@ use crate::error::MeshError;
 use crate::geometry::{norm, sub, Symmetry, Xy};
 use std::collections::HashMap;
 
+/// Key of the undirected edge a–b: smaller id in the high half.
+fn edge_key(a: u32, b: u32) -> u64 {
+    ((a.min(b) as u64) << 32) | a.max(b) as u64
+}
+
 /// What a tagged edge bounds.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum EdgeTag {
@@ -197,38 +202,51 @@ impl Mesh {
                 used[v as usize] = true;
             }
             if self.regions[t] as usize >= self.shape_names.len() {
-                return bad(format!("triangle {t} has region {} but there are {} shapes", self.regions[t], self.shape_names.len()));
+                return bad(format!(
+                    "triangle {t} has region {} but there are {} shapes",
+                    self.regions[t],
+                    self.shape_names.len()
+                ));
             }
             let a = self.triangle_area(t);
-            if !(a > 0.0) {
+            if a.is_nan() || a <= 0.0 {
                 let c = tri.map(|i| self.nodes[i as usize]);
                 return bad(format!("triangle {t} with corners {c:?} is not counter-clockwise (area {a:e})"));
             }
         }
-        // Edge → adjacent (triangle, local edge).
-        let mut adj: HashMap<(u32, u32), Vec<(u32, u8)>> = HashMap::with_capacity(self.triangles.len() * 2);
-        for (t, tri) in self.triangles.iter().enumerate() {
-            for k in 0..3 {
-                let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                adj.entry((a.min(b), a.max(b))).or_default().push((t as u32, k as u8));
-            }
+        // Every (edge, triangle, local edge) sorted by edge: runs of equal keys are the
+        // triangles sharing an edge. (Sorting beats hashing here by a wide margin.)
+        let adj = self.sorted_edges();
+        let run_of = |key: u64| -> &[(u64, u32, u8)] {
+            let lo = adj.partition_point(|e| e.0 < key);
+            let hi = adj.partition_point(|e| e.0 <= key);
+            &adj[lo..hi]
+        };
+        let mut tags: Vec<(u64, u32)> =
+            self.edges.iter().enumerate().map(|(i, e)| (edge_key(e.nodes[0], e.nodes[1]), i as u32)).collect();
+        tags.sort_unstable();
+        if let Some(w) = tags.windows(2).find(|w| w[0].0 == w[1].0) {
+            let [a, b] = self.edges[w[0].1 as usize].nodes;
+            return bad(format!("edge {a}–{b} is tagged twice"));
         }
-        let mut tags: HashMap<(u32, u32), &TaggedEdge> = HashMap::with_capacity(self.edges.len());
+        let tag_of = |key: u64| tags.binary_search_by_key(&key, |t| t.0).ok().map(|i| &self.edges[tags[i].1 as usize]);
         for e in &self.edges {
             let [a, b] = e.nodes;
-            let key = (a.min(b), a.max(b));
-            if tags.insert(key, e).is_some() {
-                return bad(format!("edge {a}–{b} is tagged twice"));
+            let tris = run_of(edge_key(a, b));
+            if tris.is_empty() {
+                return bad(format!(
+                    "tagged edge {a}–{b} at {:?}–{:?} is not an edge of any triangle",
+                    self.nodes[a as usize], self.nodes[b as usize]
+                ));
             }
-            let Some(tris) = adj.get(&key) else {
-                return bad(format!("tagged edge {a}–{b} at {:?}–{:?} is not an edge of any triangle", self.nodes[a as usize], self.nodes[b as usize]));
-            };
             match e.tag {
                 EdgeTag::Interface(r1, r2) => {
-                    let mut rs: Vec<u32> = tris.iter().map(|&(t, _)| self.regions[t as usize]).collect();
+                    let mut rs: Vec<u32> = tris.iter().map(|&(_, t, _)| self.regions[t as usize]).collect();
                     rs.sort();
                     if rs != [r1, r2] {
-                        return bad(format!("edge {a}–{b} is tagged as the interface {r1}/{r2} but borders regions {rs:?}"));
+                        return bad(format!(
+                            "edge {a}–{b} is tagged as the interface {r1}/{r2} but borders regions {rs:?}"
+                        ));
                     }
                 }
                 EdgeTag::Axis if self.symmetry != Symmetry::Axisymmetric => {
@@ -243,7 +261,10 @@ impl Mesh {
             if e.tag == EdgeTag::Axis {
                 for v in [a, b] {
                     if self.nodes[v as usize][0].abs() > 1e-9 * scale {
-                        return bad(format!("axis edge {a}–{b} has node {v} off the axis at {:?}", self.nodes[v as usize]));
+                        return bad(format!(
+                            "axis edge {a}–{b} has node {v} off the axis at {:?}",
+                            self.nodes[v as usize]
+                        ));
                     }
                 }
             }
@@ -254,68 +275,90 @@ impl Mesh {
                 for v in [a, b] {
                     let d = (norm(sub(self.nodes[v as usize], g.center)) - g.radius).abs();
                     if d > 1e-9 * scale {
-                        return bad(format!("node {v} at {:?} of a curved edge is {d:e} m off its arc", self.nodes[v as usize]));
+                        return bad(format!(
+                            "node {v} at {:?} of a curved edge is {d:e} m off its arc",
+                            self.nodes[v as usize]
+                        ));
                     }
                 }
             }
         }
-        for (&(a, b), tris) in &adj {
-            if tris.len() > 2 {
-                return bad(format!("edge {a}–{b} at {:?} is shared by {} triangles", self.nodes[a as usize], tris.len()));
-            }
-            let needs_tag = tris.len() == 1 || self.regions[tris[0].0 as usize] != self.regions[tris[1].0 as usize];
-            if needs_tag && !tags.contains_key(&(a, b)) {
-                return bad(format!("edge {a}–{b} from {:?} to {:?} is on a boundary or interface but has no tag", self.nodes[a as usize], self.nodes[b as usize]));
-            }
+        let p2 = !self.mid_nodes.is_empty();
+        if p2 && self.mid_nodes.len() != self.triangles.len() {
+            return bad("order-2 mesh with a mid-node triple count different from the triangle count".into());
         }
-        // Duplicate nodes.
-        let mut order: Vec<u32> = (0..n as u32).collect();
-        order.sort_by(|&i, &j| {
-            let (p, q) = (self.nodes[i as usize], self.nodes[j as usize]);
-            p[0].total_cmp(&q[0]).then(p[1].total_cmp(&q[1]))
-        });
+        let mut i = 0;
+        while i < adj.len() {
+            let key = adj[i].0;
+            let mut j = i + 1;
+            while j < adj.len() && adj[j].0 == key {
+                j += 1;
+            }
+            let run = &adj[i..j];
+            let (a, b) = ((key >> 32) as u32, key as u32);
+            if run.len() > 2 {
+                return bad(format!(
+                    "edge {a}–{b} at {:?} is shared by {} triangles",
+                    self.nodes[a as usize],
+                    run.len()
+                ));
+            }
+            let needs_tag = run.len() == 1 || self.regions[run[0].1 as usize] != self.regions[run[1].1 as usize];
+            let tag = tag_of(key);
+            if needs_tag && tag.is_none() {
+                return bad(format!(
+                    "edge {a}–{b} from {:?} to {:?} is on a boundary or interface but has no tag",
+                    self.nodes[a as usize], self.nodes[b as usize]
+                ));
+            }
+            if p2 {
+                let m = self.mid_nodes[run[0].1 as usize][run[0].2 as usize];
+                if (m as usize) < nv || m as usize >= n {
+                    return bad(format!("triangle {} has mid node {m}, not a mid-edge node", run[0].1));
+                }
+                if let Some(&(_, t, k)) = run.get(1) {
+                    let other = self.mid_nodes[t as usize][k as usize];
+                    if other != m {
+                        return bad(format!("edge {a}–{b} has two different mid nodes {m} and {other}"));
+                    }
+                }
+                used[m as usize] = true;
+                let pm = self.nodes[m as usize];
+                let d = match tag.and_then(|e| e.arc) {
+                    Some(arc) => {
+                        let g = self.arcs[arc as usize];
+                        (norm(sub(pm, g.center)) - g.radius).abs()
+                    }
+                    None => {
+                        let (pa, pb) = (self.nodes[a as usize], self.nodes[b as usize]);
+                        norm(sub(pm, [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0]))
+                    }
+                };
+                if d > 1e-9 * scale {
+                    return bad(format!("mid node {m} of edge {a}–{b} is {d:e} m from where it belongs"));
+                }
+            }
+            i = j;
+        }
+        // Duplicate nodes: sort by coordinates (as order-preserving integer keys, which
+        // sorts far faster than comparing floats through the node array), then compare
+        // neighbours.
+        let ordered = |v: f64| {
+            let b = v.to_bits();
+            if b >> 63 == 1 {
+                !b
+            } else {
+                b | (1 << 63)
+            }
+        };
+        let mut order: Vec<(u64, u64, u32)> =
+            self.nodes.iter().enumerate().map(|(i, p)| (ordered(p[0]), ordered(p[1]), i as u32)).collect();
+        order.sort_unstable();
         for w in order.windows(2) {
-            let (p, q) = (self.nodes[w[0] as usize], self.nodes[w[1] as usize]);
+            let (i, j) = (w[0].2 as usize, w[1].2 as usize);
+            let (p, q) = (self.nodes[i], self.nodes[j]);
             if norm(sub(p, q)) <= 1e-13 * scale {
-                return bad(format!("nodes {} and {} coincide at {p:?}", w[0], w[1]));
-            }
-        }
-        if !self.mid_nodes.is_empty() {
-            if self.mid_nodes.len() != self.triangles.len() {
-                return bad("order-2 mesh with a mid-node triple count different from the triangle count".into());
-            }
-            let mut mid_of: HashMap<(u32, u32), u32> = HashMap::new();
-            for (t, (tri, mids)) in self.triangles.iter().zip(&self.mid_nodes).enumerate() {
-                for k in 0..3 {
-                    let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                    let key = (a.min(b), a.max(b));
-                    let m = mids[k];
-                    if (m as usize) < nv || m as usize >= n {
-                        return bad(format!("triangle {t} has mid node {m}, not a mid-edge node"));
-                    }
-                    used[m as usize] = true;
-                    if let Some(&other) = mid_of.get(&key) {
-                        if other != m {
-                            return bad(format!("edge {a}–{b} has two different mid nodes {m} and {other}"));
-                        }
-                    }
-                    mid_of.insert(key, m);
-                    let pm = self.nodes[m as usize];
-                    let arc = tags.get(&key).and_then(|e| e.arc);
-                    let d = match arc {
-                        Some(i) => {
-                            let g = self.arcs[i as usize];
-                            (norm(sub(pm, g.center)) - g.radius).abs()
-                        }
-                        None => {
-                            let (pa, pb) = (self.nodes[a as usize], self.nodes[b as usize]);
-                            norm(sub(pm, [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0]))
-                        }
-                    };
-                    if d > 1e-9 * scale {
-                        return bad(format!("mid node {m} of edge {a}–{b} is {d:e} m from where it belongs"));
-                    }
-                }
+                return bad(format!("nodes {i} and {j} coincide at {p:?}"));
             }
         }
         if let Some(i) = used.iter().position(|u| !u) {
@@ -330,37 +373,69 @@ impl Mesh {
         if !self.mid_nodes.is_empty() {
             return;
         }
-        let arc_of: HashMap<(u32, u32), u32> = self
-            .edges
-            .iter()
-            .filter_map(|e| e.arc.map(|a| ((e.nodes[0].min(e.nodes[1]), e.nodes[0].max(e.nodes[1])), a)))
-            .collect();
-        let mut mid_of: HashMap<(u32, u32), u32> = HashMap::with_capacity(self.triangles.len() * 2);
-        let mut mids = Vec::with_capacity(self.triangles.len());
-        for tri in &self.triangles {
-            let mut m = [0u32; 3];
-            for k in 0..3 {
-                let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                let key = (a.min(b), a.max(b));
-                m[k] = *mid_of.entry(key).or_insert_with(|| {
-                    let (pa, pb) = (self.nodes[a as usize], self.nodes[b as usize]);
-                    let p = match arc_of.get(&key) {
-                        Some(&i) => {
-                            let g = self.arcs[i as usize];
-                            let (ua, ub) = (sub(pa, g.center), sub(pb, g.center));
-                            // Bisector of the two radii (the short way round).
-                            let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
-                            let ns = norm(s);
-                            [g.center[0] + g.radius * s[0] / ns, g.center[1] + g.radius * s[1] / ns]
-                        }
-                        None => [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0],
-                    };
-                    self.nodes.push(p);
-                    (self.nodes.len() - 1) as u32
-                });
+        let mut arc_of: Vec<(u64, u32)> =
+            self.edges.iter().filter_map(|e| e.arc.map(|a| (edge_key(e.nodes[0], e.nodes[1]), a))).collect();
+        arc_of.sort_unstable();
+        let adj = self.sorted_edges();
+        let mut mids = vec![[0u32; 3]; self.triangles.len()];
+        self.nodes.reserve(adj.len() / 2 + 1);
+        let mut i = 0;
+        while i < adj.len() {
+            let key = adj[i].0;
+            let (a, b) = ((key >> 32) as usize, (key & 0xffff_ffff) as usize);
+            let (pa, pb) = (self.nodes[a], self.nodes[b]);
+            let p = match arc_of.binary_search_by_key(&key, |t| t.0) {
+                Ok(k) => {
+                    let g = self.arcs[arc_of[k].1 as usize];
+                    let (ua, ub) = (sub(pa, g.center), sub(pb, g.center));
+                    // Bisector of the two radii (the short way round).
+                    let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
+                    let ns = norm(s);
+                    [g.center[0] + g.radius * s[0] / ns, g.center[1] + g.radius * s[1] / ns]
+                }
+                Err(_) => [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0],
+            };
+            let id = self.nodes.len() as u32;
+            self.nodes.push(p);
+            while i < adj.len() && adj[i].0 == key {
+                mids[adj[i].1 as usize][adj[i].2 as usize] = id;
+                i += 1;
             }
-            mids.push(m);
         }
         self.mid_nodes = mids;
+    }
+
+    /// (edge key, triangle, local edge) for every triangle edge, sorted by key.
+    ///
+    /// A counting sort on the smaller vertex id, then a sort of each short bucket: linear
+    /// time, and several times faster than one comparison sort of all 3·N entries.
+    ///
+    /// # Panics
+    /// If a triangle refers to a node beyond `num_vertices` (checked by `validate` first).
+    fn sorted_edges(&self) -> Vec<(u64, u32, u8)> {
+        let nv = self.num_vertices as usize;
+        let mut start = vec![0u32; nv + 1];
+        for tri in &self.triangles {
+            for k in 0..3 {
+                start[tri[k].min(tri[(k + 1) % 3]) as usize + 1] += 1;
+            }
+        }
+        for i in 0..nv {
+            start[i + 1] += start[i];
+        }
+        let mut fill = start.clone();
+        let mut adj = vec![(0u64, 0u32, 0u8); 3 * self.triangles.len()];
+        for (t, tri) in self.triangles.iter().enumerate() {
+            for k in 0..3 {
+                let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                let slot = &mut fill[a.min(b) as usize];
+                adj[*slot as usize] = (edge_key(a, b), t as u32, k as u8);
+                *slot += 1;
+            }
+        }
+        for i in 0..nv {
+            adj[start[i] as usize..start[i + 1] as usize].sort_unstable();
+        }
+        adj
     }
 }

@@ -122,10 +122,25 @@ impl RefineParams {
             check("min_size", h, h > 0.0, "a length > 0")?;
         }
         check("order", self.order as f64, self.order == 1 || self.order == 2, "1 or 2")?;
-        check("min_angle_deg", self.min_angle_deg, self.min_angle_deg > 0.0 && self.min_angle_deg <= 33.0, "more than 0 and at most 33 degrees (higher limits do not terminate)")?;
+        check(
+            "min_angle_deg",
+            self.min_angle_deg,
+            self.min_angle_deg > 0.0 && self.min_angle_deg <= 33.0,
+            "more than 0 and at most 33 degrees (higher limits do not terminate)",
+        )?;
         check("gradation", self.gradation, self.gradation > 1.0 && self.gradation <= 3.0, "more than 1 and at most 3")?;
-        check("chord_tolerance", self.chord_tolerance, self.chord_tolerance > 0.0 && self.chord_tolerance <= 0.125, "more than 0 and at most 0.125")?;
-        check("grading_fraction", self.grading_fraction, self.grading_fraction > 0.0 && self.grading_fraction < 1.0, "strictly between 0 and 1")?;
+        check(
+            "chord_tolerance",
+            self.chord_tolerance,
+            self.chord_tolerance > 0.0 && self.chord_tolerance <= 0.125,
+            "more than 0 and at most 0.125",
+        )?;
+        check(
+            "grading_fraction",
+            self.grading_fraction,
+            self.grading_fraction > 0.0 && self.grading_fraction < 1.0,
+            "strictly between 0 and 1",
+        )?;
         check("max_nodes", self.max_nodes as f64, self.max_nodes >= 16, "at least 16")?;
         Ok(())
     }

@@ -103,7 +103,12 @@ pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, Me
     Ok(MeshOutcome { mesh, complete, reason, size_field: field, timings: clock.laps })
 }
 
-fn size_field(geo: &Geometry, arr: &Arrangement, singular: &[(usize, SingularPoint)], params: &RefineParams) -> SizeField {
+fn size_field(
+    geo: &Geometry,
+    arr: &Arrangement,
+    singular: &[(usize, SingularPoint)],
+    params: &RefineParams,
+) -> SizeField {
     let scale = geo.scale();
     let h_max = params.max_size_m.unwrap_or(scale / 25.0);
     let floor = params.min_size_m.unwrap_or(1e-6 * scale).min(h_max);
@@ -242,10 +247,15 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> V
             }
             continue;
         }
+        if h >= 0.95 * field.max() {
+            // Uniform zone: Delaunay refinement with the global area bound fills it
+            // (faster than bulk-loading seeds there).
+            continue;
+        }
         let k = ((s / h).round() as usize).clamp(1, 4);
         let d = s / k as f64;
         for j in 0..k {
-            let shift = if (j + depth as usize) % 2 == 0 { 0.25 * d } else { -0.25 * d };
+            let shift = if (j + depth as usize).is_multiple_of(2) { 0.25 * d } else { -0.25 * d };
             for i in 0..k {
                 let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
                 if p[0] > bb[2] || p[1] > bb[3] || !domain.contains(p) {
@@ -271,7 +281,13 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> V
     out
 }
 
-fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefineParams, clock: &mut Stopwatch) -> Result<(Cdt, bool), MeshError> {
+fn triangulate(
+    pslg: &Pslg,
+    seeds: &[Xy],
+    field: &SizeField,
+    params: &RefineParams,
+    clock: &mut Stopwatch,
+) -> Result<(Cdt, bool), MeshError> {
     let mut vertices: Vec<Point2<f64>> = Vec::with_capacity(pslg.points.len() + seeds.len());
     vertices.extend(pslg.points.iter().map(|p| Point2::new(p[0], p[1])));
     vertices.extend(seeds.iter().map(|p| Point2::new(p[0], p[1])));
@@ -287,7 +303,9 @@ fn triangulate(pslg: &Pslg, seeds: &[Xy], field: &SizeField, params: &RefinePara
         });
     }
     if cdt.num_vertices() != n_in {
-        return Err(MeshError::Triangulation { detail: "coincident input points were merged; features are closer than the resolution limit".into() });
+        return Err(MeshError::Triangulation {
+            detail: "coincident input points were merged; features are closer than the resolution limit".into(),
+        });
     }
     clock.lap("spade bulk load");
     let h_max = field.max();
@@ -314,7 +332,14 @@ fn side_of(geo: &Geometry, p: Xy) -> Side {
     }
 }
 
-fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, cdt: &Cdt, singular_points: Vec<SingularPoint>) -> Result<Mesh, MeshError> {
+fn extract(
+    geo: &Geometry,
+    arr: &Arrangement,
+    pslg: &Pslg,
+    grid: &SegmentGrid,
+    cdt: &Cdt,
+    singular_points: Vec<SingularPoint>,
+) -> Result<Mesh, MeshError> {
     let scale = geo.scale();
     let nf = cdt.num_all_faces();
     // Component labels by flood fill across non-constraint edges.
@@ -357,10 +382,13 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
     }
     let face_side = |fi: usize| label[fi].unwrap_or(Side::Outside);
     // Nodes: positions of all CDT vertices; compacted after we know which are used.
-    let all: Vec<Xy> = cdt.vertices().map(|v| {
-        let p = v.position();
-        [p.x, p.y]
-    }).collect();
+    let all: Vec<Xy> = cdt
+        .vertices()
+        .map(|v| {
+            let p = v.position();
+            [p.x, p.y]
+        })
+        .collect();
     let mut map = vec![u32::MAX; all.len()];
     let mut nodes: Vec<Xy> = Vec::new();
     let mut triangles = Vec::new();
@@ -376,7 +404,8 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
     for f in cdt.inner_faces() {
         if let Side::Region(r) = face_side(f.fix().index()) {
             let vs = f.vertices();
-            let tri = [node_id(vs[0].fix(), &mut nodes), node_id(vs[1].fix(), &mut nodes), node_id(vs[2].fix(), &mut nodes)];
+            let tri =
+                [node_id(vs[0].fix(), &mut nodes), node_id(vs[1].fix(), &mut nodes), node_id(vs[2].fix(), &mut nodes)];
             triangles.push(tri);
             regions.push(r);
         }
@@ -405,8 +434,12 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
                     (to, from, EdgeTag::Interface(y, x))
                 }
             }
-            (Side::Region(_), other) => (from, to, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale)),
-            (other, Side::Region(_)) => (to, from, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale)),
+            (Side::Region(_), other) => {
+                (from, to, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
+            }
+            (other, Side::Region(_)) => {
+                (to, from, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
+            }
             _ => continue,
         };
         // Which piece of the arrangement the edge lies on.
@@ -428,7 +461,9 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
             if let Curve::Arc { center, radius, .. } = arr.pieces[piece].curve {
                 if arc_index[piece] == u32::MAX {
                     // Share one record between pieces of the same circle.
-                    let found = arcs.iter().position(|g| norm(sub(g.center, center)) <= 1e-12 * scale && (g.radius - radius).abs() <= 1e-12 * scale);
+                    let found = arcs.iter().position(|g| {
+                        norm(sub(g.center, center)) <= 1e-12 * scale && (g.radius - radius).abs() <= 1e-12 * scale
+                    });
                     arc_index[piece] = match found {
                         Some(i) => i as u32,
                         None => {
@@ -444,11 +479,23 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
         }
         edges.push(TaggedEdge { nodes: [map[a.index()], map[b.index()]], tag, arc });
     }
-    // Move nodes that refinement put on arc chords onto their arcs.
-    let mut incident: Vec<Vec<u32>> = vec![Vec::new(); nodes.len()];
+    // Move nodes that refinement put on arc chords onto their arcs. Triangles around
+    // those nodes are collected first (only for them: a per-node list for the whole mesh
+    // would cost an allocation per node).
+    let mut slot = vec![u32::MAX; nodes.len()];
+    let mut arc_nodes = 0u32;
+    for (i, arc) in on_arc.iter().enumerate() {
+        if arc.is_some() && map[i] != u32::MAX {
+            slot[map[i] as usize] = arc_nodes;
+            arc_nodes += 1;
+        }
+    }
+    let mut incident: Vec<Vec<u32>> = vec![Vec::new(); arc_nodes as usize];
     for (t, tri) in triangles.iter().enumerate() {
         for &v in tri {
-            incident[v as usize].push(t as u32);
+            if slot[v as usize] != u32::MAX {
+                incident[slot[v as usize] as usize].push(t as u32);
+            }
         }
     }
     let area = |nodes: &[Xy], tri: &[u32; 3]| {
@@ -470,7 +517,7 @@ fn extract(geo: &Geometry, arr: &Arrangement, pslg: &Pslg, grid: &SegmentGrid, c
         }
         let q = [g.center[0] + g.radius * v[0] / r, g.center[1] + g.radius * v[1] / r];
         nodes[id as usize] = q;
-        if incident[id as usize].iter().any(|&t| area(&nodes, &triangles[t as usize]) <= 0.0) {
+        if incident[slot[id as usize] as usize].iter().any(|&t| area(&nodes, &triangles[t as usize]) <= 0.0) {
             nodes[id as usize] = p;
             stay_on_chord.push(id);
         }

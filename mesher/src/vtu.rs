@@ -151,7 +151,11 @@ pub fn write_vtu(mesh: &Mesh, nodes: &[NodeArray<'_>], cells: &[CellArray<'_>], 
     }
     writeln!(w, "</DataArray>")?;
     for a in cells {
-        writeln!(w, r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#, a.name, a.components)?;
+        writeln!(
+            w,
+            r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#,
+            a.name, a.components
+        )?;
         for v in a.values.chunks(a.components) {
             write_row(w, v)?;
         }
@@ -164,7 +168,11 @@ pub fn write_vtu(mesh: &Mesh, nodes: &[NodeArray<'_>], cells: &[CellArray<'_>], 
     if !nodes.is_empty() {
         writeln!(w, "<PointData>")?;
         for a in nodes {
-            writeln!(w, r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#, a.name, a.components)?;
+            writeln!(
+                w,
+                r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#,
+                a.name, a.components
+            )?;
             for v in a.values.chunks(a.components) {
                 write_row(w, v)?;
             }

@@ -80,7 +80,9 @@ fn unknown_material() {
 
 #[test]
 fn duplicate_names() {
-    let t = format!("{HEAD}\n[[shape]]\nname = \"box\"\nmaterial = \"epoxy\"\ncircle = {{ center = [50.0, 50.0], radius = 5.0 }}\n");
+    let t = format!(
+        "{HEAD}\n[[shape]]\nname = \"box\"\nmaterial = \"epoxy\"\ncircle = {{ center = [50.0, 50.0], radius = 5.0 }}\n"
+    );
     fails(&t, &["shape 'box' is defined twice"]);
     let t = HEAD.replace("name = \"epoxy\"", "name = \"air\"");
     fails(&t, &["material 'air' is defined twice"]);
@@ -94,9 +96,13 @@ fn arc_radius_shorter_than_half_chord() {
 
 #[test]
 fn nan_and_infinite_coordinates() {
-    let t = format!("{HEAD}\n[[shape]]\nname = \"p\"\nmaterial = \"epoxy\"\npolygon = [[10.0, 10.0], [nan, 20.0], [30.0, 10.0]]\n");
+    let t = format!(
+        "{HEAD}\n[[shape]]\nname = \"p\"\nmaterial = \"epoxy\"\npolygon = [[10.0, 10.0], [nan, 20.0], [30.0, 10.0]]\n"
+    );
     fails(&t, &["finite", "shape[1].polygon[1]"]);
-    let t = format!("{HEAD}\n[[shape]]\nname = \"c\"\nmaterial = \"epoxy\"\ncircle = {{ center = [inf, 50.0], radius = 5.0 }}\n");
+    let t = format!(
+        "{HEAD}\n[[shape]]\nname = \"c\"\nmaterial = \"epoxy\"\ncircle = {{ center = [inf, 50.0], radius = 5.0 }}\n"
+    );
     fails(&t, &["finite", "shape[1].circle.center"]);
 }
 
@@ -108,7 +114,9 @@ fn negative_radius_in_axisymmetric_model() {
 
 #[test]
 fn shape_outside_the_domain() {
-    let t = format!("{HEAD}\n[[shape]]\nname = \"far\"\nconductor = \"hv\"\ncircle = {{ center = [150.0, 50.0], radius = 5.0 }}\n");
+    let t = format!(
+        "{HEAD}\n[[shape]]\nname = \"far\"\nconductor = \"hv\"\ncircle = {{ center = [150.0, 50.0], radius = 5.0 }}\n"
+    );
     fails(&t, &["reaches outside the domain 'box'", &line_of(&t, "name = \"far\"")]);
 }
 

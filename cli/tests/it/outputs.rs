@@ -7,7 +7,15 @@ fn vtu_svg_and_json_agree() {
     let dir = tempfile::tempdir().unwrap();
     let vtu = dir.path().join("m.vtu");
     let svg = dir.path().join("m.svg");
-    let o = run(&["mesh", fixture("busbar-support.toml").to_str().unwrap(), "--json", "--out", vtu.to_str().unwrap(), "--svg", svg.to_str().unwrap()]);
+    let o = run(&[
+        "mesh",
+        fixture("busbar-support.toml").to_str().unwrap(),
+        "--json",
+        "--out",
+        vtu.to_str().unwrap(),
+        "--svg",
+        svg.to_str().unwrap(),
+    ]);
     assert!(o.status.success());
     let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let nodes = j["nodes"].as_u64().unwrap();

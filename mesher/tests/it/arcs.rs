@@ -31,7 +31,11 @@ fn check(radius: f64, h: f64, chord_tol: f64, order: u8) {
         let chord = (p[0] - q[0]).hypot(p[1] - q[1]);
         let half = (chord / (2.0 * g.radius)).min(1.0).asin();
         let sagitta = g.radius * (1.0 - half.cos());
-        assert!(sagitta <= chord_tol * chord * (1.0 + 1e-9), "chord {chord} of radius {} has sagitta {sagitta}", g.radius);
+        assert!(
+            sagitta <= chord_tol * chord * (1.0 + 1e-9),
+            "chord {chord} of radius {} has sagitta {sagitta}",
+            g.radius
+        );
     }
     // Both circles are present: the rod (two halves, one record) and the four fillets.
     assert!(arc_edges >= 16);

@@ -19,7 +19,8 @@ fn conductor_corners_and_triple_junctions() {
         &["hv"],
     );
     let m = generate(&geo, &RefineParams::new().with_order(1).with_max_size_m(0.2)).unwrap().mesh;
-    let at = |x: f64, y: f64| m.singular_points.iter().find(|s| (s.at[0] - x).abs() < 1e-12 && (s.at[1] - y).abs() < 1e-12);
+    let at =
+        |x: f64, y: f64| m.singular_points.iter().find(|s| (s.at[0] - x).abs() < 1e-12 && (s.at[1] - y).abs() < 1e-12);
     for (x, y) in [(-0.5, 0.5), (0.5, 0.5)] {
         let s = at(x, y).expect("top corner");
         assert_eq!(s.kind, SingularKind::ConductorCorner);

@@ -10,13 +10,22 @@ fn square(name: &str, x: f64, y: f64, s: f64) -> Outline {
 #[test]
 fn outline_errors() {
     assert!(matches!(
-        Outline::new("open", vec![Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] }, Curve::Line { from: [1.0, 0.0], to: [1.0, 1.0] }]),
+        Outline::new(
+            "open",
+            vec![Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] }, Curve::Line { from: [1.0, 0.0], to: [1.0, 1.0] }]
+        ),
         Err(MeshError::NotClosed { .. })
     ));
     assert!(matches!(Outline::rectangle("r", [0.0, 0.0], [0.0, 1.0], 0.0), Err(MeshError::BadNumber { .. })));
     assert!(matches!(Outline::circle("c", [0.0, 0.0], -1.0), Err(MeshError::BadNumber { .. })));
-    assert!(matches!(Outline::new("nan", vec![Curve::Line { from: [f64::NAN, 0.0], to: [1.0, 0.0] }]), Err(MeshError::BadNumber { .. })));
-    assert!(matches!(Curve::arc_through("a", [0.0, 0.0], [2.0, 0.0], 0.5, true, false), Err(MeshError::ArcTooShort { .. })));
+    assert!(matches!(
+        Outline::new("nan", vec![Curve::Line { from: [f64::NAN, 0.0], to: [1.0, 0.0] }]),
+        Err(MeshError::BadNumber { .. })
+    ));
+    assert!(matches!(
+        Curve::arc_through("a", [0.0, 0.0], [2.0, 0.0], 0.5, true, false),
+        Err(MeshError::ArcTooShort { .. })
+    ));
 }
 
 #[test]
@@ -31,12 +40,16 @@ fn geometry_errors() {
     let e = generate(&planar(vec![dom(), dielectric("flat", flat, 2.0)], &[]), &RefineParams::new()).unwrap_err();
     assert!(matches!(e, MeshError::ZeroArea { .. } | MeshError::SelfIntersecting { .. }), "{e}");
     // Outside the domain.
-    let e = generate(&planar(vec![dom(), conductor("far", square("far", 2.0, 2.0, 0.5), 0)], &["c"]), &RefineParams::new()).unwrap_err();
+    let e =
+        generate(&planar(vec![dom(), conductor("far", square("far", 2.0, 2.0, 0.5), 0)], &["c"]), &RefineParams::new())
+            .unwrap_err();
     assert!(matches!(e, MeshError::OutsideDomain { ref shape, .. } if shape == "far"), "{e}");
     // Missing domain.
     assert!(matches!(generate(&planar(vec![], &[]), &RefineParams::new()), Err(MeshError::NoDomain)));
     // Duplicate names.
-    let e = generate(&planar(vec![dom(), dielectric("box", square("box", 0.2, 0.2, 0.2), 2.0)], &[]), &RefineParams::new()).unwrap_err();
+    let e =
+        generate(&planar(vec![dom(), dielectric("box", square("box", 0.2, 0.2, 0.2), 2.0)], &[]), &RefineParams::new())
+            .unwrap_err();
     assert!(matches!(e, MeshError::DuplicateName { .. }), "{e}");
     // Negative radius in an axisymmetric model.
     let mut g = planar(vec![dielectric("box", square("box", -0.5, 0.0, 1.0), 1.0)], &[]);
@@ -44,7 +57,10 @@ fn geometry_errors() {
     assert!(matches!(generate(&g, &RefineParams::new()), Err(MeshError::NegativeRadius { .. })));
     // Two different conductors touching at a corner.
     let e = generate(
-        &planar(vec![dom(), conductor("a", square("a", 0.2, 0.2, 0.2), 0), conductor("b", square("b", 0.4, 0.4, 0.2), 1)], &["a", "b"]),
+        &planar(
+            vec![dom(), conductor("a", square("a", 0.2, 0.2, 0.2), 0), conductor("b", square("b", 0.4, 0.4, 0.2), 1)],
+            &["a", "b"],
+        ),
         &RefineParams::new(),
     )
     .unwrap_err();
@@ -71,9 +87,20 @@ fn tiny_features_and_sharp_angles_terminate() {
     // size: the mesher must terminate and return a valid mesh (Shewchuk 2002: small input
     // angles are protected, the node budget is the last resort).
     let tip = 2f64.to_radians();
-    let needle = Outline::polygon("needle", &[[0.1, 0.5], [0.9, 0.5 - 0.8 * (tip / 2.0).tan()], [0.9, 0.5 + 0.8 * (tip / 2.0).tan()]]).unwrap();
+    let needle = Outline::polygon(
+        "needle",
+        &[[0.1, 0.5], [0.9, 0.5 - 0.8 * (tip / 2.0).tan()], [0.9, 0.5 + 0.8 * (tip / 2.0).tan()]],
+    )
+    .unwrap();
     let speck = square("speck", 0.3, 0.2, 1e-5);
-    let g = planar(vec![dielectric("box", square("box", 0.0, 0.0, 1.0), 1.0), dielectric("needle", needle, 3.0), dielectric("speck", speck, 5.0)], &[]);
+    let g = planar(
+        vec![
+            dielectric("box", square("box", 0.0, 0.0, 1.0), 1.0),
+            dielectric("needle", needle, 3.0),
+            dielectric("speck", speck, 5.0),
+        ],
+        &[],
+    );
     let out = generate(&g, &RefineParams::new().with_max_nodes(200_000)).unwrap();
     out.mesh.validate().unwrap();
 }

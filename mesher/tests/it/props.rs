@@ -22,17 +22,16 @@ fn star(center: [f64; 2], radii: &[f64], phase: f64, jitter: &[f64]) -> Vec<[f64
 /// 0.7·cos(0.9π/8) ≈ 0.53 from the origin, clear of the holes,
 /// which stay within 0.45 of the origin.
 fn case() -> impl Strategy<Value = (Vec<f64>, Vec<f64>, usize, Vec<f64>, f64, u8)> {
-    (8usize..14)
-        .prop_flat_map(|n| {
-            (
-                prop::collection::vec(0.7f64..1.0, n),
-                prop::collection::vec(-1.0f64..1.0, n),
-                0usize..3,
-                prop::collection::vec(0.05f64..0.12, 5),
-                0.04f64..0.3,
-                1u8..3,
-            )
-        })
+    (8usize..14).prop_flat_map(|n| {
+        (
+            prop::collection::vec(0.7f64..1.0, n),
+            prop::collection::vec(-1.0f64..1.0, n),
+            0usize..3,
+            prop::collection::vec(0.05f64..0.12, 5),
+            0.04f64..0.3,
+            1u8..3,
+        )
+    })
 }
 
 proptest! {
