@@ -1,1 +1,60 @@
-//! placeholder
+//! Mesh → solution: the physics and numerics stage of fieldgrade.
+//!
+//! The pipeline, one data type per stage, one direction:
+//!
+//! ```text
+//! model file ──(cli)──► mesher::Geometry ──(mesher)──► mesher::Mesh ──(engine)──► Solution
+//! ```
+//!
+//! `engine` takes a [`mesher::Mesh`] and a [`Problem`] (permittivity per region, how each
+//! conductor is held, the outer boundary) and solves the electrostatic problem
+//! −∇·(ε∇V) = 0 with linear or quadratic (isoparametric) triangles, planar or
+//! axisymmetric. It never parses files and never prints: the command-line front end does
+//! both.
+//!
+//! # Brief overview
+//! - [`Problem`], [`ConductorSpec`]: the physics.
+//! - [`solve`] → [`Solution`]: nodal potentials, conductor potentials and charges
+//!   (reaction method), stored energy.
+//! - [`space`]: reference elements and quadrature rules.
+//!
+//! Status: the solve above is in place and checked against closed forms (coaxial
+//! cylinders, concentric spheres). Field recovery, line probes, the capacitance matrix,
+//! the open boundary, error estimation and adaptivity are the next stages.
+//!
+//! ```
+//! use engine::{solve, ConductorSpec, Problem, EPSILON_0};
+//! use mesher::{generate, Fill, Geometry, OuterBoundary, Outline, RefineParams, Shape, Symmetry};
+//! // Coaxial cylinders, inner radius 1 cm at 1 V, outer radius 3 cm earthed, air.
+//! let shapes = vec![
+//!     Shape { name: "gap".into(), fill: Fill::Dielectric { permittivity: 1.0 }, max_size_m: None,
+//!             outline: Outline::circle("gap", [0.0, 0.0], 0.03)? },
+//!     Shape { name: "core".into(), fill: Fill::Conductor { conductor: 0 }, max_size_m: None,
+//!             outline: Outline::circle("core", [0.0, 0.0], 0.01)? },
+//! ];
+//! let geo = Geometry { symmetry: Symmetry::Planar, shapes, conductors: vec!["core".into()],
+//!                      outer: OuterBoundary::FixedPotential, size_points: vec![] };
+//! let mesh = generate(&geo, &RefineParams::new().with_max_size_m(0.004))?.mesh;
+//! let problem = Problem { permittivity: vec![1.0, 1.0], conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
+//!                         outer_potential_v: Some(0.0) };
+//! let sol = solve(&mesh, &problem).unwrap();
+//! // Capacitance per metre 2πε₀/ln(b/a), from the charge at 1 V.
+//! let exact = 2.0 * std::f64::consts::PI * EPSILON_0 / 3f64.ln();
+//! assert!((sol.conductor_charges[0] - exact).abs() < 1e-3 * exact);
+//! # Ok::<(), mesher::MeshError>(())
+//! ```
+//!
+//! # Crate features
+//! None. Sparse Cholesky comes from `faer`; no `faer` type appears in the public API.
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![warn(missing_debug_implementations)]
+
+mod error;
+mod problem;
+mod solve;
+pub mod space;
+
+pub use error::SolveError;
+pub use problem::{ConductorSpec, Problem};
+pub use solve::{solve, Solution, EPSILON_0};

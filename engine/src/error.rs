@@ -1,0 +1,50 @@
+//! The engine's error type.
+
+use std::fmt;
+
+/// Why a solve cannot proceed.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// A region has no usable permittivity.
+    BadPermittivity {
+        /// Region (shape) name.
+        region: String,
+        /// The value found.
+        value: f64,
+    },
+    /// The problem describes a different number of conductors than the mesh has.
+    ConductorMismatch {
+        /// Conductors in the mesh.
+        mesh: usize,
+        /// Conductors in the problem.
+        problem: usize,
+    },
+    /// A conductor's potential or charge is not a finite number.
+    BadConductor {
+        /// Conductor name.
+        conductor: String,
+    },
+    /// Nothing holds the potential: no conductor at a fixed potential and no outer
+    /// boundary potential, so the potential is defined only up to a constant.
+    NoPotentialReference,
+    /// The sparse factorisation failed (the reduced matrix is not positive definite).
+    Factorisation {
+        /// Detail from the factorisation.
+        detail: String,
+    },
+}
+
+impl fmt::Display for SolveError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            SolveError::BadPermittivity { region, value } => write!(f, "region '{region}' has relative permittivity {value}; give its material a finite permittivity greater than zero"),
+            SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
+            SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
+            SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
+            SolveError::Factorisation { detail } => write!(f, "the system matrix could not be factorised ({detail}); a part of the domain may be cut off from every fixed potential, for example a dielectric region enclosed by floating conductors only"),
+        }
+    }
+}
+
+impl std::error::Error for SolveError {}

@@ -1,0 +1,68 @@
+//! The physics of a model: permittivity per region, how each conductor is held, and the
+//! outer boundary.
+
+use crate::error::SolveError;
+use mesher::Mesh;
+
+/// How a conductor's potential is set.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum ConductorSpec {
+    /// Held at a potential, volts.
+    Fixed {
+        /// Potential, V.
+        potential_v: f64,
+    },
+    /// Floating: one unknown potential, given net charge (C, or C/m in planar models).
+    Floating {
+        /// Net charge.
+        charge_c: f64,
+    },
+}
+
+/// What the engine needs besides the mesh.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Problem {
+    /// Relative permittivity per shape index (the mesh's region ids); entries for conductor
+    /// shapes are ignored.
+    pub permittivity: Vec<f64>,
+    /// One entry per conductor of the mesh, in the mesh's conductor order.
+    pub conductors: Vec<ConductorSpec>,
+    /// Potential of the outer boundary, or `None` for zero normal flux.
+    pub outer_potential_v: Option<f64>,
+}
+
+impl Problem {
+    /// Checks the problem against the mesh.
+    ///
+    /// # Errors
+    /// A region without a valid permittivity, or a conductor count mismatch.
+    pub fn check(&self, mesh: &Mesh) -> Result<(), SolveError> {
+        if self.conductors.len() != mesh.conductor_names.len() {
+            return Err(SolveError::ConductorMismatch {
+                mesh: mesh.conductor_names.len(),
+                problem: self.conductors.len(),
+            });
+        }
+        let mut seen = vec![false; mesh.shape_names.len()];
+        for &r in &mesh.regions {
+            if seen[r as usize] {
+                continue;
+            }
+            seen[r as usize] = true;
+            let eps = self.permittivity.get(r as usize).copied().unwrap_or(f64::NAN);
+            if !(eps.is_finite() && eps > 0.0) {
+                return Err(SolveError::BadPermittivity { region: mesh.shape_names[r as usize].clone(), value: eps });
+            }
+        }
+        for (c, spec) in self.conductors.iter().enumerate() {
+            let v = match *spec {
+                ConductorSpec::Fixed { potential_v } => potential_v,
+                ConductorSpec::Floating { charge_c } => charge_c,
+            };
+            if !v.is_finite() {
+                return Err(SolveError::BadConductor { conductor: mesh.conductor_names[c].clone() });
+            }
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,58 @@
+//! Capacitances against closed forms (any electrostatics text, e.g. D. J. Griffiths,
+//! *Introduction to Electrodynamics*, 4th ed., 2017, §2.5 and problem 2.43; layered
+//! dielectrics as capacitors in series).
+
+use crate::common::{cond, diel, half_disc, run, shape};
+use engine::{ConductorSpec, EPSILON_0};
+use mesher::{Outline, Symmetry};
+use std::f64::consts::PI;
+
+const V: ConductorSpec = ConductorSpec::Fixed { potential_v: 1.0 };
+
+fn coax(order: u8, h: f64, eps_inner: f64, eps_outer: f64) -> f64 {
+    // a = 1 cm (core), c = 2 cm (layer boundary), b = 3 cm (earthed outer boundary).
+    let shapes = vec![
+        shape("outer-layer", Outline::circle("outer-layer", [0.0, 0.0], 0.03).unwrap(), diel(eps_outer)),
+        shape("inner-layer", Outline::circle("inner-layer", [0.0, 0.0], 0.02).unwrap(), diel(eps_inner)),
+        shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+    ];
+    let (_, sol) = run(Symmetry::Planar, shapes, &[("core", V)], Some(0.0), h, order);
+    sol.conductor_charges[0]
+}
+
+#[test]
+fn coaxial_cylinders_one_and_two_layers() {
+    // C' = 2πε₀ / (ln(c/a)/ε₁ + ln(b/c)/ε₂) per metre.
+    for (e1, e2) in [(1.0, 1.0), (4.0, 2.2)] {
+        let exact = 2.0 * PI * EPSILON_0 / ((2f64).ln() / e1 + (1.5f64).ln() / e2);
+        let p2 = coax(2, 0.004, e1, e2);
+        assert!((p2 - exact).abs() < 1e-3 * exact, "P2 εr {e1}/{e2}: {p2:e} vs {exact:e}");
+        let p2_fine = coax(2, 0.0015, e1, e2);
+        assert!((p2_fine - exact).abs() < 1e-4 * exact, "P2 fine: {p2_fine:e} vs {exact:e}");
+        let p1 = coax(1, 0.0015, e1, e2);
+        assert!((p1 - exact).abs() < 1e-2 * exact, "P1: {p1:e} vs {exact:e}");
+        eprintln!(
+            "coax εr {e1}/{e2}: rel. error P2 {:.2e}, P2 fine {:.2e}, P1 {:.2e}",
+            (p2 - exact) / exact,
+            (p2_fine - exact) / exact,
+            (p1 - exact) / exact
+        );
+    }
+}
+
+#[test]
+fn concentric_spheres_axisymmetric() {
+    // C = 4πε₀εᵣ·ab/(b − a), a = 1 cm, b = 2 cm.
+    let (a, b, er) = (0.01, 0.02, 2.5);
+    let exact = 4.0 * PI * EPSILON_0 * er * a * b / (b - a);
+    for (order, h, tol) in [(2u8, 0.002, 1e-3), (1, 0.0007, 1e-2)] {
+        let shapes = vec![shape("gap", half_disc("gap", b), diel(er)), shape("ball", half_disc("ball", a), cond(0))];
+        let (mesh, sol) = run(Symmetry::Axisymmetric, shapes, &[("ball", V)], Some(0.0), h, order);
+        let c = sol.conductor_charges[0];
+        assert!((c - exact).abs() < tol * exact, "order {order}: {c:e} vs {exact:e}");
+        eprintln!("spheres order {order}: rel. error {:.2e} with {} nodes", (c - exact) / exact, mesh.num_nodes());
+        // Energy ½CV² from the same solution (energy = ½·Q·V for one electrode at 1 V).
+        assert!((sol.energy - 0.5 * c).abs() < 1e-9 * c);
+        assert!(mesh.edges.iter().any(|e| e.tag == mesher::EdgeTag::Axis));
+    }
+}

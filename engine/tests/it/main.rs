@@ -1,0 +1,8 @@
+//! Integration tests of the electrostatic solve against closed forms, by topic.
+
+/// Capacitance of coaxial cylinders and concentric spheres (closed forms).
+mod closed_forms;
+/// Geometry helpers.
+mod common;
+/// Linear potentials reproduced exactly; invariants of the solution.
+mod patch;

@@ -1,0 +1,71 @@
+//! Exact reproduction of linear potentials and conservation identities.
+
+use crate::common::{cond, diel, run, shape};
+use engine::{ConductorSpec, EPSILON_0};
+use mesher::{Outline, Symmetry};
+
+fn plates(symmetry: Symmetry, order: u8, eps: [f64; 2]) {
+    // Two dielectric layers between plates at y = 0.01 (1 kV) and y = 0.05 (0 V), zero
+    // flux on the sides: V is piecewise linear in y, exact in any conforming FE space.
+    let x0 = if symmetry == Symmetry::Axisymmetric { 0.0 } else { -0.03 };
+    let rect = |n: &str, y0: f64, y1: f64| Outline::rectangle(n, [x0, y0], [0.06, y1 - y0], 0.0).unwrap();
+    let shapes = vec![
+        shape("box", rect("box", 0.0, 0.06), diel(eps[0])),
+        shape("upper", rect("upper", 0.03, 0.05), diel(eps[1])),
+        shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+        shape("top", rect("top", 0.05, 0.06), cond(1)),
+    ];
+    let specs =
+        [("hv", ConductorSpec::Fixed { potential_v: 1000.0 }), ("earth", ConductorSpec::Fixed { potential_v: 0.0 })];
+    let (mesh, sol) = run(symmetry, shapes, &specs, None, 0.006, order);
+    // Series layers: D = V / (d₁/ε₁ + d₂/ε₂) · ε₀, interface potential V − D·d₁/(ε₀ε₁).
+    let (d1, d2) = (0.02, 0.02);
+    let d = 1000.0 * EPSILON_0 / (d1 / eps[0] + d2 / eps[1]);
+    let v_if = 1000.0 - d * d1 / (EPSILON_0 * eps[0]);
+    for (i, p) in mesh.nodes.iter().enumerate() {
+        let y = p[1];
+        let want = if y <= 0.03 { 1000.0 - (1000.0 - v_if) * (y - 0.01) / d1 } else { v_if * (0.05 - y) / d2 };
+        // Round-off of a sparse Cholesky solve: a few hundred ulps of the 1 kV scale.
+        assert!((sol.potential[i] - want).abs() < 1e-9 * 1000.0, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
+    }
+    // Charges: ±D·area (area per metre 0.06 in planar, π·0.06² in axisymmetry).
+    let area = if symmetry == Symmetry::Axisymmetric { std::f64::consts::PI * 0.06 * 0.06 } else { 0.06 };
+    let q = sol.conductor_charges[0];
+    assert!((q - d * area).abs() < 1e-9 * q, "{q:e} vs {:e}", d * area);
+    // Closed system: the charges sum to zero; energy = ½·QᵀV.
+    assert!((sol.conductor_charges[0] + sol.conductor_charges[1]).abs() < 1e-9 * q);
+    let half_qv: f64 =
+        0.5 * sol.conductor_charges.iter().zip(&sol.conductor_potentials).map(|(q, v)| q * v).sum::<f64>();
+    assert!((sol.energy - half_qv).abs() < 1e-9 * sol.energy);
+}
+
+#[test]
+fn layered_plates_reproduced_exactly() {
+    for sym in [Symmetry::Planar, Symmetry::Axisymmetric] {
+        for order in [1, 2] {
+            plates(sym, order, [1.0, 1.0]);
+            plates(sym, order, [4.5, 1.0]);
+        }
+    }
+}
+
+#[test]
+fn floating_cylinder_takes_the_series_potential() {
+    // Core a = 1 cm at 1 V, floating tube from 1.8 to 2 cm, earthed boundary at 3 cm. Zero
+    // net charge makes the two gaps capacitors in series:
+    // V_f = ln(b/r₂) / (ln(r₁/a) + ln(b/r₂)).
+    let shapes = vec![
+        shape("air", Outline::circle("air", [0.0, 0.0], 0.03).unwrap(), diel(1.0)),
+        shape("tube", Outline::circle("tube", [0.0, 0.0], 0.02).unwrap(), cond(1)),
+        shape("inner-air", Outline::circle("inner-air", [0.0, 0.0], 0.018).unwrap(), diel(1.0)),
+        shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+    ];
+    let specs =
+        [("core", ConductorSpec::Fixed { potential_v: 1.0 }), ("tube", ConductorSpec::Floating { charge_c: 0.0 })];
+    let (_, sol) = run(Symmetry::Planar, shapes, &specs, Some(0.0), 0.002, 2);
+    let want = (1.5f64).ln() / ((1.8f64).ln() + (1.5f64).ln());
+    assert!((sol.conductor_potentials[1] - want).abs() < 1e-4, "{} vs {want}", sol.conductor_potentials[1]);
+    assert!(sol.conductor_charges[1].abs() < 1e-9 * sol.conductor_charges[0].abs());
+    // Maximum principle: every potential between the extremes 0 and 1 V.
+    assert!(sol.potential.iter().all(|&v| (-1e-12..=1.0 + 1e-12).contains(&v)));
+}
