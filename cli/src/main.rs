@@ -39,7 +39,7 @@ enum Command {
         /// Draw the mesh with regions coloured and singular points marked.
         #[arg(long, value_name = "FILE.svg")]
         svg: Option<PathBuf>,
-        /// Element order, overriding the model's [mesh] order.
+        /// Element order, overriding the model's `[mesh] order`.
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
         /// Print the statistics as JSON instead of a table.

@@ -14,7 +14,7 @@
 //!
 //! # Brief overview
 //! - [`Problem`], [`ConductorSpec`]: the physics.
-//! - [`solve`] → [`Solution`]: nodal potentials, conductor potentials and charges
+//! - [`solve()`] → [`Solution`]: nodal potentials, conductor potentials and charges
 //!   (reaction method), stored energy.
 //! - [`space`]: reference elements and quadrature rules.
 //!
