@@ -175,6 +175,12 @@ impl Mesh {
     /// [`MeshError::InvalidMesh`] naming the first element, edge or node that fails, with
     /// its coordinates.
     pub fn validate(&self) -> Result<(), MeshError> {
+        self.validate_with(None)
+    }
+
+    /// [`Mesh::validate`] reusing an edge list from [`Mesh::sorted_edges`] when the caller
+    /// has one (the mesher does, from building the P2 nodes).
+    pub(crate) fn validate_with(&self, edges: Option<&[(u64, u32, u8)]>) -> Result<(), MeshError> {
         let bad = |detail: String| Err(MeshError::InvalidMesh { detail });
         let n = self.nodes.len();
         if self.regions.len() != self.triangles.len() {
@@ -216,7 +222,14 @@ impl Mesh {
         }
         // Every (edge, triangle, local edge) sorted by edge: runs of equal keys are the
         // triangles sharing an edge. (Sorting beats hashing here by a wide margin.)
-        let adj = self.sorted_edges();
+        let owned;
+        let adj: &[(u64, u32, u8)] = match edges {
+            Some(e) => e,
+            None => {
+                owned = self.sorted_edges();
+                &owned
+            }
+        };
         let run_of = |key: u64| -> &[(u64, u32, u8)] {
             let lo = adj.partition_point(|e| e.0 < key);
             let hi = adj.partition_point(|e| e.0 <= key);
@@ -229,7 +242,6 @@ impl Mesh {
             let [a, b] = self.edges[w[0].1 as usize].nodes;
             return bad(format!("edge {a}–{b} is tagged twice"));
         }
-        let tag_of = |key: u64| tags.binary_search_by_key(&key, |t| t.0).ok().map(|i| &self.edges[tags[i].1 as usize]);
         for e in &self.edges {
             let [a, b] = e.nodes;
             let tris = run_of(edge_key(a, b));
@@ -287,9 +299,15 @@ impl Mesh {
         if p2 && self.mid_nodes.len() != self.triangles.len() {
             return bad("order-2 mesh with a mid-node triple count different from the triangle count".into());
         }
+        // Walk the edge runs and the sorted tags together.
+        let mut ti = 0;
         let mut i = 0;
         while i < adj.len() {
             let key = adj[i].0;
+            while ti < tags.len() && tags[ti].0 < key {
+                ti += 1;
+            }
+            let tag = if ti < tags.len() && tags[ti].0 == key { Some(&self.edges[tags[ti].1 as usize]) } else { None };
             let mut j = i + 1;
             while j < adj.len() && adj[j].0 == key {
                 j += 1;
@@ -304,7 +322,6 @@ impl Mesh {
                 ));
             }
             let needs_tag = run.len() == 1 || self.regions[run[0].1 as usize] != self.regions[run[1].1 as usize];
-            let tag = tag_of(key);
             if needs_tag && tag.is_none() {
                 return bad(format!(
                     "edge {a}–{b} from {:?} to {:?} is on a boundary or interface but has no tag",
@@ -370,13 +387,18 @@ impl Mesh {
     /// Adds mid-edge nodes (order 2). Edges on arcs get their mid node on the arc, halfway
     /// in angle between the end nodes. Does nothing if the mesh is already of order 2.
     pub fn make_order2(&mut self) {
+        let adj = self.sorted_edges();
+        self.make_order2_with(&adj);
+    }
+
+    /// [`Mesh::make_order2`] with the edge list from [`Mesh::sorted_edges`].
+    pub(crate) fn make_order2_with(&mut self, adj: &[(u64, u32, u8)]) {
         if !self.mid_nodes.is_empty() {
             return;
         }
         let mut arc_of: Vec<(u64, u32)> =
             self.edges.iter().filter_map(|e| e.arc.map(|a| (edge_key(e.nodes[0], e.nodes[1]), a))).collect();
         arc_of.sort_unstable();
-        let adj = self.sorted_edges();
         let mut mids = vec![[0u32; 3]; self.triangles.len()];
         self.nodes.reserve(adj.len() / 2 + 1);
         let mut i = 0;
@@ -412,7 +434,7 @@ impl Mesh {
     ///
     /// # Panics
     /// If a triangle refers to a node beyond `num_vertices` (checked by `validate` first).
-    fn sorted_edges(&self) -> Vec<(u64, u32, u8)> {
+    pub(crate) fn sorted_edges(&self) -> Vec<(u64, u32, u8)> {
         let nv = self.num_vertices as usize;
         let mut start = vec![0u32; nv + 1];
         for tri in &self.triangles {

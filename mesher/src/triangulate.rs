@@ -89,11 +89,12 @@ pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, Me
     clock.lap("seeding");
     let (cdt, complete) = triangulate(&pslg, &seeds, &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
+    let edges = mesh.sorted_edges();
     if params.order == 2 {
-        mesh.make_order2();
+        mesh.make_order2_with(&edges);
     }
     clock.lap("extract");
-    mesh.validate()?;
+    mesh.validate_with(Some(&edges))?;
     clock.lap("validate");
     let reason = if complete {
         None
@@ -288,9 +289,7 @@ fn triangulate(
     params: &RefineParams,
     clock: &mut Stopwatch,
 ) -> Result<(Cdt, bool), MeshError> {
-    let mut vertices: Vec<Point2<f64>> = Vec::with_capacity(pslg.points.len() + seeds.len());
-    vertices.extend(pslg.points.iter().map(|p| Point2::new(p[0], p[1])));
-    vertices.extend(seeds.iter().map(|p| Point2::new(p[0], p[1])));
+    let vertices: Vec<Point2<f64>> = pslg.points.iter().map(|p| Point2::new(p[0], p[1])).collect();
     let n_in = vertices.len();
     let edges: Vec<[usize; 2]> = pslg.segments.iter().map(|s| [s[0] as usize, s[1] as usize]).collect();
     let mut conflicts = Vec::new();
@@ -307,7 +306,24 @@ fn triangulate(
             detail: "coincident input points were merged; features are closer than the resolution limit".into(),
         });
     }
-    clock.lap("spade bulk load");
+    // Seeds come in quadtree (Z-order) order, so inserting each next to the previous one is
+    // cheaper than a bulk load: the point location walk is short.
+    let mut hint = None;
+    for p in seeds {
+        let v = match hint {
+            Some(h) => cdt.insert_with_hint(Point2::new(p[0], p[1]), h),
+            None => cdt.insert(Point2::new(p[0], p[1])),
+        }
+        .map_err(|e| MeshError::Triangulation { detail: format!("{e:?}") })?;
+        hint = Some(v);
+    }
+    let n_in = n_in + seeds.len();
+    if cdt.num_vertices() != n_in {
+        return Err(MeshError::Triangulation {
+            detail: "coincident interior points were merged; features are closer than the resolution limit".into(),
+        });
+    }
+    clock.lap("spade insertion");
     let h_max = field.max();
     let floor = field.floor();
     let eq = 3f64.sqrt() / 4.0;
@@ -417,6 +433,11 @@ fn extract(
     let mut arcs: Vec<ArcGeom> = Vec::new();
     let mut on_arc: Vec<Option<u32>> = vec![None; all.len()];
     for e in cdt.undirected_edges() {
+        // Only constraint edges separate components, hence labels: a face next to a
+        // non-constraint edge is in the same component as the face across it.
+        if !e.is_constraint_edge() {
+            continue;
+        }
         let d = e.as_directed();
         let (fl, fr) = (d.face(), d.rev().face());
         let sl = if fl.is_outer() { Side::Outside } else { face_side(fl.fix().index()) };
