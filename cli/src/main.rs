@@ -12,6 +12,7 @@ mod diag;
 mod mesh_cmd;
 mod model;
 mod output;
+mod solve_cmd;
 mod svg;
 
 use clap::{Parser, Subcommand};
@@ -46,6 +47,22 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Mesh and solve a model: conductor potentials and charges, capacitance matrix,
+    /// stored energy and the peak field in every region; writes results.json and
+    /// fields.vtu into the output folder.
+    Solve {
+        /// The model file (TOML).
+        model: PathBuf,
+        /// Output folder (created if missing).
+        #[arg(long, value_name = "DIR")]
+        out: PathBuf,
+        /// Element order, overriding the model's `[mesh] order`.
+        #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
+        order: Option<u8>,
+        /// Print results.json on stdout instead of the summary.
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 /// An error whose message is complete as it stands (a model-file diagnostic).
@@ -64,6 +81,7 @@ fn main() -> ExitCode {
         Command::Mesh { model, out, svg, order, json } => {
             mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json })
         }
+        Command::Solve { model, out, order, json } => solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json }),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -16,11 +16,15 @@
 //! - [`Problem`], [`ConductorSpec`]: the physics.
 //! - [`solve()`] → [`Solution`]: nodal potentials, conductor potentials and charges
 //!   (reaction method), stored energy.
+//! - [`element_fields`] → [`ElementFields`]: E per element and the peak |E| per region
+//!   with its location.
+//! - [`capacitance_matrix`]: the Maxwell capacitance matrix of the fixed conductors.
 //! - [`space`]: reference elements and quadrature rules.
 //!
-//! Status: the solve above is in place and checked against closed forms (coaxial
-//! cylinders, concentric spheres). Field recovery, line probes, the capacitance matrix,
-//! the open boundary, error estimation and adaptivity are the next stages.
+//! Status: the solve, element fields and capacitance matrix are in place and checked
+//! against closed forms (coaxial cylinders, concentric spheres, layered plates). Line
+//! probes, recovered nodal fields, the open boundary, error estimation and adaptivity are
+//! the next stages.
 //!
 //! ```
 //! use engine::{solve, ConductorSpec, Problem, EPSILON_0};
@@ -51,10 +55,12 @@
 #![warn(missing_debug_implementations)]
 
 mod error;
+mod fields;
 mod problem;
 mod solve;
 pub mod space;
 
 pub use error::SolveError;
+pub use fields::{element_fields, ElementFields, RegionPeak};
 pub use problem::{ConductorSpec, Problem};
-pub use solve::{solve, Solution, EPSILON_0};
+pub use solve::{capacitance_matrix, solve, Solution, EPSILON_0};

@@ -263,3 +263,39 @@ fn element_matrix<const N: usize, E: Element<N>>(
         }
     }
 }
+
+/// Maxwell capacitance matrix among the conductors held at fixed potential: entry (i, j) is
+/// the charge on conductor i when conductor j is at 1 V and every other fixed conductor
+/// (and a potential outer boundary) is at 0 V; floating conductors keep their zero net
+/// charge, so they are eliminated into the matrix. Returns the indices of the fixed
+/// conductors (the matrix's row and column order) and the matrix, in F (F/m planar).
+///
+/// One solve per fixed conductor.
+///
+/// # Errors
+/// As [`solve`].
+pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>, Vec<Vec<f64>>), SolveError> {
+    let fixed: Vec<usize> = problem
+        .conductors
+        .iter()
+        .enumerate()
+        .filter(|(_, c)| matches!(c, ConductorSpec::Fixed { .. }))
+        .map(|(i, _)| i)
+        .collect();
+    let mut c = vec![vec![0.0; fixed.len()]; fixed.len()];
+    for (col, &j) in fixed.iter().enumerate() {
+        let mut p = problem.clone();
+        for (i, spec) in p.conductors.iter_mut().enumerate() {
+            *spec = match spec {
+                ConductorSpec::Fixed { .. } => ConductorSpec::Fixed { potential_v: if i == j { 1.0 } else { 0.0 } },
+                ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
+            };
+        }
+        p.outer_potential_v = problem.outer_potential_v.map(|_| 0.0);
+        let s = solve(mesh, &p)?;
+        for (row, &i) in fixed.iter().enumerate() {
+            c[row][col] = s.conductor_charges[i];
+        }
+    }
+    Ok((fixed, c))
+}

@@ -8,3 +8,5 @@ mod errors;
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.
 mod outputs;
+/// `fieldgrade solve`: results, closed-form check, errors.
+mod solve;

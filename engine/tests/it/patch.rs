@@ -69,3 +69,49 @@ fn floating_cylinder_takes_the_series_potential() {
     // Maximum principle: every potential between the extremes 0 and 1 V.
     assert!(sol.potential.iter().all(|&v| (-1e-12..=1.0 + 1e-12).contains(&v)));
 }
+
+#[test]
+fn capacitance_matrix_of_plates_and_field_in_layers() {
+    // Plates at y = 0.01 and 0.05 with layers ε 4.5 (0.01–0.03) and 1 (0.03–0.05), planar,
+    // width 0.06 m: c = ε₀·w / (d₁/ε₁ + d₂/ε₂), matrix [[c, −c], [−c, c]].
+    use mesher::{generate, Geometry, OuterBoundary, RefineParams};
+    let rect = |n: &str, y0: f64, y1: f64| Outline::rectangle(n, [-0.03, y0], [0.06, y1 - y0], 0.0).unwrap();
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("box", rect("box", 0.0, 0.06), diel(4.5)),
+            shape("upper", rect("upper", 0.03, 0.05), diel(1.0)),
+            shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+            shape("top", rect("top", 0.05, 0.06), cond(1)),
+        ],
+        conductors: vec!["a".into(), "b".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.008)).unwrap().mesh;
+    let problem = engine::Problem {
+        permittivity: vec![4.5, 1.0, f64::NAN, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1000.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: None,
+    };
+    let (idx, c) = engine::capacitance_matrix(&mesh, &problem).unwrap();
+    assert_eq!(idx, vec![0, 1]);
+    let want = EPSILON_0 * 0.06 / (0.02 / 4.5 + 0.02 / 1.0);
+    for (i, row) in c.iter().enumerate() {
+        for (j, v) in row.iter().enumerate() {
+            let w = if i == j { want } else { -want };
+            assert!((v - w).abs() < 1e-9 * want, "C[{i}][{j}] = {v:e}, want {w:e}");
+        }
+    }
+    // Symmetric, positive diagonal, non-positive off-diagonal (Maxwell matrix properties).
+    assert!((c[0][1] - c[1][0]).abs() < 1e-12 * want && c[0][0] > 0.0 && c[0][1] <= 0.0);
+    // Field: D continuous across the layers, E = D/(ε₀εᵣ) in each; peaks per region.
+    let sol = engine::solve(&mesh, &problem).unwrap();
+    let f = engine::element_fields(&mesh, &problem, &sol);
+    let d = 1000.0 * EPSILON_0 / (0.02 / 4.5 + 0.02 / 1.0);
+    for p in &f.region_peaks {
+        let er = problem.permittivity[p.region as usize];
+        let e = d / (EPSILON_0 * er);
+        assert!((p.e_max_v_per_m - e).abs() < 1e-8 * e, "region {}: {} vs {e}", p.region, p.e_max_v_per_m);
+    }
+}

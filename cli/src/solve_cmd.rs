@@ -1,0 +1,306 @@
+//! `fieldgrade solve`: mesh, solve, and write the stresses, charges, capacitances and
+//! energy (results.json, fields.vtu) with a summary on stdout.
+
+use crate::mesh_cmd::{report, MeshReport};
+use crate::model::{self, ConductorKind, Model};
+use crate::output::write_atomic;
+use crate::UserError;
+use anyhow::{Context, Result};
+use engine::{capacitance_matrix, element_fields, solve, ConductorSpec, Problem};
+use mesher::{generate, CellArray, Fill, NodeArray, Symmetry};
+use serde::Serialize;
+use std::path::PathBuf;
+use std::time::Instant;
+
+/// The cautions shown with every result (see the README).
+pub const CAUTIONS: [&str; 3] = [
+    "Computed stresses come from an idealised electrostatic model (linear, homogeneous materials; nominal geometry; no space or surface charge, voids, particles, roughness, moisture or ageing). They are indicative design aids: type and routine tests under the applicable apparatus standards, local codes and licensed engineering practice decide.",
+    "Allowable stresses are user data; material strengths from standardised material tests are not design values.",
+    "A peak at or next to a singular point (λ < 1) grows as the mesh is refined and has no physical value: model the real edge radius or use integral criteria.",
+];
+
+/// A validated `solve` run.
+#[derive(Debug)]
+pub struct SolveRun {
+    /// Model file.
+    pub model: PathBuf,
+    /// Output folder.
+    pub out: PathBuf,
+    /// Element order override.
+    pub order: Option<u8>,
+    /// JSON to stdout instead of the summary.
+    pub json: bool,
+}
+
+/// `results.json`, documented in `docs/results-format.md`.
+#[derive(Serialize, Debug)]
+pub struct Results {
+    /// Schema name and version.
+    pub schema: &'static str,
+    /// The mesh statistics and singular points (lengths in the model unit, as `mesh` prints).
+    pub mesh: MeshReport,
+    /// Unknowns of the reduced system.
+    pub unknowns: usize,
+    /// True for planar models: charges, capacitances and energy are per metre of depth.
+    pub per_metre_depth: bool,
+    /// Conductors: potential (solved for floating ones) and charge.
+    pub conductors: Vec<ConductorResult>,
+    /// Stored energy, J (J/m planar).
+    pub energy_j: f64,
+    /// Maxwell capacitance matrix of the fixed conductors, F (F/m planar).
+    pub capacitance_matrix_f: CapacitanceMatrix,
+    /// Peak field per region.
+    pub regions: Vec<RegionResult>,
+    /// Wall-clock seconds per stage.
+    pub timings_s: Vec<(String, f64)>,
+    /// Cautions that apply to every figure above.
+    pub cautions: Vec<&'static str>,
+}
+
+/// One conductor's result.
+#[derive(Serialize, Debug)]
+pub struct ConductorResult {
+    /// Name.
+    pub name: String,
+    /// Floating (potential solved for) or fixed.
+    pub floating: bool,
+    /// Potential, V.
+    pub potential_v: f64,
+    /// Net charge, C (C/m planar).
+    pub charge_c: f64,
+}
+
+/// The capacitance matrix with its row/column names.
+#[derive(Serialize, Debug)]
+pub struct CapacitanceMatrix {
+    /// Conductor names, in row and column order.
+    pub conductors: Vec<String>,
+    /// Values, F (F/m planar).
+    pub values: Vec<Vec<f64>>,
+}
+
+/// One region's peak field.
+#[derive(Serialize, Debug)]
+pub struct RegionResult {
+    /// Shape name.
+    pub name: String,
+    /// Material name.
+    pub material: String,
+    /// Largest element |E|, V/m.
+    pub e_max_v_per_m: f64,
+    /// The same in kV/mm.
+    pub e_max_kv_per_mm: f64,
+    /// Where, metres.
+    pub at_m: [f64; 2],
+    /// The singular point (S1, S2 … as in the mesh report) within two element sizes of the
+    /// peak, if any: the peak is then mesh-dependent.
+    pub near_singular_point: Option<String>,
+    /// Allowable stress, kV/mm, if the material gives one.
+    pub allowable_kv_per_mm: Option<f64>,
+    /// E_max / allowable.
+    pub utilisation: Option<f64>,
+}
+
+fn problem_of(model: &Model) -> Problem {
+    Problem {
+        permittivity: model
+            .geometry
+            .shapes
+            .iter()
+            .map(|s| match s.fill {
+                Fill::Dielectric { permittivity } => permittivity,
+                Fill::Conductor { .. } => f64::NAN,
+            })
+            .collect(),
+        conductors: model
+            .conductors
+            .iter()
+            .map(|c| match c.kind {
+                ConductorKind::Fixed { potential_v } => ConductorSpec::Fixed { potential_v },
+                ConductorKind::Floating { charge_c } => ConductorSpec::Floating { charge_c },
+            })
+            .collect(),
+        outer_potential_v: model.outer_potential_v,
+    }
+}
+
+/// Runs `fieldgrade solve`.
+///
+/// # Errors
+/// Model errors and solve errors the user must fix (as [`UserError`]), I/O errors.
+pub fn run(run: &SolveRun) -> Result<()> {
+    let t0 = Instant::now();
+    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    if let Some(o) = run.order {
+        model.params.order = o;
+    }
+    let meshed = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
+    let t_mesh = t0.elapsed().as_secs_f64();
+    let mesh = &meshed.mesh;
+    let problem = problem_of(&model);
+    let user = |e: engine::SolveError| UserError(format!("error: {e}\n  --> {}\n", run.model.display()));
+    let sol = solve(mesh, &problem).map_err(user)?;
+    let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
+    let fields = element_fields(mesh, &problem, &sol);
+    let (fixed, cmat) = capacitance_matrix(mesh, &problem).map_err(user)?;
+    let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
+
+    let mesh_report = report(&model, &meshed);
+    let k = model.unit_m;
+    let regions = fields
+        .region_peaks
+        .iter()
+        .map(|p| {
+            let r = p.region as usize;
+            let mat = model.shape_material[r].map(|m| &model.materials[m]);
+            let tri = mesh.triangles[p.triangle as usize];
+            let h = (0..3)
+                .map(|i| {
+                    let (a, b) = (mesh.nodes[tri[i] as usize], mesh.nodes[tri[(i + 1) % 3] as usize]);
+                    (a[0] - b[0]).hypot(a[1] - b[1])
+                })
+                .fold(0.0, f64::max);
+            let near = mesh
+                .singular_points
+                .iter()
+                .enumerate()
+                .filter(|(_, s)| s.is_field_singular())
+                .map(|(i, s)| (i, (s.at[0] - p.at[0]).hypot(s.at[1] - p.at[1])))
+                .filter(|&(_, d)| d <= 2.0 * h)
+                .min_by(|a, b| a.1.total_cmp(&b.1))
+                .map(|(i, _)| format!("S{}", i + 1));
+            let allow = mat.and_then(|m| m.allowable_stress_kv_per_mm);
+            RegionResult {
+                name: mesh.shape_names[r].clone(),
+                material: mat.map(|m| m.name.clone()).unwrap_or_default(),
+                e_max_v_per_m: p.e_max_v_per_m,
+                e_max_kv_per_mm: p.e_max_v_per_m / 1e6,
+                at_m: p.at,
+                near_singular_point: near,
+                allowable_kv_per_mm: allow,
+                utilisation: allow.map(|a| p.e_max_v_per_m / 1e6 / a),
+            }
+        })
+        .collect();
+    let results = Results {
+        schema: "fieldgrade-results/1",
+        unknowns: sol.num_unknowns,
+        per_metre_depth: mesh.symmetry == Symmetry::Planar,
+        conductors: model
+            .conductors
+            .iter()
+            .enumerate()
+            .map(|(i, c)| ConductorResult {
+                name: c.name.clone(),
+                floating: matches!(c.kind, ConductorKind::Floating { .. }),
+                potential_v: sol.conductor_potentials[i],
+                charge_c: sol.conductor_charges[i],
+            })
+            .collect(),
+        energy_j: sol.energy,
+        capacitance_matrix_f: CapacitanceMatrix {
+            conductors: fixed.iter().map(|&i| model.conductors[i].name.clone()).collect(),
+            values: cmat,
+        },
+        regions,
+        timings_s: vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)],
+        cautions: CAUTIONS.to_vec(),
+        mesh: mesh_report,
+    };
+    std::fs::create_dir_all(&run.out)
+        .with_context(|| format!("cannot create the output folder '{}'", run.out.display()))?;
+    let json = serde_json::to_string_pretty(&results)?;
+    let potential = &sol.potential;
+    let e_vec: Vec<f64> = fields.centroid.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
+    let e_mag: Vec<f64> = fields.max_magnitude.clone();
+    let eps: Vec<f64> = mesh.regions.iter().map(|&r| problem.permittivity[r as usize]).collect();
+    write_atomic(&run.out.join("fields.vtu"), |w| {
+        let mut w = w;
+        mesher::write_vtu(
+            mesh,
+            &[NodeArray { name: "potential_V", components: 1, values: potential }],
+            &[
+                CellArray { name: "E_centroid_V_per_m", components: 3, values: &e_vec },
+                CellArray { name: "E_max_V_per_m", components: 1, values: &e_mag },
+                CellArray { name: "relative_permittivity", components: 1, values: &eps },
+            ],
+            &mut w,
+        )
+    })?;
+    write_atomic(&run.out.join("results.json"), |w| w.write_all(json.as_bytes()))?;
+    if run.json {
+        println!("{json}");
+    } else {
+        print!("{}", render_text(&results, k, model.unit));
+    }
+    Ok(())
+}
+
+/// The summary printed by `solve`.
+pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let depth = if r.per_metre_depth { "/m" } else { "" };
+    let _ = writeln!(
+        s,
+        "model        {}\nsymmetry     {}\nmesh         {} nodes, {} triangles, order {}, {} unknowns",
+        r.mesh.model, r.mesh.symmetry, r.mesh.nodes, r.mesh.triangles, r.mesh.order, r.unknowns
+    );
+    let _ = writeln!(s, "energy       {:.6e} J{depth}", r.energy_j);
+    let _ = writeln!(s, "\nconductors");
+    for c in &r.conductors {
+        let _ = writeln!(
+            s,
+            "  {:<20} {:>14.6e} V {:>14.6e} C{depth}{}",
+            c.name,
+            c.potential_v,
+            c.charge_c,
+            if c.floating { "  (floating)" } else { "" }
+        );
+    }
+    if !r.capacitance_matrix_f.conductors.is_empty() {
+        let _ = writeln!(s, "\ncapacitance matrix (F{depth})");
+        let _ = write!(s, "  {:<20}", "");
+        for n in &r.capacitance_matrix_f.conductors {
+            let _ = write!(s, " {n:>14}");
+        }
+        let _ = writeln!(s);
+        for (n, row) in r.capacitance_matrix_f.conductors.iter().zip(&r.capacitance_matrix_f.values) {
+            let _ = write!(s, "  {n:<20}");
+            for v in row {
+                let _ = write!(s, " {v:>14.6e}");
+            }
+            let _ = writeln!(s);
+        }
+    }
+    let _ = writeln!(s, "\npeak field per region (element values)");
+    let _ = writeln!(
+        s,
+        "  {:<20} {:<10} {:>12} {:>22} {:>10} {:>8}  note",
+        "region",
+        "material",
+        "E max kV/mm",
+        format!("at ({unit})"),
+        "allowable",
+        "util."
+    );
+    for g in &r.regions {
+        let at = format!("({:.4}, {:.4})", g.at_m[0] / unit_m, g.at_m[1] / unit_m);
+        let allow = g.allowable_kv_per_mm.map(|a| format!("{a}")).unwrap_or_else(|| "-".into());
+        let util = g.utilisation.map(|u| format!("{u:.3}")).unwrap_or_else(|| "-".into());
+        let note = match &g.near_singular_point {
+            Some(sp) => format!("at singular point {sp}: mesh-dependent"),
+            None => String::new(),
+        };
+        let _ = writeln!(
+            s,
+            "  {:<20} {:<10} {:>12.4} {:>22} {:>10} {:>8}  {note}",
+            g.name, g.material, g.e_max_kv_per_mm, at, allow, util
+        );
+    }
+    let _ = writeln!(s, "\ncautions");
+    for c in &r.cautions {
+        let _ = writeln!(s, "  - {c}");
+    }
+    s
+}

@@ -1,0 +1,65 @@
+//! `fieldgrade solve` end to end: files written, figures consistent, errors clean.
+
+use crate::common::{fixture, run, stderr, stdout};
+
+#[test]
+fn solve_writes_consistent_results() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("res");
+    let o = run(&["solve", fixture("busbar-support.toml").to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    assert!(text.contains("cautions") && text.contains("indicative"));
+    let j: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+    assert_eq!(j["schema"], "fieldgrade-results/1");
+    // Closed system (every conductor field line ends on a conductor or the zero-flux
+    // boundary): charges sum to zero; Q = C·V with the capacitance matrix; W = ½ΣQV.
+    let q: Vec<f64> = j["conductors"].as_array().unwrap().iter().map(|c| c["charge_c"].as_f64().unwrap()).collect();
+    let v: Vec<f64> = j["conductors"].as_array().unwrap().iter().map(|c| c["potential_v"].as_f64().unwrap()).collect();
+    assert!((q[0] + q[1]).abs() < 1e-9 * q[0].abs());
+    let c = &j["capacitance_matrix_f"]["values"];
+    let qc = c[0][0].as_f64().unwrap() * v[0] + c[0][1].as_f64().unwrap() * v[1];
+    assert!((qc - q[0]).abs() < 1e-9 * q[0].abs());
+    let w = j["energy_j"].as_f64().unwrap();
+    assert!((w - 0.5 * (q[0] * v[0] + q[1] * v[1])).abs() < 1e-9 * w);
+    // Peak fields: every dielectric region reported, with a location inside the model.
+    let regions = j["regions"].as_array().unwrap();
+    assert_eq!(regions.len(), 2);
+    assert_eq!(regions[0]["near_singular_point"], "S1");
+    let vtu = std::fs::read_to_string(out.join("fields.vtu")).unwrap();
+    assert!(vtu.contains("Name=\"potential_V\"") && vtu.trim_end().ends_with("</VTKFile>"));
+}
+
+#[test]
+fn solve_coaxial_gap_matches_the_closed_form() {
+    // The spacer demo far from the spacer is a coaxial line: at the inner conductor
+    // (r = 40 mm, outer 120 mm, 100 kV) E = V/(a·ln(b/a)) = 2.2756 kV/mm
+    // (D. J. Griffiths, Introduction to Electrodynamics, 4th ed., 2017, §2.3). The gas peak
+    // is on the conductor at the model's end, far from the spacer.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("res");
+    let o = run(&["solve", fixture("gis-spacer.toml").to_str().unwrap(), "--out", out.to_str().unwrap(), "--json"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let gas = j["regions"].as_array().unwrap().iter().find(|r| r["name"] == "gas").unwrap();
+    let e = gas["e_max_kv_per_mm"].as_f64().unwrap();
+    let exact = 100e3 / (0.04 * 3f64.ln()) / 1e6;
+    assert!((e - exact).abs() < 1e-2 * exact, "{e} vs {exact}");
+}
+
+#[test]
+fn no_potential_reference_is_a_user_error_and_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let model = dir.path().join("float.toml");
+    std::fs::write(
+        &model,
+        "[[material]]\nname = \"air\"\npermittivity = 1.0\n\n[[conductor]]\nname = \"f\"\nfloating = true\n\n[[shape]]\nname = \"box\"\nmaterial = \"air\"\nrectangle = { corner = [0.0, 0.0], size = [10.0, 10.0] }\n\n[[shape]]\nname = \"c\"\nconductor = \"f\"\ncircle = { center = [5.0, 5.0], radius = 1.0 }\n",
+    )
+    .unwrap();
+    let out = dir.path().join("res");
+    let o = run(&["solve", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("no potential reference"), "{}", stderr(&o));
+    assert!(!out.exists());
+}
