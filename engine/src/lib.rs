@@ -56,6 +56,7 @@
 
 mod error;
 mod fields;
+mod ordering;
 mod problem;
 mod solve;
 pub mod space;

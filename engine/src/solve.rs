@@ -26,9 +26,12 @@
 use crate::error::SolveError;
 use crate::problem::{ConductorSpec, Problem};
 use crate::space::{Element, P1, P2, QUAD_DEG2, QUAD_DEG4};
-use faer::linalg::solvers::SolveCore;
+use crate::ordering::nested_dissection;
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::perm::PermRef;
+use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, SymbolicCholesky, SymmetricOrdering};
 use faer::sparse::{SparseColMat, Triplet};
-use faer::{Conj, Mat, Side};
+use faer::{Conj, Mat, Par, Side};
 use mesher::{EdgeTag, Mesh, Symmetry};
 use std::collections::HashMap;
 
@@ -53,128 +56,224 @@ pub struct Solution {
 /// Where each mesh node's value comes from.
 #[derive(Clone, Copy, Debug, PartialEq)]
 enum Dof {
+    /// An unknown of the reduced system.
     Free(u32),
-    Fixed(f64),
+    /// Held by terminal `t` (a fixed conductor, or the outer boundary as the last terminal).
+    Held(u32),
 }
 
-/// Solves the problem on the mesh.
-///
-/// # Errors
-/// [`SolveError`] for a region without permittivity, a conductor the problem does not
-/// describe, no fixed potential anywhere, or a factorisation failure.
-pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
-    problem.check(mesh)?;
+/// The reduced system of one mesh and one choice of which conductors are fixed: the matrix
+/// does not depend on the potentials, so every load case and every capacitance column
+/// reuses one factorisation.
+struct System {
+    dof: Vec<Dof>,
+    /// Conductor of each node, if the node is on a conductor's surface.
+    node_conductor: Vec<Option<u32>>,
+    /// Free unknown of each floating conductor.
+    floating_dof: Vec<Option<u32>>,
+    /// Terminal index of each fixed conductor; the outer boundary (if held) is terminal
+    /// `num_terminals − 1`.
+    terminal_of: Vec<Option<u32>>,
+    num_terminals: usize,
+    /// Lower triangle of the reduced matrix.
+    matrix: SparseColMat<usize, f64>,
+    /// For each terminal t, K_fd·1_t: the right-hand side contribution per volt on it.
+    coupling: Vec<Vec<f64>>,
+    /// A position per unknown for the ordering (None for floating conductors).
+    positions: Vec<Option<[f64; 2]>>,
+}
+
+impl System {
+    fn assemble(mesh: &Mesh, problem: &Problem) -> Result<System, SolveError> {
+        problem.check(mesh)?;
+        let n = mesh.nodes.len();
+        let nc = mesh.conductor_names.len();
+        // Nodes on each tagged edge, including P2 mid nodes.
+        let mut edge_tag: HashMap<(u32, u32), EdgeTag> = HashMap::with_capacity(mesh.edges.len());
+        for e in &mesh.edges {
+            let [a, b] = e.nodes;
+            edge_tag.insert((a.min(b), a.max(b)), e.tag);
+        }
+        let mut node_conductor: Vec<Option<u32>> = vec![None; n];
+        let mut node_outer = vec![false; n];
+        for (t, tri) in mesh.triangles.iter().enumerate() {
+            for k in 0..3 {
+                let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
+                let mid = if mesh.mid_nodes.is_empty() { None } else { Some(mesh.mid_nodes[t][k]) };
+                for v in [Some(a), Some(b), mid].into_iter().flatten() {
+                    match tag {
+                        EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
+                        EdgeTag::Outer => node_outer[v as usize] = true,
+                        _ => {}
+                    }
+                }
+            }
+        }
+        let mut terminal_of: Vec<Option<u32>> = vec![None; nc];
+        let mut num_terminals = 0u32;
+        for (c, spec) in problem.conductors.iter().enumerate() {
+            if let ConductorSpec::Fixed { .. } = spec {
+                terminal_of[c] = Some(num_terminals);
+                num_terminals += 1;
+            }
+        }
+        let outer_terminal = problem.outer_potential_v.map(|_| {
+            num_terminals += 1;
+            num_terminals - 1
+        });
+        let mut next = 0u32;
+        let mut floating_dof: Vec<Option<u32>> = vec![None; nc];
+        let mut positions = Vec::new();
+        for (fd, spec) in floating_dof.iter_mut().zip(&problem.conductors) {
+            if let ConductorSpec::Floating { .. } = spec {
+                *fd = Some(next);
+                positions.push(None);
+                next += 1;
+            }
+        }
+        let mut dof = vec![Dof::Free(0); n];
+        let mut used_terminal = vec![false; num_terminals as usize];
+        for v in 0..n {
+            dof[v] = match (node_conductor[v], node_outer[v], outer_terminal) {
+                (Some(c), _, _) => match (terminal_of[c as usize], floating_dof[c as usize]) {
+                    (Some(t), _) => Dof::Held(t),
+                    (None, Some(d)) => Dof::Free(d),
+                    (None, None) => unreachable!("a conductor is fixed or floating"),
+                },
+                (None, true, Some(t)) => Dof::Held(t),
+                _ => {
+                    positions.push(Some(mesh.nodes[v]));
+                    next += 1;
+                    Dof::Free(next - 1)
+                }
+            };
+            if let Dof::Held(t) = dof[v] {
+                used_terminal[t as usize] = true;
+            }
+        }
+        if !used_terminal.iter().any(|&u| u) {
+            return Err(SolveError::NoPotentialReference);
+        }
+        let m = next as usize;
+        let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+        let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(mesh.triangles.len() * 21);
+        let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
+        let p2 = mesh.order() == 2;
+        for_each_element(mesh, problem, axisym, p2, |nodes, ke| {
+            for (i, &ni) in nodes.iter().enumerate() {
+                let Dof::Free(ri) = dof[ni as usize] else { continue };
+                for (j, &nj) in nodes.iter().enumerate() {
+                    match dof[nj as usize] {
+                        Dof::Free(cj) => {
+                            if ri >= cj {
+                                trip.push(Triplet::new(ri as usize, cj as usize, ke[i][j]));
+                            }
+                        }
+                        Dof::Held(t) => coupling[t as usize][ri as usize] += ke[i][j],
+                    }
+                }
+            }
+        });
+        let matrix = SparseColMat::<usize, f64>::try_new_from_triplets(m, m, &trip)
+            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        Ok(System {
+            dof,
+            node_conductor,
+            floating_dof,
+            terminal_of,
+            num_terminals: num_terminals as usize,
+            matrix,
+            coupling,
+            positions,
+        })
+    }
+
+    fn num_unknowns(&self) -> usize {
+        self.matrix.nrows()
+    }
+}
+
+/// A Cholesky factorisation of a [`System`], with a nested-dissection ordering.
+struct Factor {
+    symbolic: SymbolicCholesky<usize>,
+    values: Vec<f64>,
+}
+
+impl Factor {
+    fn new(system: &System) -> Result<Factor, SolveError> {
+        let m = system.num_unknowns();
+        let a = system.matrix.as_ref();
+        let (fwd, inv) = nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions);
+        let perm = PermRef::new_checked(&fwd, &inv, m);
+        let symbolic = factorize_symbolic_cholesky(a.symbolic(), Side::Lower, SymmetricOrdering::Custom(perm), Default::default())
+            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let mut values = vec![0.0; symbolic.len_val()];
+        let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
+        symbolic
+            .factorize_numeric_llt(&mut values, a, Side::Lower, Default::default(), Par::Seq, MemStack::new(&mut mem), Default::default())
+            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        Ok(Factor { symbolic, values })
+    }
+
+    /// Solves in place for every column of `rhs`.
+    fn solve_in_place(&self, rhs: &mut Mat<f64>) {
+        let llt = LltRef::new(&self.symbolic, &self.values);
+        let mut mem = MemBuffer::new(self.symbolic.solve_in_place_scratch::<f64>(rhs.ncols(), Par::Seq));
+        llt.solve_in_place_with_conj(Conj::No, rhs.as_mut(), Par::Seq, MemStack::new(&mut mem));
+    }
+}
+
+/// Terminal potentials and floating charges of one load case.
+fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64]) {
+    rhs.fill(0.0);
+    for (c, spec) in problem.conductors.iter().enumerate() {
+        match (spec, system.terminal_of[c], system.floating_dof[c]) {
+            (ConductorSpec::Fixed { potential_v }, Some(t), _) => {
+                for (r, k) in rhs.iter_mut().zip(&system.coupling[t as usize]) {
+                    *r -= potential_v * k;
+                }
+            }
+            (ConductorSpec::Floating { charge_c }, _, Some(d)) => rhs[d as usize] += charge_c,
+            _ => {}
+        }
+    }
+    if let Some(v0) = problem.outer_potential_v {
+        for (r, k) in rhs.iter_mut().zip(&system.coupling[system.num_terminals - 1]) {
+            *r -= v0 * k;
+        }
+    }
+}
+
+/// Nodal potentials, charges and energy from the reduced solution `x` of one case.
+fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solution {
     let n = mesh.nodes.len();
     let nc = mesh.conductor_names.len();
-    // Nodes on each tagged edge, including P2 mid nodes.
-    let mut edge_tag: HashMap<(u32, u32), EdgeTag> = HashMap::with_capacity(mesh.edges.len());
-    for e in &mesh.edges {
-        let [a, b] = e.nodes;
-        edge_tag.insert((a.min(b), a.max(b)), e.tag);
-    }
-    let mut node_conductor: Vec<Option<u32>> = vec![None; n];
-    let mut node_outer = vec![false; n];
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        for k in 0..3 {
-            let (a, b) = (tri[k], tri[(k + 1) % 3]);
-            let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
-            let mut nodes = vec![a, b];
-            if !mesh.mid_nodes.is_empty() {
-                nodes.push(mesh.mid_nodes[t][k]);
-            }
-            for v in nodes {
-                match tag {
-                    EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
-                    EdgeTag::Outer => node_outer[v as usize] = true,
-                    _ => {}
-                }
+    let held_value = |t: u32| -> f64 {
+        if (t as usize) == system.num_terminals - 1 && problem.outer_potential_v.is_some() {
+            problem.outer_potential_v.unwrap()
+        } else {
+            let c = system.terminal_of.iter().position(|&x| x == Some(t)).unwrap();
+            match problem.conductors[c] {
+                ConductorSpec::Fixed { potential_v } => potential_v,
+                ConductorSpec::Floating { .. } => unreachable!("terminals are fixed conductors"),
             }
         }
-    }
-    // Numbering: fixed nodes get their value, floating conductors one shared unknown.
-    let mut dof = vec![Dof::Fixed(0.0); n];
-    let mut next = 0u32;
-    let mut floating_dof: Vec<Option<u32>> = vec![None; nc];
-    for (fd, spec) in floating_dof.iter_mut().zip(&problem.conductors) {
-        if let ConductorSpec::Floating { .. } = spec {
-            *fd = Some(next);
-            next += 1;
-        }
-    }
-    let mut any_fixed = false;
-    for v in 0..n {
-        dof[v] = match (node_conductor[v], node_outer[v], problem.outer_potential_v) {
-            (Some(c), _, _) => match problem.conductors[c as usize] {
-                ConductorSpec::Fixed { potential_v } => {
-                    any_fixed = true;
-                    Dof::Fixed(potential_v)
-                }
-                ConductorSpec::Floating { .. } => Dof::Free(floating_dof[c as usize].unwrap()),
-            },
-            (None, true, Some(v0)) => {
-                any_fixed = true;
-                Dof::Fixed(v0)
-            }
-            _ => {
-                next += 1;
-                Dof::Free(next - 1)
-            }
-        };
-    }
-    if !any_fixed {
-        return Err(SolveError::NoPotentialReference);
-    }
-    let m = next as usize;
-    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
-    // Assembly into triplets (lower triangle of the reduced matrix) and the right-hand side.
-    let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(mesh.triangles.len() * 21);
-    let mut rhs = vec![0.0; m];
-    for (c, d) in floating_dof.iter().enumerate() {
-        if let (Some(d), ConductorSpec::Floating { charge_c }) = (d, problem.conductors[c]) {
-            rhs[*d as usize] += charge_c;
-        }
-    }
-    let p2 = mesh.order() == 2;
-    for_each_element(mesh, problem, axisym, p2, |nodes, ke| {
-        for (i, &ni) in nodes.iter().enumerate() {
-            let Dof::Free(ri) = dof[ni as usize] else { continue };
-            for (j, &nj) in nodes.iter().enumerate() {
-                match dof[nj as usize] {
-                    Dof::Free(cj) => {
-                        if ri >= cj {
-                            trip.push(Triplet::new(ri as usize, cj as usize, ke[i][j]));
-                        }
-                    }
-                    Dof::Fixed(v) => rhs[ri as usize] -= ke[i][j] * v,
-                }
-            }
-        }
-    });
-    let mut x = vec![0.0; m];
-    if m > 0 {
-        let a = SparseColMat::<usize, f64>::try_new_from_triplets(m, m, &trip)
-            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
-        let llt = a.sp_cholesky(Side::Lower).map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
-        let mut b = Mat::<f64>::zeros(m, 1);
-        for (i, r) in rhs.iter().enumerate() {
-            b[(i, 0)] = *r;
-        }
-        llt.solve_in_place_with_conj(Conj::No, b.as_mut());
-        for (i, xi) in x.iter_mut().enumerate() {
-            *xi = b[(i, 0)];
-        }
-    }
-    let potential: Vec<f64> = dof
+    };
+    let terminal_values: Vec<f64> = (0..system.num_terminals as u32).map(held_value).collect();
+    let potential: Vec<f64> = system
+        .dof
         .iter()
         .map(|d| match *d {
             Dof::Free(i) => x[i as usize],
-            Dof::Fixed(v) => v,
+            Dof::Held(t) => terminal_values[t as usize],
         })
         .collect();
     // Reactions and energy from the full element matrices.
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let mut residual = vec![0.0; n];
     let mut energy = 0.0;
-    for_each_element(mesh, problem, axisym, p2, |nodes, ke| {
+    for_each_element(mesh, problem, axisym, mesh.order() == 2, |nodes, ke| {
         for (i, &ni) in nodes.iter().enumerate() {
             let mut r = 0.0;
             for (j, &nj) in nodes.iter().enumerate() {
@@ -186,17 +285,41 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
     });
     let mut conductor_charges = vec![0.0; nc];
     for v in 0..n {
-        if let Some(c) = node_conductor[v] {
+        if let Some(c) = system.node_conductor[v] {
             conductor_charges[c as usize] += residual[v];
         }
     }
     let conductor_potentials = (0..nc)
         .map(|c| match problem.conductors[c] {
             ConductorSpec::Fixed { potential_v } => potential_v,
-            ConductorSpec::Floating { .. } => x[floating_dof[c].unwrap() as usize],
+            ConductorSpec::Floating { .. } => x[system.floating_dof[c].unwrap() as usize],
         })
         .collect();
-    Ok(Solution { potential, conductor_potentials, conductor_charges, energy, num_unknowns: m })
+    Solution { potential, conductor_potentials, conductor_charges, energy, num_unknowns: system.num_unknowns() }
+}
+
+/// Solves the problem on the mesh.
+///
+/// # Errors
+/// [`SolveError`] for a region without permittivity, a conductor the problem does not
+/// describe, no fixed potential anywhere, or a factorisation failure.
+pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
+    let system = System::assemble(mesh, problem)?;
+    let m = system.num_unknowns();
+    let mut x = vec![0.0; m];
+    if m > 0 {
+        let factor = Factor::new(&system)?;
+        let mut b = Mat::<f64>::zeros(m, 1);
+        case_rhs(&system, problem, &mut x);
+        for (i, r) in x.iter().enumerate() {
+            b[(i, 0)] = *r;
+        }
+        factor.solve_in_place(&mut b);
+        for (i, xi) in x.iter_mut().enumerate() {
+            *xi = b[(i, 0)];
+        }
+    }
+    Ok(finish(mesh, problem, &system, &x))
 }
 
 /// Calls `f(nodes, K_e)` for every element with its stiffness matrix ε₀εᵣ∫∇φᵢ·∇φⱼ w dA.
@@ -270,20 +393,17 @@ fn element_matrix<const N: usize, E: Element<N>>(
 /// charge, so they are eliminated into the matrix. Returns the indices of the fixed
 /// conductors (the matrix's row and column order) and the matrix, in F (F/m planar).
 ///
-/// One solve per fixed conductor.
+/// One factorisation, one right-hand side per fixed conductor.
 ///
 /// # Errors
 /// As [`solve`].
 pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>, Vec<Vec<f64>>), SolveError> {
-    let fixed: Vec<usize> = problem
-        .conductors
-        .iter()
-        .enumerate()
-        .filter(|(_, c)| matches!(c, ConductorSpec::Fixed { .. }))
-        .map(|(i, _)| i)
-        .collect();
-    let mut c = vec![vec![0.0; fixed.len()]; fixed.len()];
-    for (col, &j) in fixed.iter().enumerate() {
+    let system = System::assemble(mesh, problem)?;
+    let fixed: Vec<usize> = (0..problem.conductors.len()).filter(|&c| system.terminal_of[c].is_some()).collect();
+    let m = system.num_unknowns();
+    let k = fixed.len();
+    let mut cases = Vec::with_capacity(k);
+    for &j in &fixed {
         let mut p = problem.clone();
         for (i, spec) in p.conductors.iter_mut().enumerate() {
             *spec = match spec {
@@ -292,10 +412,28 @@ pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>,
             };
         }
         p.outer_potential_v = problem.outer_potential_v.map(|_| 0.0);
-        let s = solve(mesh, &p)?;
-        for (row, &i) in fixed.iter().enumerate() {
-            c[row][col] = s.conductor_charges[i];
+        cases.push(p);
+    }
+    let mut b = Mat::<f64>::zeros(m, k);
+    let mut col = vec![0.0; m];
+    for (c, p) in cases.iter().enumerate() {
+        case_rhs(&system, p, &mut col);
+        for (i, v) in col.iter().enumerate() {
+            b[(i, c)] = *v;
         }
     }
-    Ok((fixed, c))
+    if m > 0 && k > 0 {
+        Factor::new(&system)?.solve_in_place(&mut b);
+    }
+    let mut cmat = vec![vec![0.0; k]; k];
+    for (c, p) in cases.iter().enumerate() {
+        for (i, v) in col.iter_mut().enumerate() {
+            *v = b[(i, c)];
+        }
+        let s = finish(mesh, p, &system, &col);
+        for (row, &i) in fixed.iter().enumerate() {
+            cmat[row][c] = s.conductor_charges[i];
+        }
+    }
+    Ok((fixed, cmat))
 }
