@@ -28,6 +28,14 @@ pub enum SolveError {
     /// Nothing holds the potential: no conductor at a fixed potential and no outer
     /// boundary potential, so the potential is defined only up to a constant.
     NoPotentialReference,
+    /// A part of the domain touches no fixed potential (for example a dielectric enclosed
+    /// by a floating conductor), so its potential is undetermined.
+    FloatingPart {
+        /// A region in that part.
+        region: String,
+        /// A point in it, metres.
+        at: [f64; 2],
+    },
     /// The sparse factorisation failed (the reduced matrix is not positive definite).
     Factorisation {
         /// Detail from the factorisation.
@@ -42,6 +50,7 @@ impl fmt::Display for SolveError {
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
+            SolveError::FloatingPart { region, at } => write!(f, "region '{region}' (near ({:.6e}, {:.6e}) m) is cut off from every fixed potential, so its potential is undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a potential", at[0], at[1]),
             SolveError::Factorisation { detail } => write!(f, "the system matrix could not be factorised ({detail}); a part of the domain may be cut off from every fixed potential, for example a dielectric region enclosed by floating conductors only"),
         }
     }

@@ -24,9 +24,9 @@
 //!   (the supernodal method faer implements).
 
 use crate::error::SolveError;
+use crate::ordering::nested_dissection;
 use crate::problem::{ConductorSpec, Problem};
 use crate::space::{Element, P1, P2, QUAD_DEG2, QUAD_DEG4};
-use crate::ordering::nested_dissection;
 use faer::dyn_stack::{MemBuffer, MemStack};
 use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, SymbolicCholesky, SymmetricOrdering};
@@ -156,6 +156,7 @@ impl System {
             return Err(SolveError::NoPotentialReference);
         }
         let m = next as usize;
+        check_every_part_is_held(mesh, &dof, m)?;
         let axisym = mesh.symmetry == Symmetry::Axisymmetric;
         let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(mesh.triangles.len() * 21);
         let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
@@ -194,6 +195,56 @@ impl System {
     }
 }
 
+/// Every connected part of the unknowns must touch a held node, or the potential there is
+/// defined only up to a constant and the matrix is singular. Union–find over the elements.
+fn check_every_part_is_held(mesh: &Mesh, dof: &[Dof], m: usize) -> Result<(), SolveError> {
+    let mut parent: Vec<u32> = (0..m as u32).collect();
+    let mut held = vec![false; m];
+    fn root(parent: &mut [u32], mut a: u32) -> u32 {
+        while parent[a as usize] != a {
+            parent[a as usize] = parent[parent[a as usize] as usize];
+            a = parent[a as usize];
+        }
+        a
+    }
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        let mut first: Option<u32> = None;
+        let mut touches_held = false;
+        let mids = if mesh.mid_nodes.is_empty() { [u32::MAX; 3] } else { mesh.mid_nodes[t] };
+        for &v in tri.iter().chain(mids.iter()).filter(|&&v| v != u32::MAX) {
+            match dof[v as usize] {
+                Dof::Free(d) => match first {
+                    None => first = Some(d),
+                    Some(f) => {
+                        let (ra, rb) = (root(&mut parent, f), root(&mut parent, d));
+                        if ra != rb {
+                            parent[ra as usize] = rb;
+                            held[rb as usize] |= held[ra as usize];
+                        }
+                    }
+                },
+                Dof::Held(_) => touches_held = true,
+            }
+        }
+        if let (Some(f), true) = (first, touches_held) {
+            let r = root(&mut parent, f);
+            held[r as usize] = true;
+        }
+    }
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        if let Dof::Free(d) = dof[tri[0] as usize] {
+            let r = root(&mut parent, d);
+            if !held[r as usize] {
+                return Err(SolveError::FloatingPart {
+                    region: mesh.shape_names[mesh.regions[t] as usize].clone(),
+                    at: mesh.nodes[tri[0] as usize],
+                });
+            }
+        }
+    }
+    Ok(())
+}
+
 /// A Cholesky factorisation of a [`System`], with a nested-dissection ordering.
 struct Factor {
     symbolic: SymbolicCholesky<usize>,
@@ -206,12 +257,21 @@ impl Factor {
         let a = system.matrix.as_ref();
         let (fwd, inv) = nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions);
         let perm = PermRef::new_checked(&fwd, &inv, m);
-        let symbolic = factorize_symbolic_cholesky(a.symbolic(), Side::Lower, SymmetricOrdering::Custom(perm), Default::default())
-            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let symbolic =
+            factorize_symbolic_cholesky(a.symbolic(), Side::Lower, SymmetricOrdering::Custom(perm), Default::default())
+                .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
         let mut values = vec![0.0; symbolic.len_val()];
         let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
         symbolic
-            .factorize_numeric_llt(&mut values, a, Side::Lower, Default::default(), Par::Seq, MemStack::new(&mut mem), Default::default())
+            .factorize_numeric_llt(
+                &mut values,
+                a,
+                Side::Lower,
+                Default::default(),
+                Par::Seq,
+                MemStack::new(&mut mem),
+                Default::default(),
+            )
             .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
         Ok(Factor { symbolic, values })
     }

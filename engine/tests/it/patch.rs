@@ -115,3 +115,41 @@ fn capacitance_matrix_of_plates_and_field_in_layers() {
         assert!((p.e_max_v_per_m - e).abs() < 1e-8 * e, "region {}: {} vs {e}", p.region, p.e_max_v_per_m);
     }
 }
+
+#[test]
+fn a_part_cut_off_from_every_fixed_potential_is_reported() {
+    // Two separate triangles (as an imported mesh could have): one touches the electrode,
+    // the other only zero-flux boundaries, so its potential level is undetermined.
+    use mesher::{EdgeTag, Mesh, TaggedEdge};
+    let e = |a: u32, b: u32, tag| TaggedEdge { nodes: [a, b], tag, arc: None };
+    let mesh = Mesh {
+        symmetry: Symmetry::Planar,
+        nodes: vec![[0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [5.0, 5.0], [6.0, 5.0], [5.0, 6.0]],
+        num_vertices: 6,
+        triangles: vec![[0, 1, 2], [3, 4, 5]],
+        regions: vec![0, 1],
+        mid_nodes: vec![],
+        edges: vec![
+            e(0, 1, EdgeTag::Conductor(0)),
+            e(1, 2, EdgeTag::Outer),
+            e(2, 0, EdgeTag::Outer),
+            e(3, 4, EdgeTag::Outer),
+            e(4, 5, EdgeTag::Outer),
+            e(5, 3, EdgeTag::Outer),
+        ],
+        arcs: vec![],
+        shape_names: vec!["near".into(), "island".into()],
+        conductor_names: vec!["hv".into()],
+        singular_points: vec![],
+    };
+    mesh.validate().unwrap();
+    let problem = engine::Problem {
+        permittivity: vec![1.0, 1.0],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
+        outer_potential_v: None,
+    };
+    match engine::solve(&mesh, &problem) {
+        Err(engine::SolveError::FloatingPart { region, .. }) => assert_eq!(region, "island"),
+        other => panic!("expected a cut-off part, got {other:?}"),
+    }
+}
