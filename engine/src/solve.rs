@@ -310,8 +310,8 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solutio
     let n = mesh.nodes.len();
     let nc = mesh.conductor_names.len();
     let held_value = |t: u32| -> f64 {
-        if (t as usize) == system.num_terminals - 1 && problem.outer_potential_v.is_some() {
-            problem.outer_potential_v.unwrap()
+        if let (true, Some(v0)) = ((t as usize) == system.num_terminals - 1, problem.outer_potential_v) {
+            v0
         } else {
             let c = system.terminal_of.iter().position(|&x| x == Some(t)).unwrap();
             match problem.conductors[c] {
@@ -344,9 +344,9 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solutio
         }
     });
     let mut conductor_charges = vec![0.0; nc];
-    for v in 0..n {
-        if let Some(c) = system.node_conductor[v] {
-            conductor_charges[c as usize] += residual[v];
+    for (r, c) in residual.iter().zip(&system.node_conductor) {
+        if let Some(c) = c {
+            conductor_charges[*c as usize] += r;
         }
     }
     let conductor_potentials = (0..nc)
