@@ -64,4 +64,6 @@ pub mod space;
 pub use error::SolveError;
 pub use fields::{element_fields, ElementFields, RegionPeak};
 pub use problem::{ConductorSpec, Problem};
-pub use solve::{capacitance_matrix, solve, Solution, EPSILON_0};
+pub use solve::{
+    capacitance_matrix, reduced_system, solve, solver_ordering, ReducedSystem, Solution, SolveTimings, EPSILON_0,
+};

@@ -33,7 +33,9 @@ use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, Symbol
 use faer::sparse::{SparseColMat, Triplet};
 use faer::{Conj, Mat, Par, Side};
 use mesher::{EdgeTag, Mesh, Symmetry};
+use rayon::prelude::*;
 use std::collections::HashMap;
+use std::time::Instant;
 
 /// Permittivity of free space, F/m (CODATA 2018: 8.8541878128e-12).
 pub const EPSILON_0: f64 = 8.854_187_812_8e-12;
@@ -51,6 +53,66 @@ pub struct Solution {
     pub energy: f64,
     /// Number of unknowns of the reduced system.
     pub num_unknowns: usize,
+    /// Wall-clock seconds of each step.
+    pub timings: SolveTimings,
+}
+
+/// Wall-clock seconds of the steps of a solve.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct SolveTimings {
+    /// Element matrices, triplets and the sparse matrix.
+    pub assembly_s: f64,
+    /// Ordering, symbolic and numeric factorisation.
+    pub factor_s: f64,
+    /// Forward and backward substitution.
+    pub solve_s: f64,
+    /// Potentials, reaction charges and energy.
+    pub post_s: f64,
+}
+
+/// The reduced linear system in plain arrays, for inspection and for comparing solvers on
+/// the very same matrix (the `debug matrix` command and the solve benchmark).
+#[derive(Clone, Debug)]
+pub struct ReducedSystem {
+    /// Number of unknowns.
+    pub num_unknowns: usize,
+    /// Lower triangle (row ≥ column) in compressed sparse columns: column pointers.
+    pub col_ptr: Vec<usize>,
+    /// Row index of each stored entry.
+    pub row_idx: Vec<usize>,
+    /// Value of each stored entry, F (F/m planar).
+    pub values: Vec<f64>,
+    /// Right-hand side of the problem's load case, C (C/m planar).
+    pub rhs: Vec<f64>,
+    /// Position of each unknown (None for a floating conductor's shared potential), for
+    /// geometric orderings.
+    pub positions: Vec<Option<[f64; 2]>>,
+}
+
+/// Assembles the reduced system of a problem without solving it.
+///
+/// # Errors
+/// As [`solve`] (everything but factorisation failures).
+pub fn reduced_system(mesh: &Mesh, problem: &Problem) -> Result<ReducedSystem, SolveError> {
+    let system = System::assemble(mesh, problem)?;
+    let m = system.num_unknowns();
+    let mut rhs = vec![0.0; m];
+    case_rhs(&system, problem, &mut rhs);
+    let a = system.matrix.as_ref();
+    Ok(ReducedSystem {
+        num_unknowns: m,
+        col_ptr: a.symbolic().col_ptr().to_vec(),
+        row_idx: a.symbolic().row_idx().to_vec(),
+        values: a.val().to_vec(),
+        rhs,
+        positions: system.positions.clone(),
+    })
+}
+
+/// The geometric nested-dissection ordering the solver uses, for a [`ReducedSystem`]:
+/// (new position → unknown, unknown → new position).
+pub fn solver_ordering(system: &ReducedSystem) -> (Vec<usize>, Vec<usize>) {
+    nested_dissection(&system.col_ptr, &system.row_idx, &system.positions)
 }
 
 /// Where each mesh node's value comes from.
@@ -158,24 +220,44 @@ impl System {
         let m = next as usize;
         check_every_part_is_held(mesh, &dof, m)?;
         let axisym = mesh.symmetry == Symmetry::Axisymmetric;
-        let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(mesh.triangles.len() * 21);
-        let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
         let p2 = mesh.order() == 2;
-        for_each_element(mesh, problem, axisym, p2, |nodes, ke| {
-            for (i, &ni) in nodes.iter().enumerate() {
-                let Dof::Free(ri) = dof[ni as usize] else { continue };
-                for (j, &nj) in nodes.iter().enumerate() {
-                    match dof[nj as usize] {
-                        Dof::Free(cj) => {
-                            if ri >= cj {
-                                trip.push(Triplet::new(ri as usize, cj as usize, ke[i][j]));
+        // Element matrices in parallel: each chunk of triangles yields its own triplets and
+        // its coupling entries to held nodes, merged afterwards (same sums in any order up
+        // to round-off).
+        let chunks: Vec<(Vec<Triplet<usize, usize, f64>>, Vec<(u32, u32, f64)>)> = (0..mesh.triangles.len())
+            .collect::<Vec<usize>>()
+            .par_chunks(4096)
+            .map(|ts| {
+                let mut trip = Vec::with_capacity(ts.len() * 21);
+                let mut coup = Vec::new();
+                let mut ke = [[0.0; 6]; 6];
+                for &t in ts {
+                    let nodes = element(mesh, problem, axisym, p2, t, &mut ke);
+                    for (i, &ni) in nodes.as_slice().iter().enumerate() {
+                        let Dof::Free(ri) = dof[ni as usize] else { continue };
+                        for (j, &nj) in nodes.as_slice().iter().enumerate() {
+                            match dof[nj as usize] {
+                                Dof::Free(cj) => {
+                                    if ri >= cj {
+                                        trip.push(Triplet::new(ri as usize, cj as usize, ke[i][j]));
+                                    }
+                                }
+                                Dof::Held(h) => coup.push((h, ri, ke[i][j])),
                             }
                         }
-                        Dof::Held(t) => coupling[t as usize][ri as usize] += ke[i][j],
                     }
                 }
+                (trip, coup)
+            })
+            .collect();
+        let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
+        let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(chunks.iter().map(|c| c.0.len()).sum());
+        for (t, c) in chunks {
+            trip.extend_from_slice(&t);
+            for (h, r, v) in c {
+                coupling[h as usize][r as usize] += v;
             }
-        });
+        }
         let matrix = SparseColMat::<usize, f64>::try_new_from_triplets(m, m, &trip)
             .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
         Ok(System {
@@ -355,7 +437,14 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solutio
             ConductorSpec::Floating { .. } => x[system.floating_dof[c].unwrap() as usize],
         })
         .collect();
-    Solution { potential, conductor_potentials, conductor_charges, energy, num_unknowns: system.num_unknowns() }
+    Solution {
+        potential,
+        conductor_potentials,
+        conductor_charges,
+        energy,
+        num_unknowns: system.num_unknowns(),
+        timings: SolveTimings::default(),
+    }
 }
 
 /// Solves the problem on the mesh.
@@ -364,11 +453,16 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solutio
 /// [`SolveError`] for a region without permittivity, a conductor the problem does not
 /// describe, no fixed potential anywhere, or a factorisation failure.
 pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
+    let t0 = Instant::now();
     let system = System::assemble(mesh, problem)?;
+    let mut timings = SolveTimings { assembly_s: t0.elapsed().as_secs_f64(), ..Default::default() };
     let m = system.num_unknowns();
     let mut x = vec![0.0; m];
     if m > 0 {
+        let t1 = Instant::now();
         let factor = Factor::new(&system)?;
+        timings.factor_s = t1.elapsed().as_secs_f64();
+        let t2 = Instant::now();
         let mut b = Mat::<f64>::zeros(m, 1);
         case_rhs(&system, problem, &mut x);
         for (i, r) in x.iter().enumerate() {
@@ -378,26 +472,50 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
         for (i, xi) in x.iter_mut().enumerate() {
             *xi = b[(i, 0)];
         }
+        timings.solve_s = t2.elapsed().as_secs_f64();
     }
-    Ok(finish(mesh, problem, &system, &x))
+    let t3 = Instant::now();
+    let mut sol = finish(mesh, problem, &system, &x);
+    timings.post_s = t3.elapsed().as_secs_f64();
+    sol.timings = timings;
+    Ok(sol)
+}
+
+/// Node ids of an element (3 or 6).
+struct ElementNodes {
+    ids: [u32; 6],
+    len: usize,
+}
+
+impl ElementNodes {
+    fn as_slice(&self) -> &[u32] {
+        &self.ids[..self.len]
+    }
+}
+
+/// The stiffness matrix of triangle `t` into `ke`; returns its nodes.
+fn element(mesh: &Mesh, problem: &Problem, axisym: bool, p2: bool, t: usize, ke: &mut [[f64; 6]; 6]) -> ElementNodes {
+    let tri = mesh.triangles[t];
+    let eps = EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
+    if p2 {
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        let x: [[f64; 2]; 6] = ids.map(|i| mesh.nodes[i as usize]);
+        element_matrix::<6, P2>(&x, eps, axisym, &QUAD_DEG4, ke);
+        ElementNodes { ids, len: 6 }
+    } else {
+        let x: [[f64; 2]; 3] = tri.map(|i| mesh.nodes[i as usize]);
+        element_matrix::<3, P1>(&x, eps, axisym, &QUAD_DEG2, ke);
+        ElementNodes { ids: [tri[0], tri[1], tri[2], 0, 0, 0], len: 3 }
+    }
 }
 
 /// Calls `f(nodes, K_e)` for every element with its stiffness matrix ε₀εᵣ∫∇φᵢ·∇φⱼ w dA.
 fn for_each_element(mesh: &Mesh, problem: &Problem, axisym: bool, p2: bool, mut f: impl FnMut(&[u32], &[[f64; 6]; 6])) {
     let mut ke = [[0.0; 6]; 6];
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        let eps = EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
-        if p2 {
-            let m = mesh.mid_nodes[t];
-            let nodes = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
-            let x: [[f64; 2]; 6] = nodes.map(|i| mesh.nodes[i as usize]);
-            element_matrix::<6, P2>(&x, eps, axisym, &QUAD_DEG4, &mut ke);
-            f(&nodes, &ke);
-        } else {
-            let x: [[f64; 2]; 3] = tri.map(|i| mesh.nodes[i as usize]);
-            element_matrix::<3, P1>(&x, eps, axisym, &QUAD_DEG2, &mut ke);
-            f(tri, &ke);
-        }
+    for t in 0..mesh.triangles.len() {
+        let nodes = element(mesh, problem, axisym, p2, t, &mut ke);
+        f(nodes.as_slice(), &ke);
     }
 }
 
