@@ -51,7 +51,9 @@ fn problem() -> Problem {
 fn peak_rss_mb() -> f64 {
     std::fs::read_to_string("/proc/self/status")
         .ok()
-        .and_then(|s| s.lines().find(|l| l.starts_with("VmHWM")).and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok()))
+        .and_then(|s| {
+            s.lines().find(|l| l.starts_with("VmHWM")).and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
+        })
         .map(|kb| kb / 1024.0)
         .unwrap_or(f64::NAN)
 }
@@ -63,7 +65,10 @@ fn mesh_with(order: u8, target_unknowns: f64) -> Mesh {
     let mut h = (area * per / (0.5 * target_unknowns)).sqrt();
     let mut mesh = None;
     for _ in 0..4 {
-        let m = generate(&geometry(), &RefineParams::new().with_order(order).with_max_size_m(h).with_max_nodes(50_000_000)).unwrap().mesh;
+        let m =
+            generate(&geometry(), &RefineParams::new().with_order(order).with_max_size_m(h).with_max_nodes(50_000_000))
+                .unwrap()
+                .mesh;
         let ratio = m.num_nodes() as f64 / target_unknowns;
         mesh = Some(m);
         if (ratio - 1.0).abs() < 0.15 {
@@ -91,7 +96,15 @@ fn faer_direct(sys: &ReducedSystem, custom: Option<(&[usize], &[usize])>) -> (f6
     let t1 = Instant::now();
     let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
     let llt = symbolic
-        .factorize_numeric_llt(&mut values, a.as_ref(), Side::Lower, Default::default(), Par::Seq, MemStack::new(&mut mem), Default::default())
+        .factorize_numeric_llt(
+            &mut values,
+            a.as_ref(),
+            Side::Lower,
+            Default::default(),
+            Par::Seq,
+            MemStack::new(&mut mem),
+            Default::default(),
+        )
         .unwrap();
     let t_num = t1.elapsed().as_secs_f64();
     let _ = llt;
@@ -112,7 +125,7 @@ fn main() {
     let mut out = String::new();
     let _ = writeln!(out, "# Solve benchmark (`cargo bench -p engine --bench solve`)\n");
     let _ = writeln!(out, "Problem: a round conductor in an earthed oil-filled box (planar). One run per row; all figures of a row come from the same process, one after the other.\n");
-    let _ = writeln!(out, "| order | unknowns | assembly s | factor s (ND) | solve s | faer AMD sym s | faer AMD num s | faer ND num s | fieldgrade factor+solve / faer AMD factor+solve | ND num / AMD num | assembly / (factor+solve) | AMD / ND factor values | peak RSS MB |");
+    let _ = writeln!(out, "| order | unknowns | assembly s | factor s | solve s | faer AMD sym s | faer AMD num s | faer ND num s | fieldgrade factor+solve / faer AMD factor+solve | ND num / AMD num | assembly / (factor+solve) | AMD / ND factor values | peak RSS MB |");
     let _ = writeln!(out, "|---|---|---|---|---|---|---|---|---|---|---|---|---|");
     let targets: &[f64] = if quick { &[1e5] } else { &[1e5, 1e6] };
     let p = problem();
@@ -143,10 +156,10 @@ fn main() {
                 nnz_amd as f64 / nnz_nd as f64,
                 peak_rss_mb()
             );
-            eprintln!("P{order} {}: done", sol.num_unknowns);
+            eprintln!("P{order} {}: {t:?}", sol.num_unknowns);
         }
     }
-    let _ = writeln!(out, "\nfactor s (ND) is fieldgrade's ordering + symbolic + numeric factorisation; faer AMD is faer's default ordering on the same matrix. Threads: the factorisations run on one thread (Par::Seq); assembly uses rayon on all cores. Peak RSS is the process's high-water mark so far.");
+    let _ = writeln!(out, "\nfactor s is fieldgrade's ordering + symbolic + numeric factorisation (geometric nested dissection for P1, faer's AMD for P2, chosen by these measurements); faer AMD is faer's default ordering on the same matrix, faer ND is faer with fieldgrade's nested-dissection permutation. Threads: the factorisations run on one thread (Par::Seq); assembly uses rayon on all cores. Peak RSS is the process's high-water mark so far.");
     print!("{out}");
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../bench-results/solve.md");
     std::fs::write(&path, &out).unwrap();

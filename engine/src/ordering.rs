@@ -3,9 +3,10 @@
 //!
 //! # Algorithm
 //! The unknowns are split recursively by coordinate bisection: the set is cut at the median
-//! of its longer bounding-box side; the unknowns of the lower half that are coupled to the
-//! upper half form the separator. Each half is ordered recursively, then the separator is
-//! numbered last. Sets below 64 unknowns are numbered as they come. On a planar mesh of N
+//! of its longer bounding-box side, and a vertex separator is taken from the unknowns
+//! touching the cut, greedily (most cut couplings first) until every coupling across the
+//! cut has an end in the separator. Each half is ordered recursively, then the separator is
+//! numbered last. Sets below 16 unknowns are numbered as they come (16 measured best). On a planar mesh of N
 //! unknowns the separators have O(√N) members, which bounds the factor's fill at
 //! O(N log N) and its work at O(N^(3/2)) (George 1973; Lipton, Rose & Tarjan 1979). Unknowns
 //! without a single position (a floating conductor's shared potential) couple to many
@@ -57,13 +58,13 @@ pub fn nested_dissection(col_ptr: &[usize], row_idx: &[usize], pos: &[Option<[f6
     }
     let (placed, last): (Vec<usize>, Vec<usize>) = (0..n).partition(|&k| pos[k].is_some());
     let mut order = Vec::with_capacity(n);
-    // side[k]: 0 outside the current set, 1 lower half, 2 upper half.
+    // side[k]: 0 outside the current set, 1 lower half, 2 upper half, 3 separator.
     let mut side = vec![0u8; n];
     let mut stack = vec![(placed, false)];
     // Iterative post-order: a set is split into (lower, upper, separator); the separator
     // must be emitted after both halves, so it is pushed first with a "done" flag.
     while let Some((set, emit)) = stack.pop() {
-        if emit || set.len() < 64 {
+        if emit || set.len() < 16 {
             order.extend_from_slice(&set);
             continue;
         }
@@ -79,16 +80,34 @@ pub fn nested_dissection(col_ptr: &[usize], row_idx: &[usize], pos: &[Option<[f6
         for (i, &k) in s.iter().enumerate() {
             side[k] = if i < mid { 1 } else { 2 };
         }
-        let mut lower = Vec::with_capacity(mid);
-        let mut sep = Vec::new();
-        for &k in &s[..mid] {
-            if adj[deg[k]..deg[k + 1]].iter().any(|&u| side[u] == 2) {
-                sep.push(k);
-            } else {
-                lower.push(k);
+        // Vertex separator: a small vertex cover of the edges cut by the bisection. Nodes
+        // touching the cut are taken greedily, most cut edges first, as long as they still
+        // have a cut neighbour outside the separator (every cut edge ends up covered).
+        let mut cands: Vec<(u32, usize)> = Vec::new();
+        for &k in &s {
+            let other = 3 - side[k];
+            let d = adj[deg[k]..deg[k + 1]].iter().filter(|&&u| side[u] == other).count();
+            if d > 0 {
+                cands.push((d as u32, k));
             }
         }
-        let upper = s[mid..].to_vec();
+        cands.sort_unstable_by(|a, b| b.0.cmp(&a.0).then(a.1.cmp(&b.1)));
+        for &(_, k) in &cands {
+            let other = 3 - side[k];
+            if adj[deg[k]..deg[k + 1]].iter().any(|&u| side[u] == other) {
+                side[k] = 3;
+            }
+        }
+        let mut lower = Vec::with_capacity(mid);
+        let mut upper = Vec::with_capacity(s.len() - mid);
+        let mut sep = Vec::new();
+        for &k in &s {
+            match side[k] {
+                1 => lower.push(k),
+                2 => upper.push(k),
+                _ => sep.push(k),
+            }
+        }
         for &k in &s {
             side[k] = 0;
         }
@@ -133,8 +152,10 @@ mod tests {
             seen[old] = true;
             assert_eq!(inv[old], new);
         }
-        // The top-level separator is the column x = 9 (lower half x < 10 touching x = 10):
+        // The top-level separator is one grid column next to the median (x = 9 or x = 10):
         // its 20 unknowns are the last 20 in the order.
-        assert!(fwd[n - m..].iter().all(|&k| k % m == 9));
+        let col = fwd[n - 1] % m;
+        assert!(col == 9 || col == 10);
+        assert!(fwd[n - m..].iter().all(|&k| k % m == col));
     }
 }

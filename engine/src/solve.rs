@@ -30,7 +30,7 @@ use crate::space::{Element, P1, P2, QUAD_DEG2, QUAD_DEG4};
 use faer::dyn_stack::{MemBuffer, MemStack};
 use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, SymbolicCholesky, SymmetricOrdering};
-use faer::sparse::{SparseColMat, Triplet};
+use faer::sparse::{SparseColMat, SymbolicSparseColMat, Triplet};
 use faer::{Conj, Mat, Par, Side};
 use mesher::{EdgeTag, Mesh, Symmetry};
 use rayon::prelude::*;
@@ -62,8 +62,14 @@ pub struct Solution {
 pub struct SolveTimings {
     /// Element matrices, triplets and the sparse matrix.
     pub assembly_s: f64,
-    /// Ordering, symbolic and numeric factorisation.
+    /// Ordering, symbolic and numeric factorisation (the sum of the next three).
     pub factor_s: f64,
+    /// Nested-dissection ordering.
+    pub ordering_s: f64,
+    /// Symbolic factorisation.
+    pub symbolic_s: f64,
+    /// Numeric factorisation.
+    pub numeric_s: f64,
     /// Forward and backward substitution.
     pub solve_s: f64,
     /// Potentials, reaction charges and energy.
@@ -143,6 +149,8 @@ struct System {
     coupling: Vec<Vec<f64>>,
     /// A position per unknown for the ordering (None for floating conductors).
     positions: Vec<Option<[f64; 2]>>,
+    /// Quadratic elements (ordered by AMD, see [`Factor::new`]).
+    quadratic: bool,
 }
 
 impl System {
@@ -150,17 +158,25 @@ impl System {
         problem.check(mesh)?;
         let n = mesh.nodes.len();
         let nc = mesh.conductor_names.len();
-        // Nodes on each tagged edge, including P2 mid nodes.
+        // Nodes on each tagged edge, including P2 mid nodes. Only triangle edges whose two
+        // ends both lie on tagged edges can be tagged, which skips the hash look-up for
+        // nearly every edge of the mesh.
         let mut edge_tag: HashMap<(u32, u32), EdgeTag> = HashMap::with_capacity(mesh.edges.len());
+        let mut on_tagged = vec![false; n];
         for e in &mesh.edges {
             let [a, b] = e.nodes;
             edge_tag.insert((a.min(b), a.max(b)), e.tag);
+            on_tagged[a as usize] = true;
+            on_tagged[b as usize] = true;
         }
         let mut node_conductor: Vec<Option<u32>> = vec![None; n];
         let mut node_outer = vec![false; n];
         for (t, tri) in mesh.triangles.iter().enumerate() {
             for k in 0..3 {
                 let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                if !(on_tagged[a as usize] && on_tagged[b as usize]) {
+                    continue;
+                }
                 let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
                 let mid = if mesh.mid_nodes.is_empty() { None } else { Some(mesh.mid_nodes[t][k]) };
                 for v in [Some(a), Some(b), mid].into_iter().flatten() {
@@ -251,15 +267,12 @@ impl System {
             })
             .collect();
         let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
-        let mut trip: Vec<Triplet<usize, usize, f64>> = Vec::with_capacity(chunks.iter().map(|c| c.0.len()).sum());
-        for (t, c) in chunks {
-            trip.extend_from_slice(&t);
-            for (h, r, v) in c {
+        for (_, c) in &chunks {
+            for &(h, r, v) in c {
                 coupling[h as usize][r as usize] += v;
             }
         }
-        let matrix = SparseColMat::<usize, f64>::try_new_from_triplets(m, m, &trip)
-            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let matrix = lower_csc_from_triplets(m, chunks.iter().map(|c| c.0.as_slice()))?;
         Ok(System {
             dof,
             node_conductor,
@@ -269,6 +282,7 @@ impl System {
             matrix,
             coupling,
             positions,
+            quadratic: p2,
         })
     }
 
@@ -327,21 +341,87 @@ fn check_every_part_is_held(mesh: &Mesh, dof: &[Dof], m: usize) -> Result<(), So
     Ok(())
 }
 
+/// Lower-triangle CSC matrix from (row ≥ col) triplets, duplicates summed: a counting sort
+/// by column, then each (short) column sorted by row. Linear in the number of triplets
+/// apart from the per-column sorts, and several times faster than a global sort.
+fn lower_csc_from_triplets<'a>(
+    m: usize,
+    parts: impl Iterator<Item = &'a [Triplet<usize, usize, f64>]> + Clone,
+) -> Result<SparseColMat<usize, f64>, SolveError> {
+    let mut count = vec![0usize; m + 1];
+    for part in parts.clone() {
+        for t in part {
+            count[t.col + 1] += 1;
+        }
+    }
+    for j in 0..m {
+        count[j + 1] += count[j];
+    }
+    let mut fill = count.clone();
+    let mut entries = vec![(0usize, 0.0f64); count[m]];
+    for part in parts {
+        for t in part {
+            entries[fill[t.col]] = (t.row, t.val);
+            fill[t.col] += 1;
+        }
+    }
+    let mut col_ptr = Vec::with_capacity(m + 1);
+    let mut row_idx = Vec::with_capacity(entries.len() / 4);
+    let mut values = Vec::with_capacity(entries.len() / 4);
+    col_ptr.push(0);
+    for j in 0..m {
+        let col = &mut entries[count[j]..count[j + 1]];
+        col.sort_unstable_by_key(|e| e.0);
+        let mut k = 0;
+        while k < col.len() {
+            let (r, mut v) = col[k];
+            k += 1;
+            while k < col.len() && col[k].0 == r {
+                v += col[k].1;
+                k += 1;
+            }
+            row_idx.push(r);
+            values.push(v);
+        }
+        col_ptr.push(row_idx.len());
+    }
+    // Sorted, duplicate-free rows within each column by construction.
+    let symbolic = SymbolicSparseColMat::new_checked(m, m, col_ptr, None, row_idx);
+    Ok(SparseColMat::new(symbolic, values))
+}
+
 /// A Cholesky factorisation of a [`System`], with a nested-dissection ordering.
 struct Factor {
     symbolic: SymbolicCholesky<usize>,
     values: Vec<f64>,
+    /// Seconds: ordering, symbolic, numeric.
+    laps: [f64; 3],
 }
 
 impl Factor {
+    /// Orders, then factorises. Linear elements use the geometric nested dissection of
+    /// `ordering`; quadratic ones use faer's AMD, because on P2 meshes the bisection
+    /// separators cut through elements and come out thick (measured in
+    /// `bench-results/solve.md`: ND numeric factorisation 0.74–0.77× AMD's time for P1 at
+    /// 10⁶ unknowns, but 1.15× for P2).
     fn new(system: &System) -> Result<Factor, SolveError> {
         let m = system.num_unknowns();
         let a = system.matrix.as_ref();
-        let (fwd, inv) = nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions);
-        let perm = PermRef::new_checked(&fwd, &inv, m);
-        let symbolic =
-            factorize_symbolic_cholesky(a.symbolic(), Side::Lower, SymmetricOrdering::Custom(perm), Default::default())
-                .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let t0 = Instant::now();
+        let (fwd, inv) = if system.quadratic {
+            (Vec::new(), Vec::new())
+        } else {
+            nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions)
+        };
+        let t1 = Instant::now();
+        let ordering = if system.quadratic {
+            SymmetricOrdering::Amd
+        } else {
+            SymmetricOrdering::Custom(PermRef::new_checked(&fwd, &inv, m))
+        };
+        let symbolic = factorize_symbolic_cholesky(a.symbolic(), Side::Lower, ordering, Default::default())
+            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let t2 = Instant::now();
         let mut values = vec![0.0; symbolic.len_val()];
         let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
         symbolic
@@ -355,7 +435,8 @@ impl Factor {
                 Default::default(),
             )
             .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
-        Ok(Factor { symbolic, values })
+        let laps = [(t1 - t0).as_secs_f64(), (t2 - t1).as_secs_f64(), t2.elapsed().as_secs_f64()];
+        Ok(Factor { symbolic, values, laps })
     }
 
     /// Solves in place for every column of `rhs`.
@@ -462,6 +543,7 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
         let t1 = Instant::now();
         let factor = Factor::new(&system)?;
         timings.factor_s = t1.elapsed().as_secs_f64();
+        [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = factor.laps;
         let t2 = Instant::now();
         let mut b = Mat::<f64>::zeros(m, 1);
         case_rhs(&system, problem, &mut x);
