@@ -121,6 +121,10 @@ pub fn solver_ordering(system: &ReducedSystem) -> (Vec<usize>, Vec<usize>) {
     nested_dissection(&system.col_ptr, &system.row_idx, &system.positions)
 }
 
+/// What one chunk of elements contributes: matrix triplets, and (terminal, row, value)
+/// couplings to held nodes.
+type ChunkEntries = (Vec<Triplet<usize, usize, f64>>, Vec<(u32, u32, f64)>);
+
 /// Where each mesh node's value comes from.
 #[derive(Clone, Copy, Debug, PartialEq)]
 enum Dof {
@@ -240,7 +244,7 @@ impl System {
         // Element matrices in parallel: each chunk of triangles yields its own triplets and
         // its coupling entries to held nodes, merged afterwards (same sums in any order up
         // to round-off).
-        let chunks: Vec<(Vec<Triplet<usize, usize, f64>>, Vec<(u32, u32, f64)>)> = (0..mesh.triangles.len())
+        let chunks: Vec<ChunkEntries> = (0..mesh.triangles.len())
             .collect::<Vec<usize>>()
             .par_chunks(4096)
             .map(|ts| {
