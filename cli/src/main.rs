@@ -63,6 +63,28 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Dump an intermediate stage for inspection.
+    Debug {
+        #[command(subcommand)]
+        what: DebugCommand,
+    },
+}
+
+#[derive(Subcommand, Debug)]
+enum DebugCommand {
+    /// Write the reduced stiffness matrix (lower triangle, Matrix Market "symmetric") and
+    /// its right-hand side (FILE_rhs.mtx, Matrix Market "array"), so that other sparse
+    /// solvers can be compared on the very same system.
+    Matrix {
+        /// The model file (TOML).
+        model: PathBuf,
+        /// The matrix file to write.
+        #[arg(long, value_name = "FILE.mtx")]
+        out: PathBuf,
+        /// Element order, overriding the model's `[mesh] order`.
+        #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
+        order: Option<u8>,
+    },
 }
 
 /// An error whose message is complete as it stands (a model-file diagnostic).
@@ -82,6 +104,9 @@ fn main() -> ExitCode {
             mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json })
         }
         Command::Solve { model, out, order, json } => solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json }),
+        Command::Debug { what: DebugCommand::Matrix { model, out, order } } => {
+            solve_cmd::dump_matrix(&model, &out, order)
+        }
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -2,6 +2,8 @@
 
 /// Running the binary and reading what it wrote.
 mod common;
+/// `fieldgrade debug matrix` dumps a system an independent solver can solve.
+mod debug_matrix;
 /// Every bad model file gives a located message, exit code 2, and writes nothing.
 mod errors;
 /// `fieldgrade mesh` statistics of the shipped demo models (insta snapshots).
