@@ -19,12 +19,14 @@
 //! - [`element_fields`] → [`ElementFields`]: E per element and the peak |E| per region
 //!   with its location.
 //! - [`capacitance_matrix`]: the Maxwell capacitance matrix of the fixed conductors.
+//! - [`probe_line`], [`probe_interface`]: V and E along a polyline, and normal and
+//!   tangential E on both sides of an interface or on a conductor surface.
 //! - [`space`]: reference elements and quadrature rules.
 //!
 //! Status: the solve, element fields and capacitance matrix are in place and checked
-//! against closed forms (coaxial cylinders, concentric spheres, layered plates). Line
-//! probes, recovered nodal fields, the open boundary, error estimation and adaptivity are
-//! the next stages.
+//! against closed forms (coaxial cylinders, concentric spheres, layered plates), and so
+//! are the probes. Recovered nodal fields, the open boundary, error estimation and
+//! adaptivity are the next stages.
 //!
 //! ```
 //! use engine::{solve, ConductorSpec, Problem, EPSILON_0};
@@ -57,12 +59,14 @@
 mod error;
 mod fields;
 mod ordering;
+mod probe;
 mod problem;
 mod solve;
 pub mod space;
 
 pub use error::SolveError;
 pub use fields::{element_fields, ElementFields, RegionPeak};
+pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use solve::{
     capacitance_matrix, reduced_system, solve, solver_ordering, ReducedSystem, Solution, SolveTimings, EPSILON_0,

@@ -153,3 +153,34 @@ fn a_part_cut_off_from_every_fixed_potential_is_reported() {
         other => panic!("expected a cut-off part, got {other:?}"),
     }
 }
+
+#[test]
+fn interface_probe_gives_both_normal_fields() {
+    // Layered plates: across the interface y = 0.03, D is continuous, so
+    // Eₙ = D/(ε₀εᵣ) on each side and Eₜ = 0 (series layers; Griffiths 2017, §4.4).
+    let rect = |n: &str, y0: f64, y1: f64| Outline::rectangle(n, [-0.03, y0], [0.06, y1 - y0], 0.0).unwrap();
+    let shapes = vec![
+        shape("box", rect("box", 0.0, 0.06), diel(4.5)),
+        shape("upper", rect("upper", 0.03, 0.05), diel(1.0)),
+        shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+        shape("top", rect("top", 0.05, 0.06), cond(1)),
+    ];
+    let specs = [("hv", ConductorSpec::Fixed { potential_v: 1000.0 }), ("earth", ConductorSpec::Fixed { potential_v: 0.0 })];
+    for order in [1, 2] {
+        let (mesh, sol) = run(Symmetry::Planar, shapes.clone(), &specs, None, 0.006, order);
+        let d = 1000.0 * EPSILON_0 / (0.02 / 4.5 + 0.02 / 1.0);
+        let samples = engine::probe_interface(&mesh, &sol, engine::InterfaceSelector::Regions(0, 1));
+        assert!(!samples.is_empty());
+        let total: f64 = samples.windows(2).map(|w| w[1].s - w[0].s).sum();
+        assert!(total > 0.04, "chain spans the interface: {total}");
+        for smp in &samples {
+            let second = smp.second.as_ref().expect("two sides");
+            for side in [&smp.first, second] {
+                let er = if side.region == 0 { 4.5 } else { 1.0 };
+                assert!((side.e_n.abs() - d / (EPSILON_0 * er)).abs() < 1e-8 * d / EPSILON_0, "{side:?}");
+                assert!(side.e_t.abs() < 1e-8 * d / EPSILON_0);
+            }
+            assert!((smp.at[1] - 0.03).abs() < 1e-12);
+        }
+    }
+}

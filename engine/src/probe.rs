@@ -1,0 +1,325 @@
+//! Field samples along a polyline and along a tagged interface or conductor surface.
+//!
+//! # Algorithm
+//! A polyline is sampled at equal arc-length steps. Each sample is located in the mesh with
+//! a uniform bucket grid of triangle bounding boxes, then mapped to reference coordinates
+//! (barycentric for straight elements, refined by Newton's method on the isoparametric map
+//! for curved P2 ones) where V and E = −∇V are evaluated.
+//!
+//! An interface (two regions, or a region and a conductor) is sampled at the midpoint of
+//! every mesh edge on it, chained end to end; on each side E is evaluated in the adjacent
+//! element and split into the normal component Eₙ = E·n (n the unit normal pointing from
+//! the first region into the second) and the tangential component Eₜ = E·t (t along the
+//! chain). Across a charge-free dielectric interface Eₜ is continuous and εEₙ is
+//! continuous; the tool reports both sides as computed, without averaging.
+
+use crate::solve::Solution;
+use crate::space::{Element, P1, P2};
+use mesher::{EdgeTag, Mesh, Xy};
+
+/// One sample along a polyline.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LineSample {
+    /// Arc length from the polyline's start, metres.
+    pub s: f64,
+    /// Position, metres.
+    pub at: Xy,
+    /// Region (shape index) the point is in, or `None` outside the mesh (inside a
+    /// conductor or outside the domain).
+    pub region: Option<u32>,
+    /// Potential, V (NaN outside the mesh).
+    pub potential: f64,
+    /// E, V/m (NaN outside the mesh).
+    pub e: [f64; 2],
+}
+
+/// The field on one side of an interface sample.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SideField {
+    /// Region (shape index) on this side.
+    pub region: u32,
+    /// Normal component, V/m (normal from the first side into the second).
+    pub e_n: f64,
+    /// Tangential component, V/m (along the chain).
+    pub e_t: f64,
+}
+
+/// One sample of an interface or conductor surface.
+#[derive(Clone, Debug, PartialEq)]
+pub struct InterfaceSample {
+    /// Arc length along the chained edges, metres.
+    pub s: f64,
+    /// Position (edge midpoint), metres.
+    pub at: Xy,
+    /// Potential there, V.
+    pub potential: f64,
+    /// Field on the first side.
+    pub first: SideField,
+    /// Field on the second side (None on a conductor surface or the outer boundary).
+    pub second: Option<SideField>,
+}
+
+/// Which interface to sample.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum InterfaceSelector {
+    /// Between two dielectric regions (shape indices).
+    Regions(u32, u32),
+    /// The surface of a conductor (its index), seen from every region touching it.
+    Conductor(u32),
+}
+
+/// Reference coordinates (ξ, η) of point `p` in triangle `t`, if it lies inside (with a
+/// small tolerance).
+fn locate_in(mesh: &Mesh, t: usize, p: Xy) -> Option<(f64, f64)> {
+    let tri = mesh.triangles[t];
+    let [a, b, c] = tri.map(|i| mesh.nodes[i as usize]);
+    let det = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
+    let mut xi = ((p[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (p[1] - a[1])) / det;
+    let mut eta = ((b[0] - a[0]) * (p[1] - a[1]) - (p[0] - a[0]) * (b[1] - a[1])) / det;
+    if !mesh.mid_nodes.is_empty() {
+        // Newton on the isoparametric map x(ξ, η) = p (curved edges move points a little).
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        let x = ids.map(|i| mesh.nodes[i as usize]);
+        for _ in 0..8 {
+            let v = P2::values(xi, eta);
+            let g = P2::gradients(xi, eta);
+            let (mut fx, mut fy) = (-p[0], -p[1]);
+            let mut j = [[0.0; 2]; 2];
+            for k in 0..6 {
+                fx += x[k][0] * v[k];
+                fy += x[k][1] * v[k];
+                j[0][0] += x[k][0] * g[k][0];
+                j[0][1] += x[k][0] * g[k][1];
+                j[1][0] += x[k][1] * g[k][0];
+                j[1][1] += x[k][1] * g[k][1];
+            }
+            let d = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+            let dxi = (j[1][1] * fx - j[0][1] * fy) / d;
+            let deta = (-j[1][0] * fx + j[0][0] * fy) / d;
+            xi -= dxi;
+            eta -= deta;
+            if dxi.abs() + deta.abs() < 1e-14 {
+                break;
+            }
+        }
+    }
+    let tol = 1e-10;
+    (xi >= -tol && eta >= -tol && xi + eta <= 1.0 + tol).then_some((xi, eta))
+}
+
+/// V and E at reference point (ξ, η) of triangle `t`.
+fn evaluate(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> (f64, [f64; 2]) {
+    fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], u: &[f64; N], xi: f64, eta: f64) -> (f64, [f64; 2]) {
+        let g = E::gradients(xi, eta);
+        let s = E::values(xi, eta);
+        let mut j = [[0.0; 2]; 2];
+        let (mut v, mut gr) = (0.0, [0.0; 2]);
+        for k in 0..N {
+            j[0][0] += x[k][0] * g[k][0];
+            j[0][1] += x[k][0] * g[k][1];
+            j[1][0] += x[k][1] * g[k][0];
+            j[1][1] += x[k][1] * g[k][1];
+            v += u[k] * s[k];
+            gr[0] += u[k] * g[k][0];
+            gr[1] += u[k] * g[k][1];
+        }
+        let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+        let gx = (j[1][1] * gr[0] - j[1][0] * gr[1]) / det;
+        let gy = (-j[0][1] * gr[0] + j[0][0] * gr[1]) / det;
+        (v, [-gx, -gy])
+    }
+    let tri = mesh.triangles[t];
+    if mesh.mid_nodes.is_empty() {
+        eval::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), &tri.map(|i| potential[i as usize]), xi, eta)
+    } else {
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        eval::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), &ids.map(|i| potential[i as usize]), xi, eta)
+    }
+}
+
+/// Uniform grid of triangle bounding boxes for point location.
+struct TriangleGrid {
+    x0: f64,
+    y0: f64,
+    cell: f64,
+    nx: usize,
+    ny: usize,
+    start: Vec<u32>,
+    items: Vec<u32>,
+}
+
+impl TriangleGrid {
+    fn new(mesh: &Mesh) -> TriangleGrid {
+        let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
+        for p in &mesh.nodes {
+            bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
+        }
+        let (w, h) = ((bb[2] - bb[0]).max(1e-300), (bb[3] - bb[1]).max(1e-300));
+        let cell = ((w * h) / mesh.triangles.len().max(1) as f64).sqrt().max(w.max(h) / 2048.0);
+        let nx = ((w / cell).ceil() as usize).max(1);
+        let ny = ((h / cell).ceil() as usize).max(1);
+        let range = |t: &[u32; 3]| {
+            let ps = t.map(|i| mesh.nodes[i as usize]);
+            let lo = |v: f64, o: f64, n: usize| (((v - o) / cell).floor().max(0.0) as usize).min(n - 1);
+            let (xmin, xmax) = (ps.iter().map(|p| p[0]).fold(f64::INFINITY, f64::min), ps.iter().map(|p| p[0]).fold(f64::NEG_INFINITY, f64::max));
+            let (ymin, ymax) = (ps.iter().map(|p| p[1]).fold(f64::INFINITY, f64::min), ps.iter().map(|p| p[1]).fold(f64::NEG_INFINITY, f64::max));
+            // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
+            let pad = 0.1 * (xmax - xmin).max(ymax - ymin);
+            (lo(xmin - pad, bb[0], nx), lo(xmax + pad, bb[0], nx), lo(ymin - pad, bb[1], ny), lo(ymax + pad, bb[1], ny))
+        };
+        let mut count = vec![0u32; nx * ny + 1];
+        for t in &mesh.triangles {
+            let (a, b, c, d) = range(t);
+            for iy in c..=d {
+                for ix in a..=b {
+                    count[iy * nx + ix + 1] += 1;
+                }
+            }
+        }
+        for k in 1..count.len() {
+            count[k] += count[k - 1];
+        }
+        let mut fill = count.clone();
+        let mut items = vec![0u32; *count.last().unwrap() as usize];
+        for (ti, t) in mesh.triangles.iter().enumerate() {
+            let (a, b, c, d) = range(t);
+            for iy in c..=d {
+                for ix in a..=b {
+                    let k = iy * nx + ix;
+                    items[fill[k] as usize] = ti as u32;
+                    fill[k] += 1;
+                }
+            }
+        }
+        TriangleGrid { x0: bb[0], y0: bb[1], cell, nx, ny, start: count, items }
+    }
+
+    fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {
+        let ix = ((p[0] - self.x0) / self.cell).floor();
+        let iy = ((p[1] - self.y0) / self.cell).floor();
+        if ix < -1.0 || iy < -1.0 || ix > self.nx as f64 || iy > self.ny as f64 {
+            return None;
+        }
+        let ix = (ix.max(0.0) as usize).min(self.nx - 1);
+        let iy = (iy.max(0.0) as usize).min(self.ny - 1);
+        let k = iy * self.nx + ix;
+        self.items[self.start[k] as usize..self.start[k + 1] as usize]
+            .iter()
+            .find_map(|&t| locate_in(mesh, t as usize, p).map(|(xi, eta)| (t as usize, xi, eta)))
+    }
+}
+
+/// Samples V and E at `samples` points equally spaced along the polyline `path`
+/// (at least two points).
+///
+/// # Panics
+/// If `path` has fewer than two points, `samples < 2`, or the solution does not belong to
+/// the mesh.
+#[track_caller]
+pub fn probe_line(mesh: &Mesh, solution: &Solution, path: &[Xy], samples: usize) -> Vec<LineSample> {
+    assert!(path.len() >= 2 && samples >= 2, "a probe line needs two points and two samples");
+    assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    let grid = TriangleGrid::new(mesh);
+    let seg: Vec<f64> = path.windows(2).map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1])).collect();
+    let total: f64 = seg.iter().sum();
+    let mut out = Vec::with_capacity(samples);
+    for k in 0..samples {
+        let s = total * k as f64 / (samples - 1) as f64;
+        let (mut i, mut acc) = (0, 0.0);
+        while i + 1 < seg.len() && acc + seg[i] < s {
+            acc += seg[i];
+            i += 1;
+        }
+        let f = if seg[i] > 0.0 { ((s - acc) / seg[i]).clamp(0.0, 1.0) } else { 0.0 };
+        let at = [path[i][0] + f * (path[i + 1][0] - path[i][0]), path[i][1] + f * (path[i + 1][1] - path[i][1])];
+        out.push(match grid.locate(mesh, at) {
+            Some((t, xi, eta)) => {
+                let (v, e) = evaluate(mesh, &solution.potential, t, xi, eta);
+                LineSample { s, at, region: Some(mesh.regions[t]), potential: v, e }
+            }
+            None => LineSample { s, at, region: None, potential: f64::NAN, e: [f64::NAN; 2] },
+        });
+    }
+    out
+}
+
+/// Samples an interface or conductor surface at the midpoint of every mesh edge on it.
+///
+/// # Panics
+/// If the solution does not belong to the mesh.
+#[track_caller]
+pub fn probe_interface(mesh: &Mesh, solution: &Solution, which: InterfaceSelector) -> Vec<InterfaceSample> {
+    assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    // The triangle on each side of every edge.
+    let mut tri_of: std::collections::HashMap<(u32, u32), (u32, u8)> = std::collections::HashMap::new();
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        for k in 0..3 {
+            tri_of.insert((tri[k], tri[(k + 1) % 3]), (t as u32, k as u8));
+        }
+    }
+    let mut edges: Vec<[u32; 2]> = mesh
+        .edges
+        .iter()
+        .filter(|e| match (which, e.tag) {
+            (InterfaceSelector::Regions(a, b), EdgeTag::Interface(x, y)) => (x, y) == (a.min(b), a.max(b)),
+            (InterfaceSelector::Conductor(c), EdgeTag::Conductor(d)) => c == d,
+            _ => false,
+        })
+        .map(|e| e.nodes)
+        .collect();
+    // Chain the edges end to end (each chain in order; chains one after another).
+    let mut ordered: Vec<[u32; 2]> = Vec::with_capacity(edges.len());
+    while !edges.is_empty() {
+        // Start a chain at an edge whose start is no other edge's end, if there is one.
+        let start = (0..edges.len()).find(|&i| !edges.iter().any(|e| e[1] == edges[i][0])).unwrap_or(0);
+        let mut cur = edges.swap_remove(start);
+        ordered.push(cur);
+        while let Some(i) = edges.iter().position(|e| e[0] == cur[1]) {
+            cur = edges.swap_remove(i);
+            ordered.push(cur);
+        }
+    }
+    let mut out = Vec::with_capacity(ordered.len());
+    let mut s = 0.0;
+    let mut prev_end: Option<Xy> = None;
+    for [a, b] in ordered {
+        let (pa, pb) = (mesh.nodes[a as usize], mesh.nodes[b as usize]);
+        let len = (pb[0] - pa[0]).hypot(pb[1] - pa[1]);
+        if let Some(q) = prev_end {
+            // A jump between chains counts as distance too, so s stays monotone.
+            s += (pa[0] - q[0]).hypot(pa[1] - q[1]);
+        }
+        let t_hat = [(pb[0] - pa[0]) / len, (pb[1] - pa[1]) / len];
+        // The first region lies on the left of a→b; the normal points to the right side.
+        let n_hat = [t_hat[1], -t_hat[0]];
+        let mid = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
+        let side = |key: (u32, u32)| -> Option<(SideField, f64)> {
+            let &(t, k) = tri_of.get(&key)?;
+            // Reference coordinates of the midpoint of local edge k.
+            let (xi, eta) = [(0.5, 0.0), (0.5, 0.5), (0.0, 0.5)][k as usize];
+            let (v, e) = evaluate(mesh, &solution.potential, t as usize, xi, eta);
+            Some((
+                SideField {
+                    region: mesh.regions[t as usize],
+                    e_n: e[0] * n_hat[0] + e[1] * n_hat[1],
+                    e_t: e[0] * t_hat[0] + e[1] * t_hat[1],
+                },
+                v,
+            ))
+        };
+        // The triangle with a→b counter-clockwise is on the left (the first side).
+        let left = side((a, b));
+        let right = side((b, a));
+        let (first, v, second) = match (left, right) {
+            (Some((f, v)), r) => (f, v, r.map(|x| x.0)),
+            (None, Some((f, v))) => (f, v, None),
+            (None, None) => continue,
+        };
+        out.push(InterfaceSample { s: s + len / 2.0, at: mid, potential: v, first, second });
+        s += len;
+        prev_end = Some(pb);
+    }
+    out
+}
