@@ -24,6 +24,18 @@ struct RawModel {
     shape: Vec<S<RawShape>>,
     boundary: Option<S<RawBoundary>>,
     mesh: Option<S<RawMesh>>,
+    #[serde(default)]
+    probe: Vec<S<RawProbe>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawProbe {
+    name: S<String>,
+    path: Option<S<Vec<S<[f64; 2]>>>>,
+    samples: Option<S<i64>>,
+    interface: Option<S<[String; 2]>>,
+    conductor_surface: Option<S<String>>,
 }
 
 #[derive(Deserialize, Debug)]
@@ -161,6 +173,31 @@ pub struct Conductor {
     pub kind: ConductorKind,
 }
 
+/// What a probe samples.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ProbeKind {
+    /// A polyline (metres) sampled at `samples` equally spaced points.
+    Line {
+        /// Corner points, metres.
+        path: Vec<Xy>,
+        /// Number of samples.
+        samples: usize,
+    },
+    /// The interface between two dielectric shapes (shape indices).
+    Interface(u32, u32),
+    /// The surface of a conductor (conductor index).
+    ConductorSurface(u32),
+}
+
+/// A requested field probe.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Probe {
+    /// Name (letters, digits, '-' and '_'; used in the CSV file name).
+    pub name: String,
+    /// What to sample.
+    pub kind: ProbeKind,
+}
+
 /// A checked model, ready to mesh.
 #[derive(Clone, Debug)]
 pub struct Model {
@@ -178,6 +215,8 @@ pub struct Model {
     pub conductors: Vec<Conductor>,
     /// Outer boundary potential, if the outer boundary is an electrode.
     pub outer_potential_v: Option<f64>,
+    /// Field probes.
+    pub probes: Vec<Probe>,
     /// Metres per model length unit.
     pub unit_m: f64,
     /// Name of the model length unit.
@@ -661,6 +700,94 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             size_points.push(SizePoint { at, size_m: size });
         }
     }
+    // [[probe]]
+    let mut probes: Vec<Probe> = Vec::new();
+    for (i, p) in raw.probe.iter().enumerate() {
+        let whole = p.span();
+        let p = p.get_ref();
+        let key = |k: &str| format!("probe[{i}].{k}");
+        let name = p.name.get_ref().clone();
+        if name.is_empty() || !name.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_') {
+            return Err(err(p.name.span(), format!("probe name '{name}' is not usable in a file name"))
+                .key(key("name"))
+                .help("use letters, digits, '-' and '_' only"));
+        }
+        if probes.iter().any(|q| q.name == name) {
+            return Err(err(p.name.span(), format!("probe '{name}' is defined twice"))
+                .key(key("name"))
+                .help("give each probe its own name"));
+        }
+        let kinds =
+            [p.path.is_some(), p.interface.is_some(), p.conductor_surface.is_some()].iter().filter(|b| **b).count();
+        if kinds != 1 {
+            return Err(err(
+                whole,
+                format!("probe '{name}' needs exactly one of path, interface or conductor_surface (it has {kinds})"),
+            )
+            .key(format!("probe[{i}]")));
+        }
+        if let (Some(n), None) = (&p.samples, &p.path) {
+            return Err(err(
+                n.span(),
+                "samples applies to path probes only; interface and surface probes sample every mesh edge".into(),
+            )
+            .key(key("samples")));
+        }
+        let kind = if let Some(path) = &p.path {
+            let mut pts = Vec::new();
+            for (k, q) in path.get_ref().iter().enumerate() {
+                pts.push(finite_xy(q, key(&format!("path[{k}]")))?);
+            }
+            if pts.len() < 2 {
+                return Err(err(path.span(), "a probe path needs at least two points".into()).key(key("path")));
+            }
+            let samples = match &p.samples {
+                Some(n) => {
+                    let v = *n.get_ref();
+                    if !(2..=1_000_000).contains(&v) {
+                        return Err(err(n.span(), format!("samples = {v} is out of range"))
+                            .key(key("samples"))
+                            .help("use 2 to 1000000"));
+                    }
+                    v as usize
+                }
+                None => 200,
+            };
+            ProbeKind::Line { path: pts, samples }
+        } else if let Some(pair) = &p.interface {
+            let [a, b] = pair.get_ref();
+            let mut idx = [0u32; 2];
+            for (k, n) in [a, b].iter().enumerate() {
+                let s = shapes.iter().position(|s| &s.name == *n).ok_or_else(|| {
+                    err(pair.span(), format!("probe '{name}' refers to shape '{n}', which does not exist"))
+                        .key(key("interface"))
+                })?;
+                if let Fill::Conductor { .. } = shapes[s].fill {
+                    return Err(err(
+                        pair.span(),
+                        format!("shape '{n}' is a conductor; an interface probe is between two dielectric shapes"),
+                    )
+                    .key(key("interface"))
+                    .help("use conductor_surface = \"<conductor>\" for an electrode surface"));
+                }
+                idx[k] = s as u32;
+            }
+            if idx[0] == idx[1] {
+                return Err(
+                    err(pair.span(), "an interface probe needs two different shapes".into()).key(key("interface"))
+                );
+            }
+            ProbeKind::Interface(idx[0], idx[1])
+        } else {
+            let c = p.conductor_surface.as_ref().unwrap();
+            let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
+                err(c.span(), format!("probe '{name}' refers to conductor '{}', which does not exist", c.get_ref()))
+                    .key(key("conductor_surface"))
+            })?;
+            ProbeKind::ConductorSurface(k as u32)
+        };
+        probes.push(Probe { name, kind });
+    }
     let geometry = Geometry {
         symmetry,
         shapes,
@@ -676,6 +803,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         shape_material,
         conductors,
         outer_potential_v,
+        probes,
         unit_m,
         unit,
         shape_spans,

@@ -2,7 +2,7 @@
 //! energy (results.json, fields.vtu) with a summary on stdout.
 
 use crate::mesh_cmd::{report, MeshReport};
-use crate::model::{self, ConductorKind, Model};
+use crate::model::{self, ConductorKind, Model, ProbeKind};
 use crate::output::write_atomic;
 use crate::UserError;
 use anyhow::{Context, Result};
@@ -51,6 +51,8 @@ pub struct Results {
     pub capacitance_matrix_f: CapacitanceMatrix,
     /// Peak field per region.
     pub regions: Vec<RegionResult>,
+    /// Field probes and their CSV files.
+    pub probes: Vec<ProbeResult>,
     /// Wall-clock seconds per stage.
     pub timings_s: Vec<(String, f64)>,
     /// Cautions that apply to every figure above.
@@ -77,6 +79,23 @@ pub struct CapacitanceMatrix {
     pub conductors: Vec<String>,
     /// Values, F (F/m planar).
     pub values: Vec<Vec<f64>>,
+}
+
+/// One probe's summary (the samples are in its CSV file).
+#[derive(Serialize, Debug)]
+pub struct ProbeResult {
+    /// Probe name.
+    pub name: String,
+    /// "line", "interface" or "conductor_surface".
+    pub kind: &'static str,
+    /// CSV file name, in the output folder.
+    pub file: String,
+    /// Number of samples.
+    pub samples: usize,
+    /// Largest |E| over the samples (both sides of an interface), V/m.
+    pub e_max_v_per_m: f64,
+    /// Largest |Eₜ| over the samples (interfaces and surfaces), V/m.
+    pub e_t_max_v_per_m: Option<f64>,
 }
 
 /// One region's peak field.
@@ -222,6 +241,78 @@ pub fn run(run: &SolveRun) -> Result<()> {
             }
         })
         .collect();
+    let mut probe_files: Vec<(String, String)> = Vec::new();
+    let mut probes = Vec::new();
+    for p in &model.probes {
+        let file = format!("probe-{}.csv", p.name);
+        let mut csv = String::new();
+        use std::fmt::Write as _;
+        let (kind, n, e_max, et_max) = match &p.kind {
+            ProbeKind::Line { path, samples } => {
+                let rows = engine::probe_line(mesh, &sol, path, *samples);
+                let _ = writeln!(csv, "s_m,x_m,y_m,region,potential_v,ex_v_per_m,ey_v_per_m,e_v_per_m");
+                let mut e_max: f64 = 0.0;
+                for r in &rows {
+                    let region = r.region.map(|k| mesh.shape_names[k as usize].as_str()).unwrap_or("");
+                    let e = r.e[0].hypot(r.e[1]);
+                    if e.is_finite() {
+                        e_max = e_max.max(e);
+                    }
+                    let _ = writeln!(
+                        csv,
+                        "{:e},{:e},{:e},{region},{:e},{:e},{:e},{:e}",
+                        r.s, r.at[0], r.at[1], r.potential, r.e[0], r.e[1], e
+                    );
+                }
+                ("line", rows.len(), e_max, None)
+            }
+            ProbeKind::Interface(..) | ProbeKind::ConductorSurface(_) => {
+                let (which, kind) = match p.kind {
+                    ProbeKind::Interface(a, b) => (engine::InterfaceSelector::Regions(a, b), "interface"),
+                    ProbeKind::ConductorSurface(c) => (engine::InterfaceSelector::Conductor(c), "conductor_surface"),
+                    ProbeKind::Line { .. } => unreachable!(),
+                };
+                let rows = engine::probe_interface(mesh, &sol, which);
+                let _ = writeln!(
+                    csv,
+                    "s_m,x_m,y_m,potential_v,region_1,en_1_v_per_m,et_1_v_per_m,e_1_v_per_m,region_2,en_2_v_per_m,et_2_v_per_m,e_2_v_per_m"
+                );
+                let (mut e_max, mut et_max): (f64, f64) = (0.0, 0.0);
+                for r in &rows {
+                    let side = |f: Option<&engine::SideField>| match f {
+                        Some(f) => {
+                            let e = f.e_n.hypot(f.e_t);
+                            (mesh.shape_names[f.region as usize].clone(), f.e_n, f.e_t, e)
+                        }
+                        None => (String::new(), f64::NAN, f64::NAN, f64::NAN),
+                    };
+                    let a = side(Some(&r.first));
+                    let b = side(r.second.as_ref());
+                    for (e, et) in [(a.3, a.2), (b.3, b.2)] {
+                        if e.is_finite() {
+                            e_max = e_max.max(e);
+                            et_max = et_max.max(et.abs());
+                        }
+                    }
+                    let _ = writeln!(
+                        csv,
+                        "{:e},{:e},{:e},{:e},{},{:e},{:e},{:e},{},{:e},{:e},{:e}",
+                        r.s, r.at[0], r.at[1], r.potential, a.0, a.1, a.2, a.3, b.0, b.1, b.2, b.3
+                    );
+                }
+                (kind, rows.len(), e_max, Some(et_max))
+            }
+        };
+        probes.push(ProbeResult {
+            name: p.name.clone(),
+            kind,
+            file: file.clone(),
+            samples: n,
+            e_max_v_per_m: e_max,
+            e_t_max_v_per_m: et_max,
+        });
+        probe_files.push((file, csv));
+    }
     let results = Results {
         schema: "fieldgrade-results/1",
         unknowns: sol.num_unknowns,
@@ -243,6 +334,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
             values: cmat,
         },
         regions,
+        probes,
         timings_s: vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)],
         cautions: CAUTIONS.to_vec(),
         mesh: mesh_report,
@@ -267,6 +359,9 @@ pub fn run(run: &SolveRun) -> Result<()> {
             &mut w,
         )
     })?;
+    for (file, csv) in &probe_files {
+        write_atomic(&run.out.join(file), |w| w.write_all(csv.as_bytes()))?;
+    }
     write_atomic(&run.out.join("results.json"), |w| w.write_all(json.as_bytes()))?;
     if run.json {
         println!("{json}");
@@ -337,6 +432,21 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
             "  {:<20} {:<10} {:>12.4} {:>22} {:>10} {:>8}  {note}",
             g.name, g.material, g.e_max_kv_per_mm, at, allow, util
         );
+    }
+    if !r.probes.is_empty() {
+        let _ = writeln!(s, "\nprobes");
+        for p in &r.probes {
+            let et = p.e_t_max_v_per_m.map(|v| format!(", max |Et| {:.4} kV/mm", v / 1e6)).unwrap_or_default();
+            let _ = writeln!(
+                s,
+                "  {:<20} {:<17} {:>6} samples, max |E| {:.4} kV/mm{et} -> {}",
+                p.name,
+                p.kind,
+                p.samples,
+                p.e_max_v_per_m / 1e6,
+                p.file
+            );
+        }
     }
     let _ = writeln!(s, "\ncautions");
     for c in &r.cautions {

@@ -163,8 +163,14 @@ impl TriangleGrid {
         let range = |t: &[u32; 3]| {
             let ps = t.map(|i| mesh.nodes[i as usize]);
             let lo = |v: f64, o: f64, n: usize| (((v - o) / cell).floor().max(0.0) as usize).min(n - 1);
-            let (xmin, xmax) = (ps.iter().map(|p| p[0]).fold(f64::INFINITY, f64::min), ps.iter().map(|p| p[0]).fold(f64::NEG_INFINITY, f64::max));
-            let (ymin, ymax) = (ps.iter().map(|p| p[1]).fold(f64::INFINITY, f64::min), ps.iter().map(|p| p[1]).fold(f64::NEG_INFINITY, f64::max));
+            let (xmin, xmax) = (
+                ps.iter().map(|p| p[0]).fold(f64::INFINITY, f64::min),
+                ps.iter().map(|p| p[0]).fold(f64::NEG_INFINITY, f64::max),
+            );
+            let (ymin, ymax) = (
+                ps.iter().map(|p| p[1]).fold(f64::INFINITY, f64::min),
+                ps.iter().map(|p| p[1]).fold(f64::NEG_INFINITY, f64::max),
+            );
             // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
             let pad = 0.1 * (xmax - xmin).max(ymax - ymin);
             (lo(xmin - pad, bb[0], nx), lo(xmax + pad, bb[0], nx), lo(ymin - pad, bb[1], ny), lo(ymax + pad, bb[1], ny))

@@ -157,3 +157,13 @@ fn missing_file() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("cannot read the model file"));
 }
+
+#[test]
+fn bad_probes() {
+    let t = format!("{HEAD}\n[[probe]]\nname = \"p\"\ninterface = [\"box\", \"nothing\"]\n");
+    fails(&t, &["refers to shape 'nothing'", "probe[0].interface"]);
+    let t = format!("{HEAD}\n[[probe]]\nname = \"bad name\"\npath = [[1.0, 1.0], [2.0, 2.0]]\n");
+    fails(&t, &["not usable in a file name", "probe[0].name"]);
+    let t = format!("{HEAD}\n[[probe]]\nname = \"p\"\npath = [[1.0, 1.0]]\n");
+    fails(&t, &["at least two points"]);
+}

@@ -165,7 +165,8 @@ fn interface_probe_gives_both_normal_fields() {
         shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
         shape("top", rect("top", 0.05, 0.06), cond(1)),
     ];
-    let specs = [("hv", ConductorSpec::Fixed { potential_v: 1000.0 }), ("earth", ConductorSpec::Fixed { potential_v: 0.0 })];
+    let specs =
+        [("hv", ConductorSpec::Fixed { potential_v: 1000.0 }), ("earth", ConductorSpec::Fixed { potential_v: 0.0 })];
     for order in [1, 2] {
         let (mesh, sol) = run(Symmetry::Planar, shapes.clone(), &specs, None, 0.006, order);
         let d = 1000.0 * EPSILON_0 / (0.02 / 4.5 + 0.02 / 1.0);
