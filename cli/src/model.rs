@@ -51,6 +51,7 @@ struct RawHeader {
 struct RawMaterial {
     name: S<String>,
     permittivity: S<f64>,
+    permittivity_tensor: Option<S<[[f64; 2]; 2]>>,
     allowable_stress_kv_per_mm: Option<S<f64>>,
 }
 
@@ -70,6 +71,7 @@ struct RawShape {
     material: Option<S<String>>,
     conductor: Option<S<String>>,
     max_size: Option<S<f64>>,
+    charge_density_c_per_m3: Option<S<f64>>,
     rectangle: Option<S<RawRect>>,
     circle: Option<S<RawCircle>>,
     polygon: Option<S<Vec<S<[f64; 2]>>>>,
@@ -145,6 +147,8 @@ pub struct Material {
     pub name: String,
     /// Relative permittivity.
     pub permittivity: f64,
+    /// Anisotropic relative permittivity [[εxx, εxy], [εxy, εyy]], if given.
+    pub permittivity_tensor: Option<[[f64; 2]; 2]>,
     /// Allowable design stress, kV/mm (user or company data).
     pub allowable_stress_kv_per_mm: Option<f64>,
 }
@@ -211,6 +215,8 @@ pub struct Model {
     pub materials: Vec<Material>,
     /// Material index of each shape (None for conductor shapes).
     pub shape_material: Vec<Option<usize>>,
+    /// Volume charge density of each shape, C/m³ (0 where none is given).
+    pub shape_charge_density: Vec<f64>,
     /// Conductors.
     pub conductors: Vec<Conductor>,
     /// Outer boundary potential, if the outer boundary is an electrode.
@@ -349,7 +355,29 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             Some(a) => Some(positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?),
             None => None,
         };
-        materials.push(Material { name: n.clone(), permittivity: eps, allowable_stress_kv_per_mm: allow });
+        let tensor = match &m.permittivity_tensor {
+            Some(t) => {
+                let e = *t.get_ref();
+                let finite = e.iter().flatten().all(|v| v.is_finite());
+                let sym = (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs());
+                if !(finite && sym && e[0][0] > 0.0 && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0) {
+                    return Err(err(
+                        t.span(),
+                        format!("the permittivity tensor {e:?} is not symmetric positive definite"),
+                    )
+                    .key(format!("material[{i}].permittivity_tensor"))
+                    .help("use [[εxx, εxy], [εxy, εyy]] with εxx > 0 and εxx·εyy > εxy²"));
+                }
+                Some(e)
+            }
+            None => None,
+        };
+        materials.push(Material {
+            name: n.clone(),
+            permittivity: eps,
+            permittivity_tensor: tensor,
+            allowable_stress_kv_per_mm: allow,
+        });
     }
 
     // [[conductor]]
@@ -411,6 +439,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     }
     let mut shapes: Vec<Shape> = Vec::new();
     let mut shape_material = Vec::new();
+    let mut shape_charge_density = Vec::new();
     let mut shape_spans = Vec::new();
     for (i, sh) in raw.shape.iter().enumerate() {
         let whole = sh.span();
@@ -590,8 +619,24 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             Some(h) => Some(positive(h, key("max_size"), "max_size")? * unit_m),
             None => None,
         };
+        let rho = match &sh.charge_density_c_per_m3 {
+            Some(r) => {
+                let v = *r.get_ref();
+                if !v.is_finite() {
+                    return Err(err(r.span(), format!("the charge density must be a finite number, not {v}"))
+                        .key(key("charge_density_c_per_m3")));
+                }
+                if mat.is_none() {
+                    return Err(err(r.span(), "a conductor shape cannot carry a volume charge density".into())
+                        .key(key("charge_density_c_per_m3")));
+                }
+                v
+            }
+            None => 0.0,
+        };
         shapes.push(Shape { name: sname, outline, fill, max_size_m });
         shape_material.push(mat);
+        shape_charge_density.push(rho);
         shape_spans.push(sh.name.span());
     }
 
@@ -801,6 +846,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         params,
         materials,
         shape_material,
+        shape_charge_density,
         conductors,
         outer_potential_v,
         probes,

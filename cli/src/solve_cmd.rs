@@ -180,6 +180,8 @@ fn problem_of(model: &Model) -> Problem {
             })
             .collect(),
         outer_potential_v: model.outer_potential_v,
+        tensor: model.shape_material.iter().map(|m| m.and_then(|m| model.materials[m].permittivity_tensor)).collect(),
+        charge_density: model.shape_charge_density.clone(),
     }
 }
 

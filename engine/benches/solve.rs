@@ -45,6 +45,7 @@ fn problem() -> Problem {
         permittivity: vec![2.2, f64::NAN],
         conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
         outer_potential_v: Some(0.0),
+        ..Default::default()
     }
 }
 

@@ -13,6 +13,20 @@ pub enum SolveError {
         /// The value found.
         value: f64,
     },
+    /// An anisotropic permittivity that is not symmetric positive definite.
+    BadTensor {
+        /// Region (shape) name.
+        region: String,
+        /// The tensor given.
+        tensor: [[f64; 2]; 2],
+    },
+    /// A volume charge density that is not a finite number.
+    BadChargeDensity {
+        /// Region (shape) name.
+        region: String,
+        /// The value given.
+        value: f64,
+    },
     /// The problem describes a different number of conductors than the mesh has.
     ConductorMismatch {
         /// Conductors in the mesh.
@@ -47,6 +61,8 @@ impl fmt::Display for SolveError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             SolveError::BadPermittivity { region, value } => write!(f, "region '{region}' has relative permittivity {value}; give its material a finite permittivity greater than zero"),
+            SolveError::BadTensor { region, tensor } => write!(f, "region '{region}' has the permittivity tensor {tensor:?}, which is not symmetric positive definite; use [[εxx, εxy], [εxy, εyy]] with εxx > 0 and εxx·εyy > εxy²"),
+            SolveError::BadChargeDensity { region, value } => write!(f, "region '{region}' has volume charge density {value}; give a finite number of C/m³"),
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),

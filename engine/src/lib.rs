@@ -42,7 +42,7 @@
 //!                      outer: OuterBoundary::FixedPotential, size_points: vec![] };
 //! let mesh = generate(&geo, &RefineParams::new().with_max_size_m(0.004))?.mesh;
 //! let problem = Problem { permittivity: vec![1.0, 1.0], conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
-//!                         outer_potential_v: Some(0.0) };
+//!                         outer_potential_v: Some(0.0), ..Default::default() };
 //! let sol = solve(&mesh, &problem).unwrap();
 //! // Capacitance per metre 2πε₀/ln(b/a), from the charge at 1 V.
 //! let exact = 2.0 * std::f64::consts::PI * EPSILON_0 / 3f64.ln();

@@ -20,11 +20,18 @@ pub enum ConductorSpec {
 }
 
 /// What the engine needs besides the mesh.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, Default, PartialEq)]
 pub struct Problem {
     /// Relative permittivity per shape index (the mesh's region ids); entries for conductor
     /// shapes are ignored.
     pub permittivity: Vec<f64>,
+    /// Optional anisotropic relative permittivity per shape index, [[εxx, εxy], [εyx, εyy]]
+    /// in (x, y), i.e. (r, z) in axisymmetry; symmetric positive definite. When given it
+    /// replaces the scalar in the assembly (the scalar still serves the corner analysis).
+    /// Empty means none.
+    pub tensor: Vec<Option<[[f64; 2]; 2]>>,
+    /// Volume charge density per shape index, C/m³. Empty means none.
+    pub charge_density: Vec<f64>,
     /// One entry per conductor of the mesh, in the mesh's conductor order.
     pub conductors: Vec<ConductorSpec>,
     /// Potential of the outer boundary, or `None` for zero normal flux.
@@ -53,6 +60,22 @@ impl Problem {
             if !(eps.is_finite() && eps > 0.0) {
                 return Err(SolveError::BadPermittivity { region: mesh.shape_names[r as usize].clone(), value: eps });
             }
+        }
+        for (r, t) in self.tensor.iter().enumerate() {
+            if let Some(e) = t {
+                let ok = e.iter().flatten().all(|v| v.is_finite())
+                    && (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs())
+                    && e[0][0] > 0.0
+                    && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0;
+                if !ok {
+                    let region = mesh.shape_names.get(r).cloned().unwrap_or_default();
+                    return Err(SolveError::BadTensor { region, tensor: *e });
+                }
+            }
+        }
+        if let Some((r, &value)) = self.charge_density.iter().enumerate().find(|(_, v)| !v.is_finite()) {
+            let region = mesh.shape_names.get(r).cloned().unwrap_or_default();
+            return Err(SolveError::BadChargeDensity { region, value });
         }
         for (c, spec) in self.conductors.iter().enumerate() {
             let v = match *spec {

@@ -103,7 +103,7 @@ pub fn reduced_system(mesh: &Mesh, problem: &Problem) -> Result<ReducedSystem, S
     let system = System::assemble(mesh, problem)?;
     let m = system.num_unknowns();
     let mut rhs = vec![0.0; m];
-    case_rhs(&system, problem, &mut rhs);
+    case_rhs(&system, problem, &mut rhs, true);
     let a = system.matrix.as_ref();
     Ok(ReducedSystem {
         num_unknowns: m,
@@ -123,7 +123,7 @@ pub fn solver_ordering(system: &ReducedSystem) -> (Vec<usize>, Vec<usize>) {
 
 /// What one chunk of elements contributes: matrix triplets, and (terminal, row, value)
 /// couplings to held nodes.
-type ChunkEntries = (Vec<Triplet<usize, usize, f64>>, Vec<(u32, u32, f64)>);
+type ChunkEntries = (Vec<Triplet<usize, usize, f64>>, Vec<(u32, u32, f64)>, Vec<(u32, f64)>);
 
 /// Where each mesh node's value comes from.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -155,6 +155,8 @@ struct System {
     positions: Vec<Option<[f64; 2]>>,
     /// Quadratic elements (ordered by AMD, see [`Factor::new`]).
     quadratic: bool,
+    /// Space-charge load ∫ρφ w dA per unknown, if any region carries space charge.
+    load: Option<Vec<f64>>,
 }
 
 impl System {
@@ -250,11 +252,16 @@ impl System {
             .map(|ts| {
                 let mut trip = Vec::with_capacity(ts.len() * 21);
                 let mut coup = Vec::new();
+                let mut load = Vec::new();
                 let mut ke = [[0.0; 6]; 6];
+                let mut fe = [0.0; 6];
                 for &t in ts {
-                    let nodes = element(mesh, problem, axisym, p2, t, &mut ke);
+                    let nodes = element(mesh, problem, axisym, p2, t, &mut ke, &mut fe);
                     for (i, &ni) in nodes.as_slice().iter().enumerate() {
                         let Dof::Free(ri) = dof[ni as usize] else { continue };
+                        if fe[i] != 0.0 {
+                            load.push((ri, fe[i]));
+                        }
                         for (j, &nj) in nodes.as_slice().iter().enumerate() {
                             match dof[nj as usize] {
                                 Dof::Free(cj) => {
@@ -267,16 +274,21 @@ impl System {
                         }
                     }
                 }
-                (trip, coup)
+                (trip, coup, load)
             })
             .collect();
         let mut coupling = vec![vec![0.0; m]; num_terminals as usize];
-        for (_, c) in &chunks {
+        let mut load = vec![0.0; m];
+        for (_, c, l) in &chunks {
             for &(h, r, v) in c {
                 coupling[h as usize][r as usize] += v;
             }
+            for &(r, v) in l {
+                load[r as usize] += v;
+            }
         }
         let matrix = lower_csc_from_triplets(m, chunks.iter().map(|c| c.0.as_slice()))?;
+        let has_space_charge = problem.charge_density.iter().any(|&r| r != 0.0);
         Ok(System {
             dof,
             node_conductor,
@@ -287,6 +299,7 @@ impl System {
             coupling,
             positions,
             quadratic: p2,
+            load: if has_space_charge { Some(load) } else { None },
         })
     }
 
@@ -452,8 +465,11 @@ impl Factor {
 }
 
 /// Terminal potentials and floating charges of one load case.
-fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64]) {
+fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64], with_space_charge: bool) {
     rhs.fill(0.0);
+    if let (true, Some(load)) = (with_space_charge, &system.load) {
+        rhs.copy_from_slice(load);
+    }
     for (c, spec) in problem.conductors.iter().enumerate() {
         match (spec, system.terminal_of[c], system.floating_dof[c]) {
             (ConductorSpec::Fixed { potential_v }, Some(t), _) => {
@@ -473,7 +489,7 @@ fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64]) {
 }
 
 /// Nodal potentials, charges and energy from the reduced solution `x` of one case.
-fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solution {
+fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space_charge: bool) -> Solution {
     let n = mesh.nodes.len();
     let nc = mesh.conductor_names.len();
     let held_value = |t: u32| -> f64 {
@@ -500,14 +516,16 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64]) -> Solutio
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let mut residual = vec![0.0; n];
     let mut energy = 0.0;
-    for_each_element(mesh, problem, axisym, mesh.order() == 2, |nodes, ke| {
+    for_each_element(mesh, problem, axisym, mesh.order() == 2, |nodes, ke, fe| {
         for (i, &ni) in nodes.iter().enumerate() {
-            let mut r = 0.0;
+            // Induced charge: the reaction K·V minus the space charge carried by the node.
+            let mut r = if with_space_charge { -fe[i] } else { 0.0 };
             for (j, &nj) in nodes.iter().enumerate() {
                 r += ke[i][j] * potential[nj as usize];
             }
             residual[ni as usize] += r;
-            energy += 0.5 * potential[ni as usize] * r;
+            let kv = r + if with_space_charge { fe[i] } else { 0.0 };
+            energy += 0.5 * potential[ni as usize] * kv;
         }
     });
     let mut conductor_charges = vec![0.0; nc];
@@ -550,7 +568,7 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
         [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = factor.laps;
         let t2 = Instant::now();
         let mut b = Mat::<f64>::zeros(m, 1);
-        case_rhs(&system, problem, &mut x);
+        case_rhs(&system, problem, &mut x, true);
         for (i, r) in x.iter().enumerate() {
             b[(i, 0)] = *r;
         }
@@ -561,7 +579,7 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
         timings.solve_s = t2.elapsed().as_secs_f64();
     }
     let t3 = Instant::now();
-    let mut sol = finish(mesh, problem, &system, &x);
+    let mut sol = finish(mesh, problem, &system, &x, true);
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
     Ok(sol)
@@ -579,43 +597,71 @@ impl ElementNodes {
     }
 }
 
-/// The stiffness matrix of triangle `t` into `ke`; returns its nodes.
-fn element(mesh: &Mesh, problem: &Problem, axisym: bool, p2: bool, t: usize, ke: &mut [[f64; 6]; 6]) -> ElementNodes {
+/// The stiffness matrix of triangle `t` into `ke` and its space-charge load into `fe`;
+/// returns its nodes.
+fn element(
+    mesh: &Mesh,
+    problem: &Problem,
+    axisym: bool,
+    p2: bool,
+    t: usize,
+    ke: &mut [[f64; 6]; 6],
+    fe: &mut [f64; 6],
+) -> ElementNodes {
     let tri = mesh.triangles[t];
-    let eps = EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
+    let r = mesh.regions[t] as usize;
+    let eps = match problem.tensor.get(r).copied().flatten() {
+        Some(e) => [[EPSILON_0 * e[0][0], EPSILON_0 * e[0][1]], [EPSILON_0 * e[1][0], EPSILON_0 * e[1][1]]],
+        None => {
+            let e = EPSILON_0 * problem.permittivity[r];
+            [[e, 0.0], [0.0, e]]
+        }
+    };
+    let rho = problem.charge_density.get(r).copied().unwrap_or(0.0);
     if p2 {
         let m = mesh.mid_nodes[t];
         let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
         let x: [[f64; 2]; 6] = ids.map(|i| mesh.nodes[i as usize]);
-        element_matrix::<6, P2>(&x, eps, axisym, &QUAD_DEG4, ke);
+        element_matrix::<6, P2>(&x, eps, rho, axisym, &QUAD_DEG4, ke, fe);
         ElementNodes { ids, len: 6 }
     } else {
         let x: [[f64; 2]; 3] = tri.map(|i| mesh.nodes[i as usize]);
-        element_matrix::<3, P1>(&x, eps, axisym, &QUAD_DEG2, ke);
+        element_matrix::<3, P1>(&x, eps, rho, axisym, &QUAD_DEG2, ke, fe);
         ElementNodes { ids: [tri[0], tri[1], tri[2], 0, 0, 0], len: 3 }
     }
 }
 
-/// Calls `f(nodes, K_e)` for every element with its stiffness matrix ε₀εᵣ∫∇φᵢ·∇φⱼ w dA.
-fn for_each_element(mesh: &Mesh, problem: &Problem, axisym: bool, p2: bool, mut f: impl FnMut(&[u32], &[[f64; 6]; 6])) {
+/// Calls `f(nodes, K_e, f_e)` for every element with its stiffness matrix
+/// ∫∇φᵢ·ε∇φⱼ w dA and its space-charge load ∫ρφᵢ w dA.
+fn for_each_element(
+    mesh: &Mesh,
+    problem: &Problem,
+    axisym: bool,
+    p2: bool,
+    mut f: impl FnMut(&[u32], &[[f64; 6]; 6], &[f64; 6]),
+) {
     let mut ke = [[0.0; 6]; 6];
+    let mut fe = [0.0; 6];
     for t in 0..mesh.triangles.len() {
-        let nodes = element(mesh, problem, axisym, p2, t, &mut ke);
-        f(nodes.as_slice(), &ke);
+        let nodes = element(mesh, problem, axisym, p2, t, &mut ke, &mut fe);
+        f(nodes.as_slice(), &ke, &fe);
     }
 }
 
 /// Isoparametric element stiffness, written into the top-left N×N block of `ke`.
 fn element_matrix<const N: usize, E: Element<N>>(
     x: &[[f64; 2]; N],
-    eps: f64,
+    eps: [[f64; 2]; 2],
+    rho: f64,
     axisym: bool,
     rule: &[(f64, f64, f64)],
     ke: &mut [[f64; 6]; 6],
+    fe: &mut [f64; 6],
 ) {
     for row in ke.iter_mut() {
         *row = [0.0; 6];
     }
+    *fe = [0.0; 6];
     for &(xi, eta, w) in rule {
         let g = E::gradients(xi, eta);
         // Jacobian J = Σ xᵢ ⊗ ∇̂φᵢ: columns ∂x/∂ξ, ∂x/∂η.
@@ -633,19 +679,24 @@ fn element_matrix<const N: usize, E: Element<N>>(
         for (gr, gi) in grad.iter_mut().zip(g.iter()) {
             *gr = [inv[0][0] * gi[0] + inv[0][1] * gi[1], inv[1][0] * gi[0] + inv[1][1] * gi[1]];
         }
-        let mut weight = w * det.abs() * eps;
+        let mut weight = w * det.abs();
+        let v = E::values(xi, eta);
         if axisym {
-            let v = E::values(xi, eta);
             let r: f64 = x.iter().zip(v.iter()).map(|(p, vi)| p[0] * vi).sum();
             weight *= 2.0 * std::f64::consts::PI * r;
         }
         for a in 0..N {
+            // ε·∇φₐ (ε symmetric).
+            let ea = [eps[0][0] * grad[a][0] + eps[0][1] * grad[a][1], eps[1][0] * grad[a][0] + eps[1][1] * grad[a][1]];
             for b in 0..=a {
-                let k = weight * (grad[a][0] * grad[b][0] + grad[a][1] * grad[b][1]);
+                let k = weight * (ea[0] * grad[b][0] + ea[1] * grad[b][1]);
                 ke[a][b] += k;
                 if a != b {
                     ke[b][a] += k;
                 }
+            }
+            if rho != 0.0 {
+                fe[a] += weight * rho * v[a];
             }
         }
     }
@@ -681,7 +732,7 @@ pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>,
     let mut b = Mat::<f64>::zeros(m, k);
     let mut col = vec![0.0; m];
     for (c, p) in cases.iter().enumerate() {
-        case_rhs(&system, p, &mut col);
+        case_rhs(&system, p, &mut col, false);
         for (i, v) in col.iter().enumerate() {
             b[(i, c)] = *v;
         }
@@ -694,7 +745,7 @@ pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>,
         for (i, v) in col.iter_mut().enumerate() {
             *v = b[(i, c)];
         }
-        let s = finish(mesh, p, &system, &col);
+        let s = finish(mesh, p, &system, &col, false);
         for (row, &i) in fixed.iter().enumerate() {
             cmat[row][c] = s.conductor_charges[i];
         }

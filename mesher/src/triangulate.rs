@@ -87,7 +87,13 @@ pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, Me
     clock.lap("boundary");
     let seeds = seed(geo, &field, &pslg, &grid);
     clock.lap("seeding");
-    let (cdt, complete) = triangulate(&pslg, &seeds, &field, params, &mut clock)?;
+    let frame = needs_frame(&arr).then(|| {
+        // A frame of four free vertices just outside the domain (2 % of its diagonal).
+        let b = geo.bbox();
+        let m = 0.02 * geo.scale();
+        vec![[b[0] - m, b[1] - m], [b[2] + m, b[1] - m], [b[2] + m, b[3] + m], [b[0] - m, b[3] + m]]
+    });
+    let (cdt, complete) = triangulate(&pslg, &seeds, frame.as_deref().unwrap_or(&[]), &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
     let edges = mesh.sorted_edges();
     if params.order == 2 {
@@ -282,14 +288,48 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> V
     out
 }
 
+/// True when the domain's outline has consecutive straight pieces that are collinear in
+/// exact terms but not in floating point (an inclined side split where another shape
+/// touches it). On the convex hull such a chain leaves zero-area slivers outside the
+/// domain that Delaunay refinement keeps splitting without end; a frame of free vertices
+/// around the domain keeps them off the hull. Axis-parallel sides split at exact
+/// coordinates are collinear in floating point too and need no frame.
+fn needs_frame(arr: &Arrangement) -> bool {
+    let mut outer: Vec<Vec<usize>> = vec![Vec::new(); arr.vertices.len()];
+    for (i, pc) in arr.pieces.iter().enumerate() {
+        if pc.left == Side::Outside || pc.right == Side::Outside {
+            outer[pc.v[0]].push(i);
+            outer[pc.v[1]].push(i);
+        }
+    }
+    outer.iter().enumerate().any(|(v, ps)| {
+        if ps.len() != 2 {
+            return false;
+        }
+        let (a, b) = (&arr.pieces[ps[0]], &arr.pieces[ps[1]]);
+        if !matches!(a.curve, Curve::Line { .. }) || !matches!(b.curve, Curve::Line { .. }) {
+            return false;
+        }
+        let other = |p: &crate::arrangement::Piece| if p.v[0] == v { p.v[1] } else { p.v[0] };
+        let (p, q, r) = (arr.vertices[other(a)], arr.vertices[v], arr.vertices[other(b)]);
+        let d1 = sub(q, p);
+        let d2 = sub(r, q);
+        let sin = crate::geometry::cross(d1, d2) / (norm(d1) * norm(d2));
+        let axis = (p[0] == q[0] && q[0] == r[0]) || (p[1] == q[1] && q[1] == r[1]);
+        sin.abs() < 1e-9 && !axis
+    })
+}
+
 fn triangulate(
     pslg: &Pslg,
     seeds: &[Xy],
+    frame: &[Xy],
     field: &SizeField,
     params: &RefineParams,
     clock: &mut Stopwatch,
 ) -> Result<(Cdt, bool), MeshError> {
-    let vertices: Vec<Point2<f64>> = pslg.points.iter().map(|p| Point2::new(p[0], p[1])).collect();
+    let mut vertices: Vec<Point2<f64>> = pslg.points.iter().map(|p| Point2::new(p[0], p[1])).collect();
+    vertices.extend(frame.iter().map(|p| Point2::new(p[0], p[1])));
     let n_in = vertices.len();
     let edges: Vec<[usize; 2]> = pslg.segments.iter().map(|s| [s[0] as usize, s[1] as usize]).collect();
     let mut conflicts = Vec::new();
@@ -371,6 +411,10 @@ fn extract(
         label[fi] = Some(Side::Outside); // provisional, marks "visited"
         queue.push_back(f.fix());
         let mut best = (f64::NEG_INFINITY, [0.0, 0.0]);
+        // A component reachable from the unbounded outer face without crossing a
+        // constraint is outside the domain, whatever a point test says (a sliver between
+        // nearly collinear boundary pieces has its centroid on the boundary itself).
+        let mut touches_outer = false;
         while let Some(h) = queue.pop_front() {
             let face = cdt.face(h);
             members.push(h.index());
@@ -383,15 +427,18 @@ fn extract(
                 if e.as_undirected().is_constraint_edge() {
                     continue;
                 }
-                if let Some(nb) = e.rev().face().as_inner() {
-                    if label[nb.fix().index()].is_none() {
-                        label[nb.fix().index()] = Some(Side::Outside);
-                        queue.push_back(nb.fix());
+                match e.rev().face().as_inner() {
+                    Some(nb) => {
+                        if label[nb.fix().index()].is_none() {
+                            label[nb.fix().index()] = Some(Side::Outside);
+                            queue.push_back(nb.fix());
+                        }
                     }
+                    None => touches_outer = true,
                 }
             }
         }
-        let side = side_of(geo, best.1);
+        let side = if touches_outer { Side::Outside } else { side_of(geo, best.1) };
         for &m in &members {
             label[m] = Some(side);
         }

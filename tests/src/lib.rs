@@ -120,6 +120,7 @@ pub fn run_case(case: &Case, order: u8, max_size_m: f64) -> (f64, usize) {
         permittivity,
         conductors: vec![ConductorSpec::Fixed { potential_v: case.potential_v }],
         outer_potential_v: Some(0.0),
+        ..Default::default()
     };
     let sol = solve(&mesh, &problem).unwrap();
     (sol.conductor_charges[0] / case.potential_v, sol.num_unknowns)

@@ -44,8 +44,12 @@ pub fn run(
         size_points: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(h)).unwrap().mesh;
-    let problem =
-        Problem { permittivity, conductors: conductors.iter().map(|c| c.1).collect(), outer_potential_v: outer };
+    let problem = Problem {
+        permittivity,
+        conductors: conductors.iter().map(|c| c.1).collect(),
+        outer_potential_v: outer,
+        ..Default::default()
+    };
     let sol = solve(&mesh, &problem).unwrap();
     (mesh, sol)
 }

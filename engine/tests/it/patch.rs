@@ -93,6 +93,7 @@ fn capacitance_matrix_of_plates_and_field_in_layers() {
         permittivity: vec![4.5, 1.0, f64::NAN, f64::NAN],
         conductors: vec![ConductorSpec::Fixed { potential_v: 1000.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
         outer_potential_v: None,
+        ..Default::default()
     };
     let (idx, c) = engine::capacitance_matrix(&mesh, &problem).unwrap();
     assert_eq!(idx, vec![0, 1]);
@@ -147,6 +148,7 @@ fn a_part_cut_off_from_every_fixed_potential_is_reported() {
         permittivity: vec![1.0, 1.0],
         conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
         outer_potential_v: None,
+        ..Default::default()
     };
     match engine::solve(&mesh, &problem) {
         Err(engine::SolveError::FloatingPart { region, .. }) => assert_eq!(region, "island"),
@@ -184,4 +186,90 @@ fn interface_probe_gives_both_normal_fields() {
             assert!((smp.at[1] - 0.03).abs() < 1e-12);
         }
     }
+}
+
+/// Plates at y = 0.01 (bottom, V₀) and y = 0.05 (top, V₁) with one dielectric between,
+/// rotated by `angle` about the origin; side walls are zero-flux.
+fn rotated_plates(angle: f64, eps: f64, order: u8) -> (mesher::Mesh, Vec<mesher::Shape>) {
+    use mesher::{generate, Geometry, OuterBoundary};
+    let (c, s) = (angle.cos(), angle.sin());
+    let rot = |p: [f64; 2]| [c * p[0] - s * p[1], s * p[0] + c * p[1]];
+    let rect = |n: &str, y0: f64, y1: f64| {
+        Outline::polygon(n, &[[-0.03, y0], [0.03, y0], [0.03, y1], [-0.03, y1]].map(rot)).unwrap()
+    };
+    let shapes = vec![
+        shape("gap", rect("gap", 0.0, 0.06), diel(eps)),
+        shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+        shape("top", rect("top", 0.05, 0.06), cond(1)),
+    ];
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: shapes.clone(),
+        conductors: vec!["a".into(), "b".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    (generate(&geo, &mesher::RefineParams::new().with_order(order).with_max_size_m(0.007)).unwrap().mesh, shapes)
+}
+
+#[test]
+fn anisotropic_permittivity_is_rotation_invariant() {
+    // A diagonal tensor diag(7, 2) with plates normal to y gives the 1-D result
+    // C' = ε₀·εyy·w/d (w = 0.06 m, d = 0.04 m); rotating the geometry by 30° and the tensor
+    // with it (ε' = R·ε·Rᵀ) must give the same capacitance (frame invariance).
+    let want = EPSILON_0 * 2.0 * 0.06 / 0.04;
+    for order in [1u8, 2] {
+        for angle in [0.0f64, 30f64.to_radians()] {
+            let (c, s) = (angle.cos(), angle.sin());
+            let (exx, eyy) = (7.0, 2.0);
+            let t =
+                [[c * c * exx + s * s * eyy, c * s * (exx - eyy)], [c * s * (exx - eyy), s * s * exx + c * c * eyy]];
+            let (mesh, _) = rotated_plates(angle, 3.0, order);
+            let problem = engine::Problem {
+                permittivity: vec![3.0, f64::NAN, f64::NAN],
+                tensor: vec![Some(t), None, None],
+                conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+                outer_potential_v: None,
+                ..Default::default()
+            };
+            let sol = engine::solve(&mesh, &problem).unwrap();
+            // The potential is linear in the rotated coordinate y' and reproduced exactly.
+            for (i, p) in mesh.nodes.iter().enumerate() {
+                let yr = -s * p[0] + c * p[1];
+                let want = ((0.05 - yr) / 0.04).clamp(0.0, 1.0);
+                assert!((sol.potential[i] - want).abs() < 1e-12, "node {i} at {p:?}");
+            }
+            let q = sol.conductor_charges[0];
+            assert!((q - want).abs() < 1e-9 * want, "P{order} at {angle}: {q:e} vs {want:e}");
+        }
+    }
+}
+
+#[test]
+fn uniform_space_charge_gives_the_exact_parabola_with_p2() {
+    // −ε V″ = ρ between plates at y₀ = 0.01 (V₀ = 100 V) and y₁ = 0.05 (0 V):
+    // V(y) = V₀(y₁ − y)/d + ρ/(2ε)·(y − y₀)(y₁ − y) — a quadratic, reproduced exactly by P2
+    // (Poisson's equation in one dimension; any electrostatics text). Gauss: the induced
+    // charges on the plates and the space charge sum to zero.
+    let (rho, er) = (1e-4, 2.0);
+    let eps = EPSILON_0 * er;
+    let (mesh, _) = rotated_plates(0.0, er, 2);
+    let problem = engine::Problem {
+        permittivity: vec![er, f64::NAN, f64::NAN],
+        charge_density: vec![rho, 0.0, 0.0],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 100.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: None,
+        ..Default::default()
+    };
+    let sol = engine::solve(&mesh, &problem).unwrap();
+    let (y0, y1) = (0.01, 0.05);
+    for (i, p) in mesh.nodes.iter().enumerate() {
+        let y = p[1];
+        let want = 100.0 * (y1 - y) / (y1 - y0) + rho / (2.0 * eps) * (y - y0) * (y1 - y);
+        // Round-off of the solve relative to the largest potential (~1.1 kV).
+        assert!((sol.potential[i] - want).abs() < 1e-8 * 1e3, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
+    }
+    let space = rho * 0.06 * 0.04;
+    let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
+    assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
 }

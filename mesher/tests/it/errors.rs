@@ -104,3 +104,30 @@ fn tiny_features_and_sharp_angles_terminate() {
     let out = generate(&g, &RefineParams::new().with_max_nodes(200_000)).unwrap();
     out.mesh.validate().unwrap();
 }
+
+#[test]
+fn inclined_sides_split_by_touching_shapes() {
+    // A rotated box whose sides are split where two rotated conductor plates touch them:
+    // the split points are collinear with the side only up to round-off. The mesh must
+    // come out complete, valid and of full quality (rotated plates once made the
+    // refinement run to its node budget on hull slivers).
+    for deg in [7.0f64, 30.0, 45.0, 61.0] {
+        let (c, s) = (deg.to_radians().cos(), deg.to_radians().sin());
+        let rot = |p: [f64; 2]| [c * p[0] - s * p[1], s * p[0] + c * p[1]];
+        let rect = |n: &str, y0: f64, y1: f64| {
+            Outline::polygon(n, &[[-0.03, y0], [0.03, y0], [0.03, y1], [-0.03, y1]].map(rot)).unwrap()
+        };
+        let g = planar(
+            vec![
+                dielectric("gap", rect("gap", 0.0, 0.06), 1.0),
+                conductor("bottom", rect("bottom", 0.0, 0.01), 0),
+                conductor("top", rect("top", 0.05, 0.06), 1),
+            ],
+            &["a", "b"],
+        );
+        let out = generate(&g, &RefineParams::new().with_max_size_m(0.007).with_max_nodes(100_000)).unwrap();
+        assert!(out.complete, "{deg}°");
+        assert!(out.mesh.stats().min_angle_deg > 29.0, "{deg}°: {}", out.mesh.stats().min_angle_deg);
+        assert!(out.mesh.num_triangles() < 2_000, "{deg}°: {} triangles", out.mesh.num_triangles());
+    }
+}
