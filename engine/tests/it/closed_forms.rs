@@ -84,3 +84,50 @@ fn radial_probe_follows_the_coaxial_field() {
     eprintln!("radial probe: worst relative field error {worst:.2e}");
     assert!(worst < 1e-2, "{worst}");
 }
+
+#[test]
+fn cylinder_above_a_ground_plane() {
+    // Image solution: C' = 2πε₀ / acosh(h/a) per metre for a cylinder of radius a whose
+    // axis is h above an infinite earthed plane (Smythe, Static and Dynamic Electricity,
+    // 3rd ed., 1968, §4.13; any text's image-charge section). a = 5 mm, h = 20 mm; the
+    // plane and the zero-flux far boundary end 2 m away (100 h): the dipolar far field
+    // makes the truncation error of order (h/L)² = 1e-4.
+    let (a, h, l): (f64, f64, f64) = (0.005, 0.02, 2.0);
+    let shapes = vec![
+        shape("air", Outline::rectangle("air", [-l, -0.01], [2.0 * l, l + 0.01], 0.0).unwrap(), diel(1.0)),
+        shape("plane", Outline::rectangle("plane", [-l, -0.01], [2.0 * l, 0.01], 0.0).unwrap(), cond(1)),
+        shape("wire", Outline::circle("wire", [0.0, h], a).unwrap(), cond(0)),
+    ];
+    let specs = [("wire", V), ("plane", ConductorSpec::Fixed { potential_v: 0.0 })];
+    let exact = 2.0 * PI * EPSILON_0 / (h / a).acosh();
+    let (mesh, sol) = run(Symmetry::Planar, shapes, &specs, None, 0.1, 2);
+    let c = sol.conductor_charges[0];
+    eprintln!("cylinder over plane: rel. error {:.2e}, {} nodes", (c - exact) / exact, mesh.num_nodes());
+    assert!((c - exact).abs() < 1e-3 * exact, "{c:e} vs {exact:e}");
+}
+
+#[test]
+fn sphere_above_a_ground_plane() {
+    // Image series: C = 4πε₀·a·sinh α · Σₙ 1/sinh(nα), cosh α = d/a, for a sphere of radius
+    // a centred d above an earthed plane (Smythe 1968, §5.08). a = 5 mm, d = 10 mm; the
+    // axisymmetric model reaches 0.5 m (50 d) with a zero-flux far boundary: the dipolar
+    // far potential ~ 1/r² makes the truncation error of order (d/L)³.
+    let (a, d, l): (f64, f64, f64) = (0.005, 0.01, 0.5);
+    let alpha = (d / a).acosh();
+    let series: f64 = (1..200).map(|n| 1.0 / (n as f64 * alpha).sinh()).sum();
+    let exact = 4.0 * PI * EPSILON_0 * a * alpha.sinh() * series;
+    let ball = {
+        let arc = mesher::Curve::Arc { center: [0.0, d], radius: a, start: -PI / 2.0, sweep: PI };
+        Outline::new("ball", vec![arc, mesher::Curve::Line { from: arc.to(), to: arc.from() }]).unwrap()
+    };
+    let shapes = vec![
+        shape("air", Outline::rectangle("air", [0.0, -0.005], [l, l + 0.005], 0.0).unwrap(), diel(1.0)),
+        shape("plane", Outline::rectangle("plane", [0.0, -0.005], [l, 0.005], 0.0).unwrap(), cond(1)),
+        shape("ball", ball, cond(0)),
+    ];
+    let specs = [("ball", V), ("plane", ConductorSpec::Fixed { potential_v: 0.0 })];
+    let (mesh, sol) = run(Symmetry::Axisymmetric, shapes, &specs, None, 0.05, 2);
+    let c = sol.conductor_charges[0];
+    eprintln!("sphere over plane: rel. error {:.2e}, {} nodes", (c - exact) / exact, mesh.num_nodes());
+    assert!((c - exact).abs() < 1e-3 * exact, "{c:e} vs {exact:e}");
+}
