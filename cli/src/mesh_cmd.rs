@@ -123,7 +123,14 @@ pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
         .per_region
         .iter()
         .map(|&(r, n, a)| {
-            let m = model.shape_material[r as usize].map(|m| &model.materials[m]);
+            // The open-boundary exterior is the mesh's extra last region, filled by the domain's
+            // material.
+            let m = model
+                .shape_material
+                .get(r as usize)
+                .copied()
+                .unwrap_or(model.shape_material[0])
+                .map(|m| &model.materials[m]);
             RegionReport {
                 name: mesh.shape_names[r as usize].clone(),
                 material: m.map(|m| m.name.clone()).unwrap_or_default(),

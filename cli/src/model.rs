@@ -669,10 +669,20 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                 outer = OuterBoundary::FixedPotential;
                 outer_potential_v = Some(x);
             }
+            Some(("open", _)) => {
+                if let Some(v) = &b.potential_v {
+                    return Err(err(
+                        v.span(),
+                        "potential_v is given but the outer boundary is open (0 V at infinity)".into(),
+                    )
+                    .key("boundary.potential_v"));
+                }
+                outer = OuterBoundary::Open;
+            }
             Some((o, span)) => {
                 return Err(err(span, format!("unknown outer boundary '{o}'"))
                     .key("boundary.outer")
-                    .help("use \"zero_flux\" (the default) or \"potential\""))
+                    .help("use \"zero_flux\" (the default), \"potential\" or \"open\""))
             }
         }
     }

@@ -7,7 +7,7 @@ use crate::output::write_atomic;
 use crate::UserError;
 use anyhow::{Context, Result};
 use engine::{capacitance_matrix, element_fields, solve, ConductorSpec, Problem};
-use mesher::{generate, CellArray, Fill, NodeArray, Symmetry};
+use mesher::{generate, CellArray, Fill, NodeArray, OuterBoundary, Symmetry};
 use serde::Serialize;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -161,16 +161,26 @@ pub fn dump_matrix(model_path: &std::path::Path, out: &std::path::Path, order: O
 }
 
 fn problem_of(model: &Model) -> Problem {
+    let mut permittivity: Vec<f64> = model
+        .geometry
+        .shapes
+        .iter()
+        .map(|s| match s.fill {
+            Fill::Dielectric { permittivity } => permittivity,
+            Fill::Conductor { .. } => f64::NAN,
+        })
+        .collect();
+    let mut tensor: Vec<Option<[[f64; 2]; 2]>> =
+        model.shape_material.iter().map(|m| m.and_then(|m| model.materials[m].permittivity_tensor)).collect();
+    if model.geometry.outer == OuterBoundary::Open {
+        // The mapped exterior (the mesh's last region) is filled by the domain's material.
+        permittivity.push(permittivity[0]);
+        tensor.push(None);
+    }
     Problem {
-        permittivity: model
-            .geometry
-            .shapes
-            .iter()
-            .map(|s| match s.fill {
-                Fill::Dielectric { permittivity } => permittivity,
-                Fill::Conductor { .. } => f64::NAN,
-            })
-            .collect(),
+        permittivity,
+        tensor,
+        charge_density: model.shape_charge_density.clone(),
         conductors: model
             .conductors
             .iter()
@@ -180,8 +190,6 @@ fn problem_of(model: &Model) -> Problem {
             })
             .collect(),
         outer_potential_v: model.outer_potential_v,
-        tensor: model.shape_material.iter().map(|m| m.and_then(|m| model.materials[m].permittivity_tensor)).collect(),
-        charge_density: model.shape_charge_density.clone(),
     }
 }
 

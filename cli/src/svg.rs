@@ -13,7 +13,9 @@ const PALETTE: [&str; 10] =
 /// Errors of the writer.
 pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut dyn Write) -> io::Result<()> {
     let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
-    for &v in mesh.triangles.iter().flatten() {
+    // The mapped open-boundary exterior is drawn nowhere: its coordinates are not physical.
+    let physical = |t: usize| mesh.exterior.is_none_or(|e| mesh.regions[t] != e.region);
+    for &v in mesh.triangles.iter().enumerate().filter(|(t, _)| physical(*t)).flat_map(|(_, tri)| tri.iter()) {
         let p = mesh.nodes[v as usize];
         bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
     }
@@ -44,6 +46,7 @@ pub fn write_mesh_svg(mesh: &Mesh, title: &str, unit_m: f64, unit: &str, w: &mut
     let mut regions: Vec<u32> = mesh.regions.clone();
     regions.sort();
     regions.dedup();
+    regions.retain(|&r| mesh.exterior.is_none_or(|e| e.region != r));
     for r in regions {
         let color = PALETTE[r as usize % PALETTE.len()];
         write!(w, r##"<path fill="{color}" stroke="#4a6a8a" stroke-width="{thin:.3}" stroke-linejoin="round" d=""##)?;

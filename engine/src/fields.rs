@@ -34,7 +34,8 @@ pub struct ElementFields {
     pub centroid: Vec<[f64; 2]>,
     /// Largest |E| over each element's vertices and centroid, V/m.
     pub max_magnitude: Vec<f64>,
-    /// Peak per region present in the mesh, in region order.
+    /// Peak per region present in the mesh, in region order (the mapped open-boundary
+    /// exterior, whose coordinates are not physical, is left out).
     pub region_peaks: Vec<RegionPeak>,
 }
 
@@ -102,6 +103,10 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
         }
         max_magnitude.push(best.0);
         let r = mesh.regions[t] as usize;
+        // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
+        if mesh.exterior.is_some_and(|e| e.region as usize == r) {
+            continue;
+        }
         if peaks[r].as_ref().is_none_or(|p| best.0 > p.e_max_v_per_m) {
             peaks[r] = Some(RegionPeak { region: r as u32, e_max_v_per_m: best.0, at: best.1, triangle: t as u32 });
         }

@@ -32,7 +32,7 @@ use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, SymbolicCholesky, SymmetricOrdering};
 use faer::sparse::{SparseColMat, SymbolicSparseColMat, Triplet};
 use faer::{Conj, Mat, Par, Side};
-use mesher::{EdgeTag, Mesh, Symmetry};
+use mesher::{EdgeTag, Mesh, Symmetry, Xy};
 use rayon::prelude::*;
 use std::collections::HashMap;
 use std::time::Instant;
@@ -147,6 +147,8 @@ struct System {
     /// `num_terminals − 1`.
     terminal_of: Vec<Option<u32>>,
     num_terminals: usize,
+    /// Terminal of the outer boundary, if it is held at a potential.
+    outer_terminal: Option<u32>,
     /// Lower triangle of the reduced matrix.
     matrix: SparseColMat<usize, f64>,
     /// For each terminal t, K_fd·1_t: the right-hand side contribution per volt on it.
@@ -206,6 +208,7 @@ impl System {
             num_terminals += 1;
             num_terminals - 1
         });
+
         let mut next = 0u32;
         let mut floating_dof: Vec<Option<u32>> = vec![None; nc];
         let mut positions = Vec::new();
@@ -287,7 +290,26 @@ impl System {
                 load[r as usize] += v;
             }
         }
-        let matrix = lower_csc_from_triplets(m, chunks.iter().map(|c| c.0.as_slice()))?;
+        let mut open_trip = Vec::new();
+        for_each_open_boundary_term(mesh, problem, |nodes, mm| {
+            for (i, &ni) in nodes.iter().enumerate() {
+                let Dof::Free(ri) = dof[ni as usize] else { continue };
+                for (j, &nj) in nodes.iter().enumerate() {
+                    match dof[nj as usize] {
+                        Dof::Free(cj) => {
+                            if ri >= cj {
+                                open_trip.push(Triplet::new(ri as usize, cj as usize, mm[i][j]));
+                            }
+                        }
+                        Dof::Held(h) => coupling[h as usize][ri as usize] += mm[i][j],
+                    }
+                }
+            }
+        });
+        let matrix = lower_csc_from_triplets(
+            m,
+            chunks.iter().map(|c| c.0.as_slice()).chain(std::iter::once(open_trip.as_slice())),
+        )?;
         let has_space_charge = problem.charge_density.iter().any(|&r| r != 0.0);
         Ok(System {
             dof,
@@ -295,6 +317,7 @@ impl System {
             floating_dof,
             terminal_of,
             num_terminals: num_terminals as usize,
+            outer_terminal,
             matrix,
             coupling,
             positions,
@@ -481,8 +504,8 @@ fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64], with_space_char
             _ => {}
         }
     }
-    if let Some(v0) = problem.outer_potential_v {
-        for (r, k) in rhs.iter_mut().zip(&system.coupling[system.num_terminals - 1]) {
+    if let (Some(v0), Some(t)) = (problem.outer_potential_v, system.outer_terminal) {
+        for (r, k) in rhs.iter_mut().zip(&system.coupling[t as usize]) {
             *r -= v0 * k;
         }
     }
@@ -493,8 +516,8 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space
     let n = mesh.nodes.len();
     let nc = mesh.conductor_names.len();
     let held_value = |t: u32| -> f64 {
-        if let (true, Some(v0)) = ((t as usize) == system.num_terminals - 1, problem.outer_potential_v) {
-            v0
+        if system.outer_terminal == Some(t) {
+            problem.outer_potential_v.unwrap_or(0.0)
         } else {
             let c = system.terminal_of.iter().position(|&x| x == Some(t)).unwrap();
             match problem.conductors[c] {
@@ -526,6 +549,13 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space
             residual[ni as usize] += r;
             let kv = r + if with_space_charge { fe[i] } else { 0.0 };
             energy += 0.5 * potential[ni as usize] * kv;
+        }
+    });
+    for_each_open_boundary_term(mesh, problem, |nodes, mm| {
+        for (i, &ni) in nodes.iter().enumerate() {
+            let r: f64 = nodes.iter().enumerate().map(|(j, &nj)| mm[i][j] * potential[nj as usize]).sum();
+            residual[ni as usize] += r;
+            energy += 0.5 * potential[ni as usize] * r;
         }
     });
     let mut conductor_charges = vec![0.0; nc];
@@ -583,6 +613,74 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
     Ok(sol)
+}
+
+/// The open-boundary term of an axisymmetric model. With the Kelvin transform
+/// U(x′) = (ρ/R)·V(x) of the exterior (ρ = |x − c|), the exterior energy is
+/// ½ε[∫|∇′U|²dV′ + (1/R)∮U²dS] over the mapped ball and its sphere (verified on the
+/// monopole and dipole fields by hand), so the mapped exterior carries an ordinary
+/// Laplace stiffness plus this surface "mass" term on the circle, and U stays bounded at
+/// the centre (infinity) without any condition there. Planar models need no term (the
+/// 2-D inversion is conformal). Calls `f(nodes, M)` for every edge of the circle.
+fn for_each_open_boundary_term(mesh: &Mesh, problem: &Problem, mut f: impl FnMut(&[u32], &[[f64; 3]; 3])) {
+    let Some(ext) = mesh.exterior else { return };
+    if mesh.symmetry != Symmetry::Axisymmetric {
+        return;
+    }
+    let eps = EPSILON_0 * problem.permittivity[ext.region as usize];
+    // Mid nodes of the circle edges (P2), from the exterior triangles.
+    let mut mid: HashMap<(u32, u32), u32> = HashMap::new();
+    if !mesh.mid_nodes.is_empty() {
+        for (t, tri) in mesh.triangles.iter().enumerate() {
+            if mesh.regions[t] == ext.region {
+                for k in 0..3 {
+                    let (a, b) = (tri[k], tri[(k + 1) % 3]);
+                    mid.insert((a.min(b), a.max(b)), mesh.mid_nodes[t][k]);
+                }
+            }
+        }
+    }
+    // 3-point Gauss–Legendre rule on [0, 1], exact to degree 5.
+    let g = [(0.5 - 0.5 * (0.6f64).sqrt(), 5.0 / 18.0), (0.5, 8.0 / 18.0), (0.5 + 0.5 * (0.6f64).sqrt(), 5.0 / 18.0)];
+    for e in &mesh.edges {
+        let EdgeTag::Interface(_, b) = e.tag else { continue };
+        if b != ext.region {
+            continue;
+        }
+        let [n0, n1] = e.nodes;
+        let m = mid.get(&(n0.min(n1), n0.max(n1))).copied();
+        let ids: Vec<u32> = match m {
+            Some(m) => vec![n0, n1, m],
+            None => vec![n0, n1],
+        };
+        let x: Vec<Xy> = ids.iter().map(|&i| mesh.nodes[i as usize]).collect();
+        let mut mm = [[0.0; 3]; 3];
+        for &(s, w) in &g {
+            // 1-D Lagrange functions on the edge: ends at s = 0, 1, middle at s = ½.
+            let (n, dn): (Vec<f64>, Vec<f64>) = if ids.len() == 3 {
+                (
+                    vec![(1.0 - s) * (1.0 - 2.0 * s), s * (2.0 * s - 1.0), 4.0 * s * (1.0 - s)],
+                    vec![4.0 * s - 3.0, 4.0 * s - 1.0, 4.0 - 8.0 * s],
+                )
+            } else {
+                (vec![1.0 - s, s], vec![-1.0, 1.0])
+            };
+            let (mut p, mut d) = ([0.0; 2], [0.0; 2]);
+            for k in 0..ids.len() {
+                p[0] += n[k] * x[k][0];
+                p[1] += n[k] * x[k][1];
+                d[0] += dn[k] * x[k][0];
+                d[1] += dn[k] * x[k][1];
+            }
+            let weight = w * d[0].hypot(d[1]) * 2.0 * std::f64::consts::PI * p[0] * eps / ext.radius;
+            for a in 0..ids.len() {
+                for bb in 0..ids.len() {
+                    mm[a][bb] += weight * n[a] * n[bb];
+                }
+            }
+        }
+        f(&ids, &mm);
+    }
 }
 
 /// Node ids of an element (3 or 6).

@@ -109,6 +109,11 @@ pub enum MeshError {
         /// Where they touch.
         at: Xy,
     },
+    /// An open boundary needs a circular domain.
+    OpenBoundaryShape {
+        /// The domain shape's name.
+        shape: String,
+    },
     /// A parameter of the meshing run is out of range.
     BadParameter {
         /// Parameter name.
@@ -186,6 +191,7 @@ impl MeshError {
             OutsideDomain { shape, domain, at } => write!(f, "shape '{shape}' reaches outside the domain '{domain}' at {}; enlarge the domain or move the shape inside it", p(at)),
             NegativeRadius { shape, at } => write!(f, "shape '{shape}' reaches x = {} < 0 in an axisymmetric model (x is the radius); keep every point at x ≥ 0, the axis is x = 0", l(at[0])),
             ConductorsTouch { first, second, at } => write!(f, "conductors '{first}' and '{second}' touch at {}; the potential cannot jump between them at a point: separate them by a dielectric gap or make them one conductor", p(at)),
+            OpenBoundaryShape { shape } => write!(f, "an open boundary needs a circular domain: make the first shape '{shape}' a circle (planar) or a half disc centred on the axis (axisymmetric), enclosing every part of the model"),
             BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
             Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
             InvalidMesh { detail } => write!(f, "invalid mesh: {detail}"),
@@ -211,7 +217,8 @@ impl MeshError {
             | ZeroArea { shape }
             | SelfIntersecting { shape, .. }
             | OutsideDomain { shape, .. }
-            | NegativeRadius { shape, .. } => Some(shape),
+            | NegativeRadius { shape, .. }
+            | OpenBoundaryShape { shape } => Some(shape),
             DuplicateName { name } => Some(name),
             _ => None,
         }

@@ -32,6 +32,9 @@ pub enum OuterBoundary {
     ZeroFlux,
     /// The outer boundary is held at a fixed potential (it acts as an electrode).
     FixedPotential,
+    /// Open: the unbounded space beyond the domain is included by the Kelvin mapping. The
+    /// domain must be a circle (planar) or a half disc centred on the axis (axisymmetric).
+    Open,
 }
 
 /// One piece of an outline: a straight segment or a circular arc, from `from` to `to`.
@@ -659,6 +662,9 @@ impl Geometry {
                     }
                 }
             }
+        }
+        if self.outer == OuterBoundary::Open {
+            crate::exterior::domain_circle(self)?;
         }
         for p in &self.size_points {
             if !(p.size_m.is_finite() && p.size_m > 0.0 && p.at.iter().all(|v| v.is_finite())) {

@@ -52,6 +52,7 @@
 mod arrangement;
 mod corners;
 mod error;
+mod exterior;
 mod geometry;
 mod grid;
 mod mesh;
@@ -63,7 +64,7 @@ mod vtu;
 pub use corners::{wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
 pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
-pub use mesh::{ArcGeom, EdgeTag, Mesh, MeshStats, TaggedEdge};
+pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
 pub use size_field::SizeField;
 pub use triangulate::generate;

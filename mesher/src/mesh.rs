@@ -45,6 +45,20 @@ pub struct ArcGeom {
     pub radius: f64,
 }
 
+/// The open-boundary exterior: the space outside the circle (centre, radius) mapped by
+/// inversion into a disc meshed as region `region` (see the `exterior` module).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Exterior {
+    /// Region (shape index) of the mapped exterior; its name is "open-space exterior".
+    pub region: u32,
+    /// Centre of the inversion circle, metres.
+    pub center: Xy,
+    /// Radius of the inversion circle, metres.
+    pub radius: f64,
+    /// The node at the centre, which stands for infinity.
+    pub infinity_node: u32,
+}
+
 /// A triangular mesh of the dielectric regions of a cross-section.
 ///
 /// Invariants (checked by [`Mesh::validate`]): triangles are counter-clockwise with positive
@@ -77,6 +91,9 @@ pub struct Mesh {
     pub conductor_names: Vec<String>,
     /// Points where the field or its gradient is singular.
     pub singular_points: Vec<SingularPoint>,
+    /// The mapped open-boundary exterior, if the model has an open boundary. Its triangles
+    /// are in mapped (inverted) coordinates, not physical ones.
+    pub exterior: Option<Exterior>,
 }
 
 /// Quality and size figures of a mesh.
@@ -368,11 +385,33 @@ impl Mesh {
                 b | (1 << 63)
             }
         };
-        let mut order: Vec<(u64, u64, u32)> =
-            self.nodes.iter().enumerate().map(|(i, p)| (ordered(p[0]), ordered(p[1]), i as u32)).collect();
+        // Nodes used only by the mapped open-boundary exterior live in inverted coordinates
+        // and may coincide with physical nodes: compare each family within itself.
+        let mut mapped = vec![false; n];
+        if let Some(ext) = self.exterior {
+            let mut physical = vec![false; n];
+            for (t, tri) in self.triangles.iter().enumerate() {
+                let mids = if self.mid_nodes.is_empty() { [u32::MAX; 3] } else { self.mid_nodes[t] };
+                for &v in tri.iter().chain(mids.iter()).filter(|&&v| v != u32::MAX) {
+                    if self.regions[t] == ext.region {
+                        mapped[v as usize] = true;
+                    } else {
+                        physical[v as usize] = true;
+                    }
+                }
+            }
+            for (m, p) in mapped.iter_mut().zip(&physical) {
+                *m &= !*p;
+            }
+        }
+        let mut order: Vec<(bool, u64, u64, u32)> =
+            self.nodes.iter().enumerate().map(|(i, p)| (mapped[i], ordered(p[0]), ordered(p[1]), i as u32)).collect();
         order.sort_unstable();
         for w in order.windows(2) {
-            let (i, j) = (w[0].2 as usize, w[1].2 as usize);
+            if w[0].0 != w[1].0 {
+                continue;
+            }
+            let (i, j) = (w[0].3 as usize, w[1].3 as usize);
             let (p, q) = (self.nodes[i], self.nodes[j]);
             if norm(sub(p, q)) <= 1e-13 * scale {
                 return bad(format!("nodes {i} and {j} coincide at {p:?}"));

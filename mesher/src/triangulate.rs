@@ -34,7 +34,7 @@
 use crate::arrangement::{Arrangement, Side};
 use crate::corners::{self, SingularPoint};
 use crate::error::MeshError;
-use crate::geometry::{norm, sub, Curve, Fill, Geometry, Symmetry, Xy};
+use crate::geometry::{norm, sub, Curve, Fill, Geometry, OuterBoundary, Symmetry, Xy};
 use crate::grid::{point_segment_distance, SegmentGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
@@ -95,6 +95,10 @@ pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, Me
     });
     let (cdt, complete) = triangulate(&pslg, &seeds, frame.as_deref().unwrap_or(&[]), &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
+    if geo.outer == OuterBoundary::Open {
+        let (c, r) = crate::exterior::domain_circle(geo)?;
+        crate::exterior::attach(&mut mesh, c, r, params.gradation)?;
+    }
     let edges = mesh.sorted_edges();
     if params.order == 2 {
         mesh.make_order2_with(&edges);
@@ -610,6 +614,7 @@ fn extract(
         shape_names: geo.shapes.iter().map(|s| s.name.clone()).collect(),
         conductor_names: geo.conductors.clone(),
         singular_points,
+        exterior: None,
     })
 }
 

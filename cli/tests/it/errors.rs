@@ -167,3 +167,9 @@ fn bad_probes() {
     let t = format!("{HEAD}\n[[probe]]\nname = \"p\"\npath = [[1.0, 1.0]]\n");
     fails(&t, &["at least two points"]);
 }
+
+#[test]
+fn open_boundary_needs_a_circular_domain() {
+    let t = format!("{HEAD}\n[boundary]\nouter = \"open\"\n");
+    fails(&t, &["open boundary needs a circular domain", "'box'"]);
+}

@@ -29,3 +29,8 @@ fn gis_spacer() {
 fn bushing() {
     insta::assert_snapshot!(report("bushing.toml"));
 }
+
+#[test]
+fn grading_ring_open_boundary() {
+    insta::assert_snapshot!(report("grading-ring.toml"));
+}

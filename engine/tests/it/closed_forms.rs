@@ -131,3 +131,73 @@ fn sphere_above_a_ground_plane() {
     eprintln!("sphere over plane: rel. error {:.2e}, {} nodes", (c - exact) / exact, mesh.num_nodes());
     assert!((c - exact).abs() < 1e-3 * exact, "{c:e} vs {exact:e}");
 }
+
+/// Runs a model with an open boundary (Kelvin-mapped exterior).
+fn run_open(
+    symmetry: Symmetry,
+    shapes: Vec<mesher::Shape>,
+    specs: &[(&str, ConductorSpec)],
+    h: f64,
+) -> (mesher::Mesh, engine::Solution) {
+    use mesher::{generate, Fill, Geometry, OuterBoundary, RefineParams};
+    let mut permittivity: Vec<f64> = shapes
+        .iter()
+        .map(|s| match s.fill {
+            Fill::Dielectric { permittivity } => permittivity,
+            Fill::Conductor { .. } => f64::NAN,
+        })
+        .collect();
+    // The exterior region (last) has the domain's permittivity.
+    permittivity.push(permittivity[0]);
+    let geo = Geometry {
+        symmetry,
+        shapes,
+        conductors: specs.iter().map(|c| c.0.to_string()).collect(),
+        outer: OuterBoundary::Open,
+        size_points: vec![],
+    };
+    let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
+    assert!(mesh.exterior.is_some());
+    let problem = engine::Problem {
+        permittivity,
+        conductors: specs.iter().map(|c| c.1).collect(),
+        outer_potential_v: None,
+        ..Default::default()
+    };
+    let sol = engine::solve(&mesh, &problem).unwrap();
+    (mesh, sol)
+}
+
+#[test]
+fn isolated_sphere_in_open_space() {
+    // C = 4πε₀a for a sphere alone in unbounded space (Griffiths 2017, §2.5, problem 2.43
+    // with b → ∞). The model reaches only 2a: the exterior is the Kelvin-mapped half disc.
+    let a = 0.01;
+    let shapes = vec![shape("air", half_disc("air", 2.0 * a), diel(1.0)), shape("ball", half_disc("ball", a), cond(0))];
+    let (mesh, sol) = run_open(Symmetry::Axisymmetric, shapes, &[("ball", V)], 0.002);
+    let exact = 4.0 * PI * EPSILON_0 * a;
+    let c = sol.conductor_charges[0];
+    eprintln!("isolated sphere: rel. error {:.2e}, {} nodes", (c - exact) / exact, mesh.num_nodes());
+    assert!((c - exact).abs() < 1e-3 * exact, "{c:e} vs {exact:e}");
+}
+
+#[test]
+fn two_wire_line_in_open_space() {
+    // Two parallel wires of radius a, axes D apart, in unbounded space:
+    // C' = πε₀ / acosh(D/2a) per metre (Smythe 1968, §4.13; image charges). a = 2 mm,
+    // D = 10 mm; the model is a circle of radius 15 mm with the Kelvin-mapped exterior.
+    let (a, d): (f64, f64) = (0.002, 0.01);
+    let shapes = vec![
+        shape("air", Outline::circle("air", [0.0, 0.0], 0.015).unwrap(), diel(1.0)),
+        shape("w1", Outline::circle("w1", [-d / 2.0, 0.0], a).unwrap(), cond(0)),
+        shape("w2", Outline::circle("w2", [d / 2.0, 0.0], a).unwrap(), cond(1)),
+    ];
+    let specs = [("w1", ConductorSpec::Fixed { potential_v: 0.5 }), ("w2", ConductorSpec::Fixed { potential_v: -0.5 })];
+    let (mesh, sol) = run_open(Symmetry::Planar, shapes, &specs, 0.002);
+    let exact = PI * EPSILON_0 / (d / (2.0 * a)).acosh();
+    let q = sol.conductor_charges[0];
+    eprintln!("two-wire line: rel. error {:.2e}, {} nodes", (q - exact) / exact, mesh.num_nodes());
+    assert!((q - exact).abs() < 1e-3 * exact, "{q:e} vs {exact:e}");
+    // Zero net charge: nothing escapes to infinity in two dimensions.
+    assert!((sol.conductor_charges[0] + sol.conductor_charges[1]).abs() < 1e-9 * q);
+}

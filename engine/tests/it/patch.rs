@@ -142,6 +142,7 @@ fn a_part_cut_off_from_every_fixed_potential_is_reported() {
         shape_names: vec!["near".into(), "island".into()],
         conductor_names: vec!["hv".into()],
         singular_points: vec![],
+        exterior: None,
     };
     mesh.validate().unwrap();
     let problem = engine::Problem {

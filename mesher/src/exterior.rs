@@ -1,0 +1,189 @@
+//! The open boundary: the unbounded space outside a circular domain, mapped by the Kelvin
+//! transformation into a disc and meshed there.
+//!
+//! # Algorithm
+//! Inversion in the domain's bounding circle (centre c, radius R), x′ = c + R²(x − c)/|x − c|²,
+//! maps the exterior |x − c| > R onto the disc |x′ − c| < R, the circle onto itself (point by
+//! point) and infinity onto the centre. In a planar problem the map is conformal, so the
+//! exterior is a Laplace problem in the disc with the same permittivity. In an
+//! axisymmetric problem (centre on the axis) the stored energy ½∫ε|∇V|²dV keeps its form
+//! with the mapped permittivity ε′ = ε·R²/|x′ − c|² (the engine applies it), and the centre,
+//! being infinity, is held at 0 V.
+//!
+//! The disc (a half disc in axisymmetry) is meshed with rings of nodes inside the circle,
+//! their spacing starting from the circle's own node spacing and growing by the gradation
+//! factor towards the centre, and a Delaunay triangulation of the circle nodes and the
+//! rings. The circle's nodes are the interior mesh's own, so the two meshes are conforming
+//! along the circle; its edges become an interface between the domain and the
+//! "open-space exterior" region.
+//!
+//! # References
+//! - W. Thomson (Lord Kelvin), "Extrait d'une lettre de M. William Thomson à M. Liouville",
+//!   J. Math. Pures Appl. 10 (1845) 364–367 (the inversion).
+//! - E. M. Freeman, D. A. Lowther, "A novel mapping technique for open boundary finite
+//!   element solutions to Poisson's equation", IEEE Trans. Magn. 24 (1988) 2934–2936
+//!   (the mapped-exterior method for open-boundary problems, planar and axisymmetric).
+
+use crate::error::MeshError;
+use crate::geometry::{Curve, Geometry, Symmetry, Xy};
+use crate::mesh::{EdgeTag, Exterior, Mesh, TaggedEdge};
+use spade::{DelaunayTriangulation, Point2, Triangulation};
+use std::f64::consts::PI;
+
+/// Centre and radius of the domain's outline if it is a circle (planar) or a half circle
+/// on the axis (axisymmetric); otherwise an error naming the domain.
+pub(crate) fn domain_circle(geo: &Geometry) -> Result<(Xy, f64), MeshError> {
+    let dom = &geo.shapes[0];
+    let bad = || MeshError::OpenBoundaryShape { shape: dom.name.clone() };
+    let mut circle: Option<(Xy, f64)> = None;
+    for c in dom.outline.curves() {
+        match *c {
+            Curve::Arc { center, radius, .. } => match circle {
+                None => circle = Some((center, radius)),
+                Some((c0, r0)) => {
+                    let tol = 1e-9 * r0;
+                    if (c0[0] - center[0]).abs() > tol || (c0[1] - center[1]).abs() > tol || (r0 - radius).abs() > tol {
+                        return Err(bad());
+                    }
+                }
+            },
+            Curve::Line { from, to } => {
+                // Only the axis segment of an axisymmetric half disc.
+                if geo.symmetry != Symmetry::Axisymmetric || from[0].abs() > 1e-12 || to[0].abs() > 1e-12 {
+                    return Err(bad());
+                }
+            }
+        }
+    }
+    let (c, r) = circle.ok_or_else(bad)?;
+    if geo.symmetry == Symmetry::Axisymmetric && c[0].abs() > 1e-9 * r {
+        return Err(bad());
+    }
+    Ok((c, r))
+}
+
+/// Adds the mapped exterior to `mesh` (before P2 nodes are made).
+pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -> Result<(), MeshError> {
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    // Circle nodes: ends of the outer-boundary edges, by angle.
+    let mut on_circle: Vec<u32> = mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer).flat_map(|e| e.nodes).collect();
+    on_circle.sort_unstable();
+    on_circle.dedup();
+    if on_circle.len() < 3 {
+        return Err(MeshError::Triangulation { detail: "the open boundary has fewer than three nodes".into() });
+    }
+    let angle = |p: Xy| (p[1] - center[1]).atan2(p[0] - center[0]);
+    on_circle.sort_by(|&a, &b| angle(mesh.nodes[a as usize]).total_cmp(&angle(mesh.nodes[b as usize])));
+    let mut spacing: Vec<f64> = mesh
+        .edges
+        .iter()
+        .filter(|e| e.tag == EdgeTag::Outer)
+        .map(|e| {
+            let (p, q) = (mesh.nodes[e.nodes[0] as usize], mesh.nodes[e.nodes[1] as usize]);
+            (p[0] - q[0]).hypot(p[1] - q[1])
+        })
+        .collect();
+    spacing.sort_by(f64::total_cmp);
+    let h0 = spacing[spacing.len() / 2];
+    // Rings towards the centre.
+    let span = if axisym { PI } else { 2.0 * PI };
+    let mut pts: Vec<Xy> = on_circle.iter().map(|&i| mesh.nodes[i as usize]).collect();
+    let n_circle = pts.len();
+    let (mut r, mut h) = (radius, h0);
+    loop {
+        // Spacing grows by the gradation factor; stop once the next ring would come closer
+        // to the centre than about its own spacing (the centre node closes the disc).
+        let h_next = h * gradation;
+        let r_next = r - 0.866 * h_next;
+        if r_next < 1.2 * h_next {
+            break;
+        }
+        let n = ((span * r_next / h_next).round() as usize).max(if axisym { 3 } else { 6 });
+        // Alternate rings are offset by half a step, which makes near-equilateral triangles.
+        let phase = if pts.len().is_multiple_of(2) { 0.0 } else { 0.5 };
+        if axisym {
+            for k in 0..=n {
+                let a = -PI / 2.0 + span * k as f64 / n as f64;
+                // Ring ends sit exactly on the axis.
+                let x = if k == 0 || k == n { 0.0 } else { center[0] + r_next * a.cos() };
+                pts.push([x, center[1] + r_next * a.sin()]);
+            }
+        } else {
+            for k in 0..n {
+                let a = span * (k as f64 + phase) / n as f64;
+                pts.push([center[0] + r_next * a.cos(), center[1] + r_next * a.sin()]);
+            }
+        }
+        r = r_next;
+        h = h_next;
+    }
+    pts.push(if axisym { [0.0, center[1]] } else { center });
+    let infinity_local = pts.len() - 1;
+    let dt =
+        DelaunayTriangulation::<Point2<f64>>::bulk_load_stable(pts.iter().map(|p| Point2::new(p[0], p[1])).collect())
+            .map_err(|e| MeshError::Triangulation { detail: format!("open-boundary disc: {e:?}") })?;
+    if dt.num_vertices() != pts.len() {
+        return Err(MeshError::Triangulation { detail: "open-boundary disc: coincident ring points".into() });
+    }
+    // Local → mesh node ids.
+    let base = mesh.nodes.len() as u32;
+    let id = |k: usize| if k < n_circle { on_circle[k] } else { base + (k - n_circle) as u32 };
+    let region = mesh.shape_names.len() as u32;
+    let mut new_tris = Vec::new();
+    for f in dt.inner_faces() {
+        let v = f.vertices().map(|v| v.fix().index());
+        new_tris.push([id(v[0]), id(v[1]), id(v[2])]);
+    }
+    // Every circle chord must be an edge of the disc triangulation, or the meshes would
+    // not conform.
+    let mut disc_edges: std::collections::HashSet<(u32, u32)> = std::collections::HashSet::new();
+    for t in &new_tris {
+        for k in 0..3 {
+            let (a, b) = (t[k], t[(k + 1) % 3]);
+            disc_edges.insert((a.min(b), a.max(b)));
+        }
+    }
+    for e in mesh.edges.iter_mut().filter(|e| e.tag == EdgeTag::Outer) {
+        let [a, b] = e.nodes;
+        if !disc_edges.contains(&(a.min(b), a.max(b))) {
+            return Err(MeshError::Triangulation {
+                detail: format!(
+                    "open-boundary disc does not conform to the domain along the circle near {:?}",
+                    mesh.nodes[a as usize]
+                ),
+            });
+        }
+    }
+    // The circle becomes an interface between the domain's region and the exterior.
+    let mut region_of_edge: std::collections::HashMap<(u32, u32), u32> = std::collections::HashMap::new();
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        for k in 0..3 {
+            region_of_edge.insert((tri[k], tri[(k + 1) % 3]), mesh.regions[t]);
+        }
+    }
+    for e in mesh.edges.iter_mut().filter(|e| e.tag == EdgeTag::Outer) {
+        let inside = region_of_edge[&(e.nodes[0], e.nodes[1])];
+        e.tag = EdgeTag::Interface(inside, region);
+    }
+    // Axis edges of the exterior half disc, oriented with the region on their left.
+    if axisym {
+        let mut axis: Vec<u32> = (0..pts.len()).filter(|&k| pts[k][0].abs() <= 1e-12 * radius).map(id).collect();
+        axis.sort_by(|&a, &b| {
+            let pa = if a < base { mesh.nodes[a as usize] } else { pts[(a - base) as usize + n_circle] };
+            let pb = if b < base { mesh.nodes[b as usize] } else { pts[(b - base) as usize + n_circle] };
+            pb[1].total_cmp(&pa[1])
+        });
+        for w in axis.windows(2) {
+            if disc_edges.contains(&(w[0].min(w[1]), w[0].max(w[1]))) {
+                mesh.edges.push(TaggedEdge { nodes: [w[0], w[1]], tag: EdgeTag::Axis, arc: None });
+            }
+        }
+    }
+    mesh.nodes.extend_from_slice(&pts[n_circle..]);
+    mesh.num_vertices = mesh.nodes.len() as u32;
+    mesh.regions.extend(std::iter::repeat_n(region, new_tris.len()));
+    mesh.triangles.extend(new_tris);
+    mesh.shape_names.push("open-space exterior".into());
+    mesh.exterior = Some(Exterior { region, center, radius, infinity_node: id(infinity_local) });
+    Ok(())
+}
