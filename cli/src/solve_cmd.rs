@@ -356,14 +356,32 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let e_vec: Vec<f64> = fields.centroid.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
     let e_mag: Vec<f64> = fields.max_magnitude.clone();
     let eps: Vec<f64> = mesh.regions.iter().map(|&r| problem.permittivity[r as usize]).collect();
+    let d_vec: Vec<f64> = fields
+        .centroid
+        .iter()
+        .zip(&mesh.regions)
+        .flat_map(|(e, &r)| {
+            let t = problem.tensor.get(r as usize).copied().flatten().unwrap_or_else(|| {
+                let s = problem.permittivity[r as usize];
+                [[s, 0.0], [0.0, s]]
+            });
+            let k = engine::EPSILON_0;
+            [k * (t[0][0] * e[0] + t[0][1] * e[1]), k * (t[1][0] * e[0] + t[1][1] * e[1]), 0.0]
+        })
+        .collect();
+    let e_nodal: Vec<f64> = fields.nodal.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
     write_atomic(&run.out.join("fields.vtu"), |w| {
         let mut w = w;
         mesher::write_vtu(
             mesh,
-            &[NodeArray { name: "potential_V", components: 1, values: potential }],
+            &[
+                NodeArray { name: "potential_V", components: 1, values: potential },
+                NodeArray { name: "E_recovered_V_per_m", components: 3, values: &e_nodal },
+            ],
             &[
                 CellArray { name: "E_centroid_V_per_m", components: 3, values: &e_vec },
                 CellArray { name: "E_max_V_per_m", components: 1, values: &e_mag },
+                CellArray { name: "D_centroid_C_per_m2", components: 3, values: &d_vec },
                 CellArray { name: "relative_permittivity", components: 1, values: &eps },
             ],
             &mut w,

@@ -50,6 +50,15 @@ pub enum SolveError {
         /// A point in it, metres.
         at: [f64; 2],
     },
+    /// The factorisation met a non-positive pivot: the matrix is not positive definite
+    /// (inverted or degenerate elements, or permittivities spanning too many orders of
+    /// magnitude for double precision).
+    NotPositiveDefinite {
+        /// The failing pivot (factor column, permuted order).
+        pivot: usize,
+        /// The mesh node of that unknown (None for a floating conductor's potential).
+        node: Option<u32>,
+    },
     /// The sparse factorisation failed (the reduced matrix is not positive definite).
     Factorisation {
         /// Detail from the factorisation.
@@ -67,6 +76,10 @@ impl fmt::Display for SolveError {
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
             SolveError::FloatingPart { region, at } => write!(f, "region '{region}' (near ({:.6e}, {:.6e}) m) is cut off from every fixed potential, so its potential is undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a potential", at[0], at[1]),
+            SolveError::NotPositiveDefinite { pivot, node } => match node {
+                Some(n) => write!(f, "the system matrix is not positive definite (pivot {pivot}, at mesh node {n}); check the elements and permittivities around that node, e.g. with `fieldgrade mesh --svg` and the fields.vtu node ids"),
+                None => write!(f, "the system matrix is not positive definite (pivot {pivot}, at a floating conductor's potential); check that the floating conductor is surrounded by dielectric"),
+            },
             SolveError::Factorisation { detail } => write!(f, "the system matrix could not be factorised ({detail}); a part of the domain may be cut off from every fixed potential, for example a dielectric region enclosed by floating conductors only"),
         }
     }

@@ -34,6 +34,10 @@ pub struct ElementFields {
     pub centroid: Vec<[f64; 2]>,
     /// Largest |E| over each element's vertices and centroid, V/m.
     pub max_magnitude: Vec<f64>,
+    /// E at every node, V/m: the area-weighted mean of the centroid fields of the elements
+    /// around it (for display; at an interface it mixes both sides, whose normal fields
+    /// differ — use the element values or an interface probe for figures).
+    pub nodal: Vec<[f64; 2]>,
     /// Peak per region present in the mesh, in region order (the mapped open-boundary
     /// exterior, whose coordinates are not physical, is left out).
     pub region_peaks: Vec<RegionPeak>,
@@ -111,5 +115,21 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
             peaks[r] = Some(RegionPeak { region: r as u32, e_max_v_per_m: best.0, at: best.1, triangle: t as u32 });
         }
     }
-    ElementFields { centroid, max_magnitude, region_peaks: peaks.into_iter().flatten().collect() }
+    let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
+    let mut weight = vec![0.0; mesh.nodes.len()];
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        let a = mesh.triangle_area(t).abs();
+        let mids = if mesh.mid_nodes.is_empty() { [u32::MAX; 3] } else { mesh.mid_nodes[t] };
+        for &v in tri.iter().chain(mids.iter()).filter(|&&v| v != u32::MAX) {
+            nodal[v as usize][0] += a * centroid[t][0];
+            nodal[v as usize][1] += a * centroid[t][1];
+            weight[v as usize] += a;
+        }
+    }
+    for (e, w) in nodal.iter_mut().zip(&weight) {
+        if *w > 0.0 {
+            *e = [e[0] / w, e[1] / w];
+        }
+    }
+    ElementFields { centroid, max_magnitude, nodal, region_peaks: peaks.into_iter().flatten().collect() }
 }

@@ -28,6 +28,7 @@ use crate::ordering::nested_dissection;
 use crate::problem::{ConductorSpec, Problem};
 use crate::space::{Element, P1, P2, QUAD_DEG2, QUAD_DEG4};
 use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::linalg::cholesky::llt::factor::LltError as NumericLltError;
 use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{factorize_symbolic_cholesky, LltRef, SymbolicCholesky, SymmetricOrdering};
 use faer::sparse::{SparseColMat, SymbolicSparseColMat, Triplet};
@@ -464,17 +465,27 @@ impl Factor {
         let t2 = Instant::now();
         let mut values = vec![0.0; symbolic.len_val()];
         let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
-        symbolic
-            .factorize_numeric_llt(
-                &mut values,
-                a,
-                Side::Lower,
-                Default::default(),
-                Par::Seq,
-                MemStack::new(&mut mem),
-                Default::default(),
-            )
-            .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
+        let numeric = symbolic.factorize_numeric_llt(
+            &mut values,
+            a,
+            Side::Lower,
+            Default::default(),
+            Par::Seq,
+            MemStack::new(&mut mem),
+            Default::default(),
+        );
+        if let Err(e) = numeric {
+            return Err(match e {
+                NumericLltError::NonPositivePivot { index } => {
+                    // The pivot counts factor columns (permuted order); map it back to an
+                    // unknown and to a node of the mesh.
+                    let pos = index.saturating_sub(1).min(m.saturating_sub(1));
+                    let unknown = symbolic.perm().map(|p| p.arrays().0[pos]).unwrap_or(pos);
+                    let at = system.dof.iter().position(|d| *d == Dof::Free(unknown as u32));
+                    SolveError::NotPositiveDefinite { pivot: index, node: at.map(|v| v as u32) }
+                }
+            });
+        }
         let laps = [(t1 - t0).as_secs_f64(), (t2 - t1).as_secs_f64(), t2.elapsed().as_secs_f64()];
         Ok(Factor { symbolic, values, laps })
     }

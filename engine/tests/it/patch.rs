@@ -274,3 +274,42 @@ fn uniform_space_charge_gives_the_exact_parabola_with_p2() {
     let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
     assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
 }
+
+#[test]
+fn a_non_positive_pivot_names_the_failing_node() {
+    // A checked model cannot produce a singular matrix, but the factorisation's own guard
+    // must still say where it fails. A permittivity so small that ε₀·εᵣ underflows to zero
+    // passes the check (it is > 0) and leaves the one unknown with a zero pivot.
+    use mesher::{EdgeTag, Mesh, TaggedEdge};
+    let e = |a: u32, b: u32, tag| TaggedEdge { nodes: [a, b], tag, arc: None };
+    let mesh = Mesh {
+        symmetry: Symmetry::Planar,
+        nodes: vec![[0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [1.0, 1.0]],
+        num_vertices: 4,
+        triangles: vec![[0, 1, 3], [0, 3, 2]],
+        regions: vec![0, 0],
+        mid_nodes: vec![],
+        edges: vec![
+            e(0, 1, EdgeTag::Conductor(0)),
+            e(1, 3, EdgeTag::Outer),
+            e(3, 2, EdgeTag::Outer),
+            e(2, 0, EdgeTag::Conductor(0)),
+        ],
+        arcs: vec![],
+        shape_names: vec!["box".into()],
+        conductor_names: vec!["hv".into()],
+        singular_points: vec![],
+        exterior: None,
+    };
+    mesh.validate().unwrap();
+    let problem = engine::Problem {
+        permittivity: vec![f64::MIN_POSITIVE * 1e-10],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
+        outer_potential_v: None,
+        ..Default::default()
+    };
+    match engine::solve(&mesh, &problem) {
+        Err(engine::SolveError::NotPositiveDefinite { node, .. }) => assert_eq!(node, Some(3)),
+        other => panic!("expected a non-positive pivot, got {:?}", other.map(|s| s.num_unknowns)),
+    }
+}
