@@ -6,7 +6,7 @@ use crate::model::{self, ConductorKind, Model, ProbeKind};
 use crate::output::write_atomic;
 use crate::UserError;
 use anyhow::{Context, Result};
-use engine::{capacitance_matrix, element_fields, solve, ConductorSpec, Problem};
+use engine::{element_fields, solve_with_capacitance, ConductorSpec, Problem};
 use mesher::{generate, CellArray, Fill, NodeArray, OuterBoundary, Symmetry};
 use serde::Serialize;
 use std::path::PathBuf;
@@ -208,10 +208,10 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);
     let user = |e: engine::SolveError| UserError(format!("error: {e}\n  --> {}\n", run.model.display()));
-    let sol = solve(mesh, &problem).map_err(user)?;
+    // One factorisation serves the load case and every capacitance column.
+    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(user)?;
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let fields = element_fields(mesh, &problem, &sol);
-    let (fixed, cmat) = capacitance_matrix(mesh, &problem).map_err(user)?;
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
 
     let mesh_report = report(&model, &meshed);

@@ -69,5 +69,6 @@ pub use fields::{element_fields, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use solve::{
-    capacitance_matrix, reduced_system, solve, solver_ordering, ReducedSystem, Solution, SolveTimings, EPSILON_0,
+    capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,
+    ReducedSystem, Solution, SolveTimings, EPSILON_0,
 };

@@ -595,35 +595,98 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space
 ///
 /// # Errors
 /// [`SolveError`] for a region without permittivity, a conductor the problem does not
-/// describe, no fixed potential anywhere, or a factorisation failure.
+/// describe, no fixed potential anywhere, a part cut off from every fixed potential, or a
+/// factorisation failure.
 pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
+    Ok(solve_cases(mesh, problem, false)?.0)
+}
+
+/// [`solve`] and [`capacitance_matrix`] from one assembly and one factorisation (the
+/// matrix does not depend on the potentials): the load case and one capacitance column per
+/// fixed conductor are solved together as right-hand sides.
+///
+/// # Errors
+/// As [`solve`].
+pub fn solve_with_capacitance(mesh: &Mesh, problem: &Problem) -> Result<(Solution, CapacitanceMatrix), SolveError> {
+    let (sol, c) = solve_cases(mesh, problem, true)?;
+    Ok((sol, c.unwrap_or_default()))
+}
+
+/// Indices of the fixed conductors (row and column order) and the Maxwell capacitance
+/// matrix, F (F/m planar).
+pub type CapacitanceMatrix = (Vec<usize>, Vec<Vec<f64>>);
+
+fn solve_cases(
+    mesh: &Mesh,
+    problem: &Problem,
+    with_capacitance: bool,
+) -> Result<(Solution, Option<CapacitanceMatrix>), SolveError> {
     let t0 = Instant::now();
     let system = System::assemble(mesh, problem)?;
     let mut timings = SolveTimings { assembly_s: t0.elapsed().as_secs_f64(), ..Default::default() };
     let m = system.num_unknowns();
-    let mut x = vec![0.0; m];
+    // Right-hand sides: the load case, then one column per fixed conductor at 1 V.
+    let fixed: Vec<usize> = if with_capacitance {
+        (0..problem.conductors.len()).filter(|&c| system.terminal_of[c].is_some()).collect()
+    } else {
+        Vec::new()
+    };
+    let mut cases = Vec::with_capacity(fixed.len());
+    for &j in &fixed {
+        let mut p = problem.clone();
+        for (i, spec) in p.conductors.iter_mut().enumerate() {
+            *spec = match spec {
+                ConductorSpec::Fixed { .. } => ConductorSpec::Fixed { potential_v: if i == j { 1.0 } else { 0.0 } },
+                ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
+            };
+        }
+        p.outer_potential_v = problem.outer_potential_v.map(|_| 0.0);
+        cases.push(p);
+    }
+    let k = 1 + cases.len();
+    let mut b = Mat::<f64>::zeros(m, k);
+    let mut col = vec![0.0; m];
+    for c in 0..k {
+        if c == 0 {
+            case_rhs(&system, problem, &mut col, true);
+        } else {
+            case_rhs(&system, &cases[c - 1], &mut col, false);
+        }
+        for (i, v) in col.iter().enumerate() {
+            b[(i, c)] = *v;
+        }
+    }
     if m > 0 {
         let t1 = Instant::now();
         let factor = Factor::new(&system)?;
         timings.factor_s = t1.elapsed().as_secs_f64();
         [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = factor.laps;
         let t2 = Instant::now();
-        let mut b = Mat::<f64>::zeros(m, 1);
-        case_rhs(&system, problem, &mut x, true);
-        for (i, r) in x.iter().enumerate() {
-            b[(i, 0)] = *r;
-        }
         factor.solve_in_place(&mut b);
-        for (i, xi) in x.iter_mut().enumerate() {
-            *xi = b[(i, 0)];
-        }
         timings.solve_s = t2.elapsed().as_secs_f64();
     }
     let t3 = Instant::now();
-    let mut sol = finish(mesh, problem, &system, &x, true);
+    let column = |c: usize, out: &mut Vec<f64>| {
+        for (i, v) in out.iter_mut().enumerate() {
+            *v = b[(i, c)];
+        }
+    };
+    column(0, &mut col);
+    let mut sol = finish(mesh, problem, &system, &col, true);
+    let cmat = with_capacitance.then(|| {
+        let mut cmat = vec![vec![0.0; fixed.len()]; fixed.len()];
+        for (c, p) in cases.iter().enumerate() {
+            column(c + 1, &mut col);
+            let s = finish(mesh, p, &system, &col, false);
+            for (row, &i) in fixed.iter().enumerate() {
+                cmat[row][c] = s.conductor_charges[i];
+            }
+        }
+        (fixed.clone(), cmat)
+    });
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
-    Ok(sol)
+    Ok((sol, cmat))
 }
 
 /// The open-boundary term of an axisymmetric model. With the Kelvin transform
@@ -821,43 +884,6 @@ fn element_matrix<const N: usize, E: Element<N>>(
 ///
 /// # Errors
 /// As [`solve`].
-pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<(Vec<usize>, Vec<Vec<f64>>), SolveError> {
-    let system = System::assemble(mesh, problem)?;
-    let fixed: Vec<usize> = (0..problem.conductors.len()).filter(|&c| system.terminal_of[c].is_some()).collect();
-    let m = system.num_unknowns();
-    let k = fixed.len();
-    let mut cases = Vec::with_capacity(k);
-    for &j in &fixed {
-        let mut p = problem.clone();
-        for (i, spec) in p.conductors.iter_mut().enumerate() {
-            *spec = match spec {
-                ConductorSpec::Fixed { .. } => ConductorSpec::Fixed { potential_v: if i == j { 1.0 } else { 0.0 } },
-                ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
-            };
-        }
-        p.outer_potential_v = problem.outer_potential_v.map(|_| 0.0);
-        cases.push(p);
-    }
-    let mut b = Mat::<f64>::zeros(m, k);
-    let mut col = vec![0.0; m];
-    for (c, p) in cases.iter().enumerate() {
-        case_rhs(&system, p, &mut col, false);
-        for (i, v) in col.iter().enumerate() {
-            b[(i, c)] = *v;
-        }
-    }
-    if m > 0 && k > 0 {
-        Factor::new(&system)?.solve_in_place(&mut b);
-    }
-    let mut cmat = vec![vec![0.0; k]; k];
-    for (c, p) in cases.iter().enumerate() {
-        for (i, v) in col.iter_mut().enumerate() {
-            *v = b[(i, c)];
-        }
-        let s = finish(mesh, p, &system, &col, false);
-        for (row, &i) in fixed.iter().enumerate() {
-            cmat[row][c] = s.conductor_charges[i];
-        }
-    }
-    Ok((fixed, cmat))
+pub fn capacitance_matrix(mesh: &Mesh, problem: &Problem) -> Result<CapacitanceMatrix, SolveError> {
+    Ok(solve_with_capacitance(mesh, problem)?.1)
 }
