@@ -21,6 +21,8 @@
 //! - [`capacitance_matrix`]: the Maxwell capacitance matrix of the fixed conductors.
 //! - [`probe_line`], [`probe_interface`]: V and E along a polyline, and normal and
 //!   tangential E on both sides of an interface or on a conductor surface.
+//! - [`grid_convergence`]: observed order, Richardson extrapolation and grid convergence
+//!   index of a quantity over a refinement sequence.
 //! - [`space`]: reference elements and quadrature rules.
 //!
 //! Status: the solve, element fields and capacitance matrix are in place and checked
@@ -56,6 +58,7 @@
 #![deny(missing_docs)]
 #![warn(missing_debug_implementations)]
 
+mod convergence;
 mod error;
 mod fields;
 mod ordering;
@@ -64,6 +67,7 @@ mod problem;
 mod solve;
 pub mod space;
 
+pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
 pub use fields::{element_fields, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};

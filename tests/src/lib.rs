@@ -168,3 +168,46 @@ mod tests {
         }
     }
 }
+
+#[cfg(test)]
+mod convergence_report {
+    use super::*;
+    use engine::{grid_convergence, ConvergenceKind};
+
+    #[test]
+    fn richardson_extrapolation_beats_the_finest_mesh() {
+        // Issue 4's check on a closed form: the extrapolated capacitance of the two-layer
+        // coaxial case (reference: series layers, fixtures/cases/coax-two-layer.toml) is
+        // closer to the exact value than the finest mesh's, for P1 and P2.
+        let cases = load_cases();
+        let (_, case) = cases.iter().find(|(f, _)| f == "coax-two-layer.toml").unwrap();
+        for order in [1u8, 2] {
+            // Sizes below the arcs' chord limit (0.2·R of the 1 cm core), so that the whole
+            // mesh scales with h.
+            let seq: Vec<(usize, f64)> = [0.002, 0.0014, 0.001]
+                .iter()
+                .map(|&h| {
+                    let (c, n) = run_case(case, order, h);
+                    (n, c)
+                })
+                .collect();
+            let st = grid_convergence(&seq);
+            let exact = case.reference_capacitance;
+            let fine_err = (seq[2].1 - exact).abs() / exact;
+            let ext_err = (st.extrapolated - exact).abs() / exact;
+            eprintln!(
+                "P{order}: order {:.2}, finest error {fine_err:.2e}, extrapolated error {ext_err:.2e}, GCI {:.2e}",
+                st.observed_order, st.gci_fine
+            );
+            assert_eq!(st.kind, ConvergenceKind::Monotone);
+            assert!(ext_err < fine_err, "P{order}: extrapolation {ext_err:e} vs finest {fine_err:e}");
+            // The GCI is an error estimate with a 1.25 safety factor, not a bound (Roache 1994
+            // calls it a ~95 % band): it must be of the size of the true error.
+            assert!(
+                st.gci_fine > 0.5 * fine_err && st.gci_fine < 4.0 * fine_err,
+                "P{order}: GCI {} vs error {fine_err}",
+                st.gci_fine
+            );
+        }
+    }
+}
