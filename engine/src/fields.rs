@@ -133,3 +133,60 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     }
     ElementFields { centroid, max_magnitude, nodal, region_peaks: peaks.into_iter().flatten().collect() }
 }
+
+/// The energy norm of the error against a known exact field, and of the exact field:
+/// (√∫ε|∇V − ∇V_h|² w dA, √∫ε|∇V|² w dA), w = 1 planar or 2πr axisymmetric, with the
+/// degree-4 rule of `space` on every element (isoparametric). For verification against
+/// exact solutions; `exact_gradient` returns ∇V (V/m) at a point (metres).
+///
+/// # Panics
+/// If the solution does not belong to the mesh.
+#[track_caller]
+pub fn energy_error(
+    mesh: &Mesh,
+    problem: &Problem,
+    solution: &Solution,
+    exact_gradient: impl Fn(Xy) -> [f64; 2],
+) -> (f64, f64) {
+    assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    let axisym = mesh.symmetry == mesher::Symmetry::Axisymmetric;
+    let (mut err, mut norm) = (0.0, 0.0);
+    for t in 0..mesh.triangles.len() {
+        let eps = crate::solve::EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
+        for &(xi, eta, w) in &crate::space::QUAD_DEG4 {
+            let (e, p) = field_at(mesh, &solution.potential, t, xi, eta);
+            let det = jacobian_det(mesh, t, xi, eta);
+            let mut weight = w * det.abs() * eps;
+            if axisym {
+                weight *= 2.0 * std::f64::consts::PI * p[0];
+            }
+            let g = exact_gradient(p);
+            // E_h = −∇V_h.
+            let d = [g[0] + e[0], g[1] + e[1]];
+            err += weight * (d[0] * d[0] + d[1] * d[1]);
+            norm += weight * (g[0] * g[0] + g[1] * g[1]);
+        }
+    }
+    (err.sqrt(), norm.sqrt())
+}
+
+fn jacobian_det(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> f64 {
+    fn det<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> f64 {
+        let g = E::gradients(xi, eta);
+        let mut j = [[0.0; 2]; 2];
+        for k in 0..N {
+            j[0][0] += x[k][0] * g[k][0];
+            j[0][1] += x[k][0] * g[k][1];
+            j[1][0] += x[k][1] * g[k][0];
+            j[1][1] += x[k][1] * g[k][1];
+        }
+        j[0][0] * j[1][1] - j[0][1] * j[1][0]
+    }
+    let tri = mesh.triangles[t];
+    if mesh.mid_nodes.is_empty() {
+        det::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta)
+    } else {
+        let m = mesh.mid_nodes[t];
+        det::<6, P2>(&[tri[0], tri[1], tri[2], m[0], m[1], m[2]].map(|i| mesh.nodes[i as usize]), xi, eta)
+    }
+}

@@ -69,7 +69,7 @@ pub mod space;
 
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
-pub use fields::{element_fields, ElementFields, RegionPeak};
+pub use fields::{element_fields, energy_error, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use solve::{

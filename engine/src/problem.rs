@@ -20,7 +20,7 @@ pub enum ConductorSpec {
 }
 
 /// What the engine needs besides the mesh.
-#[derive(Clone, Debug, Default, PartialEq)]
+#[derive(Clone, Debug, Default)]
 pub struct Problem {
     /// Relative permittivity per shape index (the mesh's region ids); entries for conductor
     /// shapes are ignored.
@@ -36,6 +36,11 @@ pub struct Problem {
     pub conductors: Vec<ConductorSpec>,
     /// Potential of the outer boundary, or `None` for zero normal flux.
     pub outer_potential_v: Option<f64>,
+    /// A potential that varies along the outer boundary, V as a function of the position in
+    /// metres (for verification against exact solutions with non-uniform boundary data).
+    /// When given it holds the outer boundary and `outer_potential_v` is ignored; the
+    /// capacitance matrix still takes the outer boundary at 0 V.
+    pub outer_potential_fn: Option<fn([f64; 2]) -> f64>,
 }
 
 impl Problem {

@@ -205,10 +205,18 @@ impl System {
                 num_terminals += 1;
             }
         }
-        let outer_terminal = problem.outer_potential_v.map(|_| {
+        let outer_terminal = (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then(|| {
             num_terminals += 1;
             num_terminals - 1
         });
+        // With a boundary potential function the outer terminal's coupling column holds
+        // K·g (g the nodal boundary values) instead of K·1, and its "potential" is 1.
+        let held_weight = |h: u32, node: u32| -> f64 {
+            match (problem.outer_potential_fn, outer_terminal) {
+                (Some(g), Some(t)) if t == h => g(mesh.nodes[node as usize]),
+                _ => 1.0,
+            }
+        };
 
         let mut next = 0u32;
         let mut floating_dof: Vec<Option<u32>> = vec![None; nc];
@@ -273,7 +281,7 @@ impl System {
                                         trip.push(Triplet::new(ri as usize, cj as usize, ke[i][j]));
                                     }
                                 }
-                                Dof::Held(h) => coup.push((h, ri, ke[i][j])),
+                                Dof::Held(h) => coup.push((h, ri, ke[i][j] * held_weight(h, nj))),
                             }
                         }
                     }
@@ -302,7 +310,7 @@ impl System {
                                 open_trip.push(Triplet::new(ri as usize, cj as usize, mm[i][j]));
                             }
                         }
-                        Dof::Held(h) => coupling[h as usize][ri as usize] += mm[i][j],
+                        Dof::Held(h) => coupling[h as usize][ri as usize] += mm[i][j] * held_weight(h, nj),
                     }
                 }
             }
@@ -515,7 +523,8 @@ fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64], with_space_char
             _ => {}
         }
     }
-    if let (Some(v0), Some(t)) = (problem.outer_potential_v, system.outer_terminal) {
+    let outer_scale = if problem.outer_potential_fn.is_some() { Some(1.0) } else { problem.outer_potential_v };
+    if let (Some(v0), Some(t)) = (outer_scale, system.outer_terminal) {
         for (r, k) in rhs.iter_mut().zip(&system.coupling[t as usize]) {
             *r -= v0 * k;
         }
@@ -541,9 +550,13 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space
     let potential: Vec<f64> = system
         .dof
         .iter()
-        .map(|d| match *d {
+        .enumerate()
+        .map(|(v, d)| match *d {
             Dof::Free(i) => x[i as usize],
-            Dof::Held(t) => terminal_values[t as usize],
+            Dof::Held(t) => match (problem.outer_potential_fn, system.outer_terminal) {
+                (Some(g), Some(o)) if o == t => g(mesh.nodes[v]),
+                _ => terminal_values[t as usize],
+            },
         })
         .collect();
     // Reactions and energy from the full element matrices.
@@ -640,7 +653,9 @@ fn solve_cases(
                 ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
             };
         }
-        p.outer_potential_v = problem.outer_potential_v.map(|_| 0.0);
+        p.outer_potential_v =
+            (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then_some(0.0);
+        p.outer_potential_fn = None;
         cases.push(p);
     }
     let k = 1 + cases.len();

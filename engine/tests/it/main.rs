@@ -4,5 +4,7 @@
 mod closed_forms;
 /// Geometry helpers.
 mod common;
+/// The re-entrant corner benchmark: uniform and graded convergence rates.
+mod corner;
 /// Linear potentials reproduced exactly; invariants of the solution.
 mod patch;
