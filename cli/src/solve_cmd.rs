@@ -190,6 +190,7 @@ fn problem_of(model: &Model) -> Problem {
             })
             .collect(),
         outer_potential_v: model.outer_potential_v,
+        outer_potential_fn: None,
     }
 }
 
