@@ -247,6 +247,46 @@ fn anisotropic_permittivity_is_rotation_invariant() {
 }
 
 #[test]
+fn axisymmetric_space_charge_parabola_with_p2() {
+    // The same 1-D Poisson solution along z between two discs (zero-flux cylinder wall and
+    // axis): V(z) is quadratic, so P2 reproduces it exactly in the axisymmetric weak form
+    // too, and Gauss's law balances the charges (any electrostatics text).
+    use mesher::{generate, Geometry, OuterBoundary, RefineParams};
+    let (rho, er) = (1e-4, 2.0);
+    let eps = EPSILON_0 * er;
+    let rect = |n: &str, z0: f64, z1: f64| Outline::rectangle(n, [0.0, z0], [0.03, z1 - z0], 0.0).unwrap();
+    let geo = Geometry {
+        symmetry: Symmetry::Axisymmetric,
+        shapes: vec![
+            shape("gap", rect("gap", 0.0, 0.06), diel(er)),
+            shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+            shape("top", rect("top", 0.05, 0.06), cond(1)),
+        ],
+        conductors: vec!["a".into(), "b".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.006)).unwrap().mesh;
+    let problem = engine::Problem {
+        permittivity: vec![er, f64::NAN, f64::NAN],
+        charge_density: vec![rho, 0.0, 0.0],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 100.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: None,
+        ..Default::default()
+    };
+    let sol = engine::solve(&mesh, &problem).unwrap();
+    let (z0, z1) = (0.01, 0.05);
+    for (i, p) in mesh.nodes.iter().enumerate() {
+        let z = p[1];
+        let want = 100.0 * (z1 - z) / (z1 - z0) + rho / (2.0 * eps) * (z - z0) * (z1 - z);
+        assert!((sol.potential[i] - want).abs() < 1e-8 * 1e3, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
+    }
+    let space = rho * std::f64::consts::PI * 0.03 * 0.03 * 0.04;
+    let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
+    assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
+}
+
+#[test]
 fn uniform_space_charge_gives_the_exact_parabola_with_p2() {
     // −ε V″ = ρ between plates at y₀ = 0.01 (V₀ = 100 V) and y₁ = 0.05 (0 V):
     // V(y) = V₀(y₁ − y)/d + ρ/(2ε)·(y − y₀)(y₁ − y) — a quadratic, reproduced exactly by P2
