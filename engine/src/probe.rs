@@ -15,7 +15,7 @@
 
 use crate::solve::Solution;
 use crate::space::{Element, P1, P2};
-use mesher::{EdgeTag, Mesh, Xy};
+use mesher::{BucketGrid, EdgeTag, Mesh, Xy};
 
 /// One sample along a polyline.
 #[derive(Clone, Debug, PartialEq)]
@@ -139,15 +139,9 @@ fn evaluate(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> (f64
     }
 }
 
-/// Uniform grid of triangle bounding boxes for point location.
+/// Point location over the triangles' bounding boxes (padded for curved P2 edges).
 struct TriangleGrid {
-    x0: f64,
-    y0: f64,
-    cell: f64,
-    nx: usize,
-    ny: usize,
-    start: Vec<u32>,
-    items: Vec<u32>,
+    grid: BucketGrid,
 }
 
 impl TriangleGrid {
@@ -156,64 +150,29 @@ impl TriangleGrid {
         for p in &mesh.nodes {
             bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
         }
-        let (w, h) = ((bb[2] - bb[0]).max(1e-300), (bb[3] - bb[1]).max(1e-300));
-        let cell = ((w * h) / mesh.triangles.len().max(1) as f64).sqrt().max(w.max(h) / 2048.0);
-        let nx = ((w / cell).ceil() as usize).max(1);
-        let ny = ((h / cell).ceil() as usize).max(1);
-        let range = |t: &[u32; 3]| {
-            let ps = t.map(|i| mesh.nodes[i as usize]);
-            let lo = |v: f64, o: f64, n: usize| (((v - o) / cell).floor().max(0.0) as usize).min(n - 1);
-            let (xmin, xmax) = (
-                ps.iter().map(|p| p[0]).fold(f64::INFINITY, f64::min),
-                ps.iter().map(|p| p[0]).fold(f64::NEG_INFINITY, f64::max),
-            );
-            let (ymin, ymax) = (
-                ps.iter().map(|p| p[1]).fold(f64::INFINITY, f64::min),
-                ps.iter().map(|p| p[1]).fold(f64::NEG_INFINITY, f64::max),
-            );
-            // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
-            let pad = 0.1 * (xmax - xmin).max(ymax - ymin);
-            (lo(xmin - pad, bb[0], nx), lo(xmax + pad, bb[0], nx), lo(ymin - pad, bb[1], ny), lo(ymax + pad, bb[1], ny))
-        };
-        let mut count = vec![0u32; nx * ny + 1];
-        for t in &mesh.triangles {
-            let (a, b, c, d) = range(t);
-            for iy in c..=d {
-                for ix in a..=b {
-                    count[iy * nx + ix + 1] += 1;
-                }
-            }
-        }
-        for k in 1..count.len() {
-            count[k] += count[k - 1];
-        }
-        let mut fill = count.clone();
-        let mut items = vec![0u32; *count.last().unwrap() as usize];
-        for (ti, t) in mesh.triangles.iter().enumerate() {
-            let (a, b, c, d) = range(t);
-            for iy in c..=d {
-                for ix in a..=b {
-                    let k = iy * nx + ix;
-                    items[fill[k] as usize] = ti as u32;
-                    fill[k] += 1;
-                }
-            }
-        }
-        TriangleGrid { x0: bb[0], y0: bb[1], cell, nx, ny, start: count, items }
+        let boxes: Vec<[f64; 4]> = mesh
+            .triangles
+            .iter()
+            .map(|t| {
+                let ps = t.map(|i| mesh.nodes[i as usize]);
+                let (xmin, xmax) = (ps[0][0].min(ps[1][0]).min(ps[2][0]), ps[0][0].max(ps[1][0]).max(ps[2][0]));
+                let (ymin, ymax) = (ps[0][1].min(ps[1][1]).min(ps[2][1]), ps[0][1].max(ps[1][1]).max(ps[2][1]));
+                // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
+                let pad = 0.1 * (xmax - xmin).max(ymax - ymin);
+                [xmin - pad, ymin - pad, xmax + pad, ymax + pad]
+            })
+            .collect();
+        TriangleGrid { grid: BucketGrid::new(&boxes, bb) }
     }
 
     fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {
-        let ix = ((p[0] - self.x0) / self.cell).floor();
-        let iy = ((p[1] - self.y0) / self.cell).floor();
-        if ix < -1.0 || iy < -1.0 || ix > self.nx as f64 || iy > self.ny as f64 {
-            return None;
-        }
-        let ix = (ix.max(0.0) as usize).min(self.nx - 1);
-        let iy = (iy.max(0.0) as usize).min(self.ny - 1);
-        let k = iy * self.nx + ix;
-        self.items[self.start[k] as usize..self.start[k + 1] as usize]
-            .iter()
-            .find_map(|&t| locate_in(mesh, t as usize, p).map(|(xi, eta)| (t as usize, xi, eta)))
+        let mut found = None;
+        self.grid.for_each_near(p, 0.0, |t| {
+            if found.is_none() {
+                found = locate_in(mesh, t as usize, p).map(|(xi, eta)| (t as usize, xi, eta));
+            }
+        });
+        found
     }
 }
 

@@ -1,10 +1,11 @@
-//! A uniform bucket grid over straight segments, for nearest-segment queries.
+//! A uniform bucket grid over axis-aligned boxes, for nearest-item and point-location
+//! queries (boundary segments in the mesher, triangles in the engine's probes).
 
 use crate::geometry::{dot, norm, sub, Xy};
 
-/// Segments bucketed by the grid cells their bounding boxes overlap.
+/// Items (by index) bucketed by the grid cells their bounding boxes overlap.
 #[derive(Clone, Debug)]
-pub(crate) struct SegmentGrid {
+pub struct BucketGrid {
     x0: f64,
     y0: f64,
     cell: f64,
@@ -21,27 +22,23 @@ pub(crate) fn point_segment_distance(p: Xy, a: Xy, b: Xy) -> f64 {
     norm(sub(p, [a[0] + t * d[0], a[1] + t * d[1]]))
 }
 
-impl SegmentGrid {
-    /// Builds the grid over `segs` (pairs of point indices into `pts`) inside `bbox`.
-    pub fn new(pts: &[Xy], segs: &[[u32; 2]], bbox: [f64; 4]) -> SegmentGrid {
+impl BucketGrid {
+    /// Buckets items given by their bounding boxes `[xmin, ymin, xmax, ymax]` over the
+    /// region `bbox`, with about one item per cell (at most 4096 cells a side).
+    pub fn new(boxes: &[[f64; 4]], bbox: [f64; 4]) -> BucketGrid {
         let w = (bbox[2] - bbox[0]).max(1e-300);
         let h = (bbox[3] - bbox[1]).max(1e-300);
-        // About one segment per cell, at most 4096 cells a side.
-        let n = segs.len().max(1) as f64;
+        let n = boxes.len().max(1) as f64;
         let cell = ((w * h) / n).sqrt().max(w.max(h) / 4096.0);
         let nx = ((w / cell).ceil() as usize).max(1);
         let ny = ((h / cell).ceil() as usize).max(1);
-        let mut count = vec![0u32; nx * ny + 1];
-        let range = |s: &[u32; 2]| {
-            let (a, b) = (pts[s[0] as usize], pts[s[1] as usize]);
-            let ix0 = (((a[0].min(b[0]) - bbox[0]) / cell).floor().max(0.0) as usize).min(nx - 1);
-            let ix1 = (((a[0].max(b[0]) - bbox[0]) / cell).floor().max(0.0) as usize).min(nx - 1);
-            let iy0 = (((a[1].min(b[1]) - bbox[1]) / cell).floor().max(0.0) as usize).min(ny - 1);
-            let iy1 = (((a[1].max(b[1]) - bbox[1]) / cell).floor().max(0.0) as usize).min(ny - 1);
-            (ix0, ix1, iy0, iy1)
+        let index = |v: f64, o: f64, n: usize| (((v - o) / cell).floor().max(0.0) as usize).min(n - 1);
+        let range = |b: &[f64; 4]| {
+            (index(b[0], bbox[0], nx), index(b[2], bbox[0], nx), index(b[1], bbox[1], ny), index(b[3], bbox[1], ny))
         };
-        for s in segs {
-            let (ix0, ix1, iy0, iy1) = range(s);
+        let mut count = vec![0u32; nx * ny + 1];
+        for b in boxes {
+            let (ix0, ix1, iy0, iy1) = range(b);
             for iy in iy0..=iy1 {
                 for ix in ix0..=ix1 {
                     count[iy * nx + ix + 1] += 1;
@@ -53,21 +50,22 @@ impl SegmentGrid {
         }
         let mut fill = count.clone();
         let mut items = vec![0u32; *count.last().unwrap() as usize];
-        for (si, s) in segs.iter().enumerate() {
-            let (ix0, ix1, iy0, iy1) = range(s);
+        for (i, b) in boxes.iter().enumerate() {
+            let (ix0, ix1, iy0, iy1) = range(b);
             for iy in iy0..=iy1 {
                 for ix in ix0..=ix1 {
                     let c = iy * nx + ix;
-                    items[fill[c] as usize] = si as u32;
+                    items[fill[c] as usize] = i as u32;
                     fill[c] += 1;
                 }
             }
         }
-        SegmentGrid { x0: bbox[0], y0: bbox[1], cell, nx, ny, start: count, items }
+        BucketGrid { x0: bbox[0], y0: bbox[1], cell, nx, ny, start: count, items }
     }
 
-    /// Calls `f(segment index)` for every segment bucketed in a cell that overlaps the
-    /// square of half-width `r` around `p` (a segment may be reported more than once).
+    /// Calls `f(item index)` for every item bucketed in a cell that overlaps the square
+    /// of half-width `r` around `p` (an item may be reported more than once). Points
+    /// outside the region are clamped to its border cells.
     pub fn for_each_near(&self, p: Xy, r: f64, mut f: impl FnMut(u32)) {
         let lo = |v: f64, o: f64, n: usize| (((v - o) / self.cell).floor().max(0.0) as usize).min(n - 1);
         let ix0 = lo(p[0] - r, self.x0, self.nx);
@@ -83,4 +81,16 @@ impl SegmentGrid {
             }
         }
     }
+}
+
+/// Bucket grid over straight segments (pairs of point indices).
+pub(crate) fn segment_grid(pts: &[Xy], segs: &[[u32; 2]], bbox: [f64; 4]) -> BucketGrid {
+    let boxes: Vec<[f64; 4]> = segs
+        .iter()
+        .map(|s| {
+            let (a, b) = (pts[s[0] as usize], pts[s[1] as usize]);
+            [a[0].min(b[0]), a[1].min(b[1]), a[0].max(b[0]), a[1].max(b[1])]
+        })
+        .collect();
+    BucketGrid::new(&boxes, bbox)
 }

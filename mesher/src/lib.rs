@@ -64,6 +64,7 @@ mod vtu;
 pub use corners::{wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
 pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
+pub use grid::BucketGrid;
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
 pub use size_field::SizeField;

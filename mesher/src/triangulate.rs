@@ -35,7 +35,7 @@ use crate::arrangement::{Arrangement, Side};
 use crate::corners::{self, SingularPoint};
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Curve, Fill, Geometry, OuterBoundary, Symmetry, Xy};
-use crate::grid::{point_segment_distance, SegmentGrid};
+use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::SizeField;
@@ -83,7 +83,7 @@ pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, Me
     let field = size_field(geo, &arr, &singular, params);
     clock.lap("geometry");
     let pslg = discretise(&arr, &field);
-    let grid = SegmentGrid::new(&pslg.points, &pslg.segments, geo.bbox());
+    let grid = segment_grid(&pslg.points, &pslg.segments, geo.bbox());
     clock.lap("boundary");
     let seeds = seed(geo, &field, &pslg, &grid);
     clock.lap("seeding");
@@ -242,7 +242,7 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
 /// triangles with angles of about 53° and 63°. Points outside the domain or closer than
 /// d/2 to a boundary segment are dropped; Delaunay refinement repairs the seams between
 /// leaves of different sizes and the layer along the boundary.
-fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &SegmentGrid) -> Vec<Xy> {
+fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Vec<Xy> {
     let bb = geo.bbox();
     let side = (bb[2] - bb[0]).max(bb[3] - bb[1]);
     let domain = &geo.shapes[0].outline;
@@ -399,7 +399,7 @@ fn extract(
     geo: &Geometry,
     arr: &Arrangement,
     pslg: &Pslg,
-    grid: &SegmentGrid,
+    grid: &BucketGrid,
     cdt: &Cdt,
     singular_points: Vec<SingularPoint>,
 ) -> Result<Mesh, MeshError> {

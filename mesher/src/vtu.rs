@@ -151,37 +151,32 @@ pub fn write_vtu(mesh: &Mesh, nodes: &[NodeArray<'_>], cells: &[CellArray<'_>], 
     }
     writeln!(w, "</DataArray>")?;
     for a in cells {
-        writeln!(
-            w,
-            r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#,
-            a.name, a.components
-        )?;
-        for v in a.values.chunks(a.components) {
-            write_row(w, v)?;
-        }
-        for _ in 0..ne {
-            write_row(w, &vec![f64::NAN; a.components])?;
-        }
-        writeln!(w, "</DataArray>")?;
+        write_array(w, a.name, a.components, a.values, ne)?;
     }
     writeln!(w, "</CellData>")?;
     if !nodes.is_empty() {
         writeln!(w, "<PointData>")?;
         for a in nodes {
-            writeln!(
-                w,
-                r#"<DataArray type="Float64" Name="{}" NumberOfComponents="{}" format="ascii">"#,
-                a.name, a.components
-            )?;
-            for v in a.values.chunks(a.components) {
-                write_row(w, v)?;
-            }
-            writeln!(w, "</DataArray>")?;
+            write_array(w, a.name, a.components, a.values, 0)?;
         }
         writeln!(w, "</PointData>")?;
     }
     writeln!(w, "</Piece>\n</UnstructuredGrid>\n</VTKFile>")?;
     Ok(())
+}
+
+/// A Float64 data array, followed by `pad` rows of NaN (for the edge cells after the
+/// triangles).
+fn write_array(w: &mut impl Write, name: &str, components: usize, values: &[f64], pad: usize) -> io::Result<()> {
+    writeln!(w, r#"<DataArray type="Float64" Name="{name}" NumberOfComponents="{components}" format="ascii">"#)?;
+    for v in values.chunks(components) {
+        write_row(w, v)?;
+    }
+    let nan = vec![f64::NAN; components];
+    for _ in 0..pad {
+        write_row(w, &nan)?;
+    }
+    writeln!(w, "</DataArray>")
 }
 
 fn write_row(w: &mut impl Write, v: &[f64]) -> io::Result<()> {
