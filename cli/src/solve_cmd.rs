@@ -105,7 +105,8 @@ pub struct RegionResult {
     pub name: String,
     /// Material name.
     pub material: String,
-    /// Largest element |E|, V/m.
+    /// Largest |E| at a vertex of the region (averaged over the region's elements there;
+    /// one-sided maximum at singular points), V/m.
     pub e_max_v_per_m: f64,
     /// The same in kV/mm.
     pub e_max_kv_per_mm: f64,
@@ -223,11 +224,16 @@ pub fn run(run: &SolveRun) -> Result<()> {
         .map(|p| {
             let r = p.region as usize;
             let mat = model.shape_material[r].map(|m| &model.materials[m]);
-            let tri = mesh.triangles[p.triangle as usize];
-            let h = (0..3)
-                .map(|i| {
-                    let (a, b) = (mesh.nodes[tri[i] as usize], mesh.nodes[tri[(i + 1) % 3] as usize]);
-                    (a[0] - b[0]).hypot(a[1] - b[1])
+            // Local element size: the longest edge of the triangles at the peak's vertex.
+            let h = mesh
+                .triangles
+                .iter()
+                .filter(|tri| tri.contains(&p.node))
+                .flat_map(|tri| {
+                    (0..3).map(move |i| {
+                        let (a, b) = (mesh.nodes[tri[i] as usize], mesh.nodes[tri[(i + 1) % 3] as usize]);
+                        (a[0] - b[0]).hypot(a[1] - b[1])
+                    })
                 })
                 .fold(0.0, f64::max);
             let near = mesh
@@ -437,7 +443,7 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
             let _ = writeln!(s);
         }
     }
-    let _ = writeln!(s, "\npeak field per region (element values)");
+    let _ = writeln!(s, "\npeak field per region (vertex values averaged within the region)");
     let _ = writeln!(
         s,
         "  {:<20} {:<10} {:>12} {:>22} {:>10} {:>8}  note",

@@ -4,10 +4,13 @@
 //! Within a straight P1 element E is constant; within a straight P2 element E is linear, so
 //! |E|² is a convex quadratic whose maximum over the triangle lies at a vertex. The element
 //! field is therefore evaluated at the three vertices (reference coordinates (0,0), (1,0),
-//! (0,1)) through the isoparametric map, which is exact for straight elements and
-//! accurate to the geometry error for curved ones, and at the centroid for the element's
-//! representative value. No smoothing is applied: the maxima reported are the raw
-//! element values, on the side of each interface where they occur.
+//! (0,1)) through the isoparametric map, and at the centroid for the element's
+//! representative value. The region peaks use the vertex values averaged (area-weighted)
+//! over the elements of that region around each vertex: a vertex is where a single
+//! element's gradient is least accurate, and the one-sided errors of the elements around it
+//! largely cancel. Values are never averaged across an interface, so each side of an
+//! interface keeps its own field. At a singular point (λ < 1) the largest one-sided value
+//! is kept instead of the average, so that the unbounded peak is not hidden.
 
 use crate::problem::Problem;
 use crate::solve::Solution;
@@ -23,8 +26,8 @@ pub struct RegionPeak {
     pub e_max_v_per_m: f64,
     /// Where it occurs.
     pub at: Xy,
-    /// The element it occurs in.
-    pub triangle: u32,
+    /// The mesh vertex it occurs at.
+    pub node: u32,
 }
 
 /// Field per element.
@@ -32,7 +35,7 @@ pub struct RegionPeak {
 pub struct ElementFields {
     /// E at each element's centroid, V/m.
     pub centroid: Vec<[f64; 2]>,
-    /// Largest |E| over each element's vertices and centroid, V/m.
+    /// Largest |E| over each element's own vertices and centroid (not averaged), V/m.
     pub max_magnitude: Vec<f64>,
     /// E at every node, V/m: the area-weighted mean of the centroid fields of the elements
     /// around it (for display; at an interface it mixes both sides, whose normal fields
@@ -94,25 +97,56 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     let mut max_magnitude = Vec::with_capacity(nt);
     let nr = mesh.shape_names.len();
     let mut peaks: Vec<Option<RegionPeak>> = vec![None; nr];
+    // Vertex fields averaged over the elements of the same region around each vertex
+    // (area-weighted): the one-sided element errors at a vertex largely cancel, so the
+    // region peaks come from these recovered values (still never averaged across an
+    // interface).
+    let mut at_vertex: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * nt);
     for t in 0..nt {
         let (ec, pc) = field_at(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0);
         centroid.push(ec);
-        let mut best = (ec[0].hypot(ec[1]), pc);
-        for (xi, eta) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)] {
-            let (e, p) = field_at(mesh, &solution.potential, t, xi, eta);
-            let m = e[0].hypot(e[1]);
-            if m > best.0 {
-                best = (m, p);
-            }
+        let mut best = ec[0].hypot(ec[1]);
+        let _ = pc;
+        let area = mesh.triangle_area(t).abs();
+        for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
+            let (e, _) = field_at(mesh, &solution.potential, t, xi, eta);
+            best = best.max(e[0].hypot(e[1]));
+            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], [e[0] * area, e[1] * area], area));
         }
-        max_magnitude.push(best.0);
-        let r = mesh.regions[t] as usize;
+        max_magnitude.push(best);
+    }
+    at_vertex.sort_unstable_by_key(|e| (e.0, e.1));
+    // At a point where the field is singular the average would hide the (mesh-dependent,
+    // unbounded) peak: there the largest one-sided value is kept instead.
+    let scale = mesh.scale();
+    let singular_node = |node: u32| {
+        let p = mesh.nodes[node as usize];
+        mesh.singular_points
+            .iter()
+            .any(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= 1e-9 * scale)
+    };
+    let mut i = 0;
+    while i < at_vertex.len() {
+        let (node, region) = (at_vertex[i].0, at_vertex[i].1);
+        let (mut sum, mut w, mut one_sided) = ([0.0; 2], 0.0, 0.0f64);
+        while i < at_vertex.len() && at_vertex[i].0 == node && at_vertex[i].1 == region {
+            sum[0] += at_vertex[i].2[0];
+            sum[1] += at_vertex[i].2[1];
+            w += at_vertex[i].3;
+            let a = at_vertex[i].3;
+            if a > 0.0 {
+                one_sided = one_sided.max((at_vertex[i].2[0] / a).hypot(at_vertex[i].2[1] / a));
+            }
+            i += 1;
+        }
+        let r = region as usize;
         // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
-        if mesh.exterior.is_some_and(|e| e.region as usize == r) {
+        if mesh.exterior.is_some_and(|e| e.region as usize == r) || w <= 0.0 {
             continue;
         }
-        if peaks[r].as_ref().is_none_or(|p| best.0 > p.e_max_v_per_m) {
-            peaks[r] = Some(RegionPeak { region: r as u32, e_max_v_per_m: best.0, at: best.1, triangle: t as u32 });
+        let m = if singular_node(node) { one_sided } else { (sum[0] / w).hypot(sum[1] / w) };
+        if peaks[r].as_ref().is_none_or(|p| m > p.e_max_v_per_m) {
+            peaks[r] = Some(RegionPeak { region, e_max_v_per_m: m, at: mesh.nodes[node as usize], node });
         }
     }
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
