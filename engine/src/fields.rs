@@ -84,6 +84,12 @@ fn field_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> ([f6
     }
 }
 
+/// ∇V at reference point (ξ, η) of triangle `t`.
+pub(crate) fn gradient_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> [f64; 2] {
+    let (e, _) = field_at(mesh, potential, t, xi, eta);
+    [-e[0], -e[1]]
+}
+
 /// Evaluates the field of a solution on every element.
 ///
 /// # Panics

@@ -60,6 +60,7 @@
 
 mod convergence;
 mod error;
+mod estimate;
 mod fields;
 mod ordering;
 mod probe;
@@ -69,6 +70,7 @@ pub mod space;
 
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
+pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};

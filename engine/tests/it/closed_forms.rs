@@ -245,3 +245,31 @@ fn two_coplanar_strips_in_open_space() {
     eprintln!("coplanar strips: rel. error {:.2e}, {} nodes", (q - exact) / exact, mesh.num_nodes());
     assert!((q - exact).abs() < 3e-3 * exact, "{q:e} vs {exact:e}");
 }
+
+#[test]
+fn recovery_estimate_effectivity_on_the_coaxial_line() {
+    // Effectivity index η/‖e‖ of the gradient-recovery estimator (Zienkiewicz & Zhu 1987)
+    // against the exact coaxial field ∇V = −V·r̂/(r·ln(b/a)) (Griffiths 2017, §2.3), P1.
+    for h in [0.002, 0.001] {
+        let shapes = vec![
+            shape("gap", Outline::circle("gap", [0.0, 0.0], 0.03).unwrap(), diel(1.0)),
+            shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+        ];
+        let (mesh, sol) = run(Symmetry::Planar, shapes, &[("core", V)], Some(0.0), h, 1);
+        let problem = engine::Problem {
+            permittivity: vec![1.0, f64::NAN],
+            conductors: vec![V],
+            outer_potential_v: Some(0.0),
+            ..Default::default()
+        };
+        let est = engine::estimate_error(&mesh, &problem, &sol);
+        let (err, _) = engine::energy_error(&mesh, &problem, &sol, |p| {
+            let r2 = p[0] * p[0] + p[1] * p[1];
+            let k = -1.0 / 3f64.ln();
+            [k * p[0] / r2, k * p[1] / r2]
+        });
+        let eff = est.global / err;
+        eprintln!("h {h}: estimate {:.3e}, error {err:.3e}, effectivity {eff:.3}", est.global);
+        assert!((0.8..=1.3).contains(&eff), "effectivity {eff}");
+    }
+}

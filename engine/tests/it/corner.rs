@@ -35,6 +35,12 @@ fn exact_gradient(p: [f64; 2]) -> [f64; 2] {
 
 /// Relative energy error and unknowns on the L-shape.
 fn run(order: u8, h: f64, graded: bool) -> (f64, usize) {
+    let (e, n, _) = run_with_estimate(order, h, graded);
+    (e, n)
+}
+
+/// Relative energy error, unknowns, and the recovery estimate's effectivity (P1 only).
+fn run_with_estimate(order: u8, h: f64, graded: bool) -> (f64, usize, f64) {
     let geo = Geometry {
         symmetry: Symmetry::Planar,
         shapes: vec![
@@ -66,7 +72,18 @@ fn run(order: u8, h: f64, graded: bool) -> (f64, usize) {
     };
     let sol = solve(&mesh, &problem).unwrap();
     let (e, u) = energy_error(&mesh, &problem, &sol, exact_gradient);
-    (e / u, sol.num_unknowns)
+    let eff = if order == 1 { engine::estimate_error(&mesh, &problem, &sol).global / e } else { f64::NAN };
+    (e / u, sol.num_unknowns, eff)
+}
+
+#[test]
+fn recovery_estimate_on_the_graded_l_shape() {
+    // The estimator's effectivity η/‖e‖ on the graded P1 meshes of the corner benchmark.
+    for h in [0.05, 0.025] {
+        let (_, n, eff) = run_with_estimate(1, h, true);
+        eprintln!("graded P1, {n} unknowns: effectivity {eff:.3}");
+        assert!((0.8..=1.3).contains(&eff), "effectivity {eff}");
+    }
 }
 
 /// Least-squares slope of ln(error) against ln(N).
