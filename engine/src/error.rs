@@ -59,6 +59,8 @@ pub enum SolveError {
         /// The mesh node of that unknown (None for a floating conductor's potential).
         node: Option<u32>,
     },
+    /// Meshing failed (in the adaptive loop).
+    Mesh(mesher::MeshError),
     /// The sparse factorisation failed (the reduced matrix is not positive definite).
     Factorisation {
         /// Detail from the factorisation.
@@ -80,6 +82,7 @@ impl fmt::Display for SolveError {
                 Some(n) => write!(f, "the system matrix is not positive definite (pivot {pivot}, at mesh node {n}); check the elements and permittivities around that node, e.g. with `fieldgrade mesh --svg` and the fields.vtu node ids"),
                 None => write!(f, "the system matrix is not positive definite (pivot {pivot}, at a floating conductor's potential); check that the floating conductor is surrounded by dielectric"),
             },
+            SolveError::Mesh(e) => write!(f, "{e}"),
             SolveError::Factorisation { detail } => write!(f, "the system matrix could not be factorised ({detail}); a part of the domain may be cut off from every fixed potential, for example a dielectric region enclosed by floating conductors only"),
         }
     }

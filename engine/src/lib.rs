@@ -58,6 +58,7 @@
 #![deny(missing_docs)]
 #![warn(missing_debug_implementations)]
 
+mod adapt;
 mod convergence;
 mod error;
 mod estimate;
@@ -68,6 +69,7 @@ mod problem;
 mod solve;
 pub mod space;
 
+pub use adapt::{adapt, AdaptOutcome, AdaptParams, AdaptStep};
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};

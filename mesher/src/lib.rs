@@ -67,6 +67,6 @@ pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoi
 pub use grid::BucketGrid;
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
-pub use size_field::SizeField;
-pub use triangulate::generate;
+pub use size_field::{BackgroundSize, SizeField};
+pub use triangulate::{generate, generate_with};
 pub use vtu::{write_vtu, CellArray, NodeArray};

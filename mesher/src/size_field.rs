@@ -41,6 +41,67 @@ enum Source {
     Point { at: Xy, h: f64 },
     Curve { curve: Curve, h: f64 },
     Corner { at: Xy, h0: f64, radius: f64, mu: f64 },
+    Background(std::sync::Arc<BackgroundSize>),
+}
+
+/// Element sizes given on the triangles of an earlier mesh (what an error estimate asks
+/// for); points outside every triangle get no size from it.
+#[derive(Clone, Debug)]
+pub struct BackgroundSize {
+    nodes: Vec<Xy>,
+    triangles: Vec<[u32; 3]>,
+    sizes: Vec<f64>,
+    grid: crate::grid::BucketGrid,
+}
+
+impl BackgroundSize {
+    /// Sizes `sizes_m[t]` on the triangles of `mesh` (its vertex triangles; curved edges are
+    /// taken straight).
+    ///
+    /// # Panics
+    /// If `sizes_m` does not have one entry per triangle.
+    #[track_caller]
+    pub fn new(mesh: &crate::Mesh, sizes_m: Vec<f64>) -> BackgroundSize {
+        assert_eq!(sizes_m.len(), mesh.triangles.len(), "one size per triangle");
+        let nodes = mesh.nodes.clone();
+        let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
+        let boxes: Vec<[f64; 4]> = mesh
+            .triangles
+            .iter()
+            .map(|t| {
+                let p = t.map(|i| nodes[i as usize]);
+                let b = [
+                    p[0][0].min(p[1][0]).min(p[2][0]),
+                    p[0][1].min(p[1][1]).min(p[2][1]),
+                    p[0][0].max(p[1][0]).max(p[2][0]),
+                    p[0][1].max(p[1][1]).max(p[2][1]),
+                ];
+                bb = [bb[0].min(b[0]), bb[1].min(b[1]), bb[2].max(b[2]), bb[3].max(b[3])];
+                b
+            })
+            .collect();
+        let grid = crate::grid::BucketGrid::new(&boxes, bb);
+        BackgroundSize { nodes, triangles: mesh.triangles.clone(), sizes: sizes_m, grid }
+    }
+
+    /// The size of the triangle containing `p`, if any.
+    pub fn size_at(&self, p: Xy) -> Option<f64> {
+        let mut found = None;
+        self.grid.for_each_near(p, 0.0, |t| {
+            if found.is_some() {
+                return;
+            }
+            let [a, b, c] = self.triangles[t as usize].map(|i| self.nodes[i as usize]);
+            let d = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
+            let l1 = ((b[0] - p[0]) * (c[1] - p[1]) - (c[0] - p[0]) * (b[1] - p[1])) / d;
+            let l2 = ((c[0] - p[0]) * (a[1] - p[1]) - (a[0] - p[0]) * (c[1] - p[1])) / d;
+            let l3 = 1.0 - l1 - l2;
+            if l1 >= -1e-9 && l2 >= -1e-9 && l3 >= -1e-9 {
+                found = Some(self.sizes[t as usize]);
+            }
+        });
+        found
+    }
 }
 
 /// Element edge length wanted at every point, metres.
@@ -79,6 +140,11 @@ impl SizeField {
         self.sources.push(Source::Curve { curve, h });
     }
 
+    /// Adds sizes given on an earlier mesh (the adaptive loop's request).
+    pub fn add_background(&mut self, bg: BackgroundSize) {
+        self.sources.push(Source::Background(std::sync::Arc::new(bg)));
+    }
+
     /// Adds grading towards a point: `h₀·(r/R)^(1−μ)` inside radius `R`.
     pub fn add_corner(&mut self, at: Xy, h0: f64, radius: f64, mu: f64) {
         self.sources.push(Source::Corner { at, h0, radius, mu });
@@ -115,6 +181,10 @@ impl SizeField {
                 }
                 Source::Point { at, h } => *h + self.slope * norm(sub(p, *at)),
                 Source::Curve { curve, h } => *h + self.slope * curve.distance(p).0,
+                Source::Background(bg) => match bg.size_at(p) {
+                    Some(v) => v,
+                    None => continue,
+                },
                 Source::Corner { at, h0, radius, mu } => {
                     let r = norm(sub(p, *at));
                     if r < *radius {

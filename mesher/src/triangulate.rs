@@ -38,7 +38,7 @@ use crate::geometry::{norm, sub, Curve, Fill, Geometry, OuterBoundary, Symmetry,
 use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
-use crate::size_field::SizeField;
+use crate::size_field::{BackgroundSize, SizeField};
 use spade::handles::FixedVertexHandle;
 use spade::{AngleLimit, ConstrainedDelaunayTriangulation, Point2, RefinementParameters, Triangulation};
 use std::collections::VecDeque;
@@ -75,12 +75,28 @@ pub(crate) struct Pslg {
 /// Any [`MeshError`] from geometry validation, parameter validation, the arrangement
 /// (conductors touching) or, for inputs below the resolution limit, the triangulation.
 pub fn generate(geo: &Geometry, params: &RefineParams) -> Result<MeshOutcome, MeshError> {
+    generate_with(geo, params, None)
+}
+
+/// [`generate`] with element sizes requested on an earlier mesh (from an error estimate),
+/// combined with the geometry's own size field (the smaller size wins).
+///
+/// # Errors
+/// As [`generate`].
+pub fn generate_with(
+    geo: &Geometry,
+    params: &RefineParams,
+    background: Option<BackgroundSize>,
+) -> Result<MeshOutcome, MeshError> {
     let mut clock = Stopwatch::new();
     geo.validate()?;
     params.validate()?;
     let arr = Arrangement::build(geo)?;
     let singular = corners::find(geo, &arr, params.order)?;
-    let field = size_field(geo, &arr, &singular, params);
+    let mut field = size_field(geo, &arr, &singular, params);
+    if let Some(bg) = background {
+        field.add_background(bg);
+    }
     clock.lap("geometry");
     let pslg = discretise(&arr, &field);
     let grid = segment_grid(&pslg.points, &pslg.segments, geo.bbox());
