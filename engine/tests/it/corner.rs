@@ -74,35 +74,9 @@ fn run(order: u8, h: f64, graded: bool) -> (f64, usize) {
 
 /// Relative energy error, unknowns, and the recovery estimate's effectivity (P1 only).
 fn run_with_estimate(order: u8, h: f64, graded: bool) -> (f64, usize, f64) {
-    let geo = Geometry {
-        symmetry: Symmetry::Planar,
-        shapes: vec![
-            Shape {
-                name: "domain".into(),
-                outline: Outline::rectangle("domain", [-1.0, -1.0], [2.0, 2.0], 0.0).unwrap(),
-                fill: Fill::Dielectric { permittivity: 1.0 },
-                max_size_m: None,
-            },
-            Shape {
-                name: "corner".into(),
-                outline: Outline::rectangle("corner", [0.0, -1.0], [1.0, 1.0], 0.0).unwrap(),
-                fill: Fill::Conductor { conductor: 0 },
-                max_size_m: None,
-            },
-        ],
-        conductors: vec!["zero".into()],
-        outer: OuterBoundary::FixedPotential,
-        size_points: vec![],
-    };
     let params = RefineParams::new().with_order(order).with_max_size_m(h).with_grade_corners(graded);
-    let mesh = generate(&geo, &params).unwrap().mesh;
-    let problem = Problem {
-        permittivity: vec![1.0, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: Some(0.0),
-        outer_potential_fn: Some(exact),
-        ..Default::default()
-    };
+    let mesh = generate(&l_shape(), &params).unwrap().mesh;
+    let problem = l_problem();
     let sol = solve(&mesh, &problem).unwrap();
     let (e, u) = energy_error(&mesh, &problem, &sol, exact_gradient);
     let eff = if order == 1 { engine::estimate_error(&mesh, &problem, &sol).global / e } else { f64::NAN };
