@@ -110,7 +110,8 @@ pub struct SingularReport {
     pub conductor: Option<String>,
     /// Regions around the point.
     pub regions: Vec<String>,
-    /// On the symmetry axis (conical point; planar exponent used).
+    /// On the symmetry axis (a conical point: Legendre exponent with one dielectric, planar
+    /// approximation where several meet).
     pub on_axis: bool,
 }
 
@@ -270,7 +271,7 @@ pub fn render_text(r: &MeshReport) -> String {
                 who = format!("{c} | {who}");
             }
             if p.on_axis {
-                who.push_str(" (on axis: conical point, planar exponent)");
+                who.push_str(" (on axis: conical point)");
             }
             let _ = writeln!(
                 s,

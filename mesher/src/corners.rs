@@ -34,11 +34,13 @@
 //! - T. Takuma, "Field behavior at a triple junction in composite dielectric arrangements",
 //!   IEEE Trans. Electr. Insul. 26(3) (1991) 500–509.
 //!
+//! A corner on the symmetry axis of an axisymmetric model is a conical point: with one
+//! dielectric between the axis and a conductor surface at polar angle θ₀, V ≈ A·r^ν·P_ν(cos θ)
+//! and ν is the smallest root of P_ν(cos θ₀) = 0 ([`conical_exponent`]).
+//!
 //! # Limitations
-//! A corner on the symmetry axis of an axisymmetric model is a conical point whose exponent
-//! follows from Legendre functions, not from this planar analysis; such points are found and
-//! flagged `on_axis`, and graded with the planar exponent of the meridian section (treating
-//! the axis as a zero-flux wall), which is a documented approximation.
+//! An axis point where several dielectrics meet keeps the planar exponent of the meridian
+//! section (the axis taken as a zero-flux wall); it is flagged `on_axis`.
 
 use crate::arrangement::{Arrangement, Side};
 use crate::error::MeshError;
@@ -205,6 +207,59 @@ pub fn wedge_exponent(sectors: &[Sector], walls: Option<(Wall, Wall)>, lambda_ma
     None
 }
 
+/// Legendre function of the first kind P_ν(x) for real ν ≥ 0 and −1 < x ≤ 1, by the
+/// hypergeometric series P_ν(x) = ₂F₁(−ν, ν + 1; 1; (1 − x)/2) (Abramowitz & Stegun 1964,
+/// 8.1.2).
+pub fn legendre_p(nu: f64, x: f64) -> f64 {
+    let z = 0.5 * (1.0 - x);
+    let (mut term, mut sum) = (1.0, 1.0);
+    for k in 0..200_000 {
+        let kf = k as f64;
+        term *= (kf - nu) * (kf + nu + 1.0) / ((kf + 1.0) * (kf + 1.0)) * z;
+        sum += term;
+        if term.abs() < 1e-17 * sum.abs().max(1e-300) && kf > nu {
+            break;
+        }
+    }
+    sum
+}
+
+/// Singular exponent of a conical point on the symmetry axis: a conductor surface making
+/// the polar angle `theta0` with the axis on the field side (the field region is the cone
+/// of half-angle θ₀ around the axis). Near the point V ≈ A·r^ν·P_ν(cos θ), and the
+/// conductor condition P_ν(cos θ₀) = 0 gives ν (Jackson, Classical Electrodynamics, 3rd
+/// ed., 1999, §3.4). ν < 1 (a field singularity) when θ₀ > π/2, i.e. the conductor is a
+/// cone pointing into the field. Returns the smallest root in (0, `nu_max`].
+pub fn conical_exponent(theta0: f64, nu_max: f64) -> Option<f64> {
+    let x = theta0.cos();
+    let f = |nu: f64| legendre_p(nu, x);
+    let steps = 2000;
+    let lo = 1e-6;
+    let h = (nu_max - lo) / steps as f64;
+    let (mut a, mut fa) = (lo, f(lo));
+    for k in 1..=steps {
+        let b = lo + k as f64 * h;
+        let fb = f(b);
+        if fa.signum() != fb.signum() {
+            let (mut l, mut r, mut fl) = (a, b, fa);
+            for _ in 0..100 {
+                let m = 0.5 * (l + r);
+                let fm = f(m);
+                if fm.signum() == fl.signum() {
+                    l = m;
+                    fl = fm;
+                } else {
+                    r = m;
+                }
+            }
+            return Some(0.5 * (l + r));
+        }
+        a = b;
+        fa = fb;
+    }
+    None
+}
+
 /// Finds every point of the arrangement where the solution is singular for elements of
 /// order `order` (λ < order and not an integer).
 pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(usize, SingularPoint)>, MeshError> {
@@ -323,7 +378,18 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                     (true, true) => SingularKind::TripleJunction,
                     (false, _) => SingularKind::BoundaryCorner,
                 };
-                consider(wedge_exponent(&secs, Some((start, end)), lambda_max), opening, regions, kind);
+                // A conical point on the axis: one dielectric between the axis and a
+                // conductor follows the Legendre condition, not the planar wedge.
+                let axis_to_conductor = on_axis
+                    && !multi
+                    && ((sectors[k0].1 == Side::Outside && matches!(sectors[k1].1, Side::Conductor(_)))
+                        || (sectors[k1].1 == Side::Outside && matches!(sectors[k0].1, Side::Conductor(_))));
+                let lam = if axis_to_conductor {
+                    conical_exponent(opening, lambda_max)
+                } else {
+                    wedge_exponent(&secs, Some((start, end)), lambda_max)
+                };
+                consider(lam, opening, regions, kind);
             }
         }
         if let Some(b) = best {
@@ -373,6 +439,47 @@ mod tests {
         let s = vec![Sector { angle: a, permittivity: 3.0 }, Sector { angle: b, permittivity: 3.0 }];
         let l = wedge_exponent(&s, Some((Wall::Potential, Wall::Potential)), 2.0).unwrap();
         assert!((l - PI / (a + b)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn conical_exponent_against_an_independent_ode_solution() {
+        // θ₀ = π/2 (a flat conductor face on the axis): P₁(0) = 0, ν = 1 (Jackson §3.4).
+        assert!((conical_exponent(PI / 2.0, 2.0).unwrap() - 1.0).abs() < 1e-10);
+        // Independent check: integrate the Legendre equation
+        // Θ'' + cot θ·Θ' + ν(ν + 1)Θ = 0, Θ(0) = 1, Θ'(0) = 0 (RK4, series start near θ = 0)
+        // and bisect on ν for Θ(θ₀) = 0.
+        let theta_at = |nu: f64, t0: f64| -> f64 {
+            let c = nu * (nu + 1.0);
+            let mut t = 1e-4;
+            let (mut y, mut yp) = (1.0 - c * t * t / 4.0, -c * t / 2.0);
+            let n = 20_000;
+            let h = (t0 - t) / n as f64;
+            let f = |t: f64, y: f64, yp: f64| -> (f64, f64) { (yp, -yp / t.tan() - c * y) };
+            for _ in 0..n {
+                let (k1a, k1b) = f(t, y, yp);
+                let (k2a, k2b) = f(t + h / 2.0, y + h / 2.0 * k1a, yp + h / 2.0 * k1b);
+                let (k3a, k3b) = f(t + h / 2.0, y + h / 2.0 * k2a, yp + h / 2.0 * k2b);
+                let (k4a, k4b) = f(t + h, y + h * k3a, yp + h * k3b);
+                y += h / 6.0 * (k1a + 2.0 * k2a + 2.0 * k3a + k4a);
+                yp += h / 6.0 * (k1b + 2.0 * k2b + 2.0 * k3b + k4b);
+                t += h;
+            }
+            y
+        };
+        for t0 in [0.6 * PI, 0.75 * PI, 0.9 * PI] {
+            let nu = conical_exponent(t0, 2.0).unwrap();
+            let (mut l, mut r) = (1e-3, 1.0);
+            for _ in 0..60 {
+                let m = 0.5 * (l + r);
+                if theta_at(m, t0).signum() == theta_at(l, t0).signum() {
+                    l = m;
+                } else {
+                    r = m;
+                }
+            }
+            assert!((nu - l).abs() < 1e-5, "θ₀ = {t0}: series {nu} vs ODE {l}");
+            assert!(nu < 1.0);
+        }
     }
 
     #[test]

@@ -61,7 +61,7 @@ mod size_field;
 mod triangulate;
 mod vtu;
 
-pub use corners::{wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
+pub use corners::{conical_exponent, legendre_p, wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
 pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
 pub use grid::BucketGrid;

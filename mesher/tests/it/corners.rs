@@ -78,3 +78,26 @@ fn interior_checkerboard_junction() {
     let l = wedge_exponent(&mixed, None, 2.0).unwrap();
     assert!(l < 1.0, "{l}");
 }
+
+#[test]
+fn conical_tip_on_the_axis_uses_the_legendre_exponent() {
+    // A conical electrode of half-angle α = atan(0.2/0.4) pointing down the axis: the field
+    // sees the conductor at polar angle θ₀ = π − α from the axis below the tip, and the
+    // exponent is the root of P_ν(cos θ₀) = 0 (Jackson §3.4), not the planar π/θ-rule.
+    use mesher::{conical_exponent, Symmetry};
+    let mut geo = planar(
+        vec![
+            dielectric("air", Outline::rectangle("air", [0.0, 0.0], [1.0, 1.0], 0.0).unwrap(), 1.0),
+            conductor("tip", Outline::polygon("tip", &[[0.0, 0.4], [0.2, 0.8], [0.0, 0.8]]).unwrap(), 0),
+        ],
+        &["hv"],
+    );
+    geo.symmetry = Symmetry::Axisymmetric;
+    let m = generate(&geo, &RefineParams::new().with_order(1).with_max_size_m(0.1)).unwrap().mesh;
+    let s = m.singular_points.iter().find(|s| s.at == [0.0, 0.4]).expect("the tip is singular");
+    assert!(s.on_axis);
+    let theta0 = PI - (0.2f64 / 0.4).atan();
+    let want = conical_exponent(theta0, 2.0).unwrap();
+    assert!((s.lambda - want).abs() < 1e-9, "{} vs {want}", s.lambda);
+    assert!(s.lambda < 1.0 && s.lambda > 0.0);
+}
