@@ -66,6 +66,7 @@ mod fields;
 mod ordering;
 mod probe;
 mod problem;
+mod singular;
 mod solve;
 pub mod space;
 
@@ -76,6 +77,7 @@ pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
+pub use singular::{singular_coefficient, SingularFit};
 pub use solve::{
     capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,
     ReducedSystem, Solution, SolveTimings, EPSILON_0,

@@ -176,6 +176,15 @@ impl TriangleGrid {
     }
 }
 
+/// V at each point (None outside the mesh).
+pub(crate) fn sample_potential(mesh: &Mesh, solution: &Solution, points: &[Xy]) -> Vec<Option<f64>> {
+    let grid = TriangleGrid::new(mesh);
+    points
+        .iter()
+        .map(|&p| grid.locate(mesh, p).map(|(t, xi, eta)| evaluate(mesh, &solution.potential, t, xi, eta).0))
+        .collect()
+}
+
 /// Samples V and E at `samples` points equally spaced along the polyline `path`
 /// (at least two points).
 ///

@@ -107,6 +107,9 @@ pub struct SingularPoint {
     pub conductor: Option<u32>,
     /// On the axis of an axisymmetric model (a conical point; see the module docs).
     pub on_axis: bool,
+    /// Polar angle (radians, about `at`) of the wall where the dielectric run begins,
+    /// counter-clockwise; the run spans `opening` from there.
+    pub start_angle: f64,
 }
 
 impl SingularPoint {
@@ -322,7 +325,7 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
             }
         };
         let mut best: Option<SingularPoint> = None;
-        let mut consider = |lam: Option<f64>, opening: f64, regions: Vec<u32>, kind: SingularKind| {
+        let mut consider = |lam: Option<f64>, opening: f64, regions: Vec<u32>, kind: SingularKind, start_angle: f64| {
             if let Some(l) = lam {
                 let near_int = (l - l.round()).abs() <= LAMBDA_TOL;
                 if l < lambda_max - LAMBDA_TOL && !near_int && best.as_ref().is_none_or(|b| l < b.lambda) {
@@ -334,6 +337,7 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                         regions,
                         conductor: conductors.first().copied(),
                         on_axis,
+                        start_angle,
                     });
                 }
             }
@@ -347,7 +351,13 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
             if distinct {
                 let regions =
                     sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
-                consider(wedge_exponent(&secs, None, lambda_max), TAU, regions, SingularKind::DielectricCorner);
+                consider(
+                    wedge_exponent(&secs, None, lambda_max),
+                    TAU,
+                    regions,
+                    SingularKind::DielectricCorner,
+                    dirs[0].0,
+                );
             }
         } else {
             // Runs of dielectric sectors between consecutive walls.
@@ -389,7 +399,7 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                 } else {
                     wedge_exponent(&secs, Some((start, end)), lambda_max)
                 };
-                consider(lam, opening, regions, kind);
+                consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0);
             }
         }
         if let Some(b) = best {

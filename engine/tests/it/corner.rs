@@ -152,3 +152,68 @@ fn adaptive_p1_restores_the_optimal_rate() {
     eprintln!("adaptive P1 slope {k:.3}");
     assert!((k + 0.5).abs() <= 0.05, "slope {k}");
 }
+
+fn sector_3_2(p: [f64; 2]) -> f64 {
+    let (r, t) = (p[0].hypot(p[1]), theta(p));
+    1.5 * r.powf(2.0 / 3.0) * (2.0 * t / 3.0).sin()
+}
+
+fn sector_7_4(p: [f64; 2]) -> f64 {
+    let (r, t) = (p[0].hypot(p[1]), theta(p));
+    1.5 * r.powf(4.0 / 7.0) * (4.0 * t / 7.0).sin()
+}
+
+#[test]
+fn singular_coefficient_on_circular_sectors() {
+    // Circular sectors of opening θ₀ = 3π/2 and 7π/4 (unit radius) with the exact data
+    // V = A·r^(π/θ₀)·sin(πθ/θ₀), A = 1.5, on the arc and 0 V on the two straight sides
+    // (Jackson §2.11): the ring fit recovers A within 2 % and the exponent within 1 %.
+    use mesher::Curve;
+    for (theta0, data) in
+        [(1.5 * PI, sector_3_2 as fn([f64; 2]) -> f64), (1.75 * PI, sector_7_4 as fn([f64; 2]) -> f64)]
+    {
+        let end = [(theta0).cos(), (theta0).sin()];
+        let wedge = Outline::new(
+            "wall",
+            vec![
+                Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
+                Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
+                Curve::Line { from: end, to: [0.0, 0.0] },
+            ],
+        )
+        .unwrap();
+        let geo = Geometry {
+            symmetry: Symmetry::Planar,
+            shapes: vec![
+                Shape {
+                    name: "sector".into(),
+                    outline: Outline::circle("sector", [0.0, 0.0], 1.0).unwrap(),
+                    fill: Fill::Dielectric { permittivity: 1.0 },
+                    max_size_m: None,
+                },
+                Shape { name: "wall".into(), outline: wedge, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+            ],
+            conductors: vec!["zero".into()],
+            outer: OuterBoundary::FixedPotential,
+            size_points: vec![],
+        };
+        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;
+        let problem = Problem {
+            permittivity: vec![1.0, f64::NAN],
+            conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
+            outer_potential_v: Some(0.0),
+            outer_potential_fn: Some(data),
+            ..Default::default()
+        };
+        let sol = solve(&mesh, &problem).unwrap();
+        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the corner");
+        assert!((sp.lambda - PI / theta0).abs() < 1e-9);
+        let fit = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit");
+        eprintln!(
+            "θ₀ = {theta0:.4}: A = {:.5}, exponent {:.5} (λ = {:.5}), {} samples",
+            fit.coefficient, fit.exponent_fit, sp.lambda, fit.samples
+        );
+        assert!((fit.coefficient - 1.5).abs() < 0.02 * 1.5, "A = {}", fit.coefficient);
+        assert!((fit.exponent_fit - sp.lambda).abs() < 0.01 * sp.lambda, "exponent {}", fit.exponent_fit);
+    }
+}
