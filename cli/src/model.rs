@@ -869,3 +869,66 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     model.geometry.validate().map_err(|e| model.mesh_error(&e))?;
     Ok(model)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    const FIXTURES: [&str; 5] = [
+        include_str!("../../fixtures/models/l-electrode.toml"),
+        include_str!("../../fixtures/models/busbar-support.toml"),
+        include_str!("../../fixtures/models/gis-spacer.toml"),
+        include_str!("../../fixtures/models/bushing.toml"),
+        include_str!("../../fixtures/models/grading-ring.toml"),
+    ];
+
+    #[test]
+    fn every_demo_model_parses() {
+        for text in FIXTURES {
+            parse(Path::new("demo.toml"), text).unwrap();
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+        /// Mutated demo models (characters deleted, replaced or inserted, numbers flipped
+        /// in sign or scale) never panic the parser: each is a model or a located error.
+        #[test]
+        fn mutated_models_never_panic(
+            which in 0usize..5,
+            edits in prop::collection::vec((0.0f64..1.0, 0u8..4, prop::sample::select(vec!['0', '-', '.', '"', '[', ']', '=', 'e', '\n', ',', '9', 'x'])), 1..6),
+        ) {
+            let mut text: Vec<char> = FIXTURES[which].chars().collect();
+            for (pos, op, ch) in edits {
+                if text.is_empty() {
+                    break;
+                }
+                let i = ((pos * text.len() as f64) as usize).min(text.len() - 1);
+                match op {
+                    0 => {
+                        text.remove(i);
+                    }
+                    1 => text[i] = ch,
+                    2 => text.insert(i, ch),
+                    _ => {
+                        // Negate or blow up the number under the cursor, if any.
+                        if text[i].is_ascii_digit() {
+                            text.insert(i, if ch == '-' { '-' } else { '9' });
+                        }
+                    }
+                }
+            }
+            let s: String = text.into_iter().collect();
+            match parse(Path::new("mutated.toml"), &s) {
+                Ok(_) => {}
+                Err(e) => {
+                    // The message names the file; rendering it must not panic either.
+                    let msg = e.to_string();
+                    prop_assert!(msg.contains("mutated.toml"), "{msg}");
+                }
+            }
+        }
+    }
+}
