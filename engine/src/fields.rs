@@ -46,13 +46,27 @@ pub struct ElementFields {
     pub region_peaks: Vec<RegionPeak>,
 }
 
-/// E = −∇V at reference point (ξ, η) of triangle `t`, and the physical point.
-fn field_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> ([f64; 2], Xy) {
-    fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], v: &[f64; N], xi: f64, eta: f64) -> ([f64; 2], Xy) {
+/// The solution at one reference point of one element.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct PointValue {
+    /// Potential, V.
+    pub v: f64,
+    /// E = −∇V, V/m.
+    pub e: [f64; 2],
+    /// Physical position, metres.
+    pub at: Xy,
+    /// Jacobian determinant of the isoparametric map there.
+    pub det: f64,
+}
+
+/// V, E, position and Jacobian at reference point (ξ, η) of triangle `t` (isoparametric
+/// for P2) — the one evaluator behind fields, probes, the estimator and energy errors.
+pub(crate) fn eval_point(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> PointValue {
+    fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], u: &[f64; N], xi: f64, eta: f64) -> PointValue {
         let g = E::gradients(xi, eta);
         let s = E::values(xi, eta);
         let mut j = [[0.0; 2]; 2];
-        let mut p = [0.0; 2];
+        let (mut v, mut gr, mut p) = (0.0, [0.0; 2], [0.0; 2]);
         for k in 0..N {
             j[0][0] += x[k][0] * g[k][0];
             j[0][1] += x[k][0] * g[k][1];
@@ -60,23 +74,19 @@ fn field_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> ([f6
             j[1][1] += x[k][1] * g[k][1];
             p[0] += x[k][0] * s[k];
             p[1] += x[k][1] * s[k];
+            v += u[k] * s[k];
+            gr[0] += u[k] * g[k][0];
+            gr[1] += u[k] * g[k][1];
         }
         let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
-        // Reference gradient of V, then ∇V = J⁻ᵀ ∇̂V.
-        let mut gr = [0.0; 2];
-        for k in 0..N {
-            gr[0] += v[k] * g[k][0];
-            gr[1] += v[k] * g[k][1];
-        }
+        // ∇V = J⁻ᵀ ∇̂V.
         let gx = (j[1][1] * gr[0] - j[1][0] * gr[1]) / det;
         let gy = (-j[0][1] * gr[0] + j[0][0] * gr[1]) / det;
-        ([-gx, -gy], p)
+        PointValue { v, e: [-gx, -gy], at: p, det }
     }
     let tri = mesh.triangles[t];
     if mesh.mid_nodes.is_empty() {
-        let x = tri.map(|i| mesh.nodes[i as usize]);
-        let v = tri.map(|i| potential[i as usize]);
-        eval::<3, P1>(&x, &v, xi, eta)
+        eval::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), &tri.map(|i| potential[i as usize]), xi, eta)
     } else {
         let m = mesh.mid_nodes[t];
         let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
@@ -86,7 +96,7 @@ fn field_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> ([f6
 
 /// ∇V at reference point (ξ, η) of triangle `t`.
 pub(crate) fn gradient_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> [f64; 2] {
-    let (e, _) = field_at(mesh, potential, t, xi, eta);
+    let e = eval_point(mesh, potential, t, xi, eta).e;
     [-e[0], -e[1]]
 }
 
@@ -109,13 +119,12 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     // interface).
     let mut at_vertex: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * nt);
     for t in 0..nt {
-        let (ec, pc) = field_at(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0);
+        let ec = eval_point(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0).e;
         centroid.push(ec);
         let mut best = ec[0].hypot(ec[1]);
-        let _ = pc;
         let area = mesh.triangle_area(t).abs();
         for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
-            let (e, _) = field_at(mesh, &solution.potential, t, xi, eta);
+            let e = eval_point(mesh, &solution.potential, t, xi, eta).e;
             best = best.max(e[0].hypot(e[1]));
             at_vertex.push((mesh.triangles[t][k], mesh.regions[t], [e[0] * area, e[1] * area], area));
         }
@@ -194,8 +203,7 @@ pub fn energy_error(
     for t in 0..mesh.triangles.len() {
         let eps = crate::solve::EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
         for &(xi, eta, w) in &crate::space::QUAD_DEG4 {
-            let (e, p) = field_at(mesh, &solution.potential, t, xi, eta);
-            let det = jacobian_det(mesh, t, xi, eta);
+            let PointValue { e, at: p, det, .. } = eval_point(mesh, &solution.potential, t, xi, eta);
             let mut weight = w * det.abs() * eps;
             if axisym {
                 weight *= 2.0 * std::f64::consts::PI * p[0];
@@ -208,25 +216,4 @@ pub fn energy_error(
         }
     }
     (err.sqrt(), norm.sqrt())
-}
-
-fn jacobian_det(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> f64 {
-    fn det<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> f64 {
-        let g = E::gradients(xi, eta);
-        let mut j = [[0.0; 2]; 2];
-        for k in 0..N {
-            j[0][0] += x[k][0] * g[k][0];
-            j[0][1] += x[k][0] * g[k][1];
-            j[1][0] += x[k][1] * g[k][0];
-            j[1][1] += x[k][1] * g[k][1];
-        }
-        j[0][0] * j[1][1] - j[0][1] * j[1][0]
-    }
-    let tri = mesh.triangles[t];
-    if mesh.mid_nodes.is_empty() {
-        det::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta)
-    } else {
-        let m = mesh.mid_nodes[t];
-        det::<6, P2>(&[tri[0], tri[1], tri[2], m[0], m[1], m[2]].map(|i| mesh.nodes[i as usize]), xi, eta)
-    }
 }

@@ -13,8 +13,9 @@
 //! chain). Across a charge-free dielectric interface Eₜ is continuous and εEₙ is
 //! continuous; the tool reports both sides as computed, without averaging.
 
+use crate::fields::eval_point;
 use crate::solve::Solution;
-use crate::space::{Element, P1, P2};
+use crate::space::{Element, P2};
 use mesher::{BucketGrid, EdgeTag, Mesh, Xy};
 
 /// One sample along a polyline.
@@ -110,33 +111,8 @@ fn locate_in(mesh: &Mesh, t: usize, p: Xy) -> Option<(f64, f64)> {
 
 /// V and E at reference point (ξ, η) of triangle `t`.
 fn evaluate(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> (f64, [f64; 2]) {
-    fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], u: &[f64; N], xi: f64, eta: f64) -> (f64, [f64; 2]) {
-        let g = E::gradients(xi, eta);
-        let s = E::values(xi, eta);
-        let mut j = [[0.0; 2]; 2];
-        let (mut v, mut gr) = (0.0, [0.0; 2]);
-        for k in 0..N {
-            j[0][0] += x[k][0] * g[k][0];
-            j[0][1] += x[k][0] * g[k][1];
-            j[1][0] += x[k][1] * g[k][0];
-            j[1][1] += x[k][1] * g[k][1];
-            v += u[k] * s[k];
-            gr[0] += u[k] * g[k][0];
-            gr[1] += u[k] * g[k][1];
-        }
-        let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
-        let gx = (j[1][1] * gr[0] - j[1][0] * gr[1]) / det;
-        let gy = (-j[0][1] * gr[0] + j[0][0] * gr[1]) / det;
-        (v, [-gx, -gy])
-    }
-    let tri = mesh.triangles[t];
-    if mesh.mid_nodes.is_empty() {
-        eval::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), &tri.map(|i| potential[i as usize]), xi, eta)
-    } else {
-        let m = mesh.mid_nodes[t];
-        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
-        eval::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), &ids.map(|i| potential[i as usize]), xi, eta)
-    }
+    let p = eval_point(mesh, potential, t, xi, eta);
+    (p.v, p.e)
 }
 
 /// Point location over the triangles' bounding boxes (padded for curved P2 edges).
