@@ -121,17 +121,8 @@ impl Arrangement {
                 }
             }
         }
-        // Use the merged vertex coordinates as the exact piece ends.
         let delta = 1e-7 * scale;
-        let side_of = |p: Xy| -> Side {
-            match geo.paint_at(p) {
-                None => Side::Outside,
-                Some(k) => match geo.shapes[k].fill {
-                    Fill::Dielectric { .. } => Side::Region(k as u32),
-                    Fill::Conductor { conductor } => Side::Conductor(conductor),
-                },
-            }
-        };
+        let side_of = |p: Xy| side_at(geo, p);
         for pc in pieces.iter_mut() {
             let m = pc.curve.point_at(0.5);
             let t = pc.curve.tangent_at(0.5);
@@ -153,6 +144,17 @@ impl Arrangement {
             }
         }
         Ok(Arrangement { vertices: used, pieces })
+    }
+}
+
+/// What fills the point `p`: the paint-order lookup turned into a [`Side`].
+pub(crate) fn side_at(geo: &Geometry, p: Xy) -> Side {
+    match geo.paint_at(p) {
+        None => Side::Outside,
+        Some(k) => match geo.shapes[k].fill {
+            Fill::Dielectric { .. } => Side::Region(k as u32),
+            Fill::Conductor { conductor } => Side::Conductor(conductor),
+        },
     }
 }
 

@@ -117,8 +117,8 @@ pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -
         r = r_next;
         h = h_next;
     }
+    // The centre stands for infinity.
     pts.push(if axisym { [0.0, center[1]] } else { center });
-    let infinity_local = pts.len() - 1;
     let dt =
         DelaunayTriangulation::<Point2<f64>>::bulk_load_stable(pts.iter().map(|p| Point2::new(p[0], p[1])).collect())
             .map_err(|e| MeshError::Triangulation { detail: format!("open-boundary disc: {e:?}") })?;
@@ -184,6 +184,6 @@ pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -
     mesh.regions.extend(std::iter::repeat_n(region, new_tris.len()));
     mesh.triangles.extend(new_tris);
     mesh.shape_names.push("open-space exterior".into());
-    mesh.exterior = Some(Exterior { region, center, radius, infinity_node: id(infinity_local) });
+    mesh.exterior = Some(Exterior { region, center, radius });
     Ok(())
 }

@@ -640,7 +640,7 @@ impl Geometry {
             if let Some(at) = self_intersection(&pts, tol) {
                 return Err(MeshError::SelfIntersecting { shape: s.name.clone(), at });
             }
-            if s.outline.signed_area().abs() <= 1e-12 * diag * diag || diag <= tol {
+            if s.outline.signed_area().abs() <= 1e-12 * diag * diag {
                 return Err(MeshError::ZeroArea { shape: s.name.clone() });
             }
             if i > 0 {

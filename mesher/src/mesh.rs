@@ -55,8 +55,6 @@ pub struct Exterior {
     pub center: Xy,
     /// Radius of the inversion circle, metres.
     pub radius: f64,
-    /// The node at the centre, which stands for infinity.
-    pub infinity_node: u32,
 }
 
 /// A triangular mesh of the dielectric regions of a cross-section.

@@ -31,10 +31,10 @@
 //! O(N log N) for N triangles: the quadtree and the bulk load dominate; refinement only
 //! repairs the transitions between quadtree levels and near the boundary.
 
-use crate::arrangement::{Arrangement, Side};
+use crate::arrangement::{side_at, Arrangement, Side};
 use crate::corners::{self, SingularPoint};
 use crate::error::MeshError;
-use crate::geometry::{norm, sub, Curve, Fill, Geometry, OuterBoundary, Symmetry, Xy};
+use crate::geometry::{norm, sub, Curve, Geometry, OuterBoundary, Symmetry, Xy};
 use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
@@ -401,16 +401,6 @@ fn triangulate(
     Ok((cdt, result.refinement_complete && n_in <= params.max_nodes))
 }
 
-fn side_of(geo: &Geometry, p: Xy) -> Side {
-    match geo.paint_at(p) {
-        None => Side::Outside,
-        Some(k) => match geo.shapes[k].fill {
-            Fill::Dielectric { .. } => Side::Region(k as u32),
-            Fill::Conductor { conductor } => Side::Conductor(conductor),
-        },
-    }
-}
-
 fn extract(
     geo: &Geometry,
     arr: &Arrangement,
@@ -461,7 +451,7 @@ fn extract(
                 }
             }
         }
-        let side = if touches_outer { Side::Outside } else { side_of(geo, best.1) };
+        let side = if touches_outer { Side::Outside } else { side_at(geo, best.1) };
         for &m in &members {
             label[m] = Some(side);
         }
