@@ -16,7 +16,7 @@
 //!   practical engineering analysis", Int. J. Numer. Methods Eng. 24 (1987) 337–357,
 //!   doi:10.1002/nme.1620240206.
 
-use crate::fields::gradient_at;
+use crate::fields::{gradient_at, region_vertex_means};
 use crate::problem::Problem;
 use crate::solve::{Solution, EPSILON_0};
 use crate::space::{Element, P1, QUAD_DEG4};
@@ -52,32 +52,20 @@ pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> Er
     let nt = mesh.triangles.len();
     let grad: Vec<[f64; 2]> =
         (0..nt).map(|t| gradient_at(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0)).collect();
-    // Region-wise vertex averages: (vertex, region) → (Σ area·∇V, Σ area).
+    // Region-wise vertex averages of the element gradients, weighted by area.
     let mut entries: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * nt);
     for (t, tri) in mesh.triangles.iter().enumerate() {
         let a = mesh.triangle_area(t).abs();
         for &v in tri {
-            entries.push((v, mesh.regions[t], [a * grad[t][0], a * grad[t][1]], a));
+            entries.push((v, mesh.regions[t], grad[t], a));
         }
     }
-    entries.sort_unstable_by_key(|e| (e.0, e.1));
-    let mut recovered: Vec<(u32, u32, [f64; 2])> = Vec::new();
-    let mut i = 0;
-    while i < entries.len() {
-        let (v, r) = (entries[i].0, entries[i].1);
-        let (mut s, mut w) = ([0.0; 2], 0.0);
-        while i < entries.len() && entries[i].0 == v && entries[i].1 == r {
-            s[0] += entries[i].2[0];
-            s[1] += entries[i].2[1];
-            w += entries[i].3;
-            i += 1;
-        }
-        recovered.push((v, r, [s[0] / w, s[1] / w]));
-    }
+    let recovered = region_vertex_means(entries);
     let lookup = |v: u32, r: u32| -> [f64; 2] {
-        let k =
-            recovered.binary_search_by_key(&(v, r), |e| (e.0, e.1)).expect("every vertex of the region was averaged");
-        recovered[k].2
+        let k = recovered
+            .binary_search_by_key(&(v, r), |g| (g.node, g.region))
+            .expect("every vertex of the region was averaged");
+        recovered[k].mean
     };
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let mut indicators = Vec::with_capacity(nt);

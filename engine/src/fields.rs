@@ -94,6 +94,45 @@ pub(crate) fn eval_point(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta:
     }
 }
 
+/// The weighted mean of vector values at one vertex over the elements of one region.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct VertexMean {
+    pub node: u32,
+    pub region: u32,
+    /// Weighted mean of the values.
+    pub mean: [f64; 2],
+    /// Largest single (one-sided) value's norm.
+    pub max_norm: f64,
+}
+
+/// Groups (vertex, region, value, weight) entries by vertex and region and returns the
+/// weighted means, sorted by (vertex, region): the region-wise averaging used for field
+/// peaks and for gradient recovery (values are never mixed across an interface). Groups
+/// of zero total weight are left out.
+pub(crate) fn region_vertex_means(mut entries: Vec<(u32, u32, [f64; 2], f64)>) -> Vec<VertexMean> {
+    entries.sort_unstable_by_key(|e| (e.0, e.1));
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i < entries.len() {
+        let (node, region) = (entries[i].0, entries[i].1);
+        let (mut sum, mut w, mut max_norm) = ([0.0; 2], 0.0, 0.0f64);
+        while i < entries.len() && entries[i].0 == node && entries[i].1 == region {
+            let (v, a) = (entries[i].2, entries[i].3);
+            sum[0] += a * v[0];
+            sum[1] += a * v[1];
+            w += a;
+            if a > 0.0 {
+                max_norm = max_norm.max(v[0].hypot(v[1]));
+            }
+            i += 1;
+        }
+        if w > 0.0 {
+            out.push(VertexMean { node, region, mean: [sum[0] / w, sum[1] / w], max_norm });
+        }
+    }
+    out
+}
+
 /// ∇V at reference point (ξ, η) of triangle `t`.
 pub(crate) fn gradient_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> [f64; 2] {
     let e = eval_point(mesh, potential, t, xi, eta).e;
@@ -126,11 +165,10 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
         for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
             let e = eval_point(mesh, &solution.potential, t, xi, eta).e;
             best = best.max(e[0].hypot(e[1]));
-            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], [e[0] * area, e[1] * area], area));
+            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], e, area));
         }
         max_magnitude.push(best);
     }
-    at_vertex.sort_unstable_by_key(|e| (e.0, e.1));
     // At a point where the field is singular the average would hide the (mesh-dependent,
     // unbounded) peak: there the largest one-sided value is kept instead.
     let scale = mesh.scale();
@@ -140,28 +178,16 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
             .iter()
             .any(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= 1e-9 * scale)
     };
-    let mut i = 0;
-    while i < at_vertex.len() {
-        let (node, region) = (at_vertex[i].0, at_vertex[i].1);
-        let (mut sum, mut w, mut one_sided) = ([0.0; 2], 0.0, 0.0f64);
-        while i < at_vertex.len() && at_vertex[i].0 == node && at_vertex[i].1 == region {
-            sum[0] += at_vertex[i].2[0];
-            sum[1] += at_vertex[i].2[1];
-            w += at_vertex[i].3;
-            let a = at_vertex[i].3;
-            if a > 0.0 {
-                one_sided = one_sided.max((at_vertex[i].2[0] / a).hypot(at_vertex[i].2[1] / a));
-            }
-            i += 1;
-        }
-        let r = region as usize;
+    for g in region_vertex_means(at_vertex) {
+        let r = g.region as usize;
         // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
-        if mesh.exterior.is_some_and(|e| e.region as usize == r) || w <= 0.0 {
+        if mesh.exterior.is_some_and(|e| e.region as usize == r) {
             continue;
         }
-        let m = if singular_node(node) { one_sided } else { (sum[0] / w).hypot(sum[1] / w) };
+        let m = if singular_node(g.node) { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
         if peaks[r].as_ref().is_none_or(|p| m > p.e_max_v_per_m) {
-            peaks[r] = Some(RegionPeak { region, e_max_v_per_m: m, at: mesh.nodes[node as usize], node });
+            peaks[r] =
+                Some(RegionPeak { region: g.region, e_max_v_per_m: m, at: mesh.nodes[g.node as usize], node: g.node });
         }
     }
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
