@@ -191,26 +191,25 @@ fn interface_probe_gives_both_normal_fields() {
 
 /// Plates at y = 0.01 (bottom, V₀) and y = 0.05 (top, V₁) with one dielectric between,
 /// rotated by `angle` about the origin; side walls are zero-flux.
-fn rotated_plates(angle: f64, eps: f64, order: u8) -> (mesher::Mesh, Vec<mesher::Shape>) {
+fn rotated_plates(angle: f64, eps: f64, order: u8) -> mesher::Mesh {
     use mesher::{generate, Geometry, OuterBoundary};
     let (c, s) = (angle.cos(), angle.sin());
     let rot = |p: [f64; 2]| [c * p[0] - s * p[1], s * p[0] + c * p[1]];
     let rect = |n: &str, y0: f64, y1: f64| {
         Outline::polygon(n, &[[-0.03, y0], [0.03, y0], [0.03, y1], [-0.03, y1]].map(rot)).unwrap()
     };
-    let shapes = vec![
-        shape("gap", rect("gap", 0.0, 0.06), diel(eps)),
-        shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
-        shape("top", rect("top", 0.05, 0.06), cond(1)),
-    ];
     let geo = Geometry {
         symmetry: Symmetry::Planar,
-        shapes: shapes.clone(),
+        shapes: vec![
+            shape("gap", rect("gap", 0.0, 0.06), diel(eps)),
+            shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
+            shape("top", rect("top", 0.05, 0.06), cond(1)),
+        ],
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
     };
-    (generate(&geo, &mesher::RefineParams::new().with_order(order).with_max_size_m(0.007)).unwrap().mesh, shapes)
+    generate(&geo, &mesher::RefineParams::new().with_order(order).with_max_size_m(0.007)).unwrap().mesh
 }
 
 #[test]
@@ -225,7 +224,7 @@ fn anisotropic_permittivity_is_rotation_invariant() {
             let (exx, eyy) = (7.0, 2.0);
             let t =
                 [[c * c * exx + s * s * eyy, c * s * (exx - eyy)], [c * s * (exx - eyy), s * s * exx + c * c * eyy]];
-            let (mesh, _) = rotated_plates(angle, 3.0, order);
+            let mesh = rotated_plates(angle, 3.0, order);
             let problem = engine::Problem {
                 permittivity: vec![3.0, f64::NAN, f64::NAN],
                 tensor: vec![Some(t), None, None],
@@ -246,19 +245,44 @@ fn anisotropic_permittivity_is_rotation_invariant() {
     }
 }
 
+/// Uniform space charge ρ = 1e-4 C/m³ (εᵣ = 2) between plates at y₀ = 0.01 (100 V) and
+/// y₁ = 0.05 (0 V) on the given mesh; `space` is the charged volume (per metre in planar
+/// models). Checks V(y) = V₀(y₁ − y)/d + ρ/(2ε)·(y − y₀)(y₁ − y) at every node and Gauss's
+/// law (induced charges + space charge = 0).
+fn check_space_charge_parabola(mesh: &mesher::Mesh, space_volume: f64) {
+    let (rho, er) = (1e-4, 2.0);
+    let eps = EPSILON_0 * er;
+    let problem = engine::Problem {
+        permittivity: vec![er, f64::NAN, f64::NAN],
+        charge_density: vec![rho, 0.0, 0.0],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 100.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: None,
+        ..Default::default()
+    };
+    let sol = engine::solve(mesh, &problem).unwrap();
+    let (y0, y1) = (0.01, 0.05);
+    for (i, p) in mesh.nodes.iter().enumerate() {
+        let y = p[1];
+        let want = 100.0 * (y1 - y) / (y1 - y0) + rho / (2.0 * eps) * (y - y0) * (y1 - y);
+        // Round-off of the solve relative to the largest potential (~1.1 kV).
+        assert!((sol.potential[i] - want).abs() < 1e-8 * 1e3, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
+    }
+    let space = rho * space_volume;
+    let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
+    assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
+}
+
 #[test]
 fn axisymmetric_space_charge_parabola_with_p2() {
     // The same 1-D Poisson solution along z between two discs (zero-flux cylinder wall and
     // axis): V(z) is quadratic, so P2 reproduces it exactly in the axisymmetric weak form
     // too, and Gauss's law balances the charges (any electrostatics text).
     use mesher::{generate, Geometry, OuterBoundary, RefineParams};
-    let (rho, er) = (1e-4, 2.0);
-    let eps = EPSILON_0 * er;
     let rect = |n: &str, z0: f64, z1: f64| Outline::rectangle(n, [0.0, z0], [0.03, z1 - z0], 0.0).unwrap();
     let geo = Geometry {
         symmetry: Symmetry::Axisymmetric,
         shapes: vec![
-            shape("gap", rect("gap", 0.0, 0.06), diel(er)),
+            shape("gap", rect("gap", 0.0, 0.06), diel(2.0)),
             shape("bottom", rect("bottom", 0.0, 0.01), cond(0)),
             shape("top", rect("top", 0.05, 0.06), cond(1)),
         ],
@@ -267,52 +291,15 @@ fn axisymmetric_space_charge_parabola_with_p2() {
         size_points: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.006)).unwrap().mesh;
-    let problem = engine::Problem {
-        permittivity: vec![er, f64::NAN, f64::NAN],
-        charge_density: vec![rho, 0.0, 0.0],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 100.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: None,
-        ..Default::default()
-    };
-    let sol = engine::solve(&mesh, &problem).unwrap();
-    let (z0, z1) = (0.01, 0.05);
-    for (i, p) in mesh.nodes.iter().enumerate() {
-        let z = p[1];
-        let want = 100.0 * (z1 - z) / (z1 - z0) + rho / (2.0 * eps) * (z - z0) * (z1 - z);
-        assert!((sol.potential[i] - want).abs() < 1e-8 * 1e3, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
-    }
-    let space = rho * std::f64::consts::PI * 0.03 * 0.03 * 0.04;
-    let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
-    assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
+    check_space_charge_parabola(&mesh, std::f64::consts::PI * 0.03 * 0.03 * 0.04);
 }
 
 #[test]
 fn uniform_space_charge_gives_the_exact_parabola_with_p2() {
-    // −ε V″ = ρ between plates at y₀ = 0.01 (V₀ = 100 V) and y₁ = 0.05 (0 V):
-    // V(y) = V₀(y₁ − y)/d + ρ/(2ε)·(y − y₀)(y₁ − y) — a quadratic, reproduced exactly by P2
-    // (Poisson's equation in one dimension; any electrostatics text). Gauss: the induced
-    // charges on the plates and the space charge sum to zero.
-    let (rho, er) = (1e-4, 2.0);
-    let eps = EPSILON_0 * er;
-    let (mesh, _) = rotated_plates(0.0, er, 2);
-    let problem = engine::Problem {
-        permittivity: vec![er, f64::NAN, f64::NAN],
-        charge_density: vec![rho, 0.0, 0.0],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 100.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: None,
-        ..Default::default()
-    };
-    let sol = engine::solve(&mesh, &problem).unwrap();
-    let (y0, y1) = (0.01, 0.05);
-    for (i, p) in mesh.nodes.iter().enumerate() {
-        let y = p[1];
-        let want = 100.0 * (y1 - y) / (y1 - y0) + rho / (2.0 * eps) * (y - y0) * (y1 - y);
-        // Round-off of the solve relative to the largest potential (~1.1 kV).
-        assert!((sol.potential[i] - want).abs() < 1e-8 * 1e3, "node {i} at {p:?}: {} vs {want}", sol.potential[i]);
-    }
-    let space = rho * 0.06 * 0.04;
-    let total = sol.conductor_charges[0] + sol.conductor_charges[1] + space;
-    assert!(total.abs() < 1e-9 * space, "charges {:?} + space {space:e}", sol.conductor_charges);
+    // −ε V″ = ρ between plates: the potential is a quadratic, reproduced exactly by P2
+    // (Poisson's equation in one dimension; any electrostatics text).
+    let mesh = rotated_plates(0.0, 2.0, 2);
+    check_space_charge_parabola(&mesh, 0.06 * 0.04);
 }
 
 #[test]
