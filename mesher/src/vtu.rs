@@ -93,63 +93,30 @@ pub fn write_vtu(mesh: &Mesh, nodes: &[NodeArray<'_>], cells: &[CellArray<'_>], 
         }
     }
     writeln!(w, "</DataArray>")?;
-    writeln!(w, r#"<DataArray type="Int64" Name="offsets" format="ascii">"#)?;
     let (tn, en) = if p2 { (6, 3) } else { (3, 2) };
-    let mut off = 0u64;
-    for _ in 0..nt {
-        off += tn;
-        writeln!(w, "{off}")?;
-    }
-    for _ in 0..ne {
-        off += en;
-        writeln!(w, "{off}")?;
-    }
-    writeln!(w, "</DataArray>")?;
-    writeln!(w, r#"<DataArray type="UInt8" Name="types" format="ascii">"#)?;
+    let tri_end = nt as i64 * tn;
+    let offsets = (1..=nt as i64).map(|k| k * tn).chain((1..=ne as i64).map(|k| tri_end + k * en));
+    write_int_array(w, "Int64", "offsets", offsets)?;
     let (tt, et) = if p2 { (22, 21) } else { (5, 3) };
-    for _ in 0..nt {
-        writeln!(w, "{tt}")?;
-    }
-    for _ in 0..ne {
-        writeln!(w, "{et}")?;
-    }
-    writeln!(w, "</DataArray>\n</Cells>")?;
+    let types = std::iter::repeat_n(tt, nt).chain(std::iter::repeat_n(et, ne));
+    write_int_array(w, "UInt8", "types", types)?;
+    writeln!(w, "</Cells>")?;
     writeln!(w, "<CellData>")?;
-    writeln!(w, r#"<DataArray type="Int32" Name="region" format="ascii">"#)?;
-    for r in &mesh.regions {
-        writeln!(w, "{r}")?;
-    }
-    for _ in 0..ne {
-        writeln!(w, "-1")?;
-    }
-    writeln!(w, "</DataArray>")?;
-    writeln!(w, r#"<DataArray type="Int32" Name="edge_kind" format="ascii">"#)?;
-    for _ in 0..nt {
-        writeln!(w, "0")?;
-    }
-    for e in &mesh.edges {
-        let k = match e.tag {
-            EdgeTag::Outer => 1,
-            EdgeTag::Axis => 2,
-            EdgeTag::Conductor(_) => 3,
-            EdgeTag::Interface(..) => 4,
-        };
-        writeln!(w, "{k}")?;
-    }
-    writeln!(w, "</DataArray>")?;
-    writeln!(w, r#"<DataArray type="Int32" Name="edge_ref" format="ascii">"#)?;
-    for _ in 0..nt {
-        writeln!(w, "-1")?;
-    }
-    for e in &mesh.edges {
-        let k: i64 = match e.tag {
-            EdgeTag::Conductor(c) => c as i64,
-            EdgeTag::Interface(a, _) => a as i64,
-            _ => -1,
-        };
-        writeln!(w, "{k}")?;
-    }
-    writeln!(w, "</DataArray>")?;
+    let regions = mesh.regions.iter().map(|&r| r as i64).chain(std::iter::repeat_n(-1, ne));
+    write_int_array(w, "Int32", "region", regions)?;
+    let kinds = mesh.edges.iter().map(|e| match e.tag {
+        EdgeTag::Outer => 1,
+        EdgeTag::Axis => 2,
+        EdgeTag::Conductor(_) => 3,
+        EdgeTag::Interface(..) => 4,
+    });
+    write_int_array(w, "Int32", "edge_kind", std::iter::repeat_n(0, nt).chain(kinds))?;
+    let refs = mesh.edges.iter().map(|e| match e.tag {
+        EdgeTag::Conductor(c) => c as i64,
+        EdgeTag::Interface(a, _) => a as i64,
+        _ => -1,
+    });
+    write_int_array(w, "Int32", "edge_ref", std::iter::repeat_n(-1, nt).chain(refs))?;
     for a in cells {
         write_array(w, a.name, a.components, a.values, ne)?;
     }
@@ -163,6 +130,15 @@ pub fn write_vtu(mesh: &Mesh, nodes: &[NodeArray<'_>], cells: &[CellArray<'_>], 
     }
     writeln!(w, "</Piece>\n</UnstructuredGrid>\n</VTKFile>")?;
     Ok(())
+}
+
+/// An integer data array, one value a line.
+fn write_int_array(w: &mut impl Write, ty: &str, name: &str, values: impl Iterator<Item = i64>) -> io::Result<()> {
+    writeln!(w, r#"<DataArray type="{ty}" Name="{name}" format="ascii">"#)?;
+    for v in values {
+        writeln!(w, "{v}")?;
+    }
+    writeln!(w, "</DataArray>")
 }
 
 /// A Float64 data array, followed by `pad` rows of NaN (for the edge cells after the
