@@ -133,12 +133,6 @@ pub(crate) fn region_vertex_means(mut entries: Vec<(u32, u32, [f64; 2], f64)>) -
     out
 }
 
-/// ∇V at reference point (ξ, η) of triangle `t`.
-pub(crate) fn gradient_at(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> [f64; 2] {
-    let e = eval_point(mesh, potential, t, xi, eta).e;
-    [-e[0], -e[1]]
-}
-
 /// Evaluates the field of a solution on every element.
 ///
 /// # Panics
@@ -171,13 +165,8 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     }
     // At a point where the field is singular the average would hide the (mesh-dependent,
     // unbounded) peak: there the largest one-sided value is kept instead.
-    let scale = mesh.scale();
-    let singular_node = |node: u32| {
-        let p = mesh.nodes[node as usize];
-        mesh.singular_points
-            .iter()
-            .any(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= 1e-9 * scale)
-    };
+    let singular = singular_vertices(mesh);
+    let singular_node = |node: u32| singular.binary_search_by_key(&node, |s| s.0).is_ok();
     for g in region_vertex_means(at_vertex) {
         let r = g.region as usize;
         // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
@@ -211,7 +200,8 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
 
 /// The energy norm of the error against a known exact field, and of the exact field:
 /// (√∫ε|∇V − ∇V_h|² w dA, √∫ε|∇V|² w dA), w = 1 planar or 2πr axisymmetric, with the
-/// degree-4 rule of `space` on every element (isoparametric). For verification against
+/// degree-4 rule of `space` on every element (isoparametric), graded towards the vertex on
+/// elements that touch a singular point, where the integrand is unbounded. For verification against
 /// exact solutions; `exact_gradient` returns ∇V (V/m) at a point (metres).
 ///
 /// # Panics
@@ -225,10 +215,12 @@ pub fn energy_error(
 ) -> (f64, f64) {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
     let axisym = mesh.symmetry == mesher::Symmetry::Axisymmetric;
+    let singular = singular_vertices(mesh);
     let (mut err, mut norm) = (0.0, 0.0);
     for t in 0..mesh.triangles.len() {
         let eps = crate::solve::EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
-        for &(xi, eta, w) in &crate::space::QUAD_DEG4 {
+        let rule = element_rule(mesh, &singular, t);
+        for &(xi, eta, w) in rule.iter() {
             let PointValue { e, at: p, det, .. } = eval_point(mesh, &solution.potential, t, xi, eta);
             let mut weight = w * det.abs() * eps;
             if axisym {
@@ -242,4 +234,41 @@ pub fn energy_error(
         }
     }
     (err.sqrt(), norm.sqrt())
+}
+
+/// The vertices that sit on a singular point whose field is unbounded, with its exponent λ,
+/// sorted by vertex.
+pub(crate) fn singular_vertices(mesh: &Mesh) -> Vec<(u32, f64)> {
+    let tol = 1e-9 * mesh.scale();
+    let mut out: Vec<(u32, f64)> = (0..mesh.num_vertices)
+        .filter_map(|v| {
+            let p = mesh.nodes[v as usize];
+            mesh.singular_points
+                .iter()
+                .find(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= tol)
+                .map(|s| (v, s.lambda))
+        })
+        .collect();
+    out.sort_unstable_by_key(|x| x.0);
+    out
+}
+
+/// The corner of triangle `t` that sits on a singular vertex, if any.
+pub(crate) fn singular_corner(mesh: &Mesh, singular: &[(u32, f64)], t: usize) -> Option<usize> {
+    mesh.triangles[t].iter().position(|v| singular.binary_search_by_key(v, |s| s.0).is_ok())
+}
+
+/// Levels of the corner-graded rule: the innermost piece is 2⁻¹⁶ of the element.
+const GRADED_LEVELS: usize = 16;
+
+/// The quadrature rule for triangle `t`: degree 4, or graded towards a singular vertex.
+pub(crate) fn element_rule(
+    mesh: &Mesh,
+    singular: &[(u32, f64)],
+    t: usize,
+) -> std::borrow::Cow<'static, [crate::space::QuadPoint]> {
+    match singular_corner(mesh, singular, t) {
+        Some(k) => std::borrow::Cow::Owned(crate::space::corner_graded_rule(k, GRADED_LEVELS)),
+        None => std::borrow::Cow::Borrowed(&crate::space::QUAD_DEG4),
+    }
 }
