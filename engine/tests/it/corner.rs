@@ -137,10 +137,11 @@ fn adaptive_p1_restores_the_optimal_rate() {
     // the true error.
     let geo = l_shape();
     let problem = l_problem();
-    let params = RefineParams::new().with_max_size_m(0.2).with_grade_corners(false);
+    let params = RefineParams::new().with_order(1).with_max_size_m(0.2).with_grade_corners(false);
     let mut pts = Vec::new();
     for tol in [0.04, 0.02, 0.01, 0.005] {
-        let ap = engine::AdaptParams { tolerance: tol, max_iterations: 15, max_unknowns: 400_000 };
+        let ap =
+            engine::AdaptParams { tolerance: tol, max_iterations: 25, max_unknowns: 400_000, ..Default::default() };
         let out = engine::adapt(&geo, &params, &problem, &ap).unwrap();
         assert!(out.converged, "{}", out.reason);
         let (e, u) = energy_error(&out.mesh, &problem, &out.solution, exact_gradient);
@@ -223,4 +224,34 @@ fn singular_coefficient_on_circular_sectors() {
         assert!((fit.coefficient - 1.5).abs() < 0.02 * 1.5, "A = {}", fit.coefficient);
         assert!((fit.exponent_fit - sp.lambda).abs() < 0.01 * sp.lambda, "exponent {}", fit.exponent_fit);
     }
+}
+
+#[test]
+fn adaptive_p2_restores_the_optimal_rate() {
+    // The same without grading for quadratic elements: optimal rate N^(−1) (tolerances from
+    // 0.3 %, past the faster pre-asymptotic phase of the first meshes).
+    let geo = l_shape();
+    let problem = l_problem();
+    let params = RefineParams::new().with_order(2).with_max_size_m(0.2).with_grade_corners(false);
+    let mut pts = Vec::new();
+    for tol in [3e-3, 1e-3, 3e-4, 1.5e-4] {
+        let ap =
+            engine::AdaptParams { tolerance: tol, max_iterations: 30, max_unknowns: 400_000, ..Default::default() };
+        let out = engine::adapt(&geo, &params, &problem, &ap).unwrap();
+        assert!(out.converged, "{}", out.reason);
+        let (e, u) = energy_error(&out.mesh, &problem, &out.solution, exact_gradient);
+        let last = out.history.last().unwrap();
+        let steps: Vec<(usize, f64)> = out.history.iter().map(|s| (s.unknowns, s.estimate)).collect();
+        eprintln!(
+            "tolerance {tol}: {} unknowns, estimate {:.3e}, true {:.3e}; {steps:?}",
+            last.unknowns,
+            last.estimate,
+            e / u
+        );
+        assert!(e / u < 1.3 * tol, "true error {} for tolerance {tol}", e / u);
+        pts.push((e / u, last.unknowns));
+    }
+    let k = slope(&pts);
+    eprintln!("adaptive P2 slope {k:.3}");
+    assert!((k + 1.0).abs() <= 0.1, "slope {k}");
 }
