@@ -77,7 +77,7 @@ pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
-pub use singular::{singular_coefficient, SingularFit};
+pub use singular::{singular_coefficient, singular_coefficient_dual, SingularFit};
 pub use solve::{
     capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,
     ReducedSystem, Solution, SolveTimings, EPSILON_0,
