@@ -2,7 +2,7 @@
 //!
 //! # Dual singular function (the figure reported)
 //! Near a conductor corner of opening θ₀ facing one dielectric, u = V − V₀ = A·r^λ·sin(λφ)
-//! + higher terms, λ = π/θ₀, φ measured from the wall where the dielectric begins. The dual
+//! plus higher terms, λ = π/θ₀, φ measured from the wall where the dielectric begins. The dual
 //! singular function s⁻ = r^(−λ)·sin(λφ) is harmonic and vanishes on both walls, and
 //! Green's second identity on the sector minus a small disc around the corner, with a
 //! smooth cut-off χ(r) (1 for r ≤ R/2, 0 for r ≥ R, a C² quintic blend between), gives
