@@ -60,13 +60,13 @@ pub fn singular_coefficient_dual(
     v0: f64,
     radius: f64,
 ) -> Option<f64> {
-    if point.kind != SingularKind::ConductorCorner || point.on_axis || !(radius > 0.0) {
+    if point.kind != SingularKind::ConductorCorner || point.on_axis || radius.is_nan() || radius <= 0.0 {
         return None;
     }
     let (lam, theta0) = (point.lambda, point.opening);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let rho0 = if axisym { point.at[0] } else { 1.0 };
-    if !(rho0 > 0.0) {
+    if rho0.is_nan() || rho0 <= 0.0 {
         return None;
     }
     let (a, b) = (0.5 * radius, radius);
