@@ -117,7 +117,11 @@ pub struct SingularReport {
 
 /// Builds the report for a mesh of a model.
 pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
-    let mesh = &out.mesh;
+    report_of(model, &out.mesh, out.complete, out.reason.clone())
+}
+
+/// The mesh report of any mesh of the model (`complete` and `note` as the mesher gave them).
+pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Option<String>) -> MeshReport {
     let st = mesh.stats();
     let k = model.unit_m;
     let regions = st
@@ -172,8 +176,8 @@ pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
         max_radius_edge_ratio: st.max_radius_edge_ratio,
         edge_length_min: st.edge_length_range_m[0] / k,
         edge_length_max: st.edge_length_range_m[1] / k,
-        refinement_complete: out.complete,
-        note: out.reason.clone(),
+        refinement_complete: complete,
+        note,
         outer_boundary: match model.outer_potential_v {
             Some(v) => format!("fixed potential {v} V"),
             None => "zero normal flux".into(),

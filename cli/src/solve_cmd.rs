@@ -209,16 +209,54 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);
-    let user = |e: engine::SolveError| UserError(format!("error: {e}\n  --> {}\n", run.model.display()));
     // One factorisation serves the load case and every capacitance column.
-    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(user)?;
+    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&run.model, e))?;
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
-    let fields = element_fields(mesh, &problem, &sol);
-    let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
-
     let mesh_report = report(&model, &meshed);
-    let k = model.unit_m;
-    let regions = fields
+    let mut analysis = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
+    let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
+    analysis.results.timings_s =
+        vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)];
+    let json = serde_json::to_string_pretty(&analysis.results)?;
+    write_outputs(&run.out, mesh, &problem, &analysis, &[("results.json".into(), json.clone())])?;
+    if run.json {
+        println!("{json}");
+    } else {
+        print!("{}", render_text(&analysis.results, model.unit_m, model.unit));
+    }
+    Ok(())
+}
+
+/// A solve error as a user error naming the model file.
+pub fn solve_error(model: &std::path::Path, e: engine::SolveError) -> anyhow::Error {
+    UserError(format!("error: {e}\n  --> {}\n", model.display())).into()
+}
+
+/// What `solve` computes from one mesh and solution, ready to write.
+#[derive(Debug)]
+pub struct Analysis {
+    /// The results (timings left empty for the caller).
+    pub results: Results,
+    /// The solution.
+    pub sol: engine::Solution,
+    /// Element and nodal fields.
+    pub fields: engine::ElementFields,
+    /// Probe CSV files: (file name, contents).
+    pub probe_files: Vec<(String, String)>,
+}
+
+/// Fields, region peaks, probes and the results record of one solution.
+pub fn analyse(
+    model: &Model,
+    mesh: &mesher::Mesh,
+    mesh_report: MeshReport,
+    problem: &Problem,
+    sol: engine::Solution,
+    fixed: &[usize],
+    cmat: Vec<Vec<f64>>,
+) -> Analysis {
+    let fields = element_fields(mesh, problem, &sol);
+        let regions = fields
         .region_peaks
         .iter()
         .map(|p| {
@@ -352,13 +390,27 @@ pub fn run(run: &SolveRun) -> Result<()> {
         },
         regions,
         probes,
-        timings_s: vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)],
+        timings_s: Vec::new(),
         cautions: CAUTIONS.to_vec(),
         mesh: mesh_report,
     };
-    std::fs::create_dir_all(&run.out)
-        .with_context(|| format!("cannot create the output folder '{}'", run.out.display()))?;
-    let json = serde_json::to_string_pretty(&results)?;
+    Analysis { results, sol, fields, probe_files }
+}
+
+/// Writes fields.vtu, the probe CSVs and the `extra` files (name, contents) into `out`,
+/// each atomically, the extra ones last.
+///
+/// # Errors
+/// I/O errors, naming the file.
+pub fn write_outputs(
+    out: &std::path::Path,
+    mesh: &mesher::Mesh,
+    problem: &Problem,
+    analysis: &Analysis,
+    extra: &[(String, String)],
+) -> Result<()> {
+    let (sol, fields) = (&analysis.sol, &analysis.fields);
+    std::fs::create_dir_all(out).with_context(|| format!("cannot create the output folder '{}'", out.display()))?;
     let potential = &sol.potential;
     let e_vec: Vec<f64> = fields.centroid.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
     let e_mag: Vec<f64> = fields.max_magnitude.clone();
@@ -377,7 +429,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
         })
         .collect();
     let e_nodal: Vec<f64> = fields.nodal.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
-    write_atomic(&run.out.join("fields.vtu"), |w| {
+    write_atomic(&out.join("fields.vtu"), |w| {
         let mut w = w;
         mesher::write_vtu(
             mesh,
@@ -394,14 +446,8 @@ pub fn run(run: &SolveRun) -> Result<()> {
             &mut w,
         )
     })?;
-    for (file, csv) in &probe_files {
-        write_atomic(&run.out.join(file), |w| w.write_all(csv.as_bytes()))?;
-    }
-    write_atomic(&run.out.join("results.json"), |w| w.write_all(json.as_bytes()))?;
-    if run.json {
-        println!("{json}");
-    } else {
-        print!("{}", render_text(&results, k, model.unit));
+    for (file, text) in analysis.probe_files.iter().chain(extra) {
+        write_atomic(&out.join(file), |w| w.write_all(text.as_bytes()))?;
     }
     Ok(())
 }

@@ -144,8 +144,6 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     let nt = mesh.triangles.len();
     let mut centroid = Vec::with_capacity(nt);
     let mut max_magnitude = Vec::with_capacity(nt);
-    let nr = mesh.shape_names.len();
-    let mut peaks: Vec<Option<RegionPeak>> = vec![None; nr];
     // Vertex fields averaged over the elements of the same region around each vertex
     // (area-weighted): the one-sided element errors at a vertex largely cancel, so the
     // region peaks come from these recovered values (still never averaged across an
@@ -167,18 +165,7 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     // unbounded) peak: there the largest one-sided value is kept instead.
     let singular = singular_vertices(mesh);
     let singular_node = |node: u32| singular.binary_search_by_key(&node, |s| s.0).is_ok();
-    for g in region_vertex_means(at_vertex) {
-        let r = g.region as usize;
-        // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
-        if mesh.exterior.is_some_and(|e| e.region as usize == r) {
-            continue;
-        }
-        let m = if singular_node(g.node) { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
-        if peaks[r].as_ref().is_none_or(|p| m > p.e_max_v_per_m) {
-            peaks[r] =
-                Some(RegionPeak { region: g.region, e_max_v_per_m: m, at: mesh.nodes[g.node as usize], node: g.node });
-        }
-    }
+    let region_peaks = peaks_of(mesh, region_vertex_means(at_vertex), singular_node, &[]);
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
     let mut weight = vec![0.0; mesh.nodes.len()];
     for (t, tri) in mesh.triangles.iter().enumerate() {
@@ -195,7 +182,7 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
             *e = [e[0] / w, e[1] / w];
         }
     }
-    ElementFields { centroid, max_magnitude, nodal, region_peaks: peaks.into_iter().flatten().collect() }
+    ElementFields { centroid, max_magnitude, nodal, region_peaks }
 }
 
 /// The energy norm of the error against a known exact field, and of the exact field:
@@ -271,4 +258,53 @@ pub(crate) fn element_rule(
         Some(k) => std::borrow::Cow::Owned(crate::space::corner_graded_rule(k, GRADED_LEVELS)),
         None => std::borrow::Cow::Borrowed(&crate::space::QUAD_DEG4),
     }
+}
+
+/// The peak per region from region-wise vertex means: one-sided maximum at singular nodes,
+/// vertices inside any of the `discs` (centre, radius) left out, the mapped exterior left
+/// out.
+fn peaks_of(
+    mesh: &Mesh,
+    means: Vec<VertexMean>,
+    singular_node: impl Fn(u32) -> bool,
+    discs: &[(Xy, f64)],
+) -> Vec<RegionPeak> {
+    let mut peaks: Vec<Option<RegionPeak>> = vec![None; mesh.shape_names.len()];
+    for g in means {
+        let r = g.region as usize;
+        // The mapped open-boundary exterior is in inverted coordinates: no physical peak.
+        if mesh.exterior.is_some_and(|e| e.region as usize == r) {
+            continue;
+        }
+        let at = mesh.nodes[g.node as usize];
+        if discs.iter().any(|(c, rad)| (at[0] - c[0]).hypot(at[1] - c[1]) < *rad) {
+            continue;
+        }
+        let m = if singular_node(g.node) { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
+        if peaks[r].as_ref().is_none_or(|p| m > p.e_max_v_per_m) {
+            peaks[r] = Some(RegionPeak { region: g.region, e_max_v_per_m: m, at, node: g.node });
+        }
+    }
+    peaks.into_iter().flatten().collect()
+}
+
+/// The peak |E| per region leaving out every vertex inside the given discs (centre,
+/// radius in metres) — the peaks *away from* singular points, which converge under
+/// refinement while the peaks at them do not. Same recovery as [`element_fields`].
+///
+/// # Panics
+/// If the solution does not belong to the mesh.
+#[track_caller]
+pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
+    assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    let mut at_vertex: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * mesh.triangles.len());
+    for t in 0..mesh.triangles.len() {
+        let area = mesh.triangle_area(t).abs();
+        for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
+            let e = eval_point(mesh, &solution.potential, t, xi, eta).e;
+            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], e, area));
+        }
+    }
+    let singular = singular_vertices(mesh);
+    peaks_of(mesh, region_vertex_means(at_vertex), |n| singular.binary_search_by_key(&n, |s| s.0).is_ok(), discs)
 }

@@ -74,7 +74,7 @@ pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, Wat
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
-pub use fields::{element_fields, energy_error, ElementFields, RegionPeak};
+pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use singular::{singular_coefficient, singular_coefficient_dual, SingularFit};
