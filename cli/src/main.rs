@@ -8,6 +8,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
+mod check_cmd;
 mod diag;
 mod mesh_cmd;
 mod model;
@@ -63,6 +64,33 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// The whole job: mesh, solve, estimate the error, refine adaptively until the energy,
+    /// charges, floating potentials and peak fields away from singular points settle within
+    /// the tolerance, extract the singular points' coefficients and study the convergence
+    /// of every quantity; writes everything `solve` writes plus convergence.csv and the
+    /// convergence and singular-point sections of results.json.
+    Check {
+        /// The model file (TOML).
+        model: PathBuf,
+        /// Output folder (created if missing).
+        #[arg(long, value_name = "DIR")]
+        out: PathBuf,
+        /// Relative tolerance, as a percentage ("0.5%") or a fraction ("0.005").
+        #[arg(long, default_value = "0.5%", value_parser = check_cmd::parse_tolerance)]
+        tol: f64,
+        /// Element order, overriding the model's `[mesh] order`.
+        #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
+        order: Option<u8>,
+        /// Most meshes the adaptive loop may solve.
+        #[arg(long, default_value_t = 12, value_parser = clap::value_parser!(u64).range(1..=100))]
+        max_meshes: u64,
+        /// Most unknowns a mesh may have.
+        #[arg(long, default_value_t = 2_000_000)]
+        max_unknowns: usize,
+        /// Print results.json on stdout instead of the summary.
+        #[arg(long)]
+        json: bool,
+    },
     /// Dump an intermediate stage for inspection.
     Debug {
         #[command(subcommand)]
@@ -104,6 +132,17 @@ fn main() -> ExitCode {
             mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json })
         }
         Command::Solve { model, out, order, json } => solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json }),
+        Command::Check { model, out, tol, order, max_meshes, max_unknowns, json } => {
+            check_cmd::run(&check_cmd::CheckRun {
+                model,
+                out,
+                tolerance: tol,
+                order,
+                max_meshes: max_meshes as usize,
+                max_unknowns,
+                json,
+            })
+        }
         Command::Debug { what: DebugCommand::Matrix { model, out, order } } => {
             solve_cmd::dump_matrix(&model, &out, order)
         }

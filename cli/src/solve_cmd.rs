@@ -161,7 +161,8 @@ pub fn dump_matrix(model_path: &std::path::Path, out: &std::path::Path, order: O
     Ok(())
 }
 
-fn problem_of(model: &Model) -> Problem {
+/// The engine's problem from the model.
+pub fn problem_of(model: &Model) -> Problem {
     let mut permittivity: Vec<f64> = model
         .geometry
         .shapes
@@ -256,7 +257,7 @@ pub fn analyse(
     cmat: Vec<Vec<f64>>,
 ) -> Analysis {
     let fields = element_fields(mesh, problem, &sol);
-        let regions = fields
+    let regions = fields
         .region_peaks
         .iter()
         .map(|p| {

@@ -1,5 +1,7 @@
 //! End-to-end tests of the `fieldgrade` binary, by topic.
 
+/// `fieldgrade check`: adaptivity, convergence and singular-point sections.
+mod check;
 /// Running the binary and reading what it wrote.
 mod common;
 /// `fieldgrade debug matrix` dumps a system an independent solver can solve.

@@ -1,0 +1,616 @@
+//! `fieldgrade check`: the whole job — mesh, solve, estimate, adapt until the watched
+//! quantities settle, extract the singular points' coefficients, study the convergence of
+//! every quantity — and write everything `solve` writes plus the convergence and
+//! singular-point sections (results.json, convergence.csv).
+//!
+//! The watched quantities: the stored energy, the charge of every conductor at a fixed
+//! potential, the potential of every floating conductor, the peak field of every region
+//! away from singular points, and the largest field of every probe away from singular
+//! points. "Away" means outside a disc around every point whose field is singular (λ < 1):
+//! radius 2 % of the model's size, or a quarter of the distance to the nearest other flagged
+//! point if that is smaller. Inside such a disc the field has no converged value (it grows
+//! like r^(λ−1)); the singular-point section describes it instead by the coefficient of
+//! the singular term.
+
+use crate::mesh_cmd::report_of;
+use crate::model::{self, ConductorKind, Model, ProbeKind};
+use crate::solve_cmd::{analyse, problem_of, render_text, solve_error, write_outputs, Results};
+use crate::UserError;
+use anyhow::Result;
+use engine::{
+    adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
+    solve_with_capacitance, AdaptParams, ConvergenceKind, Solution, Watched,
+};
+use mesher::{Mesh, Xy};
+use serde::Serialize;
+use std::path::PathBuf;
+use std::time::Instant;
+
+/// A validated `check` run.
+#[derive(Debug)]
+pub struct CheckRun {
+    /// Model file.
+    pub model: PathBuf,
+    /// Output folder.
+    pub out: PathBuf,
+    /// Relative tolerance (0.005 for "0.5%").
+    pub tolerance: f64,
+    /// Element order override.
+    pub order: Option<u8>,
+    /// Most meshes.
+    pub max_meshes: usize,
+    /// Most unknowns.
+    pub max_unknowns: usize,
+    /// JSON to stdout instead of the summary.
+    pub json: bool,
+}
+
+/// Parses a tolerance such as "0.5%" or "0.005".
+///
+/// # Errors
+/// A message saying what is wrong.
+pub fn parse_tolerance(s: &str) -> std::result::Result<f64, String> {
+    let t = s.trim();
+    let v = match t.strip_suffix('%') {
+        Some(p) => p.trim().parse::<f64>().map(|v| v / 100.0),
+        None => t.parse::<f64>(),
+    }
+    .map_err(|_| format!("'{s}' is not a tolerance; write a percentage such as 0.5% or a fraction such as 0.005"))?;
+    if !(v.is_finite() && v > 0.0 && v < 0.5) {
+        return Err(format!("tolerance {s} is out of range; give a value between 0 and 50 % (e.g. 0.5%)"));
+    }
+    Ok(v)
+}
+
+/// `results.json` of `check`: the `solve` record of the final mesh plus the check sections.
+#[derive(Serialize, Debug)]
+pub struct CheckResults {
+    /// Everything `solve` reports, on the final mesh.
+    #[serde(flatten)]
+    pub solve: Results,
+    /// The adaptive loop.
+    pub adaptivity: Adaptivity,
+    /// One grid-convergence study per watched quantity.
+    pub convergence: Vec<QuantityStudy>,
+    /// The singular points with their coefficients and stress radii.
+    pub singular_points: Vec<SingularResult>,
+}
+
+/// The adaptive loop's outcome.
+#[derive(Serialize, Debug)]
+pub struct Adaptivity {
+    /// Relative tolerance asked for.
+    pub tolerance: f64,
+    /// The estimate and every watched quantity reached the tolerance.
+    pub converged: bool,
+    /// Why the loop stopped.
+    pub reason: String,
+    /// Estimated relative energy-norm error on the final mesh.
+    pub estimated_energy_norm_error: f64,
+    /// Its square: the estimated relative error of the energy (and of the capacitance of a
+    /// single electrode at a fixed potential).
+    pub estimated_energy_error: f64,
+    /// The meshes, first to last.
+    pub meshes: Vec<MeshStep>,
+    /// Radius of the disc left out around each singular point, metres.
+    pub singular_exclusion_radius_m: Vec<f64>,
+}
+
+/// One mesh of the loop.
+#[derive(Serialize, Debug)]
+pub struct MeshStep {
+    /// Unknowns.
+    pub unknowns: usize,
+    /// Triangles.
+    pub triangles: usize,
+    /// Estimated relative energy-norm error.
+    pub estimated_error: f64,
+    /// Largest relative change of a watched quantity since the previous mesh.
+    pub max_change: Option<f64>,
+}
+
+/// The convergence study of one quantity.
+#[derive(Serialize, Debug)]
+pub struct QuantityStudy {
+    /// What it is.
+    pub quantity: String,
+    /// SI unit.
+    pub unit: &'static str,
+    /// Value per mesh.
+    pub sequence: Vec<SequencePoint>,
+    /// "monotone", "oscillatory", "divergent", "settled" (changes grow but stay below a
+    /// tenth of the tolerance: remeshing noise), "converged" or "too few meshes".
+    pub behaviour: &'static str,
+    /// Observed order in h over the three finest meshes.
+    pub observed_order: Option<f64>,
+    /// Richardson-extrapolated value.
+    pub extrapolated: Option<f64>,
+    /// Grid convergence index of the finest value (relative, safety factor 1.25).
+    pub gci: Option<f64>,
+    /// A negative observed order or divergent changes: the sign of a singularity.
+    pub flagged: Option<String>,
+}
+
+/// One value in a sequence.
+#[derive(Serialize, Debug)]
+pub struct SequencePoint {
+    /// Unknowns.
+    pub unknowns: usize,
+    /// Value.
+    pub value: f64,
+    /// Relative change from the previous mesh.
+    pub relative_change: Option<f64>,
+    /// Observed order over this and the two previous meshes.
+    pub observed_order: Option<f64>,
+}
+
+/// One singular point on the final mesh.
+#[derive(Serialize, Debug)]
+pub struct SingularResult {
+    /// S1, S2 … as in the mesh report.
+    pub id: String,
+    /// Location, model unit.
+    pub at: [f64; 2],
+    /// Kind of point.
+    pub kind: &'static str,
+    /// Exponent λ (V ~ r^λ, |E| ~ r^(λ−1)).
+    pub lambda: f64,
+    /// The field is unbounded there (λ < 1).
+    pub field_singular: bool,
+    /// Coefficient A of V ≈ V₀ + A·r^λ·sin(λφ), V/m^λ, by the dual singular function.
+    pub coefficient: Option<f64>,
+    /// The same by the ring fit (cross-check).
+    pub coefficient_ring_fit: Option<f64>,
+    /// Cut-off radius of the extraction, metres.
+    pub extraction_radius_m: Option<f64>,
+    /// The material's allowable stress there, kV/mm.
+    pub allowable_kv_per_mm: Option<f64>,
+    /// Distance inside which |E| ≈ λ|A|r^(λ−1) exceeds the allowable stress, model unit.
+    pub radius_above_allowable: Option<f64>,
+    /// The report line.
+    pub note: String,
+}
+
+/// What each watched value is.
+enum Quantity {
+    Energy,
+    Charge(usize),
+    FloatingPotential(usize),
+    RegionPeak(u32),
+    ProbePeak(usize),
+}
+
+/// Runs `fieldgrade check`.
+///
+/// # Errors
+/// Model, meshing and solve errors (as [`UserError`]), I/O errors.
+pub fn run(run: &CheckRun) -> Result<()> {
+    let t0 = Instant::now();
+    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    if let Some(o) = run.order {
+        model.params.order = o;
+    }
+    let problem = problem_of(&model);
+    // The discs around singular points are found on a first mesh (the points come from the
+    // geometry and are the same on every mesh).
+    let first =
+        mesher::generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?.mesh;
+    let discs = exclusion_discs(&first);
+    let quantities = quantity_list(&model, &first);
+    let bar = indicatif::ProgressBar::new_spinner();
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{spinner} {elapsed:>4} {msg}")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_spinner()),
+    );
+    bar.enable_steady_tick(std::time::Duration::from_millis(200));
+    bar.set_message("mesh 1: meshing and solving");
+    let ap = AdaptParams {
+        tolerance: run.tolerance,
+        max_iterations: run.max_meshes,
+        max_unknowns: run.max_unknowns,
+        ..Default::default()
+    };
+    let mut meshes_done = 0usize;
+    let outcome = adapt_watching(
+        &model.geometry,
+        &model.params,
+        &problem,
+        &ap,
+        |mesh, sol| Ok(watch(&model, mesh, sol, &quantities, &discs)),
+        |step| {
+            meshes_done += 1;
+            bar.set_message(format!(
+                "mesh {}: {} unknowns, estimated error {:.3} %, largest change {} — refining",
+                meshes_done,
+                step.unknowns,
+                100.0 * step.estimate,
+                if step.max_change.is_nan() { "-".into() } else { format!("{:.3} %", 100.0 * step.max_change) }
+            ));
+        },
+    );
+    bar.finish_and_clear();
+    let outcome = outcome.map_err(|e| match e {
+        engine::SolveError::Mesh(m) => UserError(model.mesh_error(&m).to_string()).into(),
+        e => solve_error(&run.model, e),
+    })?;
+    let t_adapt = t0.elapsed().as_secs_f64();
+    let mesh = &outcome.mesh;
+    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&run.model, e))?;
+    let mesh_report = report_of(&model, mesh, true, None);
+    let mut analysis = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
+    let singular = singular_section(&model, mesh, &analysis.sol, &discs);
+    let t_post = t0.elapsed().as_secs_f64() - t_adapt;
+    analysis.results.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];
+    let convergence: Vec<QuantityStudy> = quantities
+        .iter()
+        .enumerate()
+        .map(|(i, (name, unit, _))| {
+            let seq: Vec<(usize, f64)> = outcome.history.iter().map(|s| (s.unknowns, s.watched[i].value)).collect();
+            study(name.clone(), unit, &seq, run.tolerance)
+        })
+        .collect();
+    let results = CheckResults {
+        adaptivity: Adaptivity {
+            tolerance: run.tolerance,
+            converged: outcome.converged,
+            reason: outcome.reason.clone(),
+            estimated_energy_norm_error: outcome.estimate.relative(),
+            estimated_energy_error: outcome.estimate.relative_energy(),
+            meshes: outcome
+                .history
+                .iter()
+                .map(|s| MeshStep {
+                    unknowns: s.unknowns,
+                    triangles: s.triangles,
+                    estimated_error: s.estimate,
+                    max_change: s.max_change.is_finite().then_some(s.max_change),
+                })
+                .collect(),
+            singular_exclusion_radius_m: discs.iter().map(|d| d.1).collect(),
+        },
+        convergence,
+        singular_points: singular,
+        solve: analysis.results,
+    };
+    let json = serde_json::to_string_pretty(&results)?;
+    let csv = convergence_csv(&results.convergence);
+    // Move the record back for writing (write_outputs reads the fields and the solution).
+    let CheckResults { solve, adaptivity, convergence, singular_points } = results;
+    analysis.results = solve;
+    write_outputs(
+        &run.out,
+        mesh,
+        &problem,
+        &analysis,
+        &[("convergence.csv".into(), csv), ("results.json".into(), json.clone())],
+    )?;
+    if run.json {
+        println!("{json}");
+    } else {
+        let mut text = render_text(&analysis.results, model.unit_m, model.unit);
+        text.push_str(&render_check(&adaptivity, &convergence, &singular_points, model.unit));
+        print!("{text}");
+    }
+    Ok(())
+}
+
+/// A disc (centre, radius) around every point whose field is singular.
+fn exclusion_discs(mesh: &Mesh) -> Vec<(Xy, f64)> {
+    let scale = mesh.scale();
+    let pts = &mesh.singular_points;
+    pts.iter()
+        .filter(|s| s.is_field_singular())
+        .map(|s| {
+            let nearest = pts
+                .iter()
+                .map(|o| (o.at[0] - s.at[0]).hypot(o.at[1] - s.at[1]))
+                .filter(|&d| d > 1e-9 * scale)
+                .fold(f64::INFINITY, f64::min);
+            (s.at, (0.02 * scale).min(0.25 * nearest))
+        })
+        .collect()
+}
+
+/// The watched quantities: (name, unit, what).
+fn quantity_list(model: &Model, mesh: &Mesh) -> Vec<(String, &'static str, Quantity)> {
+    let depth = mesh.symmetry == mesher::Symmetry::Planar;
+    let mut q = vec![("energy".to_string(), if depth { "J/m" } else { "J" }, Quantity::Energy)];
+    for (i, c) in model.conductors.iter().enumerate() {
+        match c.kind {
+            ConductorKind::Fixed { .. } => {
+                q.push((format!("charge of {}", c.name), if depth { "C/m" } else { "C" }, Quantity::Charge(i)))
+            }
+            ConductorKind::Floating { .. } => {
+                q.push((format!("potential of {}", c.name), "V", Quantity::FloatingPotential(i)))
+            }
+        }
+    }
+    let mut regions: Vec<u32> = mesh.regions.clone();
+    regions.sort_unstable();
+    regions.dedup();
+    for r in regions {
+        if mesh.exterior.is_some_and(|e| e.region == r) {
+            continue;
+        }
+        q.push((
+            format!("peak field in {} away from singular points", mesh.shape_names[r as usize]),
+            "V/m",
+            Quantity::RegionPeak(r),
+        ));
+    }
+    for (i, p) in model.probes.iter().enumerate() {
+        q.push((format!("largest field on probe {} away from singular points", p.name), "V/m", Quantity::ProbePeak(i)));
+    }
+    q
+}
+
+/// The watched values on one mesh, with their floors (see `engine::Watched`).
+fn watch(
+    model: &Model,
+    mesh: &Mesh,
+    sol: &Solution,
+    quantities: &[(String, &'static str, Quantity)],
+    discs: &[(Xy, f64)],
+) -> Vec<Watched> {
+    let peaks = region_peaks_away_from(mesh, sol, discs);
+    let peak_max = peaks.iter().map(|p| p.e_max_v_per_m).fold(0.0, f64::max);
+    let q_max = sol.conductor_charges.iter().map(|q| q.abs()).fold(0.0, f64::max);
+    let v_max = sol
+        .conductor_potentials
+        .iter()
+        .map(|v| v.abs())
+        .fold(0.0, f64::max)
+        .max(model.outer_potential_v.unwrap_or(0.0).abs());
+    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+    quantities
+        .iter()
+        .map(|(_, _, q)| match *q {
+            Quantity::Energy => Watched { value: sol.energy, floor: 0.0 },
+            Quantity::Charge(i) => Watched { value: sol.conductor_charges[i], floor: 0.01 * q_max },
+            Quantity::FloatingPotential(i) => Watched { value: sol.conductor_potentials[i], floor: v_max },
+            Quantity::RegionPeak(r) => Watched {
+                value: peaks.iter().find(|p| p.region == r).map(|p| p.e_max_v_per_m).unwrap_or(0.0),
+                floor: 0.01 * peak_max,
+            },
+            Quantity::ProbePeak(i) => {
+                let value = match &model.probes[i].kind {
+                    ProbeKind::Line { path, samples } => engine::probe_line(mesh, sol, path, *samples)
+                        .iter()
+                        .filter(|s| outside(s.at))
+                        .map(|s| s.e[0].hypot(s.e[1]))
+                        .filter(|e| e.is_finite())
+                        .fold(0.0, f64::max),
+                    ProbeKind::Interface(a, b) => {
+                        interface_peak(mesh, sol, engine::InterfaceSelector::Regions(*a, *b), &outside)
+                    }
+                    ProbeKind::ConductorSurface(c) => {
+                        interface_peak(mesh, sol, engine::InterfaceSelector::Conductor(*c), &outside)
+                    }
+                };
+                Watched { value, floor: 0.01 * peak_max }
+            }
+        })
+        .collect()
+}
+
+fn interface_peak(mesh: &Mesh, sol: &Solution, which: engine::InterfaceSelector, outside: &dyn Fn(Xy) -> bool) -> f64 {
+    engine::probe_interface(mesh, sol, which)
+        .iter()
+        .filter(|s| outside(s.at))
+        .flat_map(|s| std::iter::once(&s.first).chain(s.second.as_ref()))
+        .map(|f| f.e_n.hypot(f.e_t))
+        .filter(|e| e.is_finite())
+        .fold(0.0, f64::max)
+}
+
+/// The convergence study of one sequence.
+fn study(quantity: String, unit: &'static str, seq: &[(usize, f64)], tolerance: f64) -> QuantityStudy {
+    let increasing = |w: &[(usize, f64)]| w.windows(2).all(|p| p[1].0 > p[0].0);
+    let sequence: Vec<SequencePoint> = seq
+        .iter()
+        .enumerate()
+        .map(|(k, &(n, v))| {
+            let relative_change = (k > 0).then(|| {
+                let prev = seq[k - 1].1;
+                if v != 0.0 {
+                    ((v - prev) / v).abs()
+                } else {
+                    (v - prev).abs()
+                }
+            });
+            let observed_order = (k >= 2 && increasing(&seq[k - 2..=k]))
+                .then(|| grid_convergence(&seq[k - 2..=k]).observed_order)
+                .filter(|p| p.is_finite());
+            SequencePoint { unknowns: n, value: v, relative_change, observed_order }
+        })
+        .collect();
+    if seq.len() < 3 || !increasing(&seq[seq.len() - 3..]) {
+        return QuantityStudy {
+            quantity,
+            unit,
+            sequence,
+            behaviour: "too few meshes",
+            observed_order: None,
+            extrapolated: None,
+            gci: None,
+            flagged: None,
+        };
+    }
+    let st = grid_convergence(seq);
+    let behaviour = match st.kind {
+        ConvergenceKind::Monotone => "monotone",
+        ConvergenceKind::Oscillatory => "oscillatory",
+        ConvergenceKind::Divergent if st.relative_change <= 0.1 * tolerance => "settled",
+        ConvergenceKind::Divergent => "divergent",
+        ConvergenceKind::Converged => "converged",
+    };
+    // Growing changes mean something only while they are above the noise of remeshing:
+    // below a tenth of the tolerance the quantity has settled, whatever the order says.
+    let growing = st.kind == ConvergenceKind::Divergent || st.observed_order < 0.0;
+    let flagged = (growing && st.relative_change > 0.1 * tolerance).then(|| {
+        "the changes grow under refinement (negative observed order): a sign of a singularity; this value has no converged limit".to_string()
+    });
+    QuantityStudy {
+        quantity,
+        unit,
+        sequence,
+        behaviour,
+        observed_order: st.observed_order.is_finite().then_some(st.observed_order),
+        extrapolated: (st.kind == ConvergenceKind::Monotone).then_some(st.extrapolated),
+        gci: st.gci_fine.is_finite().then_some(st.gci_fine),
+        flagged,
+    }
+}
+
+/// The singular-point section on the final mesh.
+fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f64)]) -> Vec<SingularResult> {
+    let k = model.unit_m;
+    mesh.singular_points
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            let id = format!("S{}", i + 1);
+            let allowable = s
+                .regions
+                .iter()
+                .filter_map(|&r| model.shape_material.get(r as usize).copied().flatten())
+                .filter_map(|m| model.materials[m].allowable_stress_kv_per_mm)
+                .reduce(f64::min);
+            let radius = discs.iter().find(|d| d.0 == s.at).map(|d| d.1);
+            let v0 = s.conductor.map(|c| sol.conductor_potentials[c as usize]);
+            let (dual, ring) = match (radius, v0, s.is_field_singular()) {
+                (Some(r), Some(v0), true) => (
+                    singular_coefficient_dual(mesh, sol, s, v0, r),
+                    singular_coefficient(mesh, sol, s, v0, 0.5 * r).map(|f| f.coefficient),
+                ),
+                _ => (None, None),
+            };
+            let fit = dual.map(|a| engine::SingularFit { coefficient: a, exponent_fit: s.lambda, samples: 0 });
+            let radius_above = match (&fit, allowable) {
+                (Some(f), Some(a)) if s.is_field_singular() && f.coefficient != 0.0 => {
+                    Some(f.radius_above(s.lambda, a * 1e6) / k)
+                }
+                _ => None,
+            };
+            let note = if !s.is_field_singular() {
+                format!("λ = {:.4} ≥ 1: the field is bounded here", s.lambda)
+            } else {
+                let mut n = format!(
+                    "singular: λ = {:.4}, |E| ≈ {}·r^({:.4}); the peak field here is mesh-dependent and left out of the convergence criterion",
+                    s.lambda,
+                    match fit {
+                        Some(ref f) => format!("{:.4e}", s.lambda * f.coefficient.abs()),
+                        None => "λ·|A|".into(),
+                    },
+                    s.lambda - 1.0
+                );
+                if let Some(r) = radius_above {
+                    n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {r:.4} {} of the point", allowable.unwrap_or(0.0), model.unit));
+                }
+                if fit.is_none() {
+                    n.push_str("; coefficient not extracted (only conductor corners facing one dielectric, off the axis)");
+                }
+                n.push_str("; model the real edge radius to get a design value");
+                n
+            };
+            SingularResult {
+                id,
+                at: [s.at[0] / k, s.at[1] / k],
+                kind: s.kind.label(),
+                lambda: s.lambda,
+                field_singular: s.is_field_singular(),
+                coefficient: dual,
+                coefficient_ring_fit: ring,
+                extraction_radius_m: radius.filter(|_| dual.is_some()),
+                allowable_kv_per_mm: allowable,
+                radius_above_allowable: radius_above,
+                note,
+            }
+        })
+        .collect()
+}
+
+/// convergence.csv: one row per quantity and mesh.
+fn convergence_csv(studies: &[QuantityStudy]) -> String {
+    use std::fmt::Write;
+    let mut s = String::from("quantity,unit,mesh,unknowns,value,relative_change,observed_order\n");
+    let opt = |v: Option<f64>| v.map(|x| format!("{x:e}")).unwrap_or_default();
+    for q in studies {
+        for (k, p) in q.sequence.iter().enumerate() {
+            let _ = writeln!(
+                s,
+                "\"{}\",{},{},{},{:e},{},{}",
+                q.quantity.replace('"', "\"\""),
+                q.unit,
+                k + 1,
+                p.unknowns,
+                p.value,
+                opt(p.relative_change),
+                opt(p.observed_order)
+            );
+        }
+    }
+    s
+}
+
+/// The check sections as text.
+fn render_check(ad: &Adaptivity, conv: &[QuantityStudy], sing: &[SingularResult], unit: &str) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "\nadaptivity   {} after {} meshes: {}",
+        if ad.converged { "converged" } else { "NOT CONVERGED" },
+        ad.meshes.len(),
+        ad.reason
+    );
+    let _ = writeln!(
+        s,
+        "             estimated error: energy norm {:.3e}, energy (capacitance) {:.3e}",
+        ad.estimated_energy_norm_error, ad.estimated_energy_error
+    );
+    let _ = writeln!(s, "\nconvergence (three finest meshes; GCI with safety factor 1.25)");
+    let _ = writeln!(
+        s,
+        "  {:<72} {:>14} {:>10} {:>8} {:>14} {:>10}",
+        "quantity", "final", "change", "order", "extrapolated", "GCI"
+    );
+    for q in conv {
+        let last = q.sequence.last();
+        let f = |v: Option<f64>, w: usize, pct: bool| match v {
+            Some(x) if pct => format!("{:>w$.3e}", x),
+            Some(x) => format!("{:>w$.3}", x),
+            None => format!("{:>w$}", "-"),
+        };
+        let _ = writeln!(
+            s,
+            "  {:<72} {:>14.6e} {} {} {} {}{}",
+            format!("{} ({})", q.quantity, q.unit),
+            last.map(|p| p.value).unwrap_or(f64::NAN),
+            f(last.and_then(|p| p.relative_change), 10, true),
+            f(q.observed_order, 8, false),
+            match q.extrapolated {
+                Some(x) => format!("{x:>14.6e}"),
+                None => format!("{:>14}", "-"),
+            },
+            f(q.gci, 10, true),
+            if q.flagged.is_some() { "  (!) diverging: singular" } else { "" }
+        );
+    }
+    if !sing.is_empty() {
+        let _ = writeln!(s, "\nsingular points (coefficient A of V ≈ V₀ + A·r^λ·f(θ), by the dual singular function)");
+        for p in sing {
+            let _ = writeln!(
+                s,
+                "  {:<4} {:<18} ({:.4}, {:.4}) {unit}  A = {}  {}",
+                p.id,
+                p.kind,
+                p.at[0],
+                p.at[1],
+                p.coefficient.map(|a| format!("{a:.4e}")).unwrap_or_else(|| "-".into()),
+                p.note
+            );
+        }
+    }
+    s
+}
