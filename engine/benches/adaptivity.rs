@@ -77,10 +77,13 @@ fn reach(seq: &[(usize, f64)], level: f64) -> (Option<usize>, Option<f64>) {
     (k.map(|k| seq[k].0), interp)
 }
 
+/// (name, sequence of (unknowns, error), wall seconds).
+type Row = (String, Vec<(usize, f64)>, f64);
+
 fn main() {
     let geo = l_shape();
     let pb = problem();
-    let mut rows: Vec<(String, Vec<(usize, f64)>, f64)> = Vec::new();
+    let mut rows: Vec<Row> = Vec::new();
     // Uniform P1: halving sizes; 0.1 % is far beyond reach (N ~ 10⁸ at the rate N^(−1/3)),
     // so it is extrapolated from the fitted rate.
     let t = Instant::now();

@@ -23,12 +23,14 @@
 //!   tangential E on both sides of an interface or on a conductor surface.
 //! - [`grid_convergence`]: observed order, Richardson extrapolation and grid convergence
 //!   index of a quantity over a refinement sequence.
+//! - [`estimate_error`]: recovery-based error estimate (P1 and P2); [`adapt()`],
+//!   [`adapt_watching`]: the adaptive loop; [`singular_coefficient_dual`],
+//!   [`singular_coefficient`]: the coefficient of the singular term at a conductor corner.
 //! - [`space`]: reference elements and quadrature rules.
 //!
-//! Status: the solve, element fields and capacitance matrix are in place and checked
-//! against closed forms (coaxial cylinders, concentric spheres, layered plates), and so
-//! are the probes. Recovered nodal fields, the open boundary, error estimation and
-//! adaptivity are the next stages.
+//! Status: the solve, fields, capacitance matrix, probes, open boundary, error estimate,
+//! adaptive loop and singular coefficients are in place and checked against closed forms
+//! and published benchmarks (see the tests beside each module).
 //!
 //! ```
 //! use engine::{solve, ConductorSpec, Problem, EPSILON_0};
