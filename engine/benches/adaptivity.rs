@@ -9,61 +9,14 @@
 //! Run: `cargo bench -p engine --bench adaptivity`. The table is printed and written to
 //! `bench-results/adaptivity.md`.
 
-use engine::{adapt_watching, energy_error, solve, AdaptParams, ConductorSpec, Problem};
-use mesher::{generate, Fill, Geometry, OuterBoundary, Outline, RefineParams, Shape, Symmetry};
-use std::f64::consts::PI;
+#[path = "../tests/it/lshape.rs"]
+mod lshape;
+
+use engine::{adapt_watching, energy_error, solve, AdaptParams};
+use lshape::{exact_gradient, l_problem, l_shape};
+use mesher::{generate, RefineParams};
 use std::fmt::Write as _;
 use std::time::Instant;
-
-fn theta(p: [f64; 2]) -> f64 {
-    let t = p[1].atan2(p[0]);
-    if t < 0.0 {
-        t + 2.0 * PI
-    } else {
-        t
-    }
-}
-
-fn exact(p: [f64; 2]) -> f64 {
-    p[0].hypot(p[1]).powf(2.0 / 3.0) * (2.0 * theta(p) / 3.0).sin()
-}
-
-fn exact_gradient(p: [f64; 2]) -> [f64; 2] {
-    let r = p[0].hypot(p[1]).max(1e-300);
-    let t = theta(p);
-    let ur = (2.0 / 3.0) * r.powf(-1.0 / 3.0) * (2.0 * t / 3.0).sin();
-    let ut = (2.0 / 3.0) * r.powf(-1.0 / 3.0) * (2.0 * t / 3.0).cos();
-    [ur * t.cos() - ut * t.sin(), ur * t.sin() + ut * t.cos()]
-}
-
-fn l_shape() -> Geometry {
-    let rect = |name: &str, c: [f64; 2], s: [f64; 2], fill: Fill| Shape {
-        name: name.into(),
-        outline: Outline::rectangle(name, c, s, 0.0).unwrap(),
-        fill,
-        max_size_m: None,
-    };
-    Geometry {
-        symmetry: Symmetry::Planar,
-        shapes: vec![
-            rect("domain", [-1.0, -1.0], [2.0, 2.0], Fill::Dielectric { permittivity: 1.0 }),
-            rect("corner", [0.0, -1.0], [1.0, 1.0], Fill::Conductor { conductor: 0 }),
-        ],
-        conductors: vec!["zero".into()],
-        outer: OuterBoundary::FixedPotential,
-        size_points: vec![],
-    }
-}
-
-fn problem() -> Problem {
-    Problem {
-        permittivity: vec![1.0, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: Some(0.0),
-        outer_potential_fn: Some(exact),
-        ..Default::default()
-    }
-}
 
 /// The unknowns at which a (unknowns, error) sequence first reaches `level`, and the
 /// log–log interpolated crossing between the last mesh above and the first below.
@@ -82,7 +35,7 @@ type Row = (String, Vec<(usize, f64)>, f64);
 
 fn main() {
     let geo = l_shape();
-    let pb = problem();
+    let pb = l_problem();
     let mut rows: Vec<Row> = Vec::new();
     // Uniform P1: halving sizes; 0.1 % is far beyond reach (N ~ 10⁸ at the rate N^(−1/3)),
     // so it is extrapolated from the fitted rate.

@@ -6,5 +6,7 @@ mod closed_forms;
 mod common;
 /// The re-entrant corner benchmark: uniform and graded convergence rates.
 mod corner;
+/// The L-shaped corner benchmark's exact solution and problem.
+pub mod lshape;
 /// Linear potentials reproduced exactly; invariants of the solution.
 mod patch;
