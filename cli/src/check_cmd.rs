@@ -19,7 +19,7 @@ use crate::UserError;
 use anyhow::Result;
 use engine::{
     adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
-    solve_with_capacitance, AdaptParams, ConvergenceKind, Solution, Watched,
+    singular_radius_above, solve_with_capacitance, AdaptParams, ConvergenceKind, Solution, Watched,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -485,11 +485,8 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 ),
                 _ => (None, None),
             };
-            let fit = dual.map(|a| engine::SingularFit { coefficient: a, exponent_fit: s.lambda, samples: 0 });
-            let radius_above = match (&fit, allowable) {
-                (Some(f), Some(a)) if s.is_field_singular() && f.coefficient != 0.0 => {
-                    Some(f.radius_above(s.lambda, a * 1e6) / k)
-                }
+            let radius_above = match (dual, allowable) {
+                (Some(c), Some(a)) if c != 0.0 => Some(singular_radius_above(s.lambda, c, a * 1e6) / k),
                 _ => None,
             };
             let note = if !s.is_field_singular() {
@@ -498,8 +495,8 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 let mut n = format!(
                     "singular: λ = {:.4}, |E| ≈ {}·r^({:.4}); the peak field here is mesh-dependent and left out of the convergence criterion",
                     s.lambda,
-                    match fit {
-                        Some(ref f) => format!("{:.4e}", s.lambda * f.coefficient.abs()),
+                    match dual {
+                        Some(c) => format!("{:.4e}", s.lambda * c.abs()),
                         None => "λ·|A|".into(),
                     },
                     s.lambda - 1.0
@@ -507,7 +504,7 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 if let Some(r) = radius_above {
                     n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {r:.4} {} of the point", allowable.unwrap_or(0.0), model.unit));
                 }
-                if fit.is_none() {
+                if dual.is_none() {
                     n.push_str("; coefficient not extracted (only conductor corners facing one dielectric, off the axis)");
                 }
                 n.push_str("; model the real edge radius to get a design value");

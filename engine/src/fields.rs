@@ -14,7 +14,7 @@
 
 use crate::problem::Problem;
 use crate::solve::Solution;
-use crate::space::{Element, P1, P2};
+use crate::space::{corner_graded_rule, Element, QuadPoint, P1, P2, QUAD_DEG4};
 use mesher::{Mesh, Xy};
 
 /// The largest field strength in one region.
@@ -144,28 +144,13 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     let nt = mesh.triangles.len();
     let mut centroid = Vec::with_capacity(nt);
     let mut max_magnitude = Vec::with_capacity(nt);
-    // Vertex fields averaged over the elements of the same region around each vertex
-    // (area-weighted): the one-sided element errors at a vertex largely cancel, so the
-    // region peaks come from these recovered values (still never averaged across an
-    // interface).
-    let mut at_vertex: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * nt);
-    for t in 0..nt {
+    let at_vertex = vertex_fields(mesh, &solution.potential);
+    for (t, own) in at_vertex.chunks_exact(3).enumerate() {
         let ec = eval_point(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0).e;
         centroid.push(ec);
-        let mut best = ec[0].hypot(ec[1]);
-        let area = mesh.triangle_area(t).abs();
-        for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
-            let e = eval_point(mesh, &solution.potential, t, xi, eta).e;
-            best = best.max(e[0].hypot(e[1]));
-            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], e, area));
-        }
-        max_magnitude.push(best);
+        max_magnitude.push(own.iter().map(|v| v.2[0].hypot(v.2[1])).fold(ec[0].hypot(ec[1]), f64::max));
     }
-    // At a point where the field is singular the average would hide the (mesh-dependent,
-    // unbounded) peak: there the largest one-sided value is kept instead.
-    let singular = singular_vertices(mesh);
-    let singular_node = |node: u32| singular.binary_search_by_key(&node, |s| s.0).is_ok();
-    let region_peaks = peaks_of(mesh, region_vertex_means(at_vertex), singular_node, &[]);
+    let region_peaks = peaks_of(mesh, region_vertex_means(at_vertex), &[]);
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
     let mut weight = vec![0.0; mesh.nodes.len()];
     for (t, tri) in mesh.triangles.iter().enumerate() {
@@ -202,12 +187,11 @@ pub fn energy_error(
 ) -> (f64, f64) {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
     let axisym = mesh.symmetry == mesher::Symmetry::Axisymmetric;
-    let singular = singular_vertices(mesh);
+    let quad = SingularQuadrature::new(mesh);
     let (mut err, mut norm) = (0.0, 0.0);
     for t in 0..mesh.triangles.len() {
         let eps = crate::solve::EPSILON_0 * problem.permittivity[mesh.regions[t] as usize];
-        let rule = element_rule(mesh, &singular, t);
-        for &(xi, eta, w) in rule.iter() {
+        for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
             let PointValue { e, at: p, det, .. } = eval_point(mesh, &solution.potential, t, xi, eta);
             let mut weight = w * det.abs() * eps;
             if axisym {
@@ -223,52 +207,82 @@ pub fn energy_error(
     (err.sqrt(), norm.sqrt())
 }
 
-/// The vertices that sit on a singular point whose field is unbounded, with its exponent λ,
-/// sorted by vertex.
-pub(crate) fn singular_vertices(mesh: &Mesh) -> Vec<(u32, f64)> {
-    let tol = 1e-9 * mesh.scale();
-    let mut out: Vec<(u32, f64)> = (0..mesh.num_vertices)
-        .filter_map(|v| {
-            let p = mesh.nodes[v as usize];
-            mesh.singular_points
-                .iter()
-                .find(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= tol)
-                .map(|s| (v, s.lambda))
-        })
-        .collect();
-    out.sort_unstable_by_key(|x| x.0);
-    out
+/// The vertices that sit on a point whose field is unbounded (λ < 1), and the quadrature
+/// that integrates the unbounded energy density of the elements touching them: built once
+/// per mesh, shared by the estimator, the energy error and the field peaks.
+pub(crate) struct SingularQuadrature {
+    /// (vertex, λ), sorted by vertex.
+    singular: Vec<(u32, f64)>,
+    /// The degree-4 rule graded towards reference vertex 0, 1 and 2.
+    graded: [Vec<QuadPoint>; 3],
 }
 
-/// The corner of triangle `t` that sits on a singular vertex, if any.
-pub(crate) fn singular_corner(mesh: &Mesh, singular: &[(u32, f64)], t: usize) -> Option<usize> {
-    mesh.triangles[t].iter().position(|v| singular.binary_search_by_key(v, |s| s.0).is_ok())
+impl SingularQuadrature {
+    pub(crate) fn new(mesh: &Mesh) -> SingularQuadrature {
+        let tol = 1e-9 * mesh.scale();
+        let mut singular: Vec<(u32, f64)> = (0..mesh.num_vertices)
+            .filter_map(|v| {
+                let p = mesh.nodes[v as usize];
+                mesh.singular_points
+                    .iter()
+                    .find(|s| s.is_field_singular() && (s.at[0] - p[0]).hypot(s.at[1] - p[1]) <= tol)
+                    .map(|s| (v, s.lambda))
+            })
+            .collect();
+        singular.sort_unstable_by_key(|x| x.0);
+        SingularQuadrature { singular, graded: corner_graded_rules() }
+    }
+
+    /// λ of the singular point at vertex `v`, if it is one.
+    pub(crate) fn lambda_at(&self, v: u32) -> Option<f64> {
+        self.singular.binary_search_by_key(&v, |s| s.0).ok().map(|k| self.singular[k].1)
+    }
+
+    /// The corner of triangle `t` that sits on a singular vertex, if any.
+    pub(crate) fn corner(&self, mesh: &Mesh, t: usize) -> Option<usize> {
+        mesh.triangles[t].iter().position(|&v| self.lambda_at(v).is_some())
+    }
+
+    /// The rule for an element with that singular corner: degree 4, or graded towards it.
+    pub(crate) fn rule(&self, corner: Option<usize>) -> &[QuadPoint] {
+        match corner {
+            Some(k) => &self.graded[k],
+            None => &QUAD_DEG4,
+        }
+    }
 }
 
 /// Levels of the corner-graded rule: the innermost piece is 2⁻¹⁶ of the element.
 const GRADED_LEVELS: usize = 16;
 
-/// The quadrature rule for triangle `t`: degree 4, or graded towards a singular vertex.
-pub(crate) fn element_rule(
-    mesh: &Mesh,
-    singular: &[(u32, f64)],
-    t: usize,
-) -> std::borrow::Cow<'static, [crate::space::QuadPoint]> {
-    match singular_corner(mesh, singular, t) {
-        Some(k) => std::borrow::Cow::Owned(crate::space::corner_graded_rule(k, GRADED_LEVELS)),
-        None => std::borrow::Cow::Borrowed(&crate::space::QUAD_DEG4),
-    }
+/// The degree-4 rule graded towards reference vertex 0, 1 and 2 (see
+/// [`corner_graded_rule`]), with the levels used throughout the crate.
+pub(crate) fn corner_graded_rules() -> [Vec<QuadPoint>; 3] {
+    std::array::from_fn(|k| corner_graded_rule(k, GRADED_LEVELS))
 }
 
-/// The peak per region from region-wise vertex means: one-sided maximum at singular nodes,
-/// vertices inside any of the `discs` (centre, radius) left out, the mapped exterior left
-/// out.
-fn peaks_of(
-    mesh: &Mesh,
-    means: Vec<VertexMean>,
-    singular_node: impl Fn(u32) -> bool,
-    discs: &[(Xy, f64)],
-) -> Vec<RegionPeak> {
+/// (vertex, region, E, element area) for the three vertices of every element, in element
+/// order: the element's own field at its vertices, which the region-wise vertex means
+/// turn into peak values (the one-sided element errors at a vertex largely cancel in the
+/// area-weighted mean; values are never averaged across an interface).
+fn vertex_fields(mesh: &Mesh, potential: &[f64]) -> Vec<(u32, u32, [f64; 2], f64)> {
+    let mut out = Vec::with_capacity(3 * mesh.triangles.len());
+    for t in 0..mesh.triangles.len() {
+        let area = mesh.triangle_area(t).abs();
+        for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
+            let e = eval_point(mesh, potential, t, xi, eta).e;
+            out.push((mesh.triangles[t][k], mesh.regions[t], e, area));
+        }
+    }
+    out
+}
+
+/// The peak per region from region-wise vertex means, vertices inside any of the `discs`
+/// (centre, radius) left out, the mapped exterior left out. At a point where the field is
+/// singular the average would hide the (mesh-dependent, unbounded) peak: there the largest
+/// one-sided value is kept instead.
+fn peaks_of(mesh: &Mesh, means: Vec<VertexMean>, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
+    let singular = SingularQuadrature::new(mesh);
     let mut peaks: Vec<Option<RegionPeak>> = vec![None; mesh.shape_names.len()];
     for g in means {
         let r = g.region as usize;
@@ -280,7 +294,7 @@ fn peaks_of(
         if discs.iter().any(|(c, rad)| (at[0] - c[0]).hypot(at[1] - c[1]) < *rad) {
             continue;
         }
-        let m = if singular_node(g.node) { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
+        let m = if singular.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
         if peaks[r].as_ref().is_none_or(|p| m > p.e_max_v_per_m) {
             peaks[r] = Some(RegionPeak { region: g.region, e_max_v_per_m: m, at, node: g.node });
         }
@@ -297,14 +311,5 @@ fn peaks_of(
 #[track_caller]
 pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let mut at_vertex: Vec<(u32, u32, [f64; 2], f64)> = Vec::with_capacity(3 * mesh.triangles.len());
-    for t in 0..mesh.triangles.len() {
-        let area = mesh.triangle_area(t).abs();
-        for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
-            let e = eval_point(mesh, &solution.potential, t, xi, eta).e;
-            at_vertex.push((mesh.triangles[t][k], mesh.regions[t], e, area));
-        }
-    }
-    let singular = singular_vertices(mesh);
-    peaks_of(mesh, region_vertex_means(at_vertex), |n| singular.binary_search_by_key(&n, |s| s.0).is_ok(), discs)
+    peaks_of(mesh, region_vertex_means(vertex_fields(mesh, &solution.potential)), discs)
 }

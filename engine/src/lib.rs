@@ -79,7 +79,9 @@ pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
-pub use singular::{singular_coefficient, singular_coefficient_dual, SingularFit};
+pub use singular::{
+    singular_coefficient, singular_coefficient_dual, singular_field, singular_radius_above, SingularFit,
+};
 pub use solve::{
     capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,
     ReducedSystem, Solution, SolveTimings, EPSILON_0,

@@ -41,10 +41,11 @@
 //!   (singular-function and p/hp finite-element extraction of singular coefficients; cited
 //!   as listed in the project's trade notes).
 
+use crate::fields::corner_graded_rules;
 use crate::fields::{eval_point, PointValue};
 use crate::probe::sample_potential;
 use crate::solve::Solution;
-use crate::space::{corner_graded_rule, QUAD_DEG4};
+use crate::space::{QuadPoint, QUAD_DEG4};
 use mesher::{Mesh, SingularKind, SingularPoint, Symmetry};
 use std::f64::consts::TAU;
 
@@ -86,6 +87,7 @@ pub fn singular_coefficient_dual(
         (1.0 - s, -ds, -dds)
     };
     let scale = mesh.scale();
+    let graded = corner_graded_rules();
     let (mut sum, mut used) = (0.0, 0usize);
     for t in 0..mesh.triangles.len() {
         if !point.regions.contains(&mesh.regions[t]) {
@@ -104,11 +106,11 @@ pub fn singular_coefficient_dual(
             continue;
         }
         let corner = x.iter().position(|&p| dist(p) <= 1e-9 * scale);
-        let rule: Vec<(f64, f64, f64)> = match corner {
-            Some(k) => corner_graded_rule(k, 16),
-            None => QUAD_DEG4.to_vec(),
+        let rule: &[QuadPoint] = match corner {
+            Some(k) => &graded[k],
+            None => &QUAD_DEG4,
         };
-        for &(xi, eta, w) in &rule {
+        for &(xi, eta, w) in rule {
             let PointValue { v, at, det, .. } = eval_point(mesh, &solution.potential, t, xi, eta);
             let (dx, dy) = (at[0] - point.at[0], at[1] - point.at[1]);
             let r = dx.hypot(dy);
@@ -157,16 +159,16 @@ pub struct SingularFit {
     pub samples: usize,
 }
 
-impl SingularFit {
-    /// |E| ≈ λ·|A|·r^(λ−1) at distance `r` from the point.
-    pub fn field_at(&self, lambda: f64, r: f64) -> f64 {
-        lambda * self.coefficient.abs() * r.powf(lambda - 1.0)
-    }
+/// |E| ≈ λ·|A|·r^(λ−1) at distance `r` from a singular point of exponent λ and
+/// coefficient A.
+pub fn singular_field(lambda: f64, coefficient: f64, r: f64) -> f64 {
+    lambda * coefficient.abs() * r.powf(lambda - 1.0)
+}
 
-    /// The distance inside which |E| exceeds `e_v_per_m` (λ < 1).
-    pub fn radius_above(&self, lambda: f64, e_v_per_m: f64) -> f64 {
-        (e_v_per_m / (lambda * self.coefficient.abs())).powf(1.0 / (lambda - 1.0))
-    }
+/// The distance from a singular point (λ < 1, coefficient A) inside which
+/// |E| ≈ λ·|A|·r^(λ−1) exceeds `e_v_per_m`.
+pub fn singular_radius_above(lambda: f64, coefficient: f64, e_v_per_m: f64) -> f64 {
+    (e_v_per_m / (lambda * coefficient.abs())).powf(1.0 / (lambda - 1.0))
 }
 
 /// Fits the singular term at a conductor corner facing one dielectric, from rings of
