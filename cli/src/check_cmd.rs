@@ -19,7 +19,7 @@ use crate::UserError;
 use anyhow::Result;
 use engine::{
     adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
-    singular_radius_above, solve_with_capacitance, AdaptParams, ConvergenceKind, Solution, Watched,
+    singular_radius_above, AdaptParams, ConvergenceKind, Solution, Watched,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -171,6 +171,9 @@ pub struct SingularResult {
     pub note: String,
 }
 
+/// The watched quantities: (name, SI unit, what).
+type Watchlist = Vec<(String, &'static str, Quantity)>;
+
 /// What each watched value is.
 enum Quantity {
     Energy,
@@ -191,12 +194,6 @@ pub fn run(run: &CheckRun) -> Result<()> {
         model.params.order = o;
     }
     let problem = problem_of(&model);
-    // The discs around singular points are found on a first mesh (the points come from the
-    // geometry and are the same on every mesh).
-    let first =
-        mesher::generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?.mesh;
-    let discs = exclusion_discs(&first);
-    let quantities = quantity_list(&model, &first);
     let bar = indicatif::ProgressBar::new_spinner();
     bar.set_style(
         indicatif::ProgressStyle::with_template("{spinner} {elapsed:>4} {msg}")
@@ -211,12 +208,18 @@ pub fn run(run: &CheckRun) -> Result<()> {
         ..Default::default()
     };
     let mut meshes_done = 0usize;
+    // The discs around singular points and the list of quantities come from the first mesh
+    // (the singular points and regions are the geometry's, the same on every mesh).
+    let mut setup: Option<(Vec<(Xy, f64)>, Watchlist)> = None;
     let outcome = adapt_watching(
         &model.geometry,
         &model.params,
         &problem,
         &ap,
-        |mesh, sol| Ok(watch(&model, mesh, sol, &quantities, &discs)),
+        |mesh, sol| {
+            let (discs, quantities) = setup.get_or_insert_with(|| (exclusion_discs(mesh), quantity_list(&model, mesh)));
+            Ok(watch(&model, mesh, sol, quantities, discs))
+        },
         |step| {
             meshes_done += 1;
             bar.set_message(format!(
@@ -233,31 +236,31 @@ pub fn run(run: &CheckRun) -> Result<()> {
         engine::SolveError::Mesh(m) => UserError(model.mesh_error(&m).to_string()).into(),
         e => solve_error(&run.model, e),
     })?;
+    let (discs, quantities) = setup.expect("the adaptive loop watches every mesh it solves");
     let t_adapt = t0.elapsed().as_secs_f64();
-    let mesh = &outcome.mesh;
-    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&run.model, e))?;
-    let mesh_report = report_of(&model, mesh, true, None);
-    let mut analysis = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
-    let singular = singular_section(&model, mesh, &analysis.sol, &discs);
+    let engine::AdaptOutcome { converged, reason, history, mesh, solution, capacitance: (fixed, cmat), estimate } =
+        outcome;
+    let mesh_report = report_of(&model, &mesh, true, None);
+    let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
+    let singular = singular_section(&model, &mesh, &analysis.sol, &discs);
     let t_post = t0.elapsed().as_secs_f64() - t_adapt;
-    analysis.results.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];
+    solve.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];
     let convergence: Vec<QuantityStudy> = quantities
         .iter()
         .enumerate()
         .map(|(i, (name, unit, _))| {
-            let seq: Vec<(usize, f64)> = outcome.history.iter().map(|s| (s.unknowns, s.watched[i].value)).collect();
+            let seq: Vec<(usize, f64)> = history.iter().map(|s| (s.unknowns, s.watched[i].value)).collect();
             study(name.clone(), unit, &seq, run.tolerance)
         })
         .collect();
     let results = CheckResults {
         adaptivity: Adaptivity {
             tolerance: run.tolerance,
-            converged: outcome.converged,
-            reason: outcome.reason.clone(),
-            estimated_energy_norm_error: outcome.estimate.relative(),
-            estimated_energy_error: outcome.estimate.relative_energy(),
-            meshes: outcome
-                .history
+            converged,
+            reason,
+            estimated_energy_norm_error: estimate.relative(),
+            estimated_energy_error: estimate.relative_energy(),
+            meshes: history
                 .iter()
                 .map(|s| MeshStep {
                     unknowns: s.unknowns,
@@ -270,16 +273,13 @@ pub fn run(run: &CheckRun) -> Result<()> {
         },
         convergence,
         singular_points: singular,
-        solve: analysis.results,
+        solve,
     };
     let json = serde_json::to_string_pretty(&results)?;
     let csv = convergence_csv(&results.convergence);
-    // Move the record back for writing (write_outputs reads the fields and the solution).
-    let CheckResults { solve, adaptivity, convergence, singular_points } = results;
-    analysis.results = solve;
     write_outputs(
         &run.out,
-        mesh,
+        &mesh,
         &problem,
         &analysis,
         &[("convergence.csv".into(), csv), ("results.json".into(), json.clone())],
@@ -287,8 +287,8 @@ pub fn run(run: &CheckRun) -> Result<()> {
     if run.json {
         println!("{json}");
     } else {
-        let mut text = render_text(&analysis.results, model.unit_m, model.unit);
-        text.push_str(&render_check(&adaptivity, &convergence, &singular_points, model.unit));
+        let mut text = render_text(&results.solve, model.unit_m, model.unit);
+        text.push_str(&render_check(&results, model.unit));
         print!("{text}");
     }
     Ok(())
@@ -312,7 +312,7 @@ fn exclusion_discs(mesh: &Mesh) -> Vec<(Xy, f64)> {
 }
 
 /// The watched quantities: (name, unit, what).
-fn quantity_list(model: &Model, mesh: &Mesh) -> Vec<(String, &'static str, Quantity)> {
+fn quantity_list(model: &Model, mesh: &Mesh) -> Watchlist {
     let depth = mesh.symmetry == mesher::Symmetry::Planar;
     let mut q = vec![("energy".to_string(), if depth { "J/m" } else { "J" }, Quantity::Energy)];
     for (i, c) in model.conductors.iter().enumerate() {
@@ -551,7 +551,8 @@ fn convergence_csv(studies: &[QuantityStudy]) -> String {
 }
 
 /// The check sections as text.
-fn render_check(ad: &Adaptivity, conv: &[QuantityStudy], sing: &[SingularResult], unit: &str) -> String {
+fn render_check(r: &CheckResults, unit: &str) -> String {
+    let (ad, conv, sing) = (&r.adaptivity, &r.convergence, &r.singular_points);
     use std::fmt::Write;
     let mut s = String::new();
     let _ = writeln!(

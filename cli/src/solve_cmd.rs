@@ -214,16 +214,16 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&run.model, e))?;
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let mesh_report = report(&model, &meshed);
-    let mut analysis = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
+    let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
-    analysis.results.timings_s =
+    results.timings_s =
         vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)];
-    let json = serde_json::to_string_pretty(&analysis.results)?;
+    let json = serde_json::to_string_pretty(&results)?;
     write_outputs(&run.out, mesh, &problem, &analysis, &[("results.json".into(), json.clone())])?;
     if run.json {
         println!("{json}");
     } else {
-        print!("{}", render_text(&analysis.results, model.unit_m, model.unit));
+        print!("{}", render_text(&results, model.unit_m, model.unit));
     }
     Ok(())
 }
@@ -233,11 +233,9 @@ pub fn solve_error(model: &std::path::Path, e: engine::SolveError) -> anyhow::Er
     UserError(format!("error: {e}\n  --> {}\n", model.display())).into()
 }
 
-/// What `solve` computes from one mesh and solution, ready to write.
+/// What `solve` writes besides results.json: the solution, its fields and the probe files.
 #[derive(Debug)]
 pub struct Analysis {
-    /// The results (timings left empty for the caller).
-    pub results: Results,
     /// The solution.
     pub sol: engine::Solution,
     /// Element and nodal fields.
@@ -246,7 +244,8 @@ pub struct Analysis {
     pub probe_files: Vec<(String, String)>,
 }
 
-/// Fields, region peaks, probes and the results record of one solution.
+/// Fields, region peaks, probes and the results record (timings left empty for the
+/// caller) of one solution.
 pub fn analyse(
     model: &Model,
     mesh: &mesher::Mesh,
@@ -255,7 +254,7 @@ pub fn analyse(
     sol: engine::Solution,
     fixed: &[usize],
     cmat: Vec<Vec<f64>>,
-) -> Analysis {
+) -> (Results, Analysis) {
     let fields = element_fields(mesh, problem, &sol);
     let regions = fields
         .region_peaks
@@ -395,7 +394,7 @@ pub fn analyse(
         cautions: CAUTIONS.to_vec(),
         mesh: mesh_report,
     };
-    Analysis { results, sol, fields, probe_files }
+    (results, Analysis { sol, fields, probe_files })
 }
 
 /// Writes fields.vtu, the probe CSVs and the `extra` files (name, contents) into `out`,

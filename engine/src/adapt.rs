@@ -32,7 +32,7 @@
 use crate::error::SolveError;
 use crate::estimate::{estimate_error, ErrorEstimate};
 use crate::problem::Problem;
-use crate::solve::{solve, Solution};
+use crate::solve::{solve_with_capacitance, CapacitanceMatrix, Solution};
 use mesher::{generate_with, BackgroundSize, Geometry, Mesh, RefineParams};
 
 /// Settings of the adaptive loop, with documented defaults.
@@ -101,6 +101,9 @@ pub struct AdaptOutcome {
     pub mesh: Mesh,
     /// The last solution.
     pub solution: Solution,
+    /// The Maxwell capacitance matrix on the last mesh (as [`crate::solve_with_capacitance`]
+    /// gives it).
+    pub capacitance: CapacitanceMatrix,
     /// The estimate on the last mesh.
     pub estimate: ErrorEstimate,
 }
@@ -159,7 +162,9 @@ pub fn adapt_watching(
     let mut history: Vec<AdaptStep> = Vec::new();
     loop {
         let mesh = generate_with(geo, params, background.take()).map_err(SolveError::Mesh)?.mesh;
-        let solution = solve(&mesh, problem)?;
+        // The capacitance columns ride on the load case's factorisation (a few more
+        // right-hand sides), so the last mesh needs no second solve for them.
+        let (solution, capacitance) = solve_with_capacitance(&mesh, problem)?;
         let est = estimate_error(&mesh, problem, &solution);
         let rel = est.relative();
         let watched = watch(&mesh, &solution)?;
@@ -220,7 +225,7 @@ pub fn adapt_watching(
             })
         });
         if let Some((converged, reason)) = stop {
-            return Ok(AdaptOutcome { converged, reason, history, mesh, solution, estimate: est });
+            return Ok(AdaptOutcome { converged, reason, history, mesh, solution, capacitance, estimate: est });
         }
         background = Some(BackgroundSize::new(&mesh, sizes));
     }
