@@ -165,21 +165,7 @@ pub fn wedge_exponent(sectors: &[Sector], walls: Option<(Wall, Wall)>, lambda_ma
             return Some(l);
         }
         if prev_f.signum() != fl.signum() {
-            let (mut a, mut b, mut fa) = (prev_l, l, prev_f);
-            for _ in 0..200 {
-                let m = 0.5 * (a + b);
-                let fm = f(m);
-                if fm.signum() == fa.signum() {
-                    a = m;
-                    fa = fm;
-                } else {
-                    b = m;
-                }
-                if b - a < 1e-15 {
-                    break;
-                }
-            }
-            return Some(0.5 * (a + b));
+            return Some(bisect(&f, prev_l, l, prev_f));
         }
         if walls.is_none() && k >= 2 {
             // A local extremum of |f| close to zero without a sign change: a double root.
@@ -208,6 +194,25 @@ pub fn wedge_exponent(sectors: &[Sector], walls: Option<(Wall, Wall)>, lambda_ma
         prev_f = fl;
     }
     None
+}
+
+/// The root of `f` in [a, b], where f changes sign and f(a) = `fa`, by bisection to the
+/// resolution of the arguments.
+fn bisect(f: &impl Fn(f64) -> f64, mut a: f64, mut b: f64, mut fa: f64) -> f64 {
+    for _ in 0..200 {
+        let m = 0.5 * (a + b);
+        let fm = f(m);
+        if fm.signum() == fa.signum() {
+            a = m;
+            fa = fm;
+        } else {
+            b = m;
+        }
+        if b - a < 1e-15 {
+            break;
+        }
+    }
+    0.5 * (a + b)
 }
 
 /// Legendre function of the first kind P_ν(x) for real ν ≥ 0 and −1 < x ≤ 1, by the
@@ -244,18 +249,7 @@ pub fn conical_exponent(theta0: f64, nu_max: f64) -> Option<f64> {
         let b = lo + k as f64 * h;
         let fb = f(b);
         if fa.signum() != fb.signum() {
-            let (mut l, mut r, mut fl) = (a, b, fa);
-            for _ in 0..100 {
-                let m = 0.5 * (l + r);
-                let fm = f(m);
-                if fm.signum() == fl.signum() {
-                    l = m;
-                    fl = fm;
-                } else {
-                    r = m;
-                }
-            }
-            return Some(0.5 * (l + r));
+            return Some(bisect(&f, a, b, fa));
         }
         a = b;
         fa = fb;
