@@ -14,7 +14,10 @@
 
 use crate::mesh_cmd::report_of;
 use crate::model::{self, ConductorKind, Model, ProbeKind};
-use crate::solve_cmd::{analyse, problem_of, render_text, solve_error, write_outputs, Results};
+use crate::solve_cmd::{
+    analyse, interface_peak, interface_selector, line_peak, problem_of, render_text, solve_error, write_outputs,
+    Results,
+};
 use crate::UserError;
 use anyhow::Result;
 use engine::{
@@ -373,34 +376,18 @@ fn watch(
                 floor: 0.01 * peak_max,
             },
             Quantity::ProbePeak(i) => {
-                let value = match &model.probes[i].kind {
-                    ProbeKind::Line { path, samples } => engine::probe_line(mesh, sol, path, *samples)
-                        .iter()
-                        .filter(|s| outside(s.at))
-                        .map(|s| s.e[0].hypot(s.e[1]))
-                        .filter(|e| e.is_finite())
-                        .fold(0.0, f64::max),
-                    ProbeKind::Interface(a, b) => {
-                        interface_peak(mesh, sol, engine::InterfaceSelector::Regions(*a, *b), &outside)
+                let kind = &model.probes[i].kind;
+                let value = match (kind, interface_selector(kind)) {
+                    (ProbeKind::Line { path, samples }, _) => {
+                        line_peak(&engine::probe_line(mesh, sol, path, *samples), outside)
                     }
-                    ProbeKind::ConductorSurface(c) => {
-                        interface_peak(mesh, sol, engine::InterfaceSelector::Conductor(*c), &outside)
-                    }
+                    (_, Some((which, _))) => interface_peak(&engine::probe_interface(mesh, sol, which), outside).0,
+                    (_, None) => unreachable!("only line probes have no interface selector"),
                 };
                 Watched { value, floor: 0.01 * peak_max }
             }
         })
         .collect()
-}
-
-fn interface_peak(mesh: &Mesh, sol: &Solution, which: engine::InterfaceSelector, outside: &dyn Fn(Xy) -> bool) -> f64 {
-    engine::probe_interface(mesh, sol, which)
-        .iter()
-        .filter(|s| outside(s.at))
-        .flat_map(|s| std::iter::once(&s.first).chain(s.second.as_ref()))
-        .map(|f| f.e_n.hypot(f.e_t))
-        .filter(|e| e.is_finite())
-        .fold(0.0, f64::max)
 }
 
 /// The convergence study of one sequence.

@@ -306,33 +306,24 @@ pub fn analyse(
             ProbeKind::Line { path, samples } => {
                 let rows = engine::probe_line(mesh, &sol, path, *samples);
                 let _ = writeln!(csv, "s_m,x_m,y_m,region,potential_v,ex_v_per_m,ey_v_per_m,e_v_per_m");
-                let mut e_max: f64 = 0.0;
                 for r in &rows {
                     let region = r.region.map(|k| mesh.shape_names[k as usize].as_str()).unwrap_or("");
                     let e = r.e[0].hypot(r.e[1]);
-                    if e.is_finite() {
-                        e_max = e_max.max(e);
-                    }
                     let _ = writeln!(
                         csv,
                         "{:e},{:e},{:e},{region},{:e},{:e},{:e},{:e}",
                         r.s, r.at[0], r.at[1], r.potential, r.e[0], r.e[1], e
                     );
                 }
-                ("line", rows.len(), e_max, None)
+                ("line", rows.len(), line_peak(&rows, |_| true), None)
             }
             ProbeKind::Interface(..) | ProbeKind::ConductorSurface(_) => {
-                let (which, kind) = match p.kind {
-                    ProbeKind::Interface(a, b) => (engine::InterfaceSelector::Regions(a, b), "interface"),
-                    ProbeKind::ConductorSurface(c) => (engine::InterfaceSelector::Conductor(c), "conductor_surface"),
-                    ProbeKind::Line { .. } => unreachable!(),
-                };
+                let (which, kind) = interface_selector(&p.kind).expect("an interface or surface probe");
                 let rows = engine::probe_interface(mesh, &sol, which);
                 let _ = writeln!(
                     csv,
                     "s_m,x_m,y_m,potential_v,region_1,en_1_v_per_m,et_1_v_per_m,e_1_v_per_m,region_2,en_2_v_per_m,et_2_v_per_m,e_2_v_per_m"
                 );
-                let (mut e_max, mut et_max): (f64, f64) = (0.0, 0.0);
                 for r in &rows {
                     let side = |f: Option<&engine::SideField>| match f {
                         Some(f) => {
@@ -343,18 +334,13 @@ pub fn analyse(
                     };
                     let a = side(Some(&r.first));
                     let b = side(r.second.as_ref());
-                    for (e, et) in [(a.3, a.2), (b.3, b.2)] {
-                        if e.is_finite() {
-                            e_max = e_max.max(e);
-                            et_max = et_max.max(et.abs());
-                        }
-                    }
                     let _ = writeln!(
                         csv,
                         "{:e},{:e},{:e},{:e},{},{:e},{:e},{:e},{},{:e},{:e},{:e}",
                         r.s, r.at[0], r.at[1], r.potential, a.0, a.1, a.2, a.3, b.0, b.1, b.2, b.3
                     );
                 }
+                let (e_max, et_max) = interface_peak(&rows, |_| true);
                 (kind, rows.len(), e_max, Some(et_max))
             }
         };
@@ -395,6 +381,32 @@ pub fn analyse(
         mesh: mesh_report,
     };
     (results, Analysis { sol, fields, probe_files })
+}
+
+/// The selector and report label of an interface or conductor-surface probe (None for a
+/// line probe).
+pub fn interface_selector(kind: &ProbeKind) -> Option<(engine::InterfaceSelector, &'static str)> {
+    match *kind {
+        ProbeKind::Interface(a, b) => Some((engine::InterfaceSelector::Regions(a, b), "interface")),
+        ProbeKind::ConductorSurface(c) => Some((engine::InterfaceSelector::Conductor(c), "conductor_surface")),
+        ProbeKind::Line { .. } => None,
+    }
+}
+
+/// The largest finite |E| over the line-probe samples whose position `keep` accepts.
+pub fn line_peak(rows: &[engine::LineSample], keep: impl Fn(mesher::Xy) -> bool) -> f64 {
+    rows.iter().filter(|r| keep(r.at)).map(|r| r.e[0].hypot(r.e[1])).filter(|e| e.is_finite()).fold(0.0, f64::max)
+}
+
+/// The largest finite |E| and |Eₜ| over both sides of the interface samples whose position
+/// `keep` accepts.
+pub fn interface_peak(rows: &[engine::InterfaceSample], keep: impl Fn(mesher::Xy) -> bool) -> (f64, f64) {
+    rows.iter()
+        .filter(|r| keep(r.at))
+        .flat_map(|r| std::iter::once(&r.first).chain(r.second.as_ref()))
+        .map(|f| (f.e_n.hypot(f.e_t), f.e_t.abs()))
+        .filter(|(e, _)| e.is_finite())
+        .fold((0.0, 0.0), |m, (e, et)| (m.0.max(e), m.1.max(et)))
 }
 
 /// Writes fields.vtu, the probe CSVs and the `extra` files (name, contents) into `out`,
