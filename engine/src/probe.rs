@@ -122,23 +122,8 @@ struct TriangleGrid {
 
 impl TriangleGrid {
     fn new(mesh: &Mesh) -> TriangleGrid {
-        let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
-        for p in &mesh.nodes {
-            bb = [bb[0].min(p[0]), bb[1].min(p[1]), bb[2].max(p[0]), bb[3].max(p[1])];
-        }
-        let boxes: Vec<[f64; 4]> = mesh
-            .triangles
-            .iter()
-            .map(|t| {
-                let ps = t.map(|i| mesh.nodes[i as usize]);
-                let (xmin, xmax) = (ps[0][0].min(ps[1][0]).min(ps[2][0]), ps[0][0].max(ps[1][0]).max(ps[2][0]));
-                let (ymin, ymax) = (ps[0][1].min(ps[1][1]).min(ps[2][1]), ps[0][1].max(ps[1][1]).max(ps[2][1]));
-                // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
-                let pad = 0.1 * (xmax - xmin).max(ymax - ymin);
-                [xmin - pad, ymin - pad, xmax + pad, ymax + pad]
-            })
-            .collect();
-        TriangleGrid { grid: BucketGrid::new(&boxes, bb) }
+        // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
+        TriangleGrid { grid: mesher::triangle_grid(mesh, 0.1) }
     }
 
     fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {

@@ -94,3 +94,24 @@ pub(crate) fn segment_grid(pts: &[Xy], segs: &[[u32; 2]], bbox: [f64; 4]) -> Buc
         .collect();
     BucketGrid::new(&boxes, bbox)
 }
+
+/// Bucket grid over the vertex triangles of `mesh`, each bounding box padded by `pad` times
+/// its larger side (curved P2 edges bulge a few per cent beyond their vertices), over the
+/// union of the boxes: point location for size lookups and field probes.
+pub fn triangle_grid(mesh: &crate::Mesh, pad: f64) -> BucketGrid {
+    let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
+    let boxes: Vec<[f64; 4]> = mesh
+        .triangles
+        .iter()
+        .map(|t| {
+            let p = t.map(|i| mesh.nodes[i as usize]);
+            let (xmin, xmax) = (p[0][0].min(p[1][0]).min(p[2][0]), p[0][0].max(p[1][0]).max(p[2][0]));
+            let (ymin, ymax) = (p[0][1].min(p[1][1]).min(p[2][1]), p[0][1].max(p[1][1]).max(p[2][1]));
+            let d = pad * (xmax - xmin).max(ymax - ymin);
+            let b = [xmin - d, ymin - d, xmax + d, ymax + d];
+            bb = [bb[0].min(b[0]), bb[1].min(b[1]), bb[2].max(b[2]), bb[3].max(b[3])];
+            b
+        })
+        .collect();
+    BucketGrid::new(&boxes, bb)
+}

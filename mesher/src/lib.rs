@@ -64,7 +64,7 @@ mod vtu;
 pub use corners::{conical_exponent, legendre_p, wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
 pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
-pub use grid::BucketGrid;
+pub use grid::{triangle_grid, BucketGrid};
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
 pub use size_field::{BackgroundSize, SizeField};

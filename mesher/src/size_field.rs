@@ -64,23 +64,7 @@ impl BackgroundSize {
     pub fn new(mesh: &crate::Mesh, sizes_m: Vec<f64>) -> BackgroundSize {
         assert_eq!(sizes_m.len(), mesh.triangles.len(), "one size per triangle");
         let nodes = mesh.nodes.clone();
-        let mut bb = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
-        let boxes: Vec<[f64; 4]> = mesh
-            .triangles
-            .iter()
-            .map(|t| {
-                let p = t.map(|i| nodes[i as usize]);
-                let b = [
-                    p[0][0].min(p[1][0]).min(p[2][0]),
-                    p[0][1].min(p[1][1]).min(p[2][1]),
-                    p[0][0].max(p[1][0]).max(p[2][0]),
-                    p[0][1].max(p[1][1]).max(p[2][1]),
-                ];
-                bb = [bb[0].min(b[0]), bb[1].min(b[1]), bb[2].max(b[2]), bb[3].max(b[3])];
-                b
-            })
-            .collect();
-        let grid = crate::grid::BucketGrid::new(&boxes, bb);
+        let grid = crate::grid::triangle_grid(mesh, 0.0);
         BackgroundSize { nodes, triangles: mesh.triangles.clone(), sizes: sizes_m, grid }
     }
 
