@@ -85,6 +85,15 @@ fn round(kind: &str, name: &str, r: f64) -> Outline {
 /// # Panics
 /// If meshing or solving fails (a case must always run).
 pub fn run_case(case: &Case, order: u8, max_size_m: f64) -> (f64, usize) {
+    let (_, _, sol) = solve_case(case, order, max_size_m);
+    (sol.conductor_charges[0] / case.potential_v, sol.num_unknowns)
+}
+
+/// The mesh, problem and solution of a case (region 0 is the outermost layer).
+///
+/// # Panics
+/// If meshing or solving fails (a case must always run).
+pub fn solve_case(case: &Case, order: u8, max_size_m: f64) -> (mesher::Mesh, Problem, engine::Solution) {
     let symmetry = if case.kind == "coaxial" { Symmetry::Planar } else { Symmetry::Axisymmetric };
     let n = case.permittivity.len();
     // Paint order: outermost layer first (it is the domain), inner layers over it, then
@@ -123,7 +132,7 @@ pub fn run_case(case: &Case, order: u8, max_size_m: f64) -> (f64, usize) {
         ..Default::default()
     };
     let sol = solve(&mesh, &problem).unwrap();
-    (sol.conductor_charges[0] / case.potential_v, sol.num_unknowns)
+    (mesh, problem, sol)
 }
 
 #[cfg(test)]
@@ -236,37 +245,9 @@ mod peak_field {
         }
     }
 
-    /// Largest element |E| in the dielectric, and the unknowns.
+    /// Largest |E| in the dielectric (its peak region value), and the unknowns.
     fn peak_of(case: &Case, order: u8, h: f64) -> (f64, usize) {
-        let shapes = vec![
-            Shape {
-                name: "gap".into(),
-                outline: round(&case.kind, "gap", case.radii_m[1]),
-                fill: Fill::Dielectric { permittivity: case.permittivity[0] },
-                max_size_m: None,
-            },
-            Shape {
-                name: "inner".into(),
-                outline: round(&case.kind, "inner", case.radii_m[0]),
-                fill: Fill::Conductor { conductor: 0 },
-                max_size_m: None,
-            },
-        ];
-        let geo = Geometry {
-            symmetry: Symmetry::Planar,
-            shapes,
-            conductors: vec!["inner".into()],
-            outer: OuterBoundary::FixedPotential,
-            size_points: vec![],
-        };
-        let mesh = generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(h)).unwrap().mesh;
-        let problem = Problem {
-            permittivity: vec![case.permittivity[0], f64::NAN],
-            conductors: vec![ConductorSpec::Fixed { potential_v: case.potential_v }],
-            outer_potential_v: Some(0.0),
-            ..Default::default()
-        };
-        let sol = solve(&mesh, &problem).unwrap();
+        let (mesh, problem, sol) = solve_case(case, order, h);
         let f = engine::element_fields(&mesh, &problem, &sol);
         (f.region_peaks[0].e_max_v_per_m, sol.num_unknowns)
     }
