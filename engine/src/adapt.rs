@@ -211,21 +211,16 @@ pub fn adapt_watching(
         } else {
             None
         };
-        let (sizes, predicted) = new_sizes(&mesh, &est, ap, p);
-        let ratio = solution.num_unknowns as f64 / mesh.triangles.len() as f64;
-        let stop = stop.or_else(|| {
-            (predicted * ratio > ap.max_unknowns as f64).then(|| {
-                (
-                    false,
-                    format!(
-                        "not converged: the next mesh would exceed {} unknowns; estimated error {rel:.2e}, last change {max_change:.2e}",
-                        ap.max_unknowns
-                    ),
-                )
-            })
-        });
         if let Some((converged, reason)) = stop {
             return Ok(AdaptOutcome { converged, reason, history, mesh, solution, capacitance, estimate: est });
+        }
+        let (sizes, predicted) = new_sizes(&mesh, &est, ap, p);
+        if predicted * solution.num_unknowns as f64 / mesh.triangles.len() as f64 > ap.max_unknowns as f64 {
+            let reason = format!(
+                "not converged: the next mesh would exceed {} unknowns; estimated error {rel:.2e}, last change {max_change:.2e}",
+                ap.max_unknowns
+            );
+            return Ok(AdaptOutcome { converged: false, reason, history, mesh, solution, capacitance, estimate: est });
         }
         background = Some(BackgroundSize::new(&mesh, sizes));
     }
