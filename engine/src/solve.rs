@@ -156,8 +156,6 @@ struct System {
     coupling: Vec<Vec<f64>>,
     /// A position per unknown for the ordering (None for floating conductors).
     positions: Vec<Option<[f64; 2]>>,
-    /// Quadratic elements (ordered by AMD, see [`Factor::new`]).
-    quadratic: bool,
     /// Space-charge load ∫ρφ w dA per unknown, if any region carries space charge.
     load: Option<Vec<f64>>,
 }
@@ -330,7 +328,6 @@ impl System {
             matrix,
             coupling,
             positions,
-            quadratic: p2,
             load: if has_space_charge { Some(load) } else { None },
         })
     }
@@ -448,26 +445,14 @@ struct Factor {
 }
 
 impl Factor {
-    /// Orders, then factorises. Linear elements use the geometric nested dissection of
-    /// `ordering`; quadratic ones use faer's AMD, because on P2 meshes the bisection
-    /// separators cut through elements and come out thick (measured in
-    /// `bench-results/solve.md`: ND numeric factorisation 0.74–0.77× AMD's time for P1 at
-    /// 10⁶ unknowns, but 1.15× for P2).
+    /// Orders (geometric nested dissection, [`nested_dissection`]), then factorises.
     fn new(system: &System) -> Result<Factor, SolveError> {
         let m = system.num_unknowns();
         let a = system.matrix.as_ref();
         let t0 = Instant::now();
-        let (fwd, inv) = if system.quadratic {
-            (Vec::new(), Vec::new())
-        } else {
-            nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions)
-        };
+        let (fwd, inv) = nested_dissection(a.symbolic().col_ptr(), a.symbolic().row_idx(), &system.positions);
         let t1 = Instant::now();
-        let ordering = if system.quadratic {
-            SymmetricOrdering::Amd
-        } else {
-            SymmetricOrdering::Custom(PermRef::new_checked(&fwd, &inv, m))
-        };
+        let ordering = SymmetricOrdering::Custom(PermRef::new_checked(&fwd, &inv, m));
         let symbolic = factorize_symbolic_cholesky(a.symbolic(), Side::Lower, ordering, Default::default())
             .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
         let t2 = Instant::now();
