@@ -39,9 +39,7 @@ use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::{BackgroundSize, SizeField};
-use spade::handles::FixedVertexHandle;
 use spade::{AngleLimit, ConstrainedDelaunayTriangulation, Point2, RefinementParameters, Triangulation};
-use std::collections::VecDeque;
 
 type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
 
@@ -255,13 +253,13 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
 ///
 /// A leaf of side s at local size h receives k × k points (k = round(s/h) ≥ 1) on rows of
 /// spacing d = s/k, alternate rows shifted by ±d/4, which triangulates into isosceles
-/// triangles with angles of about 53° and 63°. Points outside the domain or closer than
-/// d/2 to a boundary segment are dropped; Delaunay refinement repairs the seams between
+/// triangles with angles of about 53° and 63°. Points outside the dielectric (outside the domain
+/// or inside a conductor) or closer than d/2 to a boundary segment are dropped; Delaunay
+/// refinement repairs the seams between
 /// leaves of different sizes and the layer along the boundary.
 fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Vec<Xy> {
     let bb = geo.bbox();
     let side = (bb[2] - bb[0]).max(bb[3] - bb[1]);
-    let domain = &geo.shapes[0].outline;
     let mut out = Vec::new();
     let mut stack = vec![([bb[0] + side / 2.0, bb[1] + side / 2.0], side, 0u32)];
     while let Some((c, s, depth)) = stack.pop() {
@@ -277,18 +275,35 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
             }
             continue;
         }
-        if h >= 0.95 * field.max() {
+        if std::env::var("SEEDALL").is_err() && h >= 0.95 * field.max() {
             // Uniform zone: Delaunay refinement with the global area bound fills it
             // (faster than bulk-loading seeds there).
             continue;
         }
         let k = ((s / h).round() as usize).clamp(1, 4);
         let d = s / k as f64;
+        // Seeds inside a conductor would only be meshed to be thrown away. A leaf that no
+        // boundary segment comes near lies in one region, classified once at its centre;
+        // the others classify each seed.
+        let mut near_boundary = false;
+        grid.for_each_near(c, 0.75 * s, |si| {
+            if !near_boundary {
+                let [a, b] = pslg.segments[si as usize];
+                near_boundary = point_segment_distance(c, pslg.points[a as usize], pslg.points[b as usize]) < 0.75 * s;
+            }
+        });
+        let leaf_side = (!near_boundary).then(|| side_at(geo, c));
+        if matches!(leaf_side, Some(side) if !matches!(side, Side::Region(_))) {
+            continue;
+        }
         for j in 0..k {
             let shift = if (j + depth as usize).is_multiple_of(2) { 0.25 * d } else { -0.25 * d };
             for i in 0..k {
                 let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
-                if p[0] > bb[2] || p[1] > bb[3] || !domain.contains(p) {
+                if p[0] > bb[2] || p[1] > bb[3] {
+                    continue;
+                }
+                if leaf_side.is_none() && !matches!(side_at(geo, p), Side::Region(_)) {
                     continue;
                 }
                 // Keep clear of the boundary: at least half the spacing from every segment.
@@ -396,8 +411,10 @@ fn triangulate(
         .with_max_allowed_area(eq * (1.3 * h_max) * (1.3 * h_max))
         .with_min_required_area(eq * 0.1 * floor * floor)
         .with_max_additional_vertices(budget);
+
     let result = cdt.refine(rp);
     clock.lap("spade refine");
+
     Ok((cdt, result.refinement_complete && n_in <= params.max_nodes))
 }
 
@@ -411,53 +428,12 @@ fn extract(
 ) -> Result<Mesh, MeshError> {
     let scale = geo.scale();
     let nf = cdt.num_all_faces();
-    // Component labels by flood fill across non-constraint edges.
+    // Components by flood fill across non-constraint edges; each is classified once, then
+    // its triangles are emitted at once (flood order keeps neighbours close in memory).
     let mut label: Vec<Option<Side>> = vec![None; nf];
-    let mut queue = VecDeque::new();
+    let mut stack = Vec::new();
     let mut members = Vec::new();
-    for f in cdt.inner_faces() {
-        let fi = f.fix().index();
-        if label[fi].is_some() {
-            continue;
-        }
-        members.clear();
-        label[fi] = Some(Side::Outside); // provisional, marks "visited"
-        queue.push_back(f.fix());
-        let mut best = (f64::NEG_INFINITY, [0.0, 0.0]);
-        // A component reachable from the unbounded outer face without crossing a
-        // constraint is outside the domain, whatever a point test says (a sliver between
-        // nearly collinear boundary pieces has its centroid on the boundary itself).
-        let mut touches_outer = false;
-        while let Some(h) = queue.pop_front() {
-            let face = cdt.face(h);
-            members.push(h.index());
-            let a = face.area();
-            if a > best.0 {
-                let c = face.center();
-                best = (a, [c.x, c.y]);
-            }
-            for e in face.adjacent_edges() {
-                if e.as_undirected().is_constraint_edge() {
-                    continue;
-                }
-                match e.rev().face().as_inner() {
-                    Some(nb) => {
-                        if label[nb.fix().index()].is_none() {
-                            label[nb.fix().index()] = Some(Side::Outside);
-                            queue.push_back(nb.fix());
-                        }
-                    }
-                    None => touches_outer = true,
-                }
-            }
-        }
-        let side = if touches_outer { Side::Outside } else { side_at(geo, best.1) };
-        for &m in &members {
-            label[m] = Some(side);
-        }
-    }
-    let face_side = |fi: usize| label[fi].unwrap_or(Side::Outside);
-    // Nodes: positions of all CDT vertices; compacted after we know which are used.
+    // Nodes: positions of all CDT vertices; compacted to the ones dielectric triangles use.
     let all: Vec<Xy> = cdt
         .vertices()
         .map(|v| {
@@ -469,23 +445,66 @@ fn extract(
     let mut nodes: Vec<Xy> = Vec::new();
     let mut triangles = Vec::new();
     let mut regions = Vec::new();
-    let mut node_id = |v: FixedVertexHandle, nodes: &mut Vec<Xy>| -> u32 {
-        let i = v.index();
-        if map[i] == u32::MAX {
-            map[i] = nodes.len() as u32;
-            nodes.push(all[i]);
-        }
-        map[i]
-    };
     for f in cdt.inner_faces() {
-        if let Side::Region(r) = face_side(f.fix().index()) {
-            let vs = f.vertices();
-            let tri =
-                [node_id(vs[0].fix(), &mut nodes), node_id(vs[1].fix(), &mut nodes), node_id(vs[2].fix(), &mut nodes)];
+        let fi = f.fix().index();
+        if label[fi].is_some() {
+            continue;
+        }
+        members.clear();
+        label[fi] = Some(Side::Outside); // provisional, marks "visited"
+        stack.push(f.fix());
+        let mut best = (f64::NEG_INFINITY, [0.0, 0.0]);
+        // A component reachable from the unbounded outer face without crossing a
+        // constraint is outside the domain, whatever a point test says (a sliver between
+        // nearly collinear boundary pieces has its centroid on the boundary itself).
+        let mut touches_outer = false;
+        while let Some(h) = stack.pop() {
+            let face = cdt.face(h);
+            // The component is classified at the centroid of its largest face among the
+            // first few found: enough to step off slivers, without an area per face.
+            if members.len() < 64 {
+                let a = face.area();
+                if a > best.0 {
+                    let c = face.center();
+                    best = (a, [c.x, c.y]);
+                }
+            }
+            members.push(h);
+            for e in face.adjacent_edges() {
+                if e.as_undirected().is_constraint_edge() {
+                    continue;
+                }
+                match e.rev().face().as_inner() {
+                    Some(nb) => {
+                        let ni = nb.fix().index();
+                        if label[ni].is_none() {
+                            label[ni] = Some(Side::Outside);
+                            stack.push(nb.fix());
+                        }
+                    }
+                    None => touches_outer = true,
+                }
+            }
+        }
+        let side = if touches_outer { Side::Outside } else { side_at(geo, best.1) };
+        for &m in &members {
+            label[m.index()] = Some(side);
+        }
+        let Side::Region(r) = side else { continue };
+        for &m in &members {
+            let tri = cdt.face(m).vertices().map(|v| {
+                let i = v.fix().index();
+                if map[i] == u32::MAX {
+                    map[i] = nodes.len() as u32;
+                    nodes.push(all[i]);
+                }
+                map[i]
+            });
             triangles.push(tri);
             regions.push(r);
         }
     }
+    let face_side = |fi: usize| label[fi].unwrap_or(Side::Outside);
     // Tagged edges.
     let axisym = geo.symmetry == Symmetry::Axisymmetric;
     let mut edges = Vec::new();
