@@ -204,12 +204,18 @@ pub fn run(run: &CheckRun) -> Result<()> {
     );
     bar.enable_steady_tick(std::time::Duration::from_millis(200));
     bar.set_message("mesh 1: meshing and solving");
-    let ap = AdaptParams {
+    let mut ap = AdaptParams {
         tolerance: run.tolerance,
         max_iterations: run.max_meshes,
         max_unknowns: run.max_unknowns,
         ..Default::default()
     };
+    if model.sets_min_angle {
+        ap.mesh.min_angle_deg = None;
+    }
+    if model.sets_gradation {
+        ap.mesh.gradation = None;
+    }
     let mut meshes_done = 0usize;
     // The discs around singular points and the list of quantities come from the first mesh
     // (the singular points and regions are the geometry's, the same on every mesh).

@@ -211,6 +211,11 @@ pub struct Model {
     pub geometry: Geometry,
     /// Meshing parameters in SI units.
     pub params: RefineParams,
+    /// The model sets `[mesh] min_angle_deg` and `[mesh] gradation` itself (the adaptive
+    /// loop of `check` keeps them then, instead of its own choice).
+    pub sets_min_angle: bool,
+    /// See `sets_min_angle`.
+    pub sets_gradation: bool,
     /// Materials.
     pub materials: Vec<Material>,
     /// Material index of each shape (None for conductor shapes).
@@ -690,8 +695,11 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     // [mesh]
     let mut params = RefineParams::new();
     let mut size_points = Vec::new();
+    let (mut sets_min_angle, mut sets_gradation) = (false, false);
     if let Some(m) = &raw.mesh {
         let m = m.get_ref();
+        sets_min_angle = m.min_angle_deg.is_some();
+        sets_gradation = m.gradation.is_some();
         if let Some(h) = &m.max_size {
             params = params.with_max_size_m(positive(h, "mesh.max_size".into(), "max_size")? * unit_m);
         }
@@ -854,6 +862,8 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         name,
         geometry,
         params,
+        sets_min_angle,
+        sets_gradation,
         materials,
         shape_material,
         shape_charge_density,

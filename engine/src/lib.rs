@@ -72,7 +72,7 @@ mod singular;
 mod solve;
 pub mod space;
 
-pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, Watched};
+pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, Watched};
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};

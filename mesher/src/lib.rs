@@ -58,6 +58,7 @@ mod grid;
 mod mesh;
 mod refine;
 mod size_field;
+mod smooth;
 mod triangulate;
 mod vtu;
 

@@ -32,6 +32,9 @@ pub struct RefineParams {
     /// Budget: the run stops adding nodes past this count and reports `complete = false`.
     /// Default 4 000 000.
     pub max_nodes: usize,
+    /// Sweeps of vertex smoothing after refinement (see the `smooth` module), at most 20.
+    /// Default 0.
+    pub smoothing_passes: usize,
 }
 
 impl Default for RefineParams {
@@ -42,7 +45,7 @@ impl Default for RefineParams {
 
 impl RefineParams {
     /// The defaults: automatic max size, order 2, 30°, gradation 1.3, chord tolerance 0.025,
-    /// grading fraction 0.85, grading on, 4·10⁶ nodes at most.
+    /// grading fraction 0.85, grading on, 4·10⁶ nodes at most, no smoothing.
     pub fn new() -> Self {
         RefineParams {
             max_size_m: None,
@@ -54,6 +57,7 @@ impl RefineParams {
             grading_fraction: 0.85,
             grade_corners: true,
             max_nodes: 4_000_000,
+            smoothing_passes: 0,
         }
     }
 
@@ -102,6 +106,11 @@ impl RefineParams {
         self.max_nodes = n;
         self
     }
+    /// Sets the number of smoothing sweeps.
+    pub fn with_smoothing_passes(mut self, n: usize) -> Self {
+        self.smoothing_passes = n;
+        self
+    }
 
     /// Checks every parameter against its range.
     ///
@@ -142,6 +151,7 @@ impl RefineParams {
             "strictly between 0 and 1",
         )?;
         check("max_nodes", self.max_nodes as f64, self.max_nodes >= 16, "at least 16")?;
+        check("smoothing_passes", self.smoothing_passes as f64, self.smoothing_passes <= 20, "at most 20")?;
         Ok(())
     }
 }

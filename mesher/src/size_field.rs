@@ -14,12 +14,17 @@
 //! A singular point c of exponent λ, for elements of order p, is graded as
 //!
 //! ```text
-//! h_c(r) = h₀·(r/R)^(1−μ)  for r < R,      h₀ + (g − 1)(r − R)  beyond,      μ = f·λ/p,
+//! h_c(r) = max(h₀·(r/R)^(1−μ), r₀)  for r < R,   h₀ + (g − 1)(r − R)  beyond,   μ = f·λ/p,
 //! ```
 //!
 //! with r the distance to the point, h₀ the size the other sources ask for there, R the
 //! grading radius (half the shortest piece meeting at the point, so it stays fixed under
-//! refinement), and f < 1 the grading fraction (default 0.85). Babuška, Kellogg and
+//! refinement), and f < 1 the grading fraction (default 0.85). The innermost size
+//! r₀ = R·(h₀/R)^(1/μ) is where the law meets h = r: the graded meshes of the theory keep
+//! the elements within r₀ of the point at size r₀ (Apel, Sändig & Whiteman 1996), and
+//! without it the law would drive the size at the point down to the floor, whose tiny
+//! elements cost unknowns and then limit the accuracy (quadratic elements on the
+//! L-shaped benchmark levelled off near 3·10⁻⁵). Babuška, Kellogg and
 //! Pitkäranta showed that meshes graded with μ < λ/p restore the optimal convergence rate
 //! O(N^(−p/2)) of the energy error for a singularity r^λ; with a uniform mesh the rate drops to
 //! O(N^(−λ/2)).
@@ -46,11 +51,26 @@ enum Source {
 
 /// Element sizes given on the triangles of an earlier mesh (what an error estimate asks
 /// for); points outside every triangle get no size from it.
+///
+/// The sizes are turned into a continuous field: each vertex takes the geometric mean of
+/// the sizes of its triangles (the smallest of them refined a ring of triangles around
+/// every request and cost about twice the unknowns on the adaptive L-shape benchmark), the
+/// vertex sizes are limited so that along every edge they grow by at
+/// most the field's gradation slope (a shortest-path pass over the edges, run by
+/// [`SizeField::add_background`]), and a point takes the linear interpolation of its
+/// triangle's vertex sizes, or the size of one of its vertices grown at the gradation slope
+/// over the distance to it, whichever is smaller. A size per triangle sampled as it stands would be
+/// discontinuous, depend on which triangle answers at shared edges and vertices, and let
+/// a small request on a small triangle (the one at a singular corner) slip between the
+/// sample points of the seeding and of the boundary spacing.
 #[derive(Clone, Debug)]
 pub struct BackgroundSize {
     nodes: Vec<Xy>,
     triangles: Vec<[u32; 3]>,
-    sizes: Vec<f64>,
+    /// Size per vertex.
+    vertex_sizes: Vec<f64>,
+    /// Growth of the size per metre away from a vertex (the gradation slope).
+    slope: f64,
     grid: crate::grid::BucketGrid,
 }
 
@@ -63,25 +83,95 @@ impl BackgroundSize {
     #[track_caller]
     pub fn new(mesh: &crate::Mesh, sizes_m: Vec<f64>) -> BackgroundSize {
         assert_eq!(sizes_m.len(), mesh.triangles.len(), "one size per triangle");
-        let nodes = mesh.nodes.clone();
+        let nv = mesh.num_vertices as usize;
+        let nodes = mesh.nodes[..nv].to_vec();
+        // Geometric mean of the sizes of the vertex's triangles.
+        let mut log_sum = vec![0.0; nv];
+        let mut count = vec![0u32; nv];
+        for (tri, &h) in mesh.triangles.iter().zip(&sizes_m) {
+            for &v in tri {
+                log_sum[v as usize] += h.ln();
+                count[v as usize] += 1;
+            }
+        }
+        let vertex_sizes: Vec<f64> = log_sum
+            .iter()
+            .zip(&count)
+            .map(|(&l, &c)| if c == 0 { f64::INFINITY } else { (l / c as f64).exp() })
+            .collect();
         let grid = crate::grid::triangle_grid(mesh, 0.0);
-        BackgroundSize { nodes, triangles: mesh.triangles.clone(), sizes: sizes_m, grid }
+        BackgroundSize { nodes, triangles: mesh.triangles.clone(), vertex_sizes, slope: f64::INFINITY, grid }
     }
 
-    /// The size of the triangle containing `p`, if any.
+    /// Limits the vertex sizes so that they grow by at most `slope` per metre along every
+    /// edge: Dijkstra's shortest paths from every vertex at once, with h(v) = min over u of
+    /// h(u) + slope·|uv|.
+    fn limit_gradation(&mut self, slope: f64) {
+        self.slope = slope;
+        use std::cmp::Reverse;
+        use std::collections::BinaryHeap;
+        let nv = self.nodes.len();
+        let mut start = vec![0u32; nv + 1];
+        for tri in &self.triangles {
+            for &v in tri {
+                start[v as usize + 1] += 2;
+            }
+        }
+        for i in 0..nv {
+            start[i + 1] += start[i];
+        }
+        let mut fill = start.clone();
+        let mut adj = vec![0u32; start[nv] as usize];
+        for tri in &self.triangles {
+            for k in 0..3 {
+                let v = tri[k] as usize;
+                for d in [1, 2] {
+                    adj[fill[v] as usize] = tri[(k + d) % 3];
+                    fill[v] += 1;
+                }
+            }
+        }
+        // Sizes are positive, so their bit patterns order like the values.
+        let mut heap: BinaryHeap<Reverse<(u64, u32)>> =
+            (0..nv).map(|v| Reverse((self.vertex_sizes[v].to_bits(), v as u32))).collect();
+        while let Some(Reverse((bits, u))) = heap.pop() {
+            let hu = f64::from_bits(bits);
+            if hu > self.vertex_sizes[u as usize] {
+                continue;
+            }
+            let pu = self.nodes[u as usize];
+            for &w in &adj[start[u as usize] as usize..start[u as usize + 1] as usize] {
+                let cand = hu + slope * norm(sub(self.nodes[w as usize], pu));
+                if cand < self.vertex_sizes[w as usize] {
+                    self.vertex_sizes[w as usize] = cand;
+                    heap.push(Reverse((cand.to_bits(), w)));
+                }
+            }
+        }
+    }
+
+    /// The size at `p`, interpolated in the triangle containing it, if any.
     pub fn size_at(&self, p: Xy) -> Option<f64> {
         let mut found = None;
         self.grid.for_each_near(p, 0.0, |t| {
             if found.is_some() {
                 return;
             }
-            let [a, b, c] = self.triangles[t as usize].map(|i| self.nodes[i as usize]);
+            let tri = self.triangles[t as usize];
+            let [a, b, c] = tri.map(|i| self.nodes[i as usize]);
             let d = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
             let l1 = ((b[0] - p[0]) * (c[1] - p[1]) - (c[0] - p[0]) * (b[1] - p[1])) / d;
             let l2 = ((c[0] - p[0]) * (a[1] - p[1]) - (a[0] - p[0]) * (c[1] - p[1])) / d;
             let l3 = 1.0 - l1 - l2;
             if l1 >= -1e-9 && l2 >= -1e-9 && l3 >= -1e-9 {
-                found = Some(self.sizes[t as usize]);
+                let h = tri.map(|i| self.vertex_sizes[i as usize]);
+                let (l1, l2, l3) = (l1.clamp(0.0, 1.0), l2.clamp(0.0, 1.0), l3.clamp(0.0, 1.0));
+                let linear = (l1 * h[0] + l2 * h[1] + l3 * h[2]) / (l1 + l2 + l3);
+                // The cone of each vertex: a small size at a vertex (a singular point) grows
+                // at the gradation slope, not across the whole triangle as the linear
+                // interpolation would, which the seeding could not follow.
+                let cone = (0..3).map(|k| h[k] + self.slope * norm(sub(p, [a, b, c][k]))).fold(f64::INFINITY, f64::min);
+                found = Some(linear.min(cone));
             }
         });
         found
@@ -125,11 +215,13 @@ impl SizeField {
     }
 
     /// Adds sizes given on an earlier mesh (the adaptive loop's request).
-    pub fn add_background(&mut self, bg: BackgroundSize) {
+    pub fn add_background(&mut self, mut bg: BackgroundSize) {
+        bg.limit_gradation(self.slope);
         self.sources.push(Source::Background(std::sync::Arc::new(bg)));
     }
 
-    /// Adds grading towards a point: `h₀·(r/R)^(1−μ)` inside radius `R`.
+    /// Adds grading towards a point: `h₀·(r/R)^(1−μ)` inside radius `R`, never below the
+    /// innermost size `R·(h₀/R)^(1/μ)`.
     pub fn add_corner(&mut self, at: Xy, h0: f64, radius: f64, mu: f64) {
         self.sources.push(Source::Corner { at, h0, radius, mu });
     }
@@ -172,7 +264,8 @@ impl SizeField {
                 Source::Corner { at, h0, radius, mu } => {
                     let r = norm(sub(p, *at));
                     if r < *radius {
-                        h0 * (r / radius).powf(1.0 - mu)
+                        let innermost = radius * (h0 / radius).powf(1.0 / mu);
+                        (h0 * (r / radius).powf(1.0 - mu)).max(innermost)
                     } else {
                         h0 + self.slope * (r - radius)
                     }
@@ -192,9 +285,15 @@ mod tests {
     fn corner_grading_law() {
         let mut f = SizeField::uniform(1.0, 1.3, 1e-9);
         f.add_corner([0.0, 0.0], 0.1, 0.5, 0.3);
-        for r in [1e-4, 1e-3, 1e-2, 0.1, 0.4] {
+        // Innermost size r₀ = R·(h₀/R)^(1/μ) = 0.5·0.2^(10/3) ≈ 2.34e-3, where the law meets h = r.
+        let r0 = 0.5 * 0.2f64.powf(1.0 / 0.3);
+        assert!((r0 - 0.1 * (r0 / 0.5_f64).powf(0.7)).abs() < 1e-12);
+        for r in [3e-3, 1e-2, 0.1, 0.4] {
             let want = 0.1 * (r / 0.5_f64).powf(0.7);
             assert!((f.size_at([r, 0.0]) - want).abs() <= 4.0 * f64::EPSILON * want);
+        }
+        for r in [0.0, 1e-6, 1e-3, 2e-3] {
+            assert!((f.size_at([r, 0.0]) - r0).abs() <= 1e-15, "r {r}: {}", f.size_at([r, 0.0]));
         }
         // Beyond R the size grows linearly with slope g − 1 and is capped by h_max.
         assert!((f.size_at([1.5, 0.0]) - (0.1 + 0.3 * 1.0)).abs() < 1e-12);

@@ -109,6 +109,7 @@ pub fn generate_with(
     });
     let (cdt, complete) = triangulate(&pslg, &seeds, frame.as_deref().unwrap_or(&[]), &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
+    crate::smooth::smooth(&mut mesh, params.smoothing_passes);
     if geo.outer == OuterBoundary::Open {
         let (c, r) = crate::exterior::domain_circle(geo)?;
         crate::exterior::attach(&mut mesh, c, r, params.gradation)?;
@@ -267,7 +268,22 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         if c[0] - s / 2.0 > bb[2] || c[1] - s / 2.0 > bb[3] {
             continue;
         }
-        let h = field.size_at(c);
+        let mut h = field.size_at(c);
+        // A leaf must not be larger than twice the size anywhere in it, and its centre
+        // stands for it, unless a boundary crosses the cell and the centre lies inside a
+        // conductor or outside the domain: there a size requested on an earlier mesh is not
+        // defined, while a singular corner in the cell may ask for much less. The cell's
+        // corners are sampled then.
+        let mut near_boundary = None;
+        if s <= 2.0 * h {
+            let near = near_segment(pslg, grid, c, 0.75 * s);
+            if near && !matches!(side_at(geo, c), Side::Region(_)) {
+                for (dx, dy) in [(-0.5, -0.5), (0.5, -0.5), (-0.5, 0.5), (0.5, 0.5)] {
+                    h = h.min(field.size_at([c[0] + dx * s, c[1] + dy * s]));
+                }
+            }
+            near_boundary = Some(near);
+        }
         if s > 2.0 * h && depth < 40 {
             let q = s / 4.0;
             for (dx, dy) in [(-q, -q), (q, -q), (-q, q), (q, q)] {
@@ -275,7 +291,7 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
             }
             continue;
         }
-        if std::env::var("SEEDALL").is_err() && h >= 0.95 * field.max() {
+        if h >= 0.95 * field.max() {
             // Uniform zone: Delaunay refinement with the global area bound fills it
             // (faster than bulk-loading seeds there).
             continue;
@@ -285,13 +301,7 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         // Seeds inside a conductor would only be meshed to be thrown away. A leaf that no
         // boundary segment comes near lies in one region, classified once at its centre;
         // the others classify each seed.
-        let mut near_boundary = false;
-        grid.for_each_near(c, 0.75 * s, |si| {
-            if !near_boundary {
-                let [a, b] = pslg.segments[si as usize];
-                near_boundary = point_segment_distance(c, pslg.points[a as usize], pslg.points[b as usize]) < 0.75 * s;
-            }
-        });
+        let near_boundary = near_boundary.unwrap_or_else(|| near_segment(pslg, grid, c, 0.75 * s));
         let leaf_side = (!near_boundary).then(|| side_at(geo, c));
         if matches!(leaf_side, Some(side) if !matches!(side, Side::Region(_))) {
             continue;
@@ -324,6 +334,18 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         }
     }
     out
+}
+
+/// True when a boundary segment passes within `r` of `c`.
+fn near_segment(pslg: &Pslg, grid: &BucketGrid, c: Xy, r: f64) -> bool {
+    let mut near = false;
+    grid.for_each_near(c, r, |si| {
+        if !near {
+            let [a, b] = pslg.segments[si as usize];
+            near = point_segment_distance(c, pslg.points[a as usize], pslg.points[b as usize]) < r;
+        }
+    });
+    near
 }
 
 /// True when the domain's outline has consecutive straight pieces that are collinear in

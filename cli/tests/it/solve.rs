@@ -26,7 +26,14 @@ fn solve_writes_consistent_results() {
     // Peak fields: every dielectric region reported, with a location inside the model.
     let regions = j["regions"].as_array().unwrap();
     assert_eq!(regions.len(), 2);
-    assert_eq!(regions[0]["near_singular_point"], "S1");
+    // The air's peak on the default mesh is the genuine one on the busbar's 4 mm fillet
+    // (centre (36, −4) mm), not a singular corner of the neutral bar: those are listed
+    // with the mesh, and their mesh-dependent values grow only as the grading deepens.
+    let at = regions[0]["at_m"].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect::<Vec<_>>();
+    assert!(((at[0] - 0.036).hypot(at[1] + 0.004) - 0.004).abs() < 1e-4, "air peak at {at:?}");
+    assert!(regions[0]["near_singular_point"].is_null());
+    let sp = j["mesh"]["singular_points"].as_array().unwrap();
+    assert!(sp.iter().any(|p| p["x"].as_f64() == Some(70.0) && p["y"].as_f64() == Some(10.0)), "{sp:?}");
     let vtu = std::fs::read_to_string(out.join("fields.vtu")).unwrap();
     assert!(vtu.contains("Name=\"potential_V\"") && vtu.trim_end().ends_with("</VTKFile>"));
 }
@@ -86,7 +93,7 @@ fn interface_probe_obeys_the_interface_conditions() {
         let (x, y) = (f(1), f(2));
         let (et1, et2) = (f(6), f(10));
         assert!((et1 - et2).abs() <= 1e-9 * et1.abs().max(1.0), "Et {et1} vs {et2}");
-        let near = junctions.iter().any(|j| (j[0] - x).hypot(j[1] - y) < 2e-3);
+        let near = junctions.iter().any(|j| (j[0] - x).hypot(j[1] - y) < 3e-3);
         if !near {
             let (d1, d2) = (eps(&r[4]) * f(5), eps(&r[8]) * f(9));
             assert!((d1 - d2).abs() <= 0.02 * d1.abs().max(d2.abs()), "at ({x}, {y}): εEn {d1} vs {d2}");
