@@ -450,11 +450,67 @@ fn extract(
 ) -> Result<Mesh, MeshError> {
     let scale = geo.scale();
     let nf = cdt.num_all_faces();
-    // Components by flood fill across non-constraint edges; each is classified once, then
-    // its triangles are emitted at once (flood order keeps neighbours close in memory).
+    // Components: union–find over the faces, joined across every edge that is not a
+    // constraint (each face visited once, in storage order, which keeps memory access
+    // mostly sequential; a flood fill jumps around). A component that reaches the unbounded
+    // outer face is outside the domain, whatever a point test says (a sliver between nearly
+    // collinear boundary pieces has its centroid on the boundary itself).
+    let mut parent: Vec<u32> = (0..nf as u32).collect();
+    fn root(parent: &mut [u32], mut a: u32) -> u32 {
+        while parent[a as usize] != a {
+            let up = parent[parent[a as usize] as usize];
+            parent[a as usize] = up;
+            a = up;
+        }
+        a
+    }
+    let mut touches_outer = vec![false; nf];
+    for f in cdt.inner_faces() {
+        let fi = f.fix().index() as u32;
+        for e in f.adjacent_edges() {
+            if e.as_undirected().is_constraint_edge() {
+                continue;
+            }
+            match e.rev().face().as_inner() {
+                Some(nb) => {
+                    let ni = nb.fix().index() as u32;
+                    if ni < fi {
+                        let (ra, rb) = (root(&mut parent, fi), root(&mut parent, ni));
+                        if ra != rb {
+                            parent[ra.max(rb) as usize] = ra.min(rb);
+                        }
+                    }
+                }
+                None => touches_outer[fi as usize] = true,
+            }
+        }
+    }
+    // Each component is classified once, at the centroid of its largest face among the
+    // first few of it (enough to step off slivers, without an area per face).
+    let mut seen = vec![0u8; nf];
+    let mut best: Vec<(f64, Xy)> = vec![(f64::NEG_INFINITY, [0.0, 0.0]); nf];
+    let mut outside = vec![false; nf];
+    let mut roots = Vec::new();
+    for f in cdt.inner_faces() {
+        let fi = f.fix().index() as u32;
+        let r = root(&mut parent, fi) as usize;
+        if r == fi as usize {
+            roots.push(r);
+        }
+        outside[r] |= touches_outer[fi as usize];
+        if seen[r] < 64 {
+            seen[r] += 1;
+            let a = f.area();
+            if a > best[r].0 {
+                let c = f.center();
+                best[r] = (a, [c.x, c.y]);
+            }
+        }
+    }
     let mut label: Vec<Option<Side>> = vec![None; nf];
-    let mut stack = Vec::new();
-    let mut members = Vec::new();
+    for &r in &roots {
+        label[r] = Some(if outside[r] { Side::Outside } else { side_at(geo, best[r].1) });
+    }
     // Nodes: positions of all CDT vertices; compacted to the ones dielectric triangles use.
     let all: Vec<Xy> = cdt
         .vertices()
@@ -469,62 +525,19 @@ fn extract(
     let mut regions = Vec::new();
     for f in cdt.inner_faces() {
         let fi = f.fix().index();
-        if label[fi].is_some() {
-            continue;
-        }
-        members.clear();
-        label[fi] = Some(Side::Outside); // provisional, marks "visited"
-        stack.push(f.fix());
-        let mut best = (f64::NEG_INFINITY, [0.0, 0.0]);
-        // A component reachable from the unbounded outer face without crossing a
-        // constraint is outside the domain, whatever a point test says (a sliver between
-        // nearly collinear boundary pieces has its centroid on the boundary itself).
-        let mut touches_outer = false;
-        while let Some(h) = stack.pop() {
-            let face = cdt.face(h);
-            // The component is classified at the centroid of its largest face among the
-            // first few found: enough to step off slivers, without an area per face.
-            if members.len() < 64 {
-                let a = face.area();
-                if a > best.0 {
-                    let c = face.center();
-                    best = (a, [c.x, c.y]);
-                }
+        let side = label[root(&mut parent, fi as u32) as usize];
+        label[fi] = side;
+        let Some(Side::Region(r)) = side else { continue };
+        let tri = f.vertices().map(|v| {
+            let i = v.fix().index();
+            if map[i] == u32::MAX {
+                map[i] = nodes.len() as u32;
+                nodes.push(all[i]);
             }
-            members.push(h);
-            for e in face.adjacent_edges() {
-                if e.as_undirected().is_constraint_edge() {
-                    continue;
-                }
-                match e.rev().face().as_inner() {
-                    Some(nb) => {
-                        let ni = nb.fix().index();
-                        if label[ni].is_none() {
-                            label[ni] = Some(Side::Outside);
-                            stack.push(nb.fix());
-                        }
-                    }
-                    None => touches_outer = true,
-                }
-            }
-        }
-        let side = if touches_outer { Side::Outside } else { side_at(geo, best.1) };
-        for &m in &members {
-            label[m.index()] = Some(side);
-        }
-        let Side::Region(r) = side else { continue };
-        for &m in &members {
-            let tri = cdt.face(m).vertices().map(|v| {
-                let i = v.fix().index();
-                if map[i] == u32::MAX {
-                    map[i] = nodes.len() as u32;
-                    nodes.push(all[i]);
-                }
-                map[i]
-            });
-            triangles.push(tri);
-            regions.push(r);
-        }
+            map[i]
+        });
+        triangles.push(tri);
+        regions.push(r);
     }
     let face_side = |fi: usize| label[fi].unwrap_or(Side::Outside);
     // Tagged edges.
