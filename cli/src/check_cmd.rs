@@ -22,7 +22,7 @@ use crate::UserError;
 use anyhow::Result;
 use engine::{
     adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
-    singular_radius_above, AdaptParams, ConvergenceKind, Solution, Watched,
+    singular_field_factor, singular_radius_above, AdaptParams, ConvergenceKind, Solution, Watched,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -160,15 +160,19 @@ pub struct SingularResult {
     pub lambda: f64,
     /// The field is unbounded there (λ < 1).
     pub field_singular: bool,
-    /// Coefficient A of V ≈ V₀ + A·r^λ·sin(λφ), V/m^λ, by the dual singular function.
+    /// Coefficient A of V ≈ V₀ + A·r^λ·Φ(φ), V/m^λ, by the dual singular function (Φ = sin λφ
+    /// in the first dielectric sector from the conductor wall).
     pub coefficient: Option<f64>,
+    /// Field factor k: the largest |E| at distance r is ≈ k·|A|·r^(λ−1) (k = λ for one
+    /// dielectric).
+    pub field_factor: Option<f64>,
     /// The same by the ring fit (cross-check).
     pub coefficient_ring_fit: Option<f64>,
     /// Cut-off radius of the extraction, metres.
     pub extraction_radius_m: Option<f64>,
     /// The material's allowable stress there, kV/mm.
     pub allowable_kv_per_mm: Option<f64>,
-    /// Distance inside which |E| ≈ λ|A|r^(λ−1) exceeds the allowable stress, model unit.
+    /// Distance inside which |E| ≈ k|A|r^(λ−1) exceeds the allowable stress, model unit.
     pub radius_above_allowable: Option<f64>,
     /// The report line.
     pub note: String,
@@ -478,8 +482,9 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 ),
                 _ => (None, None),
             };
-            let radius_above = match (dual, allowable) {
-                (Some(c), Some(a)) if c != 0.0 => Some(singular_radius_above(s.lambda, c, a * 1e6) / k),
+            let factor = singular_field_factor(s);
+            let radius_above = match (dual, allowable, factor) {
+                (Some(c), Some(a), Some(f)) if c != 0.0 => Some(singular_radius_above(s.lambda, f, c, a * 1e6) / k),
                 _ => None,
             };
             let note = if !s.is_field_singular() {
@@ -488,9 +493,9 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 let mut n = format!(
                     "singular: λ = {:.4}, |E| ≈ {}·r^({:.4}); the peak field here is mesh-dependent and left out of the convergence criterion",
                     s.lambda,
-                    match dual {
-                        Some(c) => format!("{:.4e}", s.lambda * c.abs()),
-                        None => "λ·|A|".into(),
+                    match (dual, factor) {
+                        (Some(c), Some(f)) => format!("{:.4e}", f * c.abs()),
+                        _ => "k·|A|".into(),
                     },
                     s.lambda - 1.0
                 );
@@ -498,7 +503,7 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                     n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {r:.4} {} of the point", allowable.unwrap_or(0.0), model.unit));
                 }
                 if dual.is_none() {
-                    n.push_str("; coefficient not extracted (only conductor corners facing one dielectric, off the axis)");
+                    n.push_str("; coefficient not extracted (only at conductor corners and triple junctions off the axis)");
                 }
                 n.push_str("; model the real edge radius to get a design value");
                 n
@@ -510,6 +515,7 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 lambda: s.lambda,
                 field_singular: s.is_field_singular(),
                 coefficient: dual,
+                field_factor: factor.filter(|_| dual.is_some()),
                 coefficient_ring_fit: ring,
                 extraction_radius_m: radius.filter(|_| dual.is_some()),
                 allowable_kv_per_mm: allowable,

@@ -80,7 +80,8 @@ pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFi
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use singular::{
-    singular_coefficient, singular_coefficient_dual, singular_field, singular_radius_above, SingularFit,
+    singular_coefficient, singular_coefficient_dual, singular_field, singular_field_factor, singular_radius_above,
+    SingularFit,
 };
 pub use solve::{
     capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,

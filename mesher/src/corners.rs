@@ -110,6 +110,11 @@ pub struct SingularPoint {
     /// Polar angle (radians, about `at`) of the wall where the dielectric run begins,
     /// counter-clockwise; the run spans `opening` from there.
     pub start_angle: f64,
+    /// The dielectric sectors of the run, counter-clockwise from `start_angle` (their
+    /// angles sum to `opening`), with the permittivities the exponent was computed for.
+    pub sectors: Vec<Sector>,
+    /// The walls at the start and the end of the run (None for dielectrics all round).
+    pub walls: Option<(Wall, Wall)>,
 }
 
 impl SingularPoint {
@@ -319,7 +324,13 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
             }
         };
         let mut best: Option<SingularPoint> = None;
-        let mut consider = |lam: Option<f64>, opening: f64, regions: Vec<u32>, kind: SingularKind, start_angle: f64| {
+        let mut consider = |lam: Option<f64>,
+                            opening: f64,
+                            regions: Vec<u32>,
+                            kind: SingularKind,
+                            start_angle: f64,
+                            sectors: Vec<Sector>,
+                            walls: Option<(Wall, Wall)>| {
             if let Some(l) = lam {
                 let near_int = (l - l.round()).abs() <= LAMBDA_TOL;
                 if l < lambda_max - LAMBDA_TOL && !near_int && best.as_ref().is_none_or(|b| l < b.lambda) {
@@ -332,6 +343,8 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                         conductor: conductors.first().copied(),
                         on_axis,
                         start_angle,
+                        sectors,
+                        walls,
                     });
                 }
             }
@@ -351,6 +364,8 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                     regions,
                     SingularKind::DielectricCorner,
                     dirs[0].0,
+                    secs.clone(),
+                    None,
                 );
             }
         } else {
@@ -393,7 +408,7 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                 } else {
                     wedge_exponent(&secs, Some((start, end)), lambda_max)
                 };
-                consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0);
+                consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0, secs, Some((start, end)));
             }
         }
         if let Some(b) = best {

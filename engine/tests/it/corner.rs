@@ -199,3 +199,117 @@ fn singular_coefficient_on_circular_sectors() {
         assert!((fine - 1.5).abs() < 0.5 * (dual - 1.5).abs(), "refined A = {fine}");
     }
 }
+
+/// Two dielectrics in a conductor corner of opening 3π/2: ε₁ = 1 over the first π/2 from
+/// the wall, ε₂ = 4 over the remaining π. The local solution is r^λ·Φ(φ) with
+/// Φ = sin λφ (φ ≤ π/2) and Φ = c·sin λ(3π/2 − φ) beyond, c = sin(λπ/2)/sin(λπ), where λ
+/// is the smallest positive root of ε₁·cos(λα)·sin(λβ) + ε₂·sin(λα)·cos(λβ) = 0
+/// (continuity of V and of εEₙ across the interface; Jackson §2.11 for one dielectric,
+/// the two-sector condition derived by hand the same way). Found here by bisection.
+fn two_dielectric_lambda() -> f64 {
+    static LAMBDA: std::sync::OnceLock<f64> = std::sync::OnceLock::new();
+    *LAMBDA.get_or_init(|| {
+        let (a, b) = (PI / 2.0, PI);
+        let f = |l: f64| (l * a).cos() * (l * b).sin() + 4.0 * (l * a).sin() * (l * b).cos();
+        // f > 0 just above 0; the first sign change lies below 1.
+        let (mut lo, mut hi) = (1e-6, 1e-6);
+        while f(hi) > 0.0 {
+            lo = hi;
+            hi += 1e-3;
+        }
+        for _ in 0..200 {
+            let m = 0.5 * (lo + hi);
+            if f(m) > 0.0 {
+                lo = m
+            } else {
+                hi = m
+            }
+        }
+        0.5 * (lo + hi)
+    })
+}
+
+fn two_dielectric_data(p: [f64; 2]) -> f64 {
+    let l = two_dielectric_lambda();
+    let (r, t) = (p[0].hypot(p[1]), theta(p));
+    let phi =
+        if t <= PI / 2.0 { (l * t).sin() } else { (l * PI / 2.0).sin() / (l * PI).sin() * (l * (1.5 * PI - t)).sin() };
+    2.5 * r.powf(l) * phi
+}
+
+#[test]
+fn singular_coefficient_at_a_two_dielectric_corner() {
+    use mesher::Curve;
+    let theta0 = 1.5 * PI;
+    let end = [theta0.cos(), theta0.sin()];
+    let wall = Outline::new(
+        "wall",
+        vec![
+            Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
+            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
+            Curve::Line { from: end, to: [0.0, 0.0] },
+        ],
+    )
+    .unwrap();
+    let second = Outline::new(
+        "outer-part",
+        vec![
+            Curve::Line { from: [0.0, 0.0], to: [0.0, 1.0] },
+            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: PI / 2.0, sweep: PI },
+            Curve::Line { from: [0.0, -1.0], to: [0.0, 0.0] },
+        ],
+    )
+    .unwrap();
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            Shape {
+                name: "inner-part".into(),
+                outline: Outline::circle("inner-part", [0.0, 0.0], 1.0).unwrap(),
+                fill: Fill::Dielectric { permittivity: 1.0 },
+                max_size_m: None,
+            },
+            Shape {
+                name: "outer-part".into(),
+                outline: second,
+                fill: Fill::Dielectric { permittivity: 4.0 },
+                max_size_m: None,
+            },
+            Shape { name: "wall".into(), outline: wall, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+        ],
+        conductors: vec!["zero".into()],
+        outer: OuterBoundary::FixedPotential,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![1.0, 4.0, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: Some(0.0),
+        outer_potential_fn: Some(two_dielectric_data),
+        ..Default::default()
+    };
+    let lambda = two_dielectric_lambda();
+    let mut errors = Vec::new();
+    for h in [0.05, 0.025] {
+        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
+        let sol = solve(&mesh, &problem).unwrap();
+        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the junction");
+        assert_eq!(sp.kind, mesher::SingularKind::TripleJunction);
+        assert!((sp.lambda - lambda).abs() < 1e-9, "λ {} vs {lambda}", sp.lambda);
+        let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
+        let ring = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit").coefficient;
+        eprintln!("two dielectrics, λ = {lambda:.6}, h = {h}: dual A = {dual:.7}, ring fit {ring:.5}");
+        assert!((ring - 2.5).abs() < 0.02 * 2.5, "ring fit A = {ring}");
+        errors.push((dual - 2.5).abs());
+    }
+    // Within 1e-4 on the coarser mesh, and smaller on the finer one.
+    assert!(errors[0] < 1e-4 * 2.5, "dual A error {}", errors[0]);
+    assert!(errors[1] < errors[0], "{errors:?}");
+    // The field factor: max over φ of √(λ²Φ² + Φ'²), here from the first sector (Φ = sin λφ,
+    // amplitude λ) or the second (amplitude c·λ), whichever is larger.
+    let c = (lambda * PI / 2.0).sin() / (lambda * PI).sin();
+    let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.1)).unwrap().mesh;
+    let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).unwrap();
+    let k = engine::singular_field_factor(sp).unwrap();
+    assert!((k - lambda * c.abs().max(1.0)).abs() < 1e-6 * lambda, "k {k} vs {}", lambda * c.abs().max(1.0));
+}
