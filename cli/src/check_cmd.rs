@@ -503,7 +503,7 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                     n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {r:.4} {} of the point", allowable.unwrap_or(0.0), model.unit));
                 }
                 if dual.is_none() {
-                    n.push_str("; coefficient not extracted (only at conductor corners and triple junctions off the axis)");
+                    n.push_str("; coefficient not extracted (it is, where a conductor bounds the field: corners, triple junctions, conical tips on the axis with one dielectric)");
                 }
                 n.push_str("; model the real edge radius to get a design value");
                 n

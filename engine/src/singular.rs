@@ -1,5 +1,5 @@
-//! The coefficient of the singular term at a conductor corner or a triple junction,
-//! extracted from the solution.
+//! The coefficient of the singular term at a conductor corner, a triple junction or a
+//! conical tip on the axis, extracted from the solution.
 //!
 //! # Dual singular function (the figure reported)
 //! Near a conductor corner of opening θ₀ facing one dielectric, u = V − V₀ = A·r^λ·sin(λφ)
@@ -45,6 +45,12 @@
 //! h = R/10). The field near the point is at most k·|A|·r^(λ−1), k = max √(λ²Φ² + Φ'²)
 //! ([`singular_field_factor`]; k = λ for one dielectric).
 //!
+//! At a conical tip on the axis of an axisymmetric model (one dielectric between the axis
+//! and the conductor) the term is A·r^ν·P_ν(cos ϑ), ϑ from the axis, and the dual function
+//! r^(−ν−1)·P_ν(cos ϑ) is harmonic in space: L(χs⁻) lives on the annulus only, and the
+//! small sphere gives A = ∫ u·L(χs⁻) dA / ((2ν + 1)·∫₀^ϑ₀ P_ν² sin ϑ dϑ). Checked on a tip
+//! of ϑ₀ = 3π/4 against the exact data: A within 1e-7 (P2, h = R/10).
+//!
 //! # Ring fit (the cross-check)
 //! Near a conductor corner of exponent λ facing one dielectric, V ≈ V₀ + A·r^λ·sin(λφ),
 //! with r the distance to the corner and φ the angle from the wall where the dielectric
@@ -78,9 +84,10 @@ use std::f64::consts::TAU;
 /// conductor corner, a triple junction, a conductor meeting the zero-flux boundary), by the
 /// dual singular function with cut-off radius `radius` (metres; the point's expansion must
 /// hold inside it, so well below the distance to the next corner or interface bend); `v0`
-/// is the potential at the point (the conductor's). None for dielectrics all round, for
-/// points on the axis (conical points need Legendre functions) or when no element lies in
-/// the annulus.
+/// is the potential at the point (the conductor's). On the axis of an axisymmetric model,
+/// at a conical tip with one dielectric, the term is A·r^ν·P_ν(cos ϑ) (module docs). None
+/// for dielectrics all round, for several dielectrics at a point on the axis, or when no
+/// element lies in the annulus.
 pub fn singular_coefficient_dual(
     mesh: &Mesh,
     solution: &Solution,
@@ -88,14 +95,15 @@ pub fn singular_coefficient_dual(
     v0: f64,
     radius: f64,
 ) -> Option<f64> {
-    if point.on_axis || radius.is_nan() || radius <= 0.0 {
+    if radius.is_nan() || radius <= 0.0 {
         return None;
     }
-    let ang = Angular::new(point)?;
+    let local = Local::new(point)?;
     let (lam, theta0) = (point.lambda, point.opening);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    let cone = matches!(local, Local::Cone(_));
     let rho0 = if axisym { point.at[0] } else { 1.0 };
-    if rho0.is_nan() || rho0 <= 0.0 {
+    if !cone && (rho0.is_nan() || rho0 <= 0.0) {
         return None;
     }
     let (a, b) = (0.5 * radius, radius);
@@ -130,7 +138,7 @@ pub fn singular_coefficient_dual(
         // element entirely beyond R does not matter (its extent bounds how far inside it
         // can reach).
         let edge = (0..3).map(|k| dist_pts(x[k], x[(k + 1) % 3])).fold(0.0, f64::max);
-        if near - edge > b || (!axisym && far < a) {
+        if near - edge > b || ((!axisym || cone) && far < a) {
             continue;
         }
         let corner = x.iter().position(|&p| dist(p) <= 1e-9 * scale);
@@ -151,25 +159,43 @@ pub fn singular_coefficient_dual(
                 continue;
             }
             let (c, dc, ddc) = chi(r);
-            let (eps, f, df) = ang.eval(phi);
-            let sm = r.powf(-lam) * f; // s⁻
-            let dsm_r = -lam * r.powf(-lam - 1.0) * f; // ∂s⁻/∂r
-            let dsm_t = r.powf(-lam - 1.0) * df; // (1/r)∂s⁻/∂φ
-                                                 // Δ(χ s⁻) = s⁻Δχ + 2χ'∂s⁻/∂r (s⁻ is harmonic in each sector).
-            let lap = sm * (ddc + dc / r) + 2.0 * dc * dsm_r;
-            let lw = if axisym {
-                // ∂(χ s⁻)/∂ρ with ρ = x: radial and angular parts projected on x.
-                let (ca, sa) = (alpha.cos(), alpha.sin());
-                let d_rho = dc * sm * ca + c * (dsm_r * ca - dsm_t * sa);
-                at[0] * lap + d_rho
-            } else {
-                lap
+            let (eps, lw) = match &local {
+                Local::Wedge(ang) => {
+                    let (eps, f, df) = ang.eval(phi);
+                    let sm = r.powf(-lam) * f; // s⁻
+                    let dsm_r = -lam * r.powf(-lam - 1.0) * f; // ∂s⁻/∂r
+                    let dsm_t = r.powf(-lam - 1.0) * df; // (1/r)∂s⁻/∂φ
+                                                         // Δ(χ s⁻) = s⁻Δχ + 2χ'∂s⁻/∂r (s⁻ is harmonic in each sector).
+                    let lap = sm * (ddc + dc / r) + 2.0 * dc * dsm_r;
+                    let lw = if axisym {
+                        // ∂(χ s⁻)/∂ρ with ρ = x: radial and angular parts projected on x.
+                        let (ca, sa) = (alpha.cos(), alpha.sin());
+                        let d_rho = dc * sm * ca + c * (dsm_r * ca - dsm_t * sa);
+                        at[0] * lap + d_rho
+                    } else {
+                        lap
+                    };
+                    (eps, lw)
+                }
+                Local::Cone(k) => {
+                    // s⁻ = r^(−λ−1)·P_λ(cos ϑ) is harmonic in space, so ∇·(ρ∇(χs⁻)) =
+                    // ρ(s⁻Δχ + 2χ'∂s⁻/∂r) + s⁻χ'·ρ/r: the annulus only.
+                    let (f, _) = k.eval(phi);
+                    let sm = r.powf(-lam - 1.0) * f;
+                    let dsm_r = (-lam - 1.0) * r.powf(-lam - 2.0) * f;
+                    let rho = at[0];
+                    (1.0, rho * (sm * (ddc + dc / r) + 2.0 * dc * dsm_r) + sm * dc * rho / r)
+                }
             };
             sum += w * det.abs() * eps * (v - v0) * lw;
             used += 1;
         }
     }
-    (used > 0).then(|| sum / (rho0 * 2.0 * lam * ang.weighted_norm()))
+    let den = match &local {
+        Local::Wedge(ang) => rho0 * 2.0 * lam * ang.weighted_norm(),
+        Local::Cone(k) => (2.0 * lam + 1.0) * k.norm(),
+    };
+    (used > 0).then(|| sum / den)
 }
 
 /// Continuous derivatives of the cut-off χ at both ends of its ramp. The integrand holds χ''
@@ -228,16 +254,95 @@ pub fn singular_radius_above(lambda: f64, factor: f64, coefficient: f64, e_v_per
 /// one dielectric (Φ = sin λφ); at a triple junction it depends on the sectors. None where
 /// no coefficient is defined (see [`singular_coefficient_dual`]).
 pub fn singular_field_factor(point: &SingularPoint) -> Option<f64> {
-    let ang = Angular::new(point)?;
+    let local = Local::new(point)?;
     let n = 4000;
     Some(
         (0..=n)
             .map(|i| {
-                let (_, f, df) = ang.eval(point.opening * i as f64 / n as f64);
+                let (f, df) = local.eval(point.opening * i as f64 / n as f64);
                 (point.lambda * point.lambda * f * f + df * df).sqrt()
             })
             .fold(0.0, f64::max),
     )
+}
+
+/// The local singular term at a point: a wedge of dielectric sectors (planar, or off the
+/// axis), or a conical point on the axis of an axisymmetric model.
+enum Local {
+    Wedge(Angular),
+    Cone(Cone),
+}
+
+impl Local {
+    fn new(point: &SingularPoint) -> Option<Local> {
+        if point.on_axis {
+            Cone::new(point).map(Local::Cone)
+        } else {
+            Angular::new(point).map(Local::Wedge)
+        }
+    }
+
+    /// (Φ, dΦ/dφ) at angle φ from the run's start wall.
+    fn eval(&self, phi: f64) -> (f64, f64) {
+        match self {
+            Local::Wedge(a) => {
+                let (_, f, df) = a.eval(phi);
+                (f, df)
+            }
+            Local::Cone(c) => c.eval(phi),
+        }
+    }
+}
+
+/// A conical point on the axis: one dielectric between the axis and a conductor surface at
+/// polar angle ϑ₀ from the axis. V − V₀ ≈ A·r^λ·P_λ(cos ϑ), with P_λ(cos ϑ₀) = 0 (the
+/// exponent's condition) and P_λ(1) = 1 on the axis (Jackson §3.4); the dual function is
+/// r^(−λ−1)·P_λ(cos ϑ) (P_λ = P_(−λ−1)), and the small sphere gives the normalisation
+/// (2λ + 1)·∫₀^ϑ₀ P_λ(cos ϑ)²·sin ϑ dϑ.
+struct Cone {
+    lambda: f64,
+    opening: f64,
+    /// The run starts at the axis (else it ends there).
+    axis_first: bool,
+}
+
+impl Cone {
+    fn new(point: &SingularPoint) -> Option<Cone> {
+        let axis_first = match point.walls? {
+            (Wall::ZeroFlux, Wall::Potential) => true,
+            (Wall::Potential, Wall::ZeroFlux) => false,
+            _ => return None,
+        };
+        (point.sectors.len() == 1).then_some(Cone { lambda: point.lambda, opening: point.opening, axis_first })
+    }
+
+    /// (P_λ(cos ϑ), d/dφ of it) at angle φ from the run's start wall.
+    fn eval(&self, phi: f64) -> (f64, f64) {
+        let (theta, sign) = if self.axis_first { (phi, 1.0) } else { (self.opening - phi, -1.0) };
+        let p = |t: f64| mesher::legendre_p(self.lambda, t.clamp(0.0, std::f64::consts::PI).cos());
+        let d = 1e-6;
+        (p(theta), sign * (p(theta + d) - p(theta - d)) / (2.0 * d))
+    }
+
+    /// ∫₀^ϑ₀ P_λ(cos ϑ)²·sin ϑ dϑ (Simpson's rule, 512 panels).
+    fn norm(&self) -> f64 {
+        let n = 512;
+        let h = self.opening / n as f64;
+        let mut sum = 0.0;
+        for i in 0..=n {
+            let t = i as f64 * h;
+            let f = mesher::legendre_p(self.lambda, t.cos());
+            let w = if i == 0 || i == n {
+                1.0
+            } else if i % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            sum += w * f * f * t.sin();
+        }
+        sum * h / 3.0
+    }
 }
 
 /// The angular part Φ of the singular term V − V₀ ≈ A·r^λ·Φ(φ) across the sectors of a
@@ -322,10 +427,7 @@ pub fn singular_coefficient(
     v0: f64,
     radius: f64,
 ) -> Option<SingularFit> {
-    if point.on_axis {
-        return None;
-    }
-    let ang = Angular::new(point)?;
+    let local = Local::new(point)?;
     let lam = point.lambda;
     let radii = [radius, 0.7 * radius, 0.5 * radius, 0.35 * radius];
     let mut pts = Vec::new();
@@ -335,7 +437,7 @@ pub fn singular_coefficient(
             let phi = point.opening * (i as f64 + 0.5) / 12.0;
             let a = point.start_angle + phi;
             pts.push([point.at[0] + r * a.cos(), point.at[1] + r * a.sin()]);
-            basis.push((r, ang.eval(phi).1));
+            basis.push((r, local.eval(phi).0));
         }
     }
     let v = sample_potential(mesh, solution, &pts);

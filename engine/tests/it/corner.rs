@@ -313,3 +313,83 @@ fn singular_coefficient_at_a_two_dielectric_corner() {
     let k = engine::singular_field_factor(sp).unwrap();
     assert!((k - lambda * c.abs().max(1.0)).abs() < 1e-6 * lambda, "k {k} vs {}", lambda * c.abs().max(1.0));
 }
+
+/// A conical electrode tip on the axis of an axisymmetric model: the field fills the cone
+/// ϑ < ϑ₀ = 3π/4 around the axis above the tip, the conductor the rest. Near the tip
+/// V = A·r^ν·P_ν(cos ϑ) with P_ν(cos ϑ₀) = 0 (Jackson §3.4); the exponent comes from
+/// `mesher::conical_exponent` (checked against the Legendre condition in the mesher's
+/// tests), the data on the unit sphere from it.
+fn cone_lambda() -> f64 {
+    static NU: std::sync::OnceLock<f64> = std::sync::OnceLock::new();
+    *NU.get_or_init(|| mesher::conical_exponent(0.75 * PI, 2.0).unwrap())
+}
+
+fn cone_data(p: [f64; 2]) -> f64 {
+    let r = p[0].hypot(p[1]);
+    if r == 0.0 {
+        return 0.0;
+    }
+    3.0 * r.powf(cone_lambda()) * mesher::legendre_p(cone_lambda(), p[1] / r)
+}
+
+#[test]
+fn singular_coefficient_at_a_conical_tip_on_the_axis() {
+    use mesher::Curve;
+    let domain = Outline::new(
+        "space",
+        vec![
+            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: -PI / 2.0, sweep: PI },
+            Curve::Line { from: [0.0, 1.0], to: [0.0, -1.0] },
+        ],
+    )
+    .unwrap();
+    let side = [(0.75 * PI).sin(), (0.75 * PI).cos()];
+    let tip = Outline::new(
+        "tip",
+        vec![
+            Curve::Line { from: [0.0, 0.0], to: side },
+            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: -PI / 4.0, sweep: -PI / 4.0 },
+            Curve::Line { from: [0.0, -1.0], to: [0.0, 0.0] },
+        ],
+    )
+    .unwrap();
+    let geo = Geometry {
+        symmetry: Symmetry::Axisymmetric,
+        shapes: vec![
+            Shape {
+                name: "space".into(),
+                outline: domain,
+                fill: Fill::Dielectric { permittivity: 1.0 },
+                max_size_m: None,
+            },
+            Shape { name: "tip".into(), outline: tip, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+        ],
+        conductors: vec!["tip".into()],
+        outer: OuterBoundary::FixedPotential,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![1.0, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: Some(0.0),
+        outer_potential_fn: Some(cone_data),
+        ..Default::default()
+    };
+    let nu = cone_lambda();
+    assert!(nu > 0.0 && nu < 1.0);
+    let mut errors = Vec::new();
+    for h in [0.05, 0.025] {
+        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
+        let sol = solve(&mesh, &problem).unwrap();
+        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the tip");
+        assert!(sp.on_axis);
+        assert!((sp.lambda - nu).abs() < 1e-9, "ν {} vs {nu}", sp.lambda);
+        let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
+        let ring = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit").coefficient;
+        eprintln!("conical tip, ν = {nu:.6}, h = {h}: dual A = {dual:.7}, ring fit {ring:.5}");
+        assert!((ring - 3.0).abs() < 0.02 * 3.0, "ring fit A = {ring}");
+        errors.push((dual - 3.0).abs());
+    }
+    assert!(errors[0] < 1e-4 * 3.0, "dual A error {}", errors[0]);
+    assert!(errors[1] < errors[0], "{errors:?}");
+}
