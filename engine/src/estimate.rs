@@ -275,25 +275,8 @@ fn recover(mesh: &Mesh, potential: &[f64], quad: &SingularQuadrature) -> Recover
             (at, [-e[0], -e[1]])
         })
         .collect();
-    // Vertex → triangles, compressed rows.
     let nv = mesh.num_vertices as usize;
-    let mut start = vec![0u32; nv + 1];
-    for tri in &mesh.triangles {
-        for &v in tri {
-            start[v as usize + 1] += 1;
-        }
-    }
-    for i in 0..nv {
-        start[i + 1] += start[i];
-    }
-    let mut fill = start.clone();
-    let mut around = vec![0u32; 3 * nt];
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        for &v in tri {
-            around[fill[v as usize] as usize] = t as u32;
-            fill[v as usize] += 1;
-        }
-    }
+    let (start, around) = mesh.vertex_triangles();
     let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
     let fits: Vec<Vec<PatchFit>> = (0..nv as u32)
         .into_par_iter()

@@ -262,24 +262,39 @@ fn min_cut_cover(set: &[Item], adj: &[usize], deg: &[usize], side: &mut [u8], w:
 mod tests {
     use super::*;
 
+    /// Lower-triangle pattern of an m×m grid: 5-point, or 9-point with the diagonals (as
+    /// in a P2 element clique), and the grid coordinates as positions.
+    fn grid(m: usize, diagonals: bool) -> (Vec<usize>, Vec<usize>, Vec<Option<[f64; 2]>>) {
+        let n = m * m;
+        let mut col_ptr = vec![0];
+        let mut row_idx = Vec::new();
+        for j in 0..n {
+            let (x, y) = (j % m, j / m);
+            row_idx.push(j);
+            if x + 1 < m {
+                row_idx.push(j + 1);
+            }
+            if y + 1 < m {
+                if diagonals && x > 0 {
+                    row_idx.push(j + m - 1);
+                }
+                row_idx.push(j + m);
+                if diagonals && x + 1 < m {
+                    row_idx.push(j + m + 1);
+                }
+            }
+            col_ptr.push(row_idx.len());
+        }
+        let pos = (0..n).map(|k| Some([(k % m) as f64, (k / m) as f64])).collect();
+        (col_ptr, row_idx, pos)
+    }
+
     #[test]
     fn permutation_of_a_grid_is_valid_and_separators_come_last() {
         // 5-point Laplacian pattern of a 20×20 grid (lower triangle).
         let m = 20;
         let n = m * m;
-        let mut col_ptr = vec![0];
-        let mut row_idx = Vec::new();
-        for j in 0..n {
-            row_idx.push(j);
-            if j % m + 1 < m {
-                row_idx.push(j + 1);
-            }
-            if j + m < n {
-                row_idx.push(j + m);
-            }
-            col_ptr.push(row_idx.len());
-        }
-        let pos: Vec<Option<[f64; 2]>> = (0..n).map(|k| Some([(k % m) as f64, (k / m) as f64])).collect();
+        let (col_ptr, row_idx, pos) = grid(m, false);
         let (fwd, inv) = nested_dissection(&col_ptr, &row_idx, &pos);
         let mut seen = vec![false; n];
         for (new, &old) in fwd.iter().enumerate() {
@@ -301,26 +316,7 @@ mod tests {
         // that band is one column of 20 (a greedy cover takes parts of both columns).
         let m = 20;
         let n = m * m;
-        let mut col_ptr = vec![0];
-        let mut row_idx = Vec::new();
-        for j in 0..n {
-            let (x, y) = (j % m, j / m);
-            row_idx.push(j);
-            if x + 1 < m {
-                row_idx.push(j + 1);
-            }
-            if y + 1 < m {
-                if x > 0 {
-                    row_idx.push(j + m - 1);
-                }
-                row_idx.push(j + m);
-                if x + 1 < m {
-                    row_idx.push(j + m + 1);
-                }
-            }
-            col_ptr.push(row_idx.len());
-        }
-        let pos: Vec<Option<[f64; 2]>> = (0..n).map(|k| Some([(k % m) as f64, (k / m) as f64])).collect();
+        let (col_ptr, row_idx, pos) = grid(m, true);
         let (fwd, _) = nested_dissection(&col_ptr, &row_idx, &pos);
         let col = fwd[n - 1] % m;
         assert!(col == 9 || col == 10);

@@ -324,24 +324,9 @@ impl Cone {
         (p(theta), sign * (p(theta + d) - p(theta - d)) / (2.0 * d))
     }
 
-    /// ∫₀^ϑ₀ P_λ(cos ϑ)²·sin ϑ dϑ (Simpson's rule, 512 panels).
+    /// ∫₀^ϑ₀ P_λ(cos ϑ)²·sin ϑ dϑ.
     fn norm(&self) -> f64 {
-        let n = 512;
-        let h = self.opening / n as f64;
-        let mut sum = 0.0;
-        for i in 0..=n {
-            let t = i as f64 * h;
-            let f = mesher::legendre_p(self.lambda, t.cos());
-            let w = if i == 0 || i == n {
-                1.0
-            } else if i % 2 == 1 {
-                4.0
-            } else {
-                2.0
-            };
-            sum += w * f * f * t.sin();
-        }
-        sum * h / 3.0
+        simpson(self.opening, |t| mesher::legendre_p(self.lambda, t.cos()).powi(2) * t.sin())
     }
 }
 
@@ -390,29 +375,37 @@ impl Angular {
         (e, f, self.lambda * q / e)
     }
 
-    /// Σ over the sectors of ε·∫Φ² dφ (Simpson's rule, 512 panels per sector).
+    /// Σ over the sectors of ε·∫Φ² dφ.
     fn weighted_norm(&self) -> f64 {
-        let n = 512;
-        let mut total = 0.0;
-        for &(_, angle, e, s) in &self.sectors {
-            let h = angle / n as f64;
-            let mut sum = 0.0;
-            for i in 0..=n {
-                let (sn, cs) = (self.lambda * (i as f64 * h)).sin_cos();
-                let f = cs * s[0] + sn / e * s[1];
-                let w = if i == 0 || i == n {
-                    1.0
-                } else if i % 2 == 1 {
-                    4.0
-                } else {
-                    2.0
-                };
-                sum += w * f * f;
-            }
-            total += e * sum * h / 3.0;
-        }
-        total
+        self.sectors
+            .iter()
+            .map(|&(_, angle, e, s)| {
+                e * simpson(angle, |psi| {
+                    let (sn, cs) = (self.lambda * psi).sin_cos();
+                    (cs * s[0] + sn / e * s[1]).powi(2)
+                })
+            })
+            .sum()
     }
+}
+
+/// ∫₀^b f by Simpson's rule on 512 panels.
+fn simpson(b: f64, f: impl Fn(f64) -> f64) -> f64 {
+    let n = 512;
+    let h = b / n as f64;
+    let sum: f64 = (0..=n)
+        .map(|i| {
+            let w = if i == 0 || i == n {
+                1.0
+            } else if i % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            w * f(i as f64 * h)
+        })
+        .sum();
+    sum * h / 3.0
 }
 
 /// Fits the singular term A·r^λ·Φ(φ) at the same points as [`singular_coefficient_dual`],

@@ -471,6 +471,33 @@ impl Mesh {
         self.mid_nodes = mids;
     }
 
+    /// The triangles around each vertex, compressed: those of vertex v are
+    /// `around[start[v]..start[v + 1]]`, in triangle order. Returns (start, around).
+    ///
+    /// # Panics
+    /// If a triangle refers to a node beyond `num_vertices`.
+    pub fn vertex_triangles(&self) -> (Vec<u32>, Vec<u32>) {
+        let nv = self.num_vertices as usize;
+        let mut start = vec![0u32; nv + 1];
+        for tri in &self.triangles {
+            for &v in tri {
+                start[v as usize + 1] += 1;
+            }
+        }
+        for i in 0..nv {
+            start[i + 1] += start[i];
+        }
+        let mut fill = start.clone();
+        let mut around = vec![0u32; start[nv] as usize];
+        for (t, tri) in self.triangles.iter().enumerate() {
+            for &v in tri {
+                around[fill[v as usize] as usize] = t as u32;
+                fill[v as usize] += 1;
+            }
+        }
+        (start, around)
+    }
+
     /// (edge key, triangle, local edge) for every triangle edge, sorted by key.
     ///
     /// A counting sort on the smaller vertex id, then a sort of each short bucket: linear

@@ -71,6 +71,8 @@ pub struct BackgroundSize {
     vertex_sizes: Vec<f64>,
     /// Growth of the size per metre away from a vertex (the gradation slope).
     slope: f64,
+    /// Triangles around each vertex (`Mesh::vertex_triangles`).
+    star: (Vec<u32>, Vec<u32>),
     grid: crate::grid::BucketGrid,
 }
 
@@ -100,7 +102,14 @@ impl BackgroundSize {
             .map(|(&l, &c)| if c == 0 { f64::INFINITY } else { (l / c as f64).exp() })
             .collect();
         let grid = crate::grid::triangle_grid(mesh, 0.0);
-        BackgroundSize { nodes, triangles: mesh.triangles.clone(), vertex_sizes, slope: f64::INFINITY, grid }
+        BackgroundSize {
+            nodes,
+            triangles: mesh.triangles.clone(),
+            vertex_sizes,
+            slope: f64::INFINITY,
+            star: mesh.vertex_triangles(),
+            grid,
+        }
     }
 
     /// Limits the vertex sizes so that they grow by at most `slope` per metre along every
@@ -111,26 +120,6 @@ impl BackgroundSize {
         use std::cmp::Reverse;
         use std::collections::BinaryHeap;
         let nv = self.nodes.len();
-        let mut start = vec![0u32; nv + 1];
-        for tri in &self.triangles {
-            for &v in tri {
-                start[v as usize + 1] += 2;
-            }
-        }
-        for i in 0..nv {
-            start[i + 1] += start[i];
-        }
-        let mut fill = start.clone();
-        let mut adj = vec![0u32; start[nv] as usize];
-        for tri in &self.triangles {
-            for k in 0..3 {
-                let v = tri[k] as usize;
-                for d in [1, 2] {
-                    adj[fill[v] as usize] = tri[(k + d) % 3];
-                    fill[v] += 1;
-                }
-            }
-        }
         // Sizes are positive, so their bit patterns order like the values.
         let mut heap: BinaryHeap<Reverse<(u64, u32)>> =
             (0..nv).map(|v| Reverse((self.vertex_sizes[v].to_bits(), v as u32))).collect();
@@ -140,11 +129,14 @@ impl BackgroundSize {
                 continue;
             }
             let pu = self.nodes[u as usize];
-            for &w in &adj[start[u as usize] as usize..start[u as usize + 1] as usize] {
-                let cand = hu + slope * norm(sub(self.nodes[w as usize], pu));
-                if cand < self.vertex_sizes[w as usize] {
-                    self.vertex_sizes[w as usize] = cand;
-                    heap.push(Reverse((cand.to_bits(), w)));
+            let (start, around) = &self.star;
+            for &t in &around[start[u as usize] as usize..start[u as usize + 1] as usize] {
+                for w in self.triangles[t as usize] {
+                    let cand = hu + slope * norm(sub(self.nodes[w as usize], pu));
+                    if cand < self.vertex_sizes[w as usize] {
+                        self.vertex_sizes[w as usize] = cand;
+                        heap.push(Reverse((cand.to_bits(), w)));
+                    }
                 }
             }
         }

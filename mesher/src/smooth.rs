@@ -49,24 +49,7 @@ pub(crate) fn smooth(mesh: &mut Mesh, passes: usize) {
             fixed[v as usize] = true;
         }
     }
-    // Triangles around each vertex, as CSR.
-    let mut start = vec![0u32; nv + 1];
-    for tri in &mesh.triangles {
-        for &v in tri {
-            start[v as usize + 1] += 1;
-        }
-    }
-    for i in 0..nv {
-        start[i + 1] += start[i];
-    }
-    let mut fill = start.clone();
-    let mut around = vec![0u32; start[nv] as usize];
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        for &v in tri {
-            around[fill[v as usize] as usize] = t as u32;
-            fill[v as usize] += 1;
-        }
-    }
+    let (start, around) = mesh.vertex_triangles();
     let worst = |nodes: &[Xy], ts: &[u32]| {
         ts.iter()
             .map(|&t| {

@@ -134,25 +134,40 @@ fn sector_7_4(p: [f64; 2]) -> f64 {
     1.5 * r.powf(4.0 / 7.0) * (4.0 * t / 7.0).sin()
 }
 
+/// The conductor wall filling polar angles θ₀ … 2π of the unit disc around the origin.
+fn wedge_wall(theta0: f64) -> Outline {
+    use mesher::Curve;
+    let end = [theta0.cos(), theta0.sin()];
+    Outline::new(
+        "wall",
+        vec![
+            Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
+            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
+            Curve::Line { from: end, to: [0.0, 0.0] },
+        ],
+    )
+    .unwrap()
+}
+
+/// P2 mesh of size `h`, solve, and the singular point at the origin with its dual (cut-off
+/// 0.5) and ring-fit (0.2) coefficients.
+fn extract_at_origin(geo: &Geometry, problem: &Problem, h: f64) -> (mesher::SingularPoint, f64, engine::SingularFit) {
+    let mesh = generate(geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
+    let sol = solve(&mesh, problem).unwrap();
+    let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("a point at the origin");
+    let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
+    let ring = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit");
+    (sp.clone(), dual, ring)
+}
+
 #[test]
 fn singular_coefficient_on_circular_sectors() {
     // Circular sectors of opening θ₀ = 3π/2 and 7π/4 (unit radius) with the exact data
     // V = A·r^(π/θ₀)·sin(πθ/θ₀), A = 1.5, on the arc and 0 V on the two straight sides
     // (Jackson §2.11): the ring fit recovers A within 2 % and the exponent within 1 %.
-    use mesher::Curve;
     for (theta0, data) in
         [(1.5 * PI, sector_3_2 as fn([f64; 2]) -> f64), (1.75 * PI, sector_7_4 as fn([f64; 2]) -> f64)]
     {
-        let end = [(theta0).cos(), (theta0).sin()];
-        let wedge = Outline::new(
-            "wall",
-            vec![
-                Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
-                Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
-                Curve::Line { from: end, to: [0.0, 0.0] },
-            ],
-        )
-        .unwrap();
         let geo = Geometry {
             symmetry: Symmetry::Planar,
             shapes: vec![
@@ -162,13 +177,17 @@ fn singular_coefficient_on_circular_sectors() {
                     fill: Fill::Dielectric { permittivity: 1.0 },
                     max_size_m: None,
                 },
-                Shape { name: "wall".into(), outline: wedge, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+                Shape {
+                    name: "wall".into(),
+                    outline: wedge_wall(theta0),
+                    fill: Fill::Conductor { conductor: 0 },
+                    max_size_m: None,
+                },
             ],
             conductors: vec!["zero".into()],
             outer: OuterBoundary::FixedPotential,
             size_points: vec![],
         };
-        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;
         let problem = Problem {
             permittivity: vec![1.0, f64::NAN],
             conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
@@ -176,10 +195,8 @@ fn singular_coefficient_on_circular_sectors() {
             outer_potential_fn: Some(data),
             ..Default::default()
         };
-        let sol = solve(&mesh, &problem).unwrap();
-        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the corner");
+        let (sp, dual, fit) = extract_at_origin(&geo, &problem, 0.05);
         assert!((sp.lambda - PI / theta0).abs() < 1e-9);
-        let fit = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit");
         eprintln!(
             "θ₀ = {theta0:.4}: A = {:.5}, exponent {:.5} (λ = {:.5}), {} samples",
             fit.coefficient, fit.exponent_fit, sp.lambda, fit.samples
@@ -190,11 +207,7 @@ fn singular_coefficient_on_circular_sectors() {
         // within 1e-5 here, and better still on the mesh of half the size (its error fell
         // 9× for 3π/2 and 13× for 7π/4 per halving when this was written, to 2e-8 and 4e-8;
         // the squared energy error of graded P2 falls 16×).
-        let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
-        let fine_mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.025)).unwrap().mesh;
-        let fine_sol = solve(&fine_mesh, &problem).unwrap();
-        let fine_sp = fine_mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).unwrap();
-        let fine = engine::singular_coefficient_dual(&fine_mesh, &fine_sol, fine_sp, 0.0, 0.5).unwrap();
+        let (_, fine, _) = extract_at_origin(&geo, &problem, 0.025);
         eprintln!("θ₀ = {theta0:.4}: dual singular function A = {dual:.6}, refined {fine:.6}");
         assert!((dual - 1.5).abs() < 1e-5 * 1.5, "A = {dual}");
         assert!((fine - 1.5).abs() < 0.5 * (dual - 1.5).abs(), "refined A = {fine}");
@@ -241,17 +254,6 @@ fn two_dielectric_data(p: [f64; 2]) -> f64 {
 #[test]
 fn singular_coefficient_at_a_two_dielectric_corner() {
     use mesher::Curve;
-    let theta0 = 1.5 * PI;
-    let end = [theta0.cos(), theta0.sin()];
-    let wall = Outline::new(
-        "wall",
-        vec![
-            Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
-            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
-            Curve::Line { from: end, to: [0.0, 0.0] },
-        ],
-    )
-    .unwrap();
     let second = Outline::new(
         "outer-part",
         vec![
@@ -276,7 +278,12 @@ fn singular_coefficient_at_a_two_dielectric_corner() {
                 fill: Fill::Dielectric { permittivity: 4.0 },
                 max_size_m: None,
             },
-            Shape { name: "wall".into(), outline: wall, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+            Shape {
+                name: "wall".into(),
+                outline: wedge_wall(1.5 * PI),
+                fill: Fill::Conductor { conductor: 0 },
+                max_size_m: None,
+            },
         ],
         conductors: vec!["zero".into()],
         outer: OuterBoundary::FixedPotential,
@@ -292,13 +299,10 @@ fn singular_coefficient_at_a_two_dielectric_corner() {
     let lambda = two_dielectric_lambda();
     let mut errors = Vec::new();
     for h in [0.05, 0.025] {
-        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
-        let sol = solve(&mesh, &problem).unwrap();
-        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the junction");
+        let (sp, dual, ring) = extract_at_origin(&geo, &problem, h);
+        let ring = ring.coefficient;
         assert_eq!(sp.kind, mesher::SingularKind::TripleJunction);
         assert!((sp.lambda - lambda).abs() < 1e-9, "λ {} vs {lambda}", sp.lambda);
-        let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
-        let ring = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit").coefficient;
         eprintln!("two dielectrics, λ = {lambda:.6}, h = {h}: dual A = {dual:.7}, ring fit {ring:.5}");
         assert!((ring - 2.5).abs() < 0.02 * 2.5, "ring fit A = {ring}");
         errors.push((dual - 2.5).abs());
@@ -380,13 +384,10 @@ fn singular_coefficient_at_a_conical_tip_on_the_axis() {
     assert!(nu > 0.0 && nu < 1.0);
     let mut errors = Vec::new();
     for h in [0.05, 0.025] {
-        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;
-        let sol = solve(&mesh, &problem).unwrap();
-        let sp = mesh.singular_points.iter().find(|s| s.at[0].hypot(s.at[1]) < 1e-12).expect("the tip");
+        let (sp, dual, ring) = extract_at_origin(&geo, &problem, h);
+        let ring = ring.coefficient;
         assert!(sp.on_axis);
         assert!((sp.lambda - nu).abs() < 1e-9, "ν {} vs {nu}", sp.lambda);
-        let dual = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).expect("an extraction");
-        let ring = engine::singular_coefficient(&mesh, &sol, sp, 0.0, 0.2).expect("a fit").coefficient;
         eprintln!("conical tip, ν = {nu:.6}, h = {h}: dual A = {dual:.7}, ring fit {ring:.5}");
         assert!((ring - 3.0).abs() < 0.02 * 3.0, "ring fit A = {ring}");
         errors.push((dual - 3.0).abs());
