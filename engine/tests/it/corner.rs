@@ -395,3 +395,71 @@ fn singular_coefficient_at_a_conical_tip_on_the_axis() {
     assert!(errors[0] < 1e-4 * 3.0, "dual A error {}", errors[0]);
     assert!(errors[1] < errors[0], "{errors:?}");
 }
+
+/// Centre ρ₀ of the off-axis sector of [`off_axis_sector_data`], as f64 bits (a plain
+/// function is what `Problem::outer_potential_fn` takes).
+static RHO0: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+
+fn off_axis_sector_data(p: [f64; 2]) -> f64 {
+    let rho0 = f64::from_bits(RHO0.load(std::sync::atomic::Ordering::Relaxed));
+    sector_3_2([p[0] - rho0, p[1]])
+}
+
+#[test]
+fn axisymmetric_coefficient_tends_to_the_planar_one_far_from_the_axis() {
+    // The 3π/2 sector of the planar test, turned about an axis at distance ρ₀ (a ring-shaped
+    // edge), with the planar data 1.5·r^(2/3)·sin(2φ/3) on its arc. No closed form exists, but
+    // the local coefficient must tend to the planar 1.5 as ρ₀ → ∞, the axisymmetric
+    // correction falling like 1/ρ₀ (the ρ-weight varies by r/ρ₀ over the corner region); the
+    // dual extraction must not depend on the cut-off radius (it is exact for every term of
+    // the expansion), while the ring fit, biased by the higher terms, may.
+    use mesher::Curve;
+    let mut offsets = Vec::new();
+    for rho0 in [1000.0f64, 100.0] {
+        RHO0.store(rho0.to_bits(), std::sync::atomic::Ordering::Relaxed);
+        let theta0 = 1.5 * PI;
+        let end = [rho0 + theta0.cos(), theta0.sin()];
+        let wall = Outline::new(
+            "wall",
+            vec![
+                Curve::Line { from: [rho0, 0.0], to: [rho0 + 1.0, 0.0] },
+                Curve::Arc { center: [rho0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
+                Curve::Line { from: end, to: [rho0, 0.0] },
+            ],
+        )
+        .unwrap();
+        let geo = Geometry {
+            symmetry: Symmetry::Axisymmetric,
+            shapes: vec![
+                Shape {
+                    name: "ring".into(),
+                    outline: Outline::circle("ring", [rho0, 0.0], 1.0).unwrap(),
+                    fill: Fill::Dielectric { permittivity: 1.0 },
+                    max_size_m: None,
+                },
+                Shape { name: "wall".into(), outline: wall, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
+            ],
+            conductors: vec!["zero".into()],
+            outer: OuterBoundary::FixedPotential,
+            size_points: vec![],
+        };
+        let problem = Problem {
+            permittivity: vec![1.0, f64::NAN],
+            conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
+            outer_potential_v: Some(0.0),
+            outer_potential_fn: Some(off_axis_sector_data),
+            ..Default::default()
+        };
+        let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;
+        let sol = solve(&mesh, &problem).unwrap();
+        let sp = mesh.singular_points.iter().find(|s| (s.at[0] - rho0).hypot(s.at[1]) < 1e-9).unwrap();
+        let wide = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.5).unwrap();
+        let narrow = engine::singular_coefficient_dual(&mesh, &sol, sp, 0.0, 0.2).unwrap();
+        eprintln!("ρ₀ = {rho0}: dual A = {wide:.7} (cut-off 0.5), {narrow:.7} (cut-off 0.2)");
+        assert!((wide - narrow).abs() < 1e-5 * wide, "{wide} vs {narrow}");
+        offsets.push((wide - 1.5) * rho0);
+    }
+    // (A − 1.5)·ρ₀ the same at ρ₀ = 100 and 1000 (−0.364 when this was written), and small.
+    assert!((offsets[0] - offsets[1]).abs() < 0.02 * offsets[1].abs(), "{offsets:?}");
+    assert!(offsets[0].abs() < 1.0, "{offsets:?}");
+}
