@@ -13,7 +13,9 @@
 //! triangle count is the one the optimal rate N^(−p/2) says reaches the tolerance, grown at
 //! least 1.5× and at most 2× per step. A marked triangle's size is clamped to [¼, ¾]·hₜ
 //! ([1/32, ¾]·hₜ at a singular point, which needs many halvings), an unmarked one's to
-//! [1, 2]·hₜ. The sizes go to the mesher as a background size field on the old mesh
+//! [1, 2]·hₜ. When the marked set is too small to reach the count even at its finest (the
+//! error sits in a handful of triangles at singular points, which grading makes cheap), the
+//! count is reached by letting every triangle refine to the same ε. The sizes go to the mesher as a background size field on the old mesh
 //! (continuous, graded; see `mesher::BackgroundSize`) and the geometry is meshed afresh
 //! (arcs, tags and the corner analysis stay exact). If the new mesh has fewer than 1.3×
 //! the triangles, the loop asks again for more: successive meshes form a refinement
