@@ -116,8 +116,7 @@ impl AdaptiveMesh {
         }
         p.smoothing_passes = self.smoothing_passes;
         if p.min_size_m.is_none() {
-            let b = geo.bbox();
-            p.min_size_m = Some(self.min_size_fraction * (b[2] - b[0]).hypot(b[3] - b[1]));
+            p.min_size_m = Some(self.min_size_fraction * geo.scale());
         }
         p
     }
@@ -302,7 +301,7 @@ pub fn adapt_watching(
         let mut ask = target;
         let mut next = None;
         for _ in 0..4 {
-            let (sizes, _) = plan.sizes_for_count(ask);
+            let sizes = plan.sizes_for_count(ask);
             let m =
                 generate_with(geo, &params, Some(BackgroundSize::new(&mesh, sizes))).map_err(SolveError::Mesh)?.mesh;
             let got = m.triangles.len() as f64;
@@ -396,51 +395,45 @@ impl SizePlan {
         SizePlan { h, unit, corner_of, corners, marked, p }
     }
 
-    /// Sizes for the per-triangle error ε, and the triangle count they predict. With
-    /// `dorfler` only marked triangles refine; without it every triangle may.
-    fn sizes_for(&self, eps: f64, dorfler: bool) -> (Vec<f64>, f64) {
-        let mut predicted = 0.0;
-        let sizes = (0..self.h.len())
-            .map(|t| {
-                let h = self.h[t];
-                let marked = !dorfler || self.marked[t];
-                let (lo, hi) = if marked {
-                    (MOST_REFINED, if dorfler { 0.75 } else { MOST_COARSENED })
-                } else {
-                    (1.0, MOST_COARSENED)
-                };
-                match self.corner_of[t] {
-                    Some(k) => {
-                        // At a singular point ηₜ ≈ C·h^λ: the size follows with exponent
-                        // 1/λ, and may shrink much further in one step. A triangle cut
-                        // down to it costs a few rings of triangles per halving.
-                        let c = self.corners[k as usize];
-                        let marked = !dorfler || c.marked;
-                        let lo = if marked { MOST_REFINED_CORNER } else { 1.0 };
-                        let size = (c.h * (eps / c.eta.max(1e-300)).powf(1.0 / c.lambda)).clamp(lo * c.h, hi * c.h);
-                        predicted += 1.0 + 6.0 * (h / size).max(1.0).log2();
-                        size
-                    }
-                    None => {
-                        let size = (self.unit[t] * eps.powf(1.0 / (self.p + 1.0))).clamp(lo * h, hi * h);
-                        predicted += (h / size).powi(2);
-                        size
-                    }
-                }
-            })
-            .collect();
-        (sizes, predicted)
+    /// Size of triangle `t` for the per-triangle error ε, and the number of triangles it
+    /// predicts in its place. With `dorfler` only marked triangles refine; without it
+    /// every triangle may.
+    fn size_of(&self, t: usize, eps: f64, dorfler: bool) -> (f64, f64) {
+        let h = self.h[t];
+        let marked = !dorfler || self.marked[t];
+        let (lo, hi) =
+            if marked { (MOST_REFINED, if dorfler { 0.75 } else { MOST_COARSENED }) } else { (1.0, MOST_COARSENED) };
+        match self.corner_of[t] {
+            Some(k) => {
+                // At a singular point ηₜ ≈ C·h^λ: the size follows with exponent 1/λ, and
+                // may shrink much further in one step. A triangle cut down to it costs a
+                // few rings of triangles per halving.
+                let c = self.corners[k as usize];
+                let marked = !dorfler || c.marked;
+                let lo = if marked { MOST_REFINED_CORNER } else { 1.0 };
+                let size = (c.h * (eps / c.eta.max(1e-300)).powf(1.0 / c.lambda)).clamp(lo * c.h, hi * c.h);
+                (size, 1.0 + 6.0 * (h / size).max(1.0).log2())
+            }
+            None => {
+                let size = (self.unit[t] * eps.powf(1.0 / (self.p + 1.0))).clamp(lo * h, hi * h);
+                (size, (h / size).powi(2))
+            }
+        }
+    }
+
+    /// Predicted triangle count for the per-triangle error ε.
+    fn predicted(&self, eps: f64, dorfler: bool) -> f64 {
+        (0..self.h.len()).map(|t| self.size_of(t, eps, dorfler).1).sum()
     }
 
     /// Sizes whose predicted triangle count is `target` (bisection on log ε), refining
     /// the marked triangles only when that can reach the target, else any triangle.
-    fn sizes_for_count(&self, target: f64) -> (Vec<f64>, f64) {
-        let dorfler = self.sizes_for(0.0, true).1 >= target;
+    fn sizes_for_count(&self, target: f64) -> Vec<f64> {
+        let dorfler = self.predicted(0.0, true) >= target;
         let (mut lo, mut hi) = (-700.0f64, 700.0f64);
         for _ in 0..200 {
             let mid = 0.5 * (lo + hi);
-            let (_, n) = self.sizes_for(mid.exp(), dorfler);
-            if n > target {
+            if self.predicted(mid.exp(), dorfler) > target {
                 lo = mid;
             } else {
                 hi = mid;
@@ -449,7 +442,8 @@ impl SizePlan {
                 break;
             }
         }
-        self.sizes_for(hi.exp(), dorfler)
+        let eps = hi.exp();
+        (0..self.h.len()).map(|t| self.size_of(t, eps, dorfler).0).collect()
     }
 }
 

@@ -142,13 +142,27 @@ struct CoverWork {
     /// Predecessor (a lower-side vertex) of an upper-side vertex in the current search.
     from: Vec<u32>,
     stamp: u32,
+    /// Lower-side vertices with a coupling across the cut.
+    left: Vec<usize>,
+    /// Breadth-first queue.
+    queue: Vec<usize>,
+    /// Upper-side vertices reached in König's construction.
+    cover_upper: Vec<usize>,
 }
 
 const NONE: u32 = u32::MAX;
 
 impl CoverWork {
     fn new(n: usize) -> CoverWork {
-        CoverWork { mate: vec![NONE; n], seen: vec![0; n], from: vec![NONE; n], stamp: 0 }
+        CoverWork {
+            mate: vec![NONE; n],
+            seen: vec![0; n],
+            from: vec![NONE; n],
+            stamp: 0,
+            left: Vec::new(),
+            queue: Vec::new(),
+            cover_upper: Vec::new(),
+        }
     }
 
     fn next_stamp(&mut self) -> u32 {
@@ -170,8 +184,12 @@ impl CoverWork {
 /// a straight cut cross a band of couplings, it is much thinner than a greedy cover.
 fn min_cut_cover(set: &[Item], adj: &[usize], deg: &[usize], side: &mut [u8], w: &mut CoverWork) {
     let nbrs = |k: usize| &adj[deg[k]..deg[k + 1]];
-    let left: Vec<usize> =
-        set.iter().map(|it| it.k).filter(|&k| side[k] == 1 && nbrs(k).iter().any(|&u| side[u] == 2)).collect();
+    let mut left = std::mem::take(&mut w.left);
+    let mut queue = std::mem::take(&mut w.queue);
+    let mut cover_upper = std::mem::take(&mut w.cover_upper);
+    left.clear();
+    cover_upper.clear();
+    left.extend(set.iter().map(|it| it.k).filter(|&k| side[k] == 1 && nbrs(k).iter().any(|&u| side[u] == 2)));
     for it in set {
         w.mate[it.k] = NONE;
     }
@@ -182,7 +200,6 @@ fn min_cut_cover(set: &[Item], adj: &[usize], deg: &[usize], side: &mut [u8], w:
             w.mate[u] = l as u32;
         }
     }
-    let mut queue: Vec<usize> = Vec::new();
     for &l in &left {
         if w.mate[l] != NONE {
             continue;
@@ -231,7 +248,6 @@ fn min_cut_cover(set: &[Item], adj: &[usize], deg: &[usize], side: &mut [u8], w:
         }
     }
     let mut head = 0;
-    let mut cover_upper: Vec<usize> = Vec::new();
     while head < queue.len() {
         let x = queue[head];
         head += 1;
@@ -253,9 +269,10 @@ fn min_cut_cover(set: &[Item], adj: &[usize], deg: &[usize], side: &mut [u8], w:
             side[l] = 3;
         }
     }
-    for y in cover_upper {
+    for &y in &cover_upper {
         side[y] = 3;
     }
+    (w.left, w.queue, w.cover_upper) = (left, queue, cover_upper);
 }
 
 #[cfg(test)]

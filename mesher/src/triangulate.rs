@@ -317,17 +317,7 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
                     continue;
                 }
                 // Keep clear of the boundary: at least half the spacing from every segment.
-                let clear = 0.5 * d;
-                let mut ok = true;
-                grid.for_each_near(p, clear, |si| {
-                    if ok {
-                        let [a, b] = pslg.segments[si as usize];
-                        if point_segment_distance(p, pslg.points[a as usize], pslg.points[b as usize]) < clear {
-                            ok = false;
-                        }
-                    }
-                });
-                if ok {
+                if !near_segment(pslg, grid, p, 0.5 * d) {
                     out.push(p);
                 }
             }

@@ -134,19 +134,49 @@ fn sector_7_4(p: [f64; 2]) -> f64 {
     1.5 * r.powf(4.0 / 7.0) * (4.0 * t / 7.0).sin()
 }
 
-/// The conductor wall filling polar angles θ₀ … 2π of the unit disc around the origin.
-fn wedge_wall(theta0: f64) -> Outline {
+/// The conductor wall filling polar angles θ₀ … 2π of the unit disc around `centre`.
+fn wedge_wall(centre: [f64; 2], theta0: f64) -> Outline {
     use mesher::Curve;
-    let end = [theta0.cos(), theta0.sin()];
+    let end = [centre[0] + theta0.cos(), centre[1] + theta0.sin()];
     Outline::new(
         "wall",
         vec![
-            Curve::Line { from: [0.0, 0.0], to: [1.0, 0.0] },
-            Curve::Arc { center: [0.0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
-            Curve::Line { from: end, to: [0.0, 0.0] },
+            Curve::Line { from: centre, to: [centre[0] + 1.0, centre[1]] },
+            Curve::Arc { center: centre, radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
+            Curve::Line { from: end, to: centre },
         ],
     )
     .unwrap()
+}
+
+fn dielectric(name: &str, outline: Outline, permittivity: f64) -> Shape {
+    Shape { name: name.into(), outline, fill: Fill::Dielectric { permittivity }, max_size_m: None }
+}
+
+fn conductor(name: &str, outline: Outline) -> Shape {
+    Shape { name: name.into(), outline, fill: Fill::Conductor { conductor: 0 }, max_size_m: None }
+}
+
+/// Shapes in paint order, the last one the single conductor (held at 0 V by the problem).
+fn corner_geometry(symmetry: Symmetry, shapes: Vec<Shape>) -> Geometry {
+    Geometry {
+        symmetry,
+        shapes,
+        conductors: vec!["zero".into()],
+        outer: OuterBoundary::FixedPotential,
+        size_points: vec![],
+    }
+}
+
+/// The conductor at 0 V and the exact `data` on the outer boundary.
+fn data_problem(permittivity: Vec<f64>, data: fn([f64; 2]) -> f64) -> Problem {
+    Problem {
+        permittivity,
+        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
+        outer_potential_v: Some(0.0),
+        outer_potential_fn: Some(data),
+        ..Default::default()
+    }
 }
 
 /// P2 mesh of size `h`, solve, and the singular point at the origin with its dual (cut-off
@@ -168,33 +198,14 @@ fn singular_coefficient_on_circular_sectors() {
     for (theta0, data) in
         [(1.5 * PI, sector_3_2 as fn([f64; 2]) -> f64), (1.75 * PI, sector_7_4 as fn([f64; 2]) -> f64)]
     {
-        let geo = Geometry {
-            symmetry: Symmetry::Planar,
-            shapes: vec![
-                Shape {
-                    name: "sector".into(),
-                    outline: Outline::circle("sector", [0.0, 0.0], 1.0).unwrap(),
-                    fill: Fill::Dielectric { permittivity: 1.0 },
-                    max_size_m: None,
-                },
-                Shape {
-                    name: "wall".into(),
-                    outline: wedge_wall(theta0),
-                    fill: Fill::Conductor { conductor: 0 },
-                    max_size_m: None,
-                },
+        let geo = corner_geometry(
+            Symmetry::Planar,
+            vec![
+                dielectric("sector", Outline::circle("sector", [0.0, 0.0], 1.0).unwrap(), 1.0),
+                conductor("wall", wedge_wall([0.0, 0.0], theta0)),
             ],
-            conductors: vec!["zero".into()],
-            outer: OuterBoundary::FixedPotential,
-            size_points: vec![],
-        };
-        let problem = Problem {
-            permittivity: vec![1.0, f64::NAN],
-            conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-            outer_potential_v: Some(0.0),
-            outer_potential_fn: Some(data),
-            ..Default::default()
-        };
+        );
+        let problem = data_problem(vec![1.0, f64::NAN], data);
         let (sp, dual, fit) = extract_at_origin(&geo, &problem, 0.05);
         assert!((sp.lambda - PI / theta0).abs() < 1e-9);
         eprintln!(
@@ -263,39 +274,15 @@ fn singular_coefficient_at_a_two_dielectric_corner() {
         ],
     )
     .unwrap();
-    let geo = Geometry {
-        symmetry: Symmetry::Planar,
-        shapes: vec![
-            Shape {
-                name: "inner-part".into(),
-                outline: Outline::circle("inner-part", [0.0, 0.0], 1.0).unwrap(),
-                fill: Fill::Dielectric { permittivity: 1.0 },
-                max_size_m: None,
-            },
-            Shape {
-                name: "outer-part".into(),
-                outline: second,
-                fill: Fill::Dielectric { permittivity: 4.0 },
-                max_size_m: None,
-            },
-            Shape {
-                name: "wall".into(),
-                outline: wedge_wall(1.5 * PI),
-                fill: Fill::Conductor { conductor: 0 },
-                max_size_m: None,
-            },
+    let geo = corner_geometry(
+        Symmetry::Planar,
+        vec![
+            dielectric("inner-part", Outline::circle("inner-part", [0.0, 0.0], 1.0).unwrap(), 1.0),
+            dielectric("outer-part", second, 4.0),
+            conductor("wall", wedge_wall([0.0, 0.0], 1.5 * PI)),
         ],
-        conductors: vec!["zero".into()],
-        outer: OuterBoundary::FixedPotential,
-        size_points: vec![],
-    };
-    let problem = Problem {
-        permittivity: vec![1.0, 4.0, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: Some(0.0),
-        outer_potential_fn: Some(two_dielectric_data),
-        ..Default::default()
-    };
+    );
+    let problem = data_problem(vec![1.0, 4.0, f64::NAN], two_dielectric_data);
     let lambda = two_dielectric_lambda();
     let mut errors = Vec::new();
     for h in [0.05, 0.025] {
@@ -358,28 +345,8 @@ fn singular_coefficient_at_a_conical_tip_on_the_axis() {
         ],
     )
     .unwrap();
-    let geo = Geometry {
-        symmetry: Symmetry::Axisymmetric,
-        shapes: vec![
-            Shape {
-                name: "space".into(),
-                outline: domain,
-                fill: Fill::Dielectric { permittivity: 1.0 },
-                max_size_m: None,
-            },
-            Shape { name: "tip".into(), outline: tip, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
-        ],
-        conductors: vec!["tip".into()],
-        outer: OuterBoundary::FixedPotential,
-        size_points: vec![],
-    };
-    let problem = Problem {
-        permittivity: vec![1.0, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-        outer_potential_v: Some(0.0),
-        outer_potential_fn: Some(cone_data),
-        ..Default::default()
-    };
+    let geo = corner_geometry(Symmetry::Axisymmetric, vec![dielectric("space", domain, 1.0), conductor("tip", tip)]);
+    let problem = data_problem(vec![1.0, f64::NAN], cone_data);
     let nu = cone_lambda();
     assert!(nu > 0.0 && nu < 1.0);
     let mut errors = Vec::new();
@@ -413,43 +380,17 @@ fn axisymmetric_coefficient_tends_to_the_planar_one_far_from_the_axis() {
     // correction falling like 1/ρ₀ (the ρ-weight varies by r/ρ₀ over the corner region); the
     // dual extraction must not depend on the cut-off radius (it is exact for every term of
     // the expansion), while the ring fit, biased by the higher terms, may.
-    use mesher::Curve;
     let mut offsets = Vec::new();
     for rho0 in [1000.0f64, 100.0] {
         RHO0.store(rho0.to_bits(), std::sync::atomic::Ordering::Relaxed);
-        let theta0 = 1.5 * PI;
-        let end = [rho0 + theta0.cos(), theta0.sin()];
-        let wall = Outline::new(
-            "wall",
+        let geo = corner_geometry(
+            Symmetry::Axisymmetric,
             vec![
-                Curve::Line { from: [rho0, 0.0], to: [rho0 + 1.0, 0.0] },
-                Curve::Arc { center: [rho0, 0.0], radius: 1.0, start: 0.0, sweep: theta0 - 2.0 * PI },
-                Curve::Line { from: end, to: [rho0, 0.0] },
+                dielectric("ring", Outline::circle("ring", [rho0, 0.0], 1.0).unwrap(), 1.0),
+                conductor("wall", wedge_wall([rho0, 0.0], 1.5 * PI)),
             ],
-        )
-        .unwrap();
-        let geo = Geometry {
-            symmetry: Symmetry::Axisymmetric,
-            shapes: vec![
-                Shape {
-                    name: "ring".into(),
-                    outline: Outline::circle("ring", [rho0, 0.0], 1.0).unwrap(),
-                    fill: Fill::Dielectric { permittivity: 1.0 },
-                    max_size_m: None,
-                },
-                Shape { name: "wall".into(), outline: wall, fill: Fill::Conductor { conductor: 0 }, max_size_m: None },
-            ],
-            conductors: vec!["zero".into()],
-            outer: OuterBoundary::FixedPotential,
-            size_points: vec![],
-        };
-        let problem = Problem {
-            permittivity: vec![1.0, f64::NAN],
-            conductors: vec![ConductorSpec::Fixed { potential_v: 0.0 }],
-            outer_potential_v: Some(0.0),
-            outer_potential_fn: Some(off_axis_sector_data),
-            ..Default::default()
-        };
+        );
+        let problem = data_problem(vec![1.0, f64::NAN], off_axis_sector_data);
         let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;
         let sol = solve(&mesh, &problem).unwrap();
         let sp = mesh.singular_points.iter().find(|s| (s.at[0] - rho0).hypot(s.at[1]) < 1e-9).unwrap();
