@@ -6,13 +6,16 @@
 //! 2. Build the [`SizeField`]: global and per-shape sizes, point sizes, small-radius arcs
 //!    (chords no longer than 8·c·R for chord tolerance c, so the sagitta stays below c times
 //!    the chord), and the grading h₀·(r/R)^(1−μ) towards singular points.
-//! 3. Split every arrangement piece so that the spacing follows the size field: points are
-//!    placed at equal increments of ∫ ds/h(s) along the piece (exact arcs: the points lie on
-//!    the circle).
-//! 4. Seed the interior from a quadtree whose leaves are no larger than the local size;
-//!    leaf centres inside the domain and clear of the boundary become vertices.
-//! 5. Bulk-load the constrained Delaunay triangulation (spade) and run Delaunay refinement
-//!    (Ruppert/Chew, in spade) for the minimum angle, with the node budget as a stop.
+//! 3. Split every arc and every horizontal or vertical piece of the arrangement so that the
+//!    spacing follows the size field: points are placed at equal increments of ∫ ds/h(s)
+//!    along the piece (exactly on it: arcs' points lie on the circle). Inclined straight
+//!    pieces go in whole; refinement splits them.
+//! 4. Seed the interior from a quadtree whose leaves are at most four times the local size:
+//!    each leaf gets a small shifted-row lattice of points (spacing at most the local
+//!    size); points inside the dielectric and clear of the boundary become vertices.
+//! 5. Bulk-load the boundary into a constrained Delaunay triangulation (spade), insert the
+//!    seeds in quadtree order, and run Delaunay refinement (Ruppert/Chew, in spade) for the
+//!    minimum angle, with the node budget as a stop.
 //! 6. Flood-fill the triangles across non-constraint edges into components, label each by
 //!    the paint order at one interior point, drop conductor interiors and the outside, tag
 //!    every boundary and interface edge, and move the nodes that refinement inserted on arc
@@ -28,7 +31,7 @@
 //!   spade's refinement uses by rounding splits to powers of two).
 //!
 //! # Complexity
-//! O(N log N) for N triangles: the quadtree and the bulk load dominate; refinement only
+//! O(N log N) for N triangles: the quadtree and the spatially ordered insertion of its seeds dominate; refinement only
 //! repairs the transitions between quadtree levels and near the boundary.
 
 use crate::arrangement::{side_at, Arrangement, Side};
@@ -191,15 +194,21 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
     let mut piece_of = Vec::new();
     let mut samples: Vec<(f64, f64)> = Vec::new();
     for (pi, pc) in arr.pieces.iter().enumerate() {
-        if let Curve::Line { .. } = pc.curve {
-            // Straight pieces go in whole: points computed along an inclined line are off
-            // it by round-off, which leaves zero-area slivers between consecutive
-            // sub-segments. Delaunay refinement splits the segment instead (exactly on it,
-            // topologically), wherever the graded interior seeds encroach upon it, which
-            // makes the boundary spacing follow the size field.
-            segments.push([pc.v[0] as u32, pc.v[1] as u32]);
-            piece_of.push(pi as u32);
-            continue;
+        if let Curve::Line { from, to } = pc.curve {
+            if from[0] != to[0] && from[1] != to[1] {
+                // Inclined straight pieces go in whole: points computed along an inclined
+                // line are off it by round-off, which leaves zero-area slivers between
+                // consecutive sub-segments. Delaunay refinement splits the segment instead
+                // (exactly on it, topologically), wherever the graded interior seeds
+                // encroach upon it, which makes the boundary spacing follow the size
+                // field. Points on a horizontal or vertical piece are exact, and it is
+                // split here like an arc, so that its spacing follows the size field
+                // from the start (refinement's splits near a corner halve towards the
+                // corner and may split the piece across the corner too).
+                segments.push([pc.v[0] as u32, pc.v[1] as u32]);
+                piece_of.push(pi as u32);
+                continue;
+            }
         }
         let len = pc.curve.length();
         // Cumulative ∫ ds/h by the midpoint rule (no evaluation at the ends, where a
@@ -226,7 +235,8 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
             h_here = size(s);
             samples.push((s, acc));
         }
-        // Arcs round up, so that no chord exceeds the chord-tolerance length 8·c·R.
+        // Round up, so that no chord exceeds the size (for arcs: the chord-tolerance
+        // length 8·c·R).
         let n = (acc * (1.0 - 1e-9)).ceil().max(1.0) as usize;
         let mut prev = pc.v[0] as u32;
         let mut j = 0;
@@ -250,14 +260,21 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
     Pslg { points, segments, piece_of }
 }
 
-/// Interior vertices from a quadtree whose leaves are at most twice the local size.
+/// Largest leaf side of the seeding quadtree, in local sizes. Larger leaves follow the size
+/// field more closely (their spacing s/k takes more values: d/h within about 0.67–1 for
+/// 4, 0.5–1 for 2) and cost fewer size and region queries; the size varies little across
+/// a leaf because the field's gradation is bounded.
+const LEAF_SIZES: f64 = 4.0;
+
+/// Interior vertices from a quadtree whose leaves are at most four times the local size.
 ///
-/// A leaf of side s at local size h receives k × k points (k = round(s/h) ≥ 1) on rows of
+/// A leaf of side s at local size h receives k × k points (k = ⌈s/h⌉ ≥ 1) on rows of
 /// spacing d = s/k, alternate rows shifted by ±d/4, which triangulates into isosceles
-/// triangles with angles of about 53° and 63°. Points outside the dielectric (outside the domain
-/// or inside a conductor) or closer than d/2 to a boundary segment are dropped; Delaunay
-/// refinement repairs the seams between
-/// leaves of different sizes and the layer along the boundary.
+/// triangles with angles of about 53° and 63°. Points outside the dielectric (outside the
+/// domain or inside a conductor) or closer than d/2 to a boundary segment are dropped;
+/// Delaunay refinement repairs the seams between leaves of different sizes and the layer
+/// along the boundary. The uniform zone is seeded too: a spatially ordered insertion of a
+/// regular lattice costs about a third of what refinement pays per vertex it creates.
 fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Vec<Xy> {
     let bb = geo.bbox();
     let side = (bb[2] - bb[0]).max(bb[3] - bb[1]);
@@ -269,61 +286,79 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
             continue;
         }
         let mut h = field.size_at(c);
-        // A leaf must not be larger than twice the size anywhere in it, and its centre
+        // A leaf must not be larger than four times the size anywhere in it, and its centre
         // stands for it, unless a boundary crosses the cell and the centre lies inside a
         // conductor or outside the domain: there a size requested on an earlier mesh is not
         // defined, while a singular corner in the cell may ask for much less. The cell's
         // corners are sampled then.
-        let mut near_boundary = None;
-        if s <= 2.0 * h {
-            let near = near_segment(pslg, grid, c, 0.75 * s);
-            if near && !matches!(side_at(geo, c), Side::Region(_)) {
-                for (dx, dy) in [(-0.5, -0.5), (0.5, -0.5), (-0.5, 0.5), (0.5, 0.5)] {
-                    h = h.min(field.size_at([c[0] + dx * s, c[1] + dy * s]));
-                }
+        if s <= LEAF_SIZES * h && near_segment(pslg, grid, c, 0.75 * s) && !matches!(side_at(geo, c), Side::Region(_)) {
+            for (dx, dy) in [(-0.5, -0.5), (0.5, -0.5), (-0.5, 0.5), (0.5, 0.5)] {
+                h = h.min(field.size_at([c[0] + dx * s, c[1] + dy * s]));
             }
-            near_boundary = Some(near);
         }
-        if s > 2.0 * h && depth < 40 {
+        if s > LEAF_SIZES * h && depth < 40 {
             let q = s / 4.0;
             for (dx, dy) in [(-q, -q), (q, -q), (-q, q), (q, q)] {
                 stack.push(([c[0] + dx, c[1] + dy], s / 2.0, depth + 1));
             }
             continue;
         }
-        if h >= 0.95 * field.max() {
-            // Uniform zone: Delaunay refinement with the global area bound fills it
-            // (faster than bulk-loading seeds there).
-            continue;
-        }
-        let k = ((s / h).round() as usize).clamp(1, 4);
+        // Spacing d ≤ h: the lattice's longest edges are 1.12·d, and its triangles (base d,
+        // height d) stay well inside the area bound of the Delaunay refinement below.
+        let k = ((s / h).ceil() as usize).clamp(1, 4);
         let d = s / k as f64;
         // Seeds inside a conductor would only be meshed to be thrown away. A leaf that no
-        // boundary segment comes near lies in one region, classified once at its centre;
-        // the others classify each seed.
-        let near_boundary = near_boundary.unwrap_or_else(|| near_segment(pslg, grid, c, 0.75 * s));
+        // boundary segment comes near (within its half-diagonal plus 1.6·d) lies in one region,
+        // classified once at its centre, and all its seeds keep clear of the boundary; the
+        // others classify and check each seed.
+        let near_boundary = near_segment(pslg, grid, c, 0.71 * s + 1.6 * d);
         let leaf_side = (!near_boundary).then(|| side_at(geo, c));
         if matches!(leaf_side, Some(side) if !matches!(side, Side::Region(_))) {
             continue;
         }
+        // Rows alternate their shift by their index counted from the bottom of the box, so
+        // that the alternation carries on across leaves of the same size (with a per-leaf
+        // count, k = 1 would stack equal shifts into a square grid: every square's four
+        // corners on one circle, which costs the Delaunay insertion exact arithmetic).
+        let first_row = ((c[1] - s / 2.0 - bb[1]) / d).round() as i64;
         for j in 0..k {
-            let shift = if (j + depth as usize).is_multiple_of(2) { 0.25 * d } else { -0.25 * d };
+            let shift = if (first_row + j as i64) % 2 == 0 { 0.25 * d } else { -0.25 * d };
             for i in 0..k {
                 let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
                 if p[0] > bb[2] || p[1] > bb[3] {
                     continue;
                 }
-                if leaf_side.is_none() && !matches!(side_at(geo, p), Side::Region(_)) {
-                    continue;
-                }
-                // Keep clear of the boundary: at least half the spacing from every segment.
-                if !near_segment(pslg, grid, p, 0.5 * d) {
+                if leaf_side.is_some()
+                    || (matches!(side_at(geo, p), Side::Region(_)) && clear_of_boundary(pslg, grid, p, d))
+                {
                     out.push(p);
                 }
             }
         }
     }
     out
+}
+
+/// True when a seed at `p` of spacing `d` keeps clear of the boundary: at least d/2 from
+/// every segment, and at least 0.8·L from every segment of length L ≤ 2d. Long straight
+/// pieces are inserted whole and get their spacing from Delaunay refinement splitting
+/// them wherever a vertex lies inside their diametral circle (Ruppert 1995). Arc chords
+/// and short pieces are already at the local size: a seed that close would leave a thin
+/// triangle on the segment whose circumcentre encroaches it, and the split would leave the
+/// boundary spacing uneven. At 0.8·L above a segment end the thinnest such triangle has
+/// an angle of atan 0.8 ≈ 39° (above the 30° limit).
+fn clear_of_boundary(pslg: &Pslg, grid: &BucketGrid, p: Xy, d: f64) -> bool {
+    let mut clear = true;
+    grid.for_each_near(p, 1.6 * d, |si| {
+        if clear {
+            let [a, b] = pslg.segments[si as usize];
+            let (pa, pb) = (pslg.points[a as usize], pslg.points[b as usize]);
+            let len = norm(sub(pb, pa));
+            let need = if len <= 2.0 * d { (0.8 * len).max(0.5 * d) } else { 0.5 * d };
+            clear = point_segment_distance(p, pa, pb) >= need;
+        }
+    });
+    clear
 }
 
 /// True when a boundary segment passes within `r` of `c`.
