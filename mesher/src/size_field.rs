@@ -230,7 +230,21 @@ impl SizeField {
 
     /// Wanted element edge length at `p`.
     pub fn size_at(&self, p: Xy) -> f64 {
-        let mut h = self.h_max;
+        self.size_below(p, self.h_max).max(self.h_floor)
+    }
+
+    /// Growth of the size per unit distance away from a source (gradation − 1).
+    pub(crate) fn slope(&self) -> f64 {
+        self.slope
+    }
+
+    /// The smallest size any source asks for at `p`, or `cap` if none asks for less (the
+    /// global size and the floor do not enter). Away from singular points each source
+    /// grows at most at [`SizeField::slope`] per unit distance, so where this is at least
+    /// the global size plus slope·r, the whole disc of radius r around `p` is at the global
+    /// size.
+    pub(crate) fn size_below(&self, p: Xy, cap: f64) -> f64 {
+        let mut h = cap;
         for s in &self.sources {
             let v = match s {
                 Source::Inside { outline, bbox, h: hs } => {
@@ -265,7 +279,7 @@ impl SizeField {
             };
             h = h.min(v);
         }
-        h.max(self.h_floor)
+        h
     }
 }
 

@@ -266,6 +266,10 @@ fn discretise(arr: &Arrangement, field: &SizeField) -> Pslg {
 /// a leaf because the field's gradation is bounded.
 const LEAF_SIZES: f64 = 4.0;
 
+/// Largest side, in global sizes, of a leaf wholly in the uniform zone and away from the
+/// boundary.
+const UNIFORM_LEAF_SIZES: f64 = 16.0;
+
 /// Interior vertices from a quadtree whose leaves are at most four times the local size.
 ///
 /// A leaf of side s at local size h receives k × k points (k = ⌈s/h⌉ ≥ 1) on rows of
@@ -285,7 +289,23 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         if c[0] - s / 2.0 > bb[2] || c[1] - s / 2.0 > bb[3] {
             continue;
         }
-        let mut h = field.size_at(c);
+        // A cell away from the boundary that lies wholly in the uniform zone (the field's
+        // growth bound says so from its centre) may be a leaf of up to 16 sizes: its
+        // spacing s/⌈s/h⌉ is then within 6 % of the global size, and follows it without
+        // the steps of a small leaf's quantised spacing.
+        let h_max = field.max();
+        let whole_leaf_uniform = h_max + field.slope() * std::f64::consts::FRAC_1_SQRT_2 * s;
+        let raw = field.size_below(c, whole_leaf_uniform);
+        if raw >= whole_leaf_uniform
+            && s <= UNIFORM_LEAF_SIZES * h_max
+            && !near_segment(pslg, grid, c, 0.71 * s + 1.6 * h_max)
+        {
+            if matches!(side_at(geo, c), Side::Region(_)) {
+                lattice(c, s, h_max, bb, &mut out, |_| true);
+            }
+            continue;
+        }
+        let mut h = raw.min(h_max).max(field.floor());
         // A leaf must not be larger than four times the size anywhere in it, and its centre
         // stands for it, unless a boundary crosses the cell and the centre lies inside a
         // conductor or outside the domain: there a size requested on an earlier mesh is not
@@ -303,40 +323,51 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
             }
             continue;
         }
-        // Spacing d ≤ h: the lattice's longest edges are 1.12·d, and its triangles (base d,
-        // height d) stay well inside the area bound of the Delaunay refinement below.
-        let k = ((s / h).ceil() as usize).clamp(1, 4);
-        let d = s / k as f64;
+        let d = s / lattice_count(s, h) as f64;
         // Seeds inside a conductor would only be meshed to be thrown away. A leaf that no
         // boundary segment comes near (within its half-diagonal plus 1.6·d) lies in one region,
         // classified once at its centre, and all its seeds keep clear of the boundary; the
         // others classify and check each seed.
         let near_boundary = near_segment(pslg, grid, c, 0.71 * s + 1.6 * d);
-        let leaf_side = (!near_boundary).then(|| side_at(geo, c));
-        if matches!(leaf_side, Some(side) if !matches!(side, Side::Region(_))) {
+        if !near_boundary {
+            if matches!(side_at(geo, c), Side::Region(_)) {
+                lattice(c, s, h, bb, &mut out, |_| true);
+            }
             continue;
         }
-        // Rows alternate their shift by their index counted from the bottom of the box, so
-        // that the alternation carries on across leaves of the same size (with a per-leaf
-        // count, k = 1 would stack equal shifts into a square grid: every square's four
-        // corners on one circle, which costs the Delaunay insertion exact arithmetic).
-        let first_row = ((c[1] - s / 2.0 - bb[1]) / d).round() as i64;
-        for j in 0..k {
-            let shift = if (first_row + j as i64) % 2 == 0 { 0.25 * d } else { -0.25 * d };
-            for i in 0..k {
-                let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
-                if p[0] > bb[2] || p[1] > bb[3] {
-                    continue;
-                }
-                if leaf_side.is_some()
-                    || (matches!(side_at(geo, p), Side::Region(_)) && clear_of_boundary(pslg, grid, p, d))
-                {
-                    out.push(p);
-                }
+        lattice(c, s, h, bb, &mut out, |p| {
+            matches!(side_at(geo, p), Side::Region(_)) && clear_of_boundary(pslg, grid, p, d)
+        });
+    }
+    out
+}
+
+/// Points per row of a leaf of side `s` at local size `h`: ⌈s/h⌉ (capped at the largest leaf).
+fn lattice_count(s: f64, h: f64) -> usize {
+    ((s / h).ceil() as usize).clamp(1, UNIFORM_LEAF_SIZES as usize)
+}
+
+/// Pushes the seeds of a leaf (centre `c`, side `s`, local size `h`) that `keep` accepts:
+/// k × k points, k = ⌈s/h⌉, on rows of spacing d = s/k ≤ h, alternate rows shifted by
+/// ±d/4. The lattice's longest edges are 1.12·d, and its triangles (base d, height d)
+/// stay well inside the area bound of the Delaunay refinement.
+fn lattice(c: Xy, s: f64, h: f64, bb: [f64; 4], out: &mut Vec<Xy>, keep: impl Fn(Xy) -> bool) {
+    let k = lattice_count(s, h);
+    let d = s / k as f64;
+    // Rows alternate their shift by their index counted from the bottom of the box, so
+    // that the alternation carries on across leaves of the same size (with a per-leaf
+    // count, k = 1 would stack equal shifts into a square grid: every square's four
+    // corners on one circle, which costs the Delaunay insertion exact arithmetic).
+    let first_row = ((c[1] - s / 2.0 - bb[1]) / d).round() as i64;
+    for j in 0..k {
+        let shift = if (first_row + j as i64) % 2 == 0 { 0.25 * d } else { -0.25 * d };
+        for i in 0..k {
+            let p = [c[0] - s / 2.0 + (i as f64 + 0.5) * d + shift, c[1] - s / 2.0 + (j as f64 + 0.5) * d];
+            if p[0] <= bb[2] && p[1] <= bb[3] && keep(p) {
+                out.push(p);
             }
         }
     }
-    out
 }
 
 /// True when a seed at `p` of spacing `d` keeps clear of the boundary: at least d/2 from
