@@ -520,10 +520,22 @@ fn extract(
         }
         a
     }
+    // Positions of all CDT vertices, and each face's vertices (read from spade once: its
+    // handles cost a pointer chase per step).
+    let all: Vec<Xy> = cdt
+        .vertices()
+        .map(|v| {
+            let p = v.position();
+            [p.x, p.y]
+        })
+        .collect();
+    const NO_FACE: [u32; 3] = [u32::MAX; 3];
+    let mut corners = vec![NO_FACE; nf];
     let mut touches_outer = vec![false; nf];
     for f in cdt.inner_faces() {
         let fi = f.fix().index() as u32;
-        for e in f.adjacent_edges() {
+        for (k, e) in f.adjacent_edges().into_iter().enumerate() {
+            corners[fi as usize][k] = e.from().fix().index() as u32;
             if e.as_undirected().is_constraint_edge() {
                 continue;
             }
@@ -547,19 +559,22 @@ fn extract(
     let mut best: Vec<(f64, Xy)> = vec![(f64::NEG_INFINITY, [0.0, 0.0]); nf];
     let mut outside = vec![false; nf];
     let mut roots = Vec::new();
-    for f in cdt.inner_faces() {
-        let fi = f.fix().index() as u32;
-        let r = root(&mut parent, fi) as usize;
-        if r == fi as usize {
+    for fi in 0..nf {
+        if corners[fi] == NO_FACE {
+            continue;
+        }
+        let r = root(&mut parent, fi as u32) as usize;
+        if r == fi {
             roots.push(r);
         }
-        outside[r] |= touches_outer[fi as usize];
+        outside[r] |= touches_outer[fi];
         if seen[r] < 64 {
             seen[r] += 1;
-            let a = f.area();
+            let [p0, p1, p2] = corners[fi].map(|v| all[v as usize]);
+            let a = 0.5 * ((p1[0] - p0[0]) * (p2[1] - p0[1]) - (p2[0] - p0[0]) * (p1[1] - p0[1]));
             if a > best[r].0 {
-                let c = f.center();
-                best[r] = (a, [c.x, c.y]);
+                let third = 1.0 / 3.0;
+                best[r] = (a, [(p0[0] + (p1[0] + p2[0])) * third, (p0[1] + (p1[1] + p2[1])) * third]);
             }
         }
     }
@@ -567,25 +582,20 @@ fn extract(
     for &r in &roots {
         label[r] = Some(if outside[r] { Side::Outside } else { side_at(geo, best[r].1) });
     }
-    // Nodes: positions of all CDT vertices; compacted to the ones dielectric triangles use.
-    let all: Vec<Xy> = cdt
-        .vertices()
-        .map(|v| {
-            let p = v.position();
-            [p.x, p.y]
-        })
-        .collect();
+    // Nodes: compacted to the ones dielectric triangles use, numbered in face order.
     let mut map = vec![u32::MAX; all.len()];
     let mut nodes: Vec<Xy> = Vec::new();
     let mut triangles = Vec::new();
     let mut regions = Vec::new();
-    for f in cdt.inner_faces() {
-        let fi = f.fix().index();
+    for fi in 0..nf {
+        if corners[fi] == NO_FACE {
+            continue;
+        }
         let side = label[root(&mut parent, fi as u32) as usize];
         label[fi] = side;
         let Some(Side::Region(r)) = side else { continue };
-        let tri = f.vertices().map(|v| {
-            let i = v.fix().index();
+        let tri = corners[fi].map(|i| {
+            let i = i as usize;
             if map[i] == u32::MAX {
                 map[i] = nodes.len() as u32;
                 nodes.push(all[i]);
