@@ -97,7 +97,7 @@ fn main() {
         let mut best = None;
         let mut h_used = h;
         let mut stages = Vec::new();
-        for _ in 0..4 {
+        for _ in 0..8 {
             let params = RefineParams::new().with_order(2).with_max_size_m(h).with_max_nodes(20_000_000);
             let t0 = Instant::now();
             let o = generate(&geo, &params).unwrap();
@@ -108,7 +108,8 @@ fn main() {
             h_used = h;
             eprintln!("h {h:.2e}: {n} triangles in {secs:.3} s: {:?}", o.timings);
             stages = o.timings.clone();
-            // Steer h towards the target count.
+            // Steer h towards the target count (the count is nearly, not exactly, continuous
+            // in h: the seeding lattices of small quadtree leaves take quantised spacings).
             let ratio = n as f64 / target;
             if (ratio - 1.0).abs() < 0.1 {
                 break;
