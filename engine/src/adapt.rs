@@ -17,9 +17,7 @@
 //! error sits in a handful of triangles at singular points, which grading makes cheap), the
 //! count is reached by letting every triangle refine to the same ε. The sizes go to the mesher as a background size field on the old mesh
 //! (continuous, graded; see `mesher::BackgroundSize`) and the geometry is meshed afresh
-//! (arcs, tags and the corner analysis stay exact). The count asked of the mesher is
-//! divided by the ratio of delivered to asked triangles met on the previous remesh. If the
-//! new mesh has fewer than 1.3×
+//! (arcs, tags and the corner analysis stay exact). If the new mesh has fewer than 1.3×
 //! the triangles, the loop asks again for more: successive meshes form a refinement
 //! sequence, which the convergence study of the watched quantities needs.
 //!
@@ -225,10 +223,6 @@ pub fn adapt_watching(
     let p = params.order.max(1) as f64;
     let params = ap.mesh.apply(geo, params);
     let mut pending: Option<Mesh> = None;
-    // Triangles delivered per triangle predicted by the size plan, from the last remesh
-    // (1.3–2.0 on the demo models: the seeding lattice spaces its points at 0.67–1 times
-    // the asked size; a start at 1.6 was tried and cost more meshes than it saved).
-    let mut delivered = 1.0;
     let mut history: Vec<AdaptStep> = Vec::new();
     loop {
         let mesh = match pending.take() {
@@ -304,17 +298,13 @@ pub fn adapt_watching(
         // The prediction is rough (the gradation spreads refinement, coarsening may not
         // happen): ask again for more if the mesh did not grow by 1.3×, so that the meshes
         // form a refinement sequence, as the convergence study needs.
-        // The count the mesher delivers for a predicted count varies with the mesher's
-        // seeding (its lattice spacing lies below the asked size) and the geometry: the
-        // ratio met on the previous step corrects the next ask.
-        let mut ask = target / delivered;
+        let mut ask = target;
         let mut next = None;
         for _ in 0..4 {
             let sizes = plan.sizes_for_count(ask);
             let m =
                 generate_with(geo, &params, Some(BackgroundSize::new(&mesh, sizes))).map_err(SolveError::Mesh)?.mesh;
             let got = m.triangles.len() as f64;
-            delivered = (got / ask).clamp(0.5, 4.0);
             next = Some(m);
             if got >= 1.3 * nt {
                 break;
