@@ -280,14 +280,72 @@ const UNIFORM_LEAF_SIZES: f64 = 16.0;
 /// along the boundary. The uniform zone is seeded too: a spatially ordered insertion of a
 /// regular lattice costs about a third of what refinement pays per vertex it creates.
 fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Vec<Xy> {
+    use rayon::prelude::*;
     let bb = geo.bbox();
     let side = (bb[2] - bb[0]).max(bb[3] - bb[1]);
-    let mut out = Vec::new();
+    let seeder = Seeder { geo, field, pslg, grid, bb };
+    // The tree is walked depth first (a stack, children pushed in a fixed order), which
+    // puts the seeds in a spatial order. Down to depth SPLIT_DEPTH the walk is serial and
+    // collects the cells there (and the leaves met earlier, already seeded) in walk
+    // order; their subtrees are then walked in parallel, and the outputs concatenated in
+    // that order are exactly the serial walk's.
+    const SPLIT_DEPTH: u32 = 4;
+    enum Task {
+        Done(Vec<Xy>),
+        Walk(Cell),
+    }
+    let mut tasks = Vec::new();
     let mut stack = vec![([bb[0] + side / 2.0, bb[1] + side / 2.0], side, 0u32)];
-    while let Some((c, s, depth)) = stack.pop() {
+    while let Some(cell) = stack.pop() {
+        if cell.2 == SPLIT_DEPTH {
+            tasks.push(Task::Walk(cell));
+            continue;
+        }
+        let mut out = Vec::new();
+        match seeder.visit(cell, &mut out) {
+            Some(children) => stack.extend(children),
+            None => tasks.push(Task::Done(out)),
+        }
+    }
+    let parts: Vec<Vec<Xy>> = tasks
+        .into_par_iter()
+        .map(|t| match t {
+            Task::Done(v) => v,
+            Task::Walk(cell) => {
+                let mut out = Vec::new();
+                let mut stack = vec![cell];
+                while let Some(cell) = stack.pop() {
+                    if let Some(children) = seeder.visit(cell, &mut out) {
+                        stack.extend(children);
+                    }
+                }
+                out
+            }
+        })
+        .collect();
+    parts.concat()
+}
+
+/// A quadtree cell: centre, side, depth.
+type Cell = (Xy, f64, u32);
+
+/// What the seeding reads.
+struct Seeder<'a> {
+    geo: &'a Geometry,
+    field: &'a SizeField,
+    pslg: &'a Pslg,
+    grid: &'a BucketGrid,
+    bb: [f64; 4],
+}
+
+impl Seeder<'_> {
+    /// Seeds cell `(c, s, depth)` into `out` if it is a leaf, or returns its four children
+    /// (in the order the depth-first walk pushes them).
+    fn visit(&self, (c, s, depth): Cell, out: &mut Vec<Xy>) -> Option<[Cell; 4]> {
+        let Seeder { geo, field, pslg, grid, bb } = *self;
         // Cells wholly outside the bounding box of the domain.
         if c[0] - s / 2.0 > bb[2] || c[1] - s / 2.0 > bb[3] {
-            continue;
+            return None;
         }
         // A cell away from the boundary that lies wholly in the uniform zone (the field's
         // growth bound says so from its centre) may be a leaf of up to 16 sizes: its
@@ -301,9 +359,9 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
             && !near_segment(pslg, grid, c, 0.71 * s + 1.6 * h_max)
         {
             if matches!(side_at(geo, c), Side::Region(_)) {
-                lattice(c, s, h_max, bb, &mut out, |_| true);
+                lattice(c, s, h_max, bb, out, |_| true);
             }
-            continue;
+            return None;
         }
         let mut h = raw.min(h_max).max(field.floor());
         // A leaf must not be larger than four times the size anywhere in it, and its centre
@@ -318,10 +376,9 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         }
         if s > LEAF_SIZES * h && depth < 40 {
             let q = s / 4.0;
-            for (dx, dy) in [(-q, -q), (q, -q), (-q, q), (q, q)] {
-                stack.push(([c[0] + dx, c[1] + dy], s / 2.0, depth + 1));
-            }
-            continue;
+            return Some(
+                [(-q, -q), (q, -q), (-q, q), (q, q)].map(|(dx, dy)| ([c[0] + dx, c[1] + dy], s / 2.0, depth + 1)),
+            );
         }
         let d = s / lattice_count(s, h) as f64;
         // Seeds inside a conductor would only be meshed to be thrown away. A leaf that no
@@ -331,15 +388,15 @@ fn seed(geo: &Geometry, field: &SizeField, pslg: &Pslg, grid: &BucketGrid) -> Ve
         let near_boundary = near_segment(pslg, grid, c, 0.71 * s + 1.6 * d);
         if !near_boundary {
             if matches!(side_at(geo, c), Side::Region(_)) {
-                lattice(c, s, h, bb, &mut out, |_| true);
+                lattice(c, s, h, bb, out, |_| true);
             }
-            continue;
+            return None;
         }
-        lattice(c, s, h, bb, &mut out, |p| {
+        lattice(c, s, h, bb, out, |p| {
             matches!(side_at(geo, p), Side::Region(_)) && clear_of_boundary(pslg, grid, p, d)
         });
+        None
     }
-    out
 }
 
 /// Points per row of a leaf of side `s` at local size `h`: ⌈s/h⌉ (capped at the largest leaf).
