@@ -4,6 +4,7 @@
 use crate::corners::SingularPoint;
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Symmetry, Xy};
+use rayon::prelude::*;
 use std::collections::HashMap;
 
 /// Key of the undirected edge a–b: smaller id in the high half.
@@ -214,16 +215,13 @@ impl Mesh {
             }
         }
         let nv = self.num_vertices as usize;
-        let mut used = vec![false; n];
-        for (t, tri) in self.triangles.iter().enumerate() {
-            for &v in tri {
-                if v as usize >= nv {
-                    return bad(format!("triangle {t} refers to vertex {v}, but there are {nv} vertices"));
-                }
-                used[v as usize] = true;
+        // Per-triangle checks in parallel; the first failing triangle is reported.
+        let first_bad = self.triangles.par_iter().enumerate().find_map_first(|(t, tri)| {
+            if let Some(&v) = tri.iter().find(|&&v| v as usize >= nv) {
+                return Some(format!("triangle {t} refers to vertex {v}, but there are {nv} vertices"));
             }
             if self.regions[t] as usize >= self.shape_names.len() {
-                return bad(format!(
+                return Some(format!(
                     "triangle {t} has region {} but there are {} shapes",
                     self.regions[t],
                     self.shape_names.len()
@@ -232,7 +230,17 @@ impl Mesh {
             let a = self.triangle_area(t);
             if a.is_nan() || a <= 0.0 {
                 let c = tri.map(|i| self.nodes[i as usize]);
-                return bad(format!("triangle {t} with corners {c:?} is not counter-clockwise (area {a:e})"));
+                return Some(format!("triangle {t} with corners {c:?} is not counter-clockwise (area {a:e})"));
+            }
+            None
+        });
+        if let Some(detail) = first_bad {
+            return bad(detail);
+        }
+        let mut used = vec![false; n];
+        for tri in &self.triangles {
+            for &v in tri {
+                used[v as usize] = true;
             }
         }
         // Every (edge, triangle, local edge) sorted by edge: runs of equal keys are the
@@ -411,7 +419,7 @@ impl Mesh {
             .enumerate()
             .map(|(i, p)| (mapped[i], ordered(p[0]), ordered(p[1]), i as u32))
             .collect();
-        order.sort_unstable();
+        order.par_sort_unstable();
         for w in order.windows(2) {
             if w[0].0 != w[1].0 {
                 continue;
