@@ -85,9 +85,10 @@ fn main() {
         out,
         "spade = spade's own uniform refine (30°, one global max area chosen to give a similar triangle count).\n"
     );
-    let _ = writeln!(out, "| target | fieldgrade triangles | fieldgrade s | fieldgrade Mtri/s | in spade (bulk load + refine) | spade triangles | spade s | spade Mtri/s | ratio fieldgrade/spade tri/s |");
-    let _ = writeln!(out, "|---|---|---|---|---|---|---|---|---|");
+    let _ = writeln!(out, "| target | fieldgrade triangles | fieldgrade s | fieldgrade Mtri/s | in spade (bulk load + refine) | spade triangles | spade s | spade Mtri/s | ratio fieldgrade/spade tri/s | same, fieldgrade on 1 thread |");
+    let _ = writeln!(out, "|---|---|---|---|---|---|---|---|---|---|");
     let targets: &[f64] = if quick { &[1e5] } else { &[1e5, 1e6] };
+    let one_thread = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();
     let mut stage_lines = Vec::new();
     let mut p1_lines = Vec::new();
     for &target in targets {
@@ -131,6 +132,7 @@ fn main() {
         // Three interleaved repetitions of both at the settled sizes; medians are quoted.
         let params = RefineParams::new().with_order(2).with_max_size_m(h_used).with_max_nodes(20_000_000);
         let (mut ours_s, mut spade_share, mut theirs_s, mut ratios) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let mut ratios_1 = Vec::new();
         for _ in 0..3 {
             let t0 = Instant::now();
             let o = generate(&geo, &params).unwrap();
@@ -139,6 +141,10 @@ fn main() {
             stages = o.timings.clone();
             let s2 = spade_uniform(max_area);
             ratios.push((n as f64 / secs) / (s2.2 / s2.1));
+            // The same with fieldgrade's own parallel stages on one thread.
+            let t1 = Instant::now();
+            one_thread.install(|| generate(&geo, &params)).unwrap();
+            ratios_1.push((n as f64 / t1.elapsed().as_secs_f64()) / (s2.2 / s2.1));
             ours_s.push(secs);
             spade_share.push(in_spade / secs);
             theirs_s.push(s2.1);
@@ -149,13 +155,14 @@ fn main() {
             v[v.len() / 2]
         };
         let (secs, spade_s, ratio) = (med(&mut ours_s), med(&mut spade_share), med(&mut ratios));
+        let ratio_1 = med(&mut ratios_1);
         sp.1 = med(&mut theirs_s);
         let spade_s = spade_s * secs;
         let ours = n as f64 / secs / 1e6;
         let theirs = sp.2 / sp.1 / 1e6;
         let _ = writeln!(
             out,
-            "| {target:.0e} | {n} | {secs:.3} | {ours:.3} | {:.0} % | {} | {:.3} | {theirs:.3} | {:.2} |",
+            "| {target:.0e} | {n} | {secs:.3} | {ours:.3} | {:.0} % | {} | {:.3} | {theirs:.3} | {:.2} | {ratio_1:.2} |",
             100.0 * spade_s / secs,
             sp.2,
             sp.1,
@@ -174,10 +181,19 @@ fn main() {
         ));
         stage_lines.push(format!(
             "- {target:.0e}: {}",
-            stages.iter().map(|(k, t)| format!("{k} {:.0} %", 100.0 * t / secs)).collect::<Vec<_>>().join(", ")
+            stages
+                .iter()
+                .map(|(k, t)| format!("{k} {:.0} %", 100.0 * t / stages.iter().map(|(_, t)| t).sum::<f64>()))
+                .collect::<Vec<_>>()
+                .join(", ")
         ));
     }
     let _ = writeln!(out, "\nTimes and the ratio are medians of three interleaved repetitions (fieldgrade, spade, fieldgrade, ...); the ratio is the median of the per-pair ratios.");
+    let _ = writeln!(
+        out,
+        "fieldgrade's seeding and validation run on rayon's threads ({} here); spade's insertion and refinement, and the rest, on one. The last column runs fieldgrade inside a one-thread pool, timed in the same repetitions.",
+        rayon::current_num_threads()
+    );
     let _ = writeln!(out, "spade's triangle rate counts every triangle it made (also inside the electrode); fieldgrade's counts the dielectric mesh it returns, with P2 mid-edge nodes, tags and validation included in its time.");
     let _ = writeln!(out, "\nThe same size field with linear elements, excluding the final validation pass:\n");
     let _ = writeln!(
@@ -185,7 +201,7 @@ fn main() {
         "| target | triangles | s | Mtri/s | ratio to spade uniform (same run, row above) |\n|---|---|---|---|---|\n{}",
         p1_lines.join("\n")
     );
-    let _ = writeln!(out, "\nfieldgrade time by stage:\n{}", stage_lines.join("\n"));
+    let _ = writeln!(out, "\nfieldgrade time by stage (shares of the last repetition):\n{}", stage_lines.join("\n"));
     print!("{out}");
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../bench-results/mesh.md");
     std::fs::write(&path, &out).unwrap();
