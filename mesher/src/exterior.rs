@@ -10,12 +10,18 @@
 //! with the mapped permittivity ε′ = ε·R²/|x′ − c|² (the engine applies it), and the centre,
 //! being infinity, is held at 0 V.
 //!
-//! The disc (a half disc in axisymmetry) is meshed with rings of nodes inside the circle,
-//! their spacing starting from the circle's own node spacing and growing by the gradation
-//! factor towards the centre, and a Delaunay triangulation of the circle nodes and the
-//! rings. The circle's nodes are the interior mesh's own, so the two meshes are conforming
-//! along the circle; its edges become an interface between the domain and the
-//! "open-space exterior" region.
+//! The disc (a half disc in axisymmetry) is meshed by constrained Delaunay refinement to
+//! the mesh's angle bound: the circle's chords (and the axis) are constraints, the centre
+//! is a vertex, and the domain's vertices next to the circle (the third corner of every
+//! triangle on a chord) are copied in, so that the exterior starts with the domain's own
+//! spacing along the circle, however uneven (a size point or adaptive refinement near the
+//! circle), and no chord is encroached; refinement grades the disc towards the centre. If
+//! refinement split a chord anyway, the disc falls back to rings of nodes whose spacing
+//! starts from the circle's median node spacing and grows by the gradation factor towards
+//! the centre (conforming, but thin triangles where the circle's spacing is uneven). The
+//! circle's nodes are the interior mesh's own, so the two meshes are conforming along the
+//! circle; its edges become an interface between the domain and the "open-space exterior"
+//! region.
 //!
 //! # References
 //! - W. Thomson (Lord Kelvin), "Extrait d'une lettre de M. William Thomson à M. Liouville",
@@ -63,7 +69,13 @@ pub(crate) fn domain_circle(geo: &Geometry) -> Result<(Xy, f64), MeshError> {
 }
 
 /// Adds the mapped exterior to `mesh` (before P2 nodes are made).
-pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -> Result<(), MeshError> {
+pub(crate) fn attach(
+    mesh: &mut Mesh,
+    center: Xy,
+    radius: f64,
+    gradation: f64,
+    min_angle_deg: f64,
+) -> Result<(), MeshError> {
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     // Circle nodes: ends of the outer-boundary edges, by angle.
     let mut on_circle: Vec<u32> = mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer).flat_map(|e| e.nodes).collect();
@@ -74,66 +86,16 @@ pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -
     }
     let angle = |p: Xy| (p[1] - center[1]).atan2(p[0] - center[0]);
     on_circle.sort_by(|&a, &b| angle(mesh.nodes[a as usize]).total_cmp(&angle(mesh.nodes[b as usize])));
-    let mut spacing: Vec<f64> = mesh
-        .edges
-        .iter()
-        .filter(|e| e.tag == EdgeTag::Outer)
-        .map(|e| {
-            let (p, q) = (mesh.nodes[e.nodes[0] as usize], mesh.nodes[e.nodes[1] as usize]);
-            (p[0] - q[0]).hypot(p[1] - q[1])
-        })
-        .collect();
-    spacing.sort_by(f64::total_cmp);
-    let h0 = spacing[spacing.len() / 2];
-    // Rings towards the centre.
-    let span = if axisym { PI } else { 2.0 * PI };
-    let mut pts: Vec<Xy> = on_circle.iter().map(|&i| mesh.nodes[i as usize]).collect();
-    let n_circle = pts.len();
-    let (mut r, mut h) = (radius, h0);
-    loop {
-        // Spacing grows by the gradation factor; stop once the next ring would come closer
-        // to the centre than about its own spacing (the centre node closes the disc).
-        let h_next = h * gradation;
-        let r_next = r - 0.866 * h_next;
-        if r_next < 1.2 * h_next {
-            break;
-        }
-        let n = ((span * r_next / h_next).round() as usize).max(if axisym { 3 } else { 6 });
-        // Alternate rings are offset by half a step, which makes near-equilateral triangles.
-        let phase = if pts.len().is_multiple_of(2) { 0.0 } else { 0.5 };
-        if axisym {
-            for k in 0..=n {
-                let a = -PI / 2.0 + span * k as f64 / n as f64;
-                // Ring ends sit exactly on the axis.
-                let x = if k == 0 || k == n { 0.0 } else { center[0] + r_next * a.cos() };
-                pts.push([x, center[1] + r_next * a.sin()]);
-            }
-        } else {
-            for k in 0..n {
-                let a = span * (k as f64 + phase) / n as f64;
-                pts.push([center[0] + r_next * a.cos(), center[1] + r_next * a.sin()]);
-            }
-        }
-        r = r_next;
-        h = h_next;
-    }
-    // The centre stands for infinity.
-    pts.push(if axisym { [0.0, center[1]] } else { center });
-    let dt =
-        DelaunayTriangulation::<Point2<f64>>::bulk_load_stable(pts.iter().map(|p| Point2::new(p[0], p[1])).collect())
-            .map_err(|e| MeshError::Triangulation { detail: format!("open-boundary disc: {e:?}") })?;
-    if dt.num_vertices() != pts.len() {
-        return Err(MeshError::Triangulation { detail: "open-boundary disc: coincident ring points".into() });
-    }
+    let n_circle = on_circle.len();
+    let (pts, local_tris) = match refined_disc(mesh, center, radius, &on_circle, min_angle_deg) {
+        Some(disc) => disc,
+        None => ring_disc(mesh, center, radius, &on_circle, gradation)?,
+    };
     // Local → mesh node ids.
     let base = mesh.nodes.len() as u32;
     let id = |k: usize| if k < n_circle { on_circle[k] } else { base + (k - n_circle) as u32 };
     let region = mesh.shape_names.len() as u32;
-    let mut new_tris = Vec::new();
-    for f in dt.inner_faces() {
-        let v = f.vertices().map(|v| v.fix().index());
-        new_tris.push([id(v[0]), id(v[1]), id(v[2])]);
-    }
+    let new_tris: Vec<[u32; 3]> = local_tris.iter().map(|v| [id(v[0]), id(v[1]), id(v[2])]).collect();
     // Every circle chord must be an edge of the disc triangulation, or the meshes would
     // not conform.
     let mut disc_edges: std::collections::HashSet<(u32, u32)> = std::collections::HashSet::new();
@@ -186,4 +148,161 @@ pub(crate) fn attach(mesh: &mut Mesh, center: Xy, radius: f64, gradation: f64) -
     mesh.shape_names.push("open-space exterior".into());
     mesh.exterior = Some(Exterior { region, center, radius });
     Ok(())
+}
+
+/// The disc meshed by rings of nodes inside the circle, their spacing starting from the
+/// circle's median node spacing and growing by the gradation factor towards the centre,
+/// and a Delaunay triangulation of the circle nodes and the rings. Points: the circle
+/// nodes first, in `on_circle` order; triangles by index into the points.
+fn ring_disc(
+    mesh: &Mesh,
+    center: Xy,
+    radius: f64,
+    on_circle: &[u32],
+    gradation: f64,
+) -> Result<(Vec<Xy>, Vec<[usize; 3]>), MeshError> {
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    let mut spacing: Vec<f64> = mesh
+        .edges
+        .iter()
+        .filter(|e| e.tag == EdgeTag::Outer)
+        .map(|e| {
+            let (p, q) = (mesh.nodes[e.nodes[0] as usize], mesh.nodes[e.nodes[1] as usize]);
+            (p[0] - q[0]).hypot(p[1] - q[1])
+        })
+        .collect();
+    spacing.sort_by(f64::total_cmp);
+    let h0 = spacing[spacing.len() / 2];
+    // Rings towards the centre.
+    let span = if axisym { PI } else { 2.0 * PI };
+    let mut pts: Vec<Xy> = on_circle.iter().map(|&i| mesh.nodes[i as usize]).collect();
+    let (mut r, mut h) = (radius, h0);
+    loop {
+        // Spacing grows by the gradation factor; stop once the next ring would come closer
+        // to the centre than about its own spacing (the centre node closes the disc).
+        let h_next = h * gradation;
+        let r_next = r - 0.866 * h_next;
+        if r_next < 1.2 * h_next {
+            break;
+        }
+        let n = ((span * r_next / h_next).round() as usize).max(if axisym { 3 } else { 6 });
+        // Alternate rings are offset by half a step, which makes near-equilateral triangles.
+        let phase = if pts.len().is_multiple_of(2) { 0.0 } else { 0.5 };
+        if axisym {
+            for k in 0..=n {
+                let a = -PI / 2.0 + span * k as f64 / n as f64;
+                // Ring ends sit exactly on the axis.
+                let x = if k == 0 || k == n { 0.0 } else { center[0] + r_next * a.cos() };
+                pts.push([x, center[1] + r_next * a.sin()]);
+            }
+        } else {
+            for k in 0..n {
+                let a = span * (k as f64 + phase) / n as f64;
+                pts.push([center[0] + r_next * a.cos(), center[1] + r_next * a.sin()]);
+            }
+        }
+        r = r_next;
+        h = h_next;
+    }
+    // The centre stands for infinity.
+    pts.push(if axisym { [0.0, center[1]] } else { center });
+    let dt =
+        DelaunayTriangulation::<Point2<f64>>::bulk_load_stable(pts.iter().map(|p| Point2::new(p[0], p[1])).collect())
+            .map_err(|e| MeshError::Triangulation { detail: format!("open-boundary disc: {e:?}") })?;
+    if dt.num_vertices() != pts.len() {
+        return Err(MeshError::Triangulation { detail: "open-boundary disc: coincident ring points".into() });
+    }
+    Ok((pts, dt.inner_faces().map(|f| f.vertices().map(|v| v.fix().index())).collect()))
+}
+
+/// The disc meshed by Delaunay refinement (spade): the circle's chords are constraints
+/// (with the axis in an axisymmetric half disc), the centre is a vertex, and the domain's
+/// own vertices next to the circle (the third corner of each triangle on a chord) are
+/// copied in, so that near the circle the exterior starts with the interior's spacing,
+/// however uneven, and no chord is encroached. Refinement to the angle bound then grades
+/// the disc towards its centre. `None` if a chord was split (the meshes would not
+/// conform) or the refinement did not finish; the caller falls back to rings.
+fn refined_disc(
+    mesh: &Mesh,
+    center: Xy,
+    radius: f64,
+    on_circle: &[u32],
+    min_angle_deg: f64,
+) -> Option<(Vec<Xy>, Vec<[usize; 3]>)> {
+    use spade::{AngleLimit, ConstrainedDelaunayTriangulation, RefinementParameters};
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    let mut local = vec![usize::MAX; mesh.nodes.len()];
+    let mut pts: Vec<Xy> = Vec::with_capacity(2 * on_circle.len() + 1);
+    for &v in on_circle {
+        local[v as usize] = pts.len();
+        pts.push(mesh.nodes[v as usize]);
+    }
+    let chords: Vec<[usize; 2]> = mesh
+        .edges
+        .iter()
+        .filter(|e| e.tag == EdgeTag::Outer)
+        .map(|e| [local[e.nodes[0] as usize], local[e.nodes[1] as usize]])
+        .collect();
+    // The third corner of each domain triangle on a chord.
+    let on_chord: std::collections::HashSet<(u32, u32)> = mesh
+        .edges
+        .iter()
+        .filter(|e| e.tag == EdgeTag::Outer)
+        .map(|e| (e.nodes[0].min(e.nodes[1]), e.nodes[0].max(e.nodes[1])))
+        .collect();
+    for tri in &mesh.triangles {
+        for k in 0..3 {
+            let (a, b, c) = (tri[k], tri[(k + 1) % 3], tri[(k + 2) % 3]);
+            if on_chord.contains(&(a.min(b), a.max(b))) && local[c as usize] == usize::MAX {
+                local[c as usize] = pts.len();
+                pts.push(mesh.nodes[c as usize]);
+            }
+        }
+    }
+    // The centre stands for infinity.
+    let centre = if axisym { [0.0, center[1]] } else { center };
+    if pts.iter().any(|p| (p[0] - centre[0]).hypot(p[1] - centre[1]) < 1e-9 * radius) {
+        return None;
+    }
+    pts.push(centre);
+    let mut edges = chords;
+    if axisym {
+        // The axis: consecutive points on it, bottom to top, through the centre.
+        let mut axis: Vec<usize> = (0..pts.len()).filter(|&k| pts[k][0].abs() <= 1e-12 * radius).collect();
+        axis.sort_by(|&a, &b| pts[a][1].total_cmp(&pts[b][1]));
+        edges.extend(axis.windows(2).map(|w| [w[0], w[1]]));
+    }
+    let n_in = pts.len();
+    let vertices: Vec<Point2<f64>> = pts.iter().map(|p| Point2::new(p[0], p[1])).collect();
+    let mut conflicts = 0;
+    let mut cdt =
+        ConstrainedDelaunayTriangulation::<Point2<f64>>::try_bulk_load_cdt(vertices, edges, |_| conflicts += 1).ok()?;
+    if conflicts > 0 || cdt.num_vertices() != n_in {
+        return None;
+    }
+    let eq = 3f64.sqrt() / 4.0;
+    let result = cdt.refine(
+        RefinementParameters::<f64>::new()
+            .with_angle_limit(AngleLimit::from_deg(min_angle_deg))
+            .with_max_allowed_area(eq * (0.5 * radius) * (0.5 * radius))
+            .with_max_additional_vertices(20 * n_in + 1000),
+    );
+    if !result.refinement_complete {
+        return None;
+    }
+    // Every chord must have survived whole.
+    let handle = spade::handles::FixedVertexHandle::from_index;
+    for e in mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer) {
+        let [a, b] = e.nodes.map(|v| handle(local[v as usize]));
+        cdt.get_edge_from_neighbors(a, b)?;
+    }
+    let pts: Vec<Xy> = cdt
+        .vertices()
+        .map(|v| {
+            let p = v.position();
+            [p.x, p.y]
+        })
+        .collect();
+    let tris = cdt.inner_faces().map(|f| f.vertices().map(|v| v.fix().index())).collect();
+    Some((pts, tris))
 }

@@ -115,7 +115,7 @@ pub fn generate_with(
     crate::smooth::smooth(&mut mesh, params.smoothing_passes);
     if geo.outer == OuterBoundary::Open {
         let (c, r) = crate::exterior::domain_circle(geo)?;
-        crate::exterior::attach(&mut mesh, c, r, params.gradation)?;
+        crate::exterior::attach(&mut mesh, c, r, params.gradation, params.min_angle_deg)?;
     }
     // The edge list serves the P2 nodes and the validation; for linear meshes it is only
     // needed by the validation, and is timed there.

@@ -8,6 +8,8 @@ mod common;
 mod corners;
 /// Bad geometry and parameters give errors, never panics.
 mod errors;
+/// The open boundary's mapped exterior.
+mod exterior;
 /// Grading towards singular corners follows h₀·(r/R)^(1−μ).
 mod grading;
 /// Random simple polygons with holes: termination, validity, coverage, areas.
