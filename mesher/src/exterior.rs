@@ -229,7 +229,7 @@ fn refined_disc(
     on_circle: &[u32],
     min_angle_deg: f64,
 ) -> Option<(Vec<Xy>, Vec<[usize; 3]>)> {
-    use spade::{AngleLimit, ConstrainedDelaunayTriangulation, RefinementParameters};
+    use spade::{AngleLimit, RefinementParameters};
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let mut local = vec![usize::MAX; mesh.nodes.len()];
     let mut pts: Vec<Xy> = Vec::with_capacity(2 * on_circle.len() + 1);
@@ -275,8 +275,7 @@ fn refined_disc(
     let n_in = pts.len();
     let vertices: Vec<Point2<f64>> = pts.iter().map(|p| Point2::new(p[0], p[1])).collect();
     let mut conflicts = 0;
-    let mut cdt =
-        ConstrainedDelaunayTriangulation::<Point2<f64>>::try_bulk_load_cdt(vertices, edges, |_| conflicts += 1).ok()?;
+    let mut cdt = crate::triangulate::Cdt::try_bulk_load_cdt(vertices, edges, |_| conflicts += 1).ok()?;
     if conflicts > 0 || cdt.num_vertices() != n_in {
         return None;
     }
@@ -296,13 +295,7 @@ fn refined_disc(
         let [a, b] = e.nodes.map(|v| handle(local[v as usize]));
         cdt.get_edge_from_neighbors(a, b)?;
     }
-    let pts: Vec<Xy> = cdt
-        .vertices()
-        .map(|v| {
-            let p = v.position();
-            [p.x, p.y]
-        })
-        .collect();
+    let pts = crate::triangulate::vertex_positions(&cdt);
     let tris = cdt.inner_faces().map(|f| f.vertices().map(|v| v.fix().index())).collect();
     Some((pts, tris))
 }

@@ -44,7 +44,17 @@ use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::{BackgroundSize, SizeField};
 use spade::{AngleLimit, ConstrainedDelaunayTriangulation, Point2, RefinementParameters, Triangulation};
 
-type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
+pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
+
+/// Positions of all vertices of a triangulation, by vertex index.
+pub(crate) fn vertex_positions(cdt: &Cdt) -> Vec<Xy> {
+    cdt.vertices()
+        .map(|v| {
+            let p = v.position();
+            [p.x, p.y]
+        })
+        .collect()
+}
 
 /// Wall-clock laps of the meshing stages.
 struct Stopwatch {
@@ -579,13 +589,7 @@ fn extract(
     }
     // Positions of all CDT vertices, and each face's vertices (read from spade once: its
     // handles cost a pointer chase per step).
-    let all: Vec<Xy> = cdt
-        .vertices()
-        .map(|v| {
-            let p = v.position();
-            [p.x, p.y]
-        })
-        .collect();
+    let all = vertex_positions(cdt);
     const NO_FACE: [u32; 3] = [u32::MAX; 3];
     let mut corners = vec![NO_FACE; nf];
     let mut touches_outer = vec![false; nf];
