@@ -179,13 +179,10 @@ fn main() {
             p1.mesh.num_triangles(),
             p1_rate / theirs
         ));
+        let total: f64 = stages.iter().map(|(_, t)| t).sum();
         stage_lines.push(format!(
             "- {target:.0e}: {}",
-            stages
-                .iter()
-                .map(|(k, t)| format!("{k} {:.0} %", 100.0 * t / stages.iter().map(|(_, t)| t).sum::<f64>()))
-                .collect::<Vec<_>>()
-                .join(", ")
+            stages.iter().map(|(k, t)| format!("{k} {:.0} %", 100.0 * t / total)).collect::<Vec<_>>().join(", ")
         ));
     }
     let _ = writeln!(out, "\nTimes and the ratio are medians of three interleaved repetitions (fieldgrade, spade, fieldgrade, ...); the ratio is the median of the per-pair ratios.");

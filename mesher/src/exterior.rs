@@ -77,8 +77,9 @@ pub(crate) fn attach(
     min_angle_deg: f64,
 ) -> Result<(), MeshError> {
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
-    // Circle nodes: ends of the outer-boundary edges, by angle.
-    let mut on_circle: Vec<u32> = mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer).flat_map(|e| e.nodes).collect();
+    // The circle's chords (the outer-boundary edges) and its nodes, by angle.
+    let chords: Vec<[u32; 2]> = mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer).map(|e| e.nodes).collect();
+    let mut on_circle: Vec<u32> = chords.iter().flatten().copied().collect();
     on_circle.sort_unstable();
     on_circle.dedup();
     if on_circle.len() < 3 {
@@ -87,9 +88,38 @@ pub(crate) fn attach(
     let angle = |p: Xy| (p[1] - center[1]).atan2(p[0] - center[0]);
     on_circle.sort_by(|&a, &b| angle(mesh.nodes[a as usize]).total_cmp(&angle(mesh.nodes[b as usize])));
     let n_circle = on_circle.len();
-    let (pts, local_tris) = match refined_disc(mesh, center, radius, &on_circle, min_angle_deg) {
+    // The domain triangle on each chord (outer edges run with the domain on their left):
+    // its region and its third corner, from one pass over the triangles with two corners
+    // on the circle.
+    let chord_index: std::collections::HashMap<(u32, u32), usize> =
+        chords.iter().enumerate().map(|(i, c)| ((c[0], c[1]), i)).collect();
+    let mut circle = vec![false; mesh.nodes.len()];
+    for &v in &on_circle {
+        circle[v as usize] = true;
+    }
+    let mut beside = vec![(u32::MAX, u32::MAX); chords.len()];
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        for k in 0..3 {
+            let (a, b) = (tri[k], tri[(k + 1) % 3]);
+            if circle[a as usize] && circle[b as usize] {
+                if let Some(&i) = chord_index.get(&(a, b)) {
+                    beside[i] = (mesh.regions[t], tri[(k + 2) % 3]);
+                }
+            }
+        }
+    }
+    if let Some(i) = beside.iter().position(|b| b.0 == u32::MAX) {
+        return Err(MeshError::Triangulation {
+            detail: format!(
+                "open-boundary edge at {:?} has no domain triangle on it",
+                mesh.nodes[chords[i][0] as usize]
+            ),
+        });
+    }
+    let thirds: Vec<u32> = beside.iter().map(|b| b.1).collect();
+    let (pts, local_tris) = match refined_disc(mesh, center, radius, &on_circle, &chords, &thirds, min_angle_deg) {
         Some(disc) => disc,
-        None => ring_disc(mesh, center, radius, &on_circle, gradation)?,
+        None => ring_disc(mesh, center, radius, &on_circle, &chords, gradation)?,
     };
     // Local → mesh node ids.
     let base = mesh.nodes.len() as u32;
@@ -117,14 +147,7 @@ pub(crate) fn attach(
         }
     }
     // The circle becomes an interface between the domain's region and the exterior.
-    let mut region_of_edge: std::collections::HashMap<(u32, u32), u32> = std::collections::HashMap::new();
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        for k in 0..3 {
-            region_of_edge.insert((tri[k], tri[(k + 1) % 3]), mesh.regions[t]);
-        }
-    }
-    for e in mesh.edges.iter_mut().filter(|e| e.tag == EdgeTag::Outer) {
-        let inside = region_of_edge[&(e.nodes[0], e.nodes[1])];
+    for (e, &(inside, _)) in mesh.edges.iter_mut().filter(|e| e.tag == EdgeTag::Outer).zip(&beside) {
         e.tag = EdgeTag::Interface(inside, region);
     }
     // Axis edges of the exterior half disc, oriented with the region on their left.
@@ -159,15 +182,14 @@ fn ring_disc(
     center: Xy,
     radius: f64,
     on_circle: &[u32],
+    chords: &[[u32; 2]],
     gradation: f64,
 ) -> Result<(Vec<Xy>, Vec<[usize; 3]>), MeshError> {
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
-    let mut spacing: Vec<f64> = mesh
-        .edges
+    let mut spacing: Vec<f64> = chords
         .iter()
-        .filter(|e| e.tag == EdgeTag::Outer)
-        .map(|e| {
-            let (p, q) = (mesh.nodes[e.nodes[0] as usize], mesh.nodes[e.nodes[1] as usize]);
+        .map(|c| {
+            let (p, q) = (mesh.nodes[c[0] as usize], mesh.nodes[c[1] as usize]);
             (p[0] - q[0]).hypot(p[1] - q[1])
         })
         .collect();
@@ -222,11 +244,15 @@ fn ring_disc(
 /// however uneven, and no chord is encroached. Refinement to the angle bound then grades
 /// the disc towards its centre. `None` if a chord was split (the meshes would not
 /// conform) or the refinement did not finish; the caller falls back to rings.
+/// `chords` are the circle's edges and `thirds` the third corner of the domain triangle on
+/// each.
 fn refined_disc(
     mesh: &Mesh,
     center: Xy,
     radius: f64,
     on_circle: &[u32],
+    chords: &[[u32; 2]],
+    thirds: &[u32],
     min_angle_deg: f64,
 ) -> Option<(Vec<Xy>, Vec<[usize; 3]>)> {
     use spade::{AngleLimit, RefinementParameters};
@@ -237,26 +263,10 @@ fn refined_disc(
         local[v as usize] = pts.len();
         pts.push(mesh.nodes[v as usize]);
     }
-    let chords: Vec<[usize; 2]> = mesh
-        .edges
-        .iter()
-        .filter(|e| e.tag == EdgeTag::Outer)
-        .map(|e| [local[e.nodes[0] as usize], local[e.nodes[1] as usize]])
-        .collect();
-    // The third corner of each domain triangle on a chord.
-    let on_chord: std::collections::HashSet<(u32, u32)> = mesh
-        .edges
-        .iter()
-        .filter(|e| e.tag == EdgeTag::Outer)
-        .map(|e| (e.nodes[0].min(e.nodes[1]), e.nodes[0].max(e.nodes[1])))
-        .collect();
-    for tri in &mesh.triangles {
-        for k in 0..3 {
-            let (a, b, c) = (tri[k], tri[(k + 1) % 3], tri[(k + 2) % 3]);
-            if on_chord.contains(&(a.min(b), a.max(b))) && local[c as usize] == usize::MAX {
-                local[c as usize] = pts.len();
-                pts.push(mesh.nodes[c as usize]);
-            }
+    for &c in thirds {
+        if local[c as usize] == usize::MAX {
+            local[c as usize] = pts.len();
+            pts.push(mesh.nodes[c as usize]);
         }
     }
     // The centre stands for infinity.
@@ -265,7 +275,7 @@ fn refined_disc(
         return None;
     }
     pts.push(centre);
-    let mut edges = chords;
+    let mut edges: Vec<[usize; 2]> = chords.iter().map(|c| c.map(|v| local[v as usize])).collect();
     if axisym {
         // The axis: consecutive points on it, bottom to top, through the centre.
         let mut axis: Vec<usize> = (0..pts.len()).filter(|&k| pts[k][0].abs() <= 1e-12 * radius).collect();
@@ -291,8 +301,8 @@ fn refined_disc(
     }
     // Every chord must have survived whole.
     let handle = spade::handles::FixedVertexHandle::from_index;
-    for e in mesh.edges.iter().filter(|e| e.tag == EdgeTag::Outer) {
-        let [a, b] = e.nodes.map(|v| handle(local[v as usize]));
+    for c in chords {
+        let [a, b] = c.map(|v| handle(local[v as usize]));
         cdt.get_edge_from_neighbors(a, b)?;
     }
     let pts = crate::triangulate::vertex_positions(&cdt);

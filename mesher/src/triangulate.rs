@@ -438,10 +438,11 @@ fn lattice(c: Xy, s: f64, h: f64, bb: [f64; 4], out: &mut Vec<Xy>, keep: impl Fn
 }
 
 /// True when a seed at `p` of spacing `d` keeps clear of the boundary: at least d/2 from
-/// every segment, and at least 0.8·L from every segment of length L ≤ 2d. Long straight
-/// pieces are inserted whole and get their spacing from Delaunay refinement splitting
-/// them wherever a vertex lies inside their diametral circle (Ruppert 1995). Arc chords
-/// and short pieces are already at the local size: a seed that close would leave a thin
+/// every segment, and at least 0.8·L from every segment of length L ≤ 2d. Inclined
+/// straight pieces are inserted whole and get their spacing from Delaunay refinement
+/// splitting them wherever a vertex lies inside their diametral circle (Ruppert 1995).
+/// Segments already at the local size (arc chords, split horizontal and vertical pieces,
+/// short pieces): a seed that close would leave a thin
 /// triangle on the segment whose circumcentre encroaches it, and the split would leave the
 /// boundary spacing uneven. At 0.8·L above a segment end the thinnest such triangle has
 /// an angle of atan 0.8 ≈ 39° (above the 30° limit).
@@ -632,7 +633,7 @@ fn extract(
         if seen[r] < 64 {
             seen[r] += 1;
             let [p0, p1, p2] = corners[fi].map(|v| all[v as usize]);
-            let a = 0.5 * ((p1[0] - p0[0]) * (p2[1] - p0[1]) - (p2[0] - p0[0]) * (p1[1] - p0[1]));
+            let a = 0.5 * crate::geometry::cross(sub(p1, p0), sub(p2, p0));
             if a > best[r].0 {
                 let third = 1.0 / 3.0;
                 best[r] = (a, [(p0[0] + (p1[0] + p2[0])) * third, (p0[1] + (p1[1] + p2[1])) * third]);

@@ -5,19 +5,25 @@
 use crate::common::{conductor, dielectric, planar};
 use mesher::{generate, Outline, RefineParams};
 
+/// Each triangle's centroid and size √(4·area/√3) (edge of the equilateral triangle of the
+/// same area).
+fn centroids_and_sizes(m: &mesher::Mesh) -> impl Iterator<Item = ([f64; 2], f64)> + '_ {
+    m.triangles.iter().enumerate().map(|(t, tri)| {
+        let p = tri.map(|i| m.nodes[i as usize]);
+        let g = [(p[0][0] + p[1][0] + p[2][0]) / 3.0, (p[0][1] + p[1][1] + p[2][1]) / 3.0];
+        (g, (4.0 * m.triangle_area(t) / 3f64.sqrt()).sqrt())
+    })
+}
+
 /// Least-squares slope of log(size) against log(distance) for triangles whose centroid is
-/// between `r0` and `r1` from `c`; size = √(4·area/√3) (edge of the equilateral triangle of
-/// the same area).
+/// between `r0` and `r1` from `c` (size as in [`centroids_and_sizes`]).
 fn slope(m: &mesher::Mesh, c: [f64; 2], r0: f64, r1: f64) -> (f64, usize) {
     let (mut sx, mut sy, mut sxx, mut sxy, mut n) = (0.0, 0.0, 0.0, 0.0, 0.0);
-    for (t, tri) in m.triangles.iter().enumerate() {
-        let p: Vec<[f64; 2]> = tri.iter().map(|&i| m.nodes[i as usize]).collect();
-        let g = [(p[0][0] + p[1][0] + p[2][0]) / 3.0, (p[0][1] + p[1][1] + p[2][1]) / 3.0];
+    for (g, h) in centroids_and_sizes(m) {
         let r = (g[0] - c[0]).hypot(g[1] - c[1]);
         if r < r0 || r > r1 {
             continue;
         }
-        let h = (4.0 * m.triangle_area(t) / 3f64.sqrt()).sqrt();
         let (x, y) = (r.ln(), h.ln());
         sx += x;
         sy += y;
@@ -29,18 +35,15 @@ fn slope(m: &mesher::Mesh, c: [f64; 2], r0: f64, r1: f64) -> (f64, usize) {
 }
 
 /// Geometric mean of measured size / wanted size per octave of distance from `c`, for the
-/// octaves [r0·2ᵏ, r0·2ᵏ⁺¹) below `r1` (size as in [`slope`]).
+/// octaves [r0·2ᵏ, r0·2ᵏ⁺¹) below `r1` (size as in [`centroids_and_sizes`]).
 fn octave_ratios(m: &mesher::Mesh, field: &mesher::SizeField, c: [f64; 2], r0: f64, r1: f64) -> Vec<(f64, usize)> {
     let n = (r1 / r0).log2().floor() as usize;
     let mut bins = vec![(0.0, 0usize); n];
-    for (t, tri) in m.triangles.iter().enumerate() {
-        let p: Vec<[f64; 2]> = tri.iter().map(|&i| m.nodes[i as usize]).collect();
-        let g = [(p[0][0] + p[1][0] + p[2][0]) / 3.0, (p[0][1] + p[1][1] + p[2][1]) / 3.0];
+    for (g, h) in centroids_and_sizes(m) {
         let k = ((g[0] - c[0]).hypot(g[1] - c[1]) / r0).log2().floor();
         if k < 0.0 || k as usize >= n {
             continue;
         }
-        let h = (4.0 * m.triangle_area(t) / 3f64.sqrt()).sqrt();
         let b = &mut bins[k as usize];
         b.0 += (h / field.size_at(g)).ln();
         b.1 += 1;
