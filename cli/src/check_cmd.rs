@@ -298,6 +298,9 @@ pub fn run(run: &CheckRun) -> Result<()> {
         &[("convergence.csv".into(), csv), ("results.json".into(), json.clone())],
     )?;
     if run.json {
+        for w in &results.solve.mesh.warnings {
+            eprintln!("warning: {w}");
+        }
         println!("{json}");
     } else {
         let mut text = render_text(&results.solve, model.unit_m, model.unit);

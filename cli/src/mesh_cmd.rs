@@ -5,7 +5,7 @@ use crate::output::write_atomic;
 use crate::svg::write_mesh_svg;
 use crate::UserError;
 use anyhow::Result;
-use mesher::{generate, MeshOutcome, Symmetry};
+use mesher::{generate, GradingStatus, MeshOutcome, Symmetry};
 use serde::Serialize;
 use std::path::PathBuf;
 
@@ -59,6 +59,8 @@ pub struct MeshReport {
     pub regions: Vec<RegionReport>,
     /// Singular points.
     pub singular_points: Vec<SingularReport>,
+    /// What the user should know about this mesh: singular points left ungraded and why.
+    pub warnings: Vec<String>,
 }
 
 /// One conductor.
@@ -113,6 +115,56 @@ pub struct SingularReport {
     /// On the symmetry axis (a conical point: Legendre exponent with one dielectric, planar
     /// approximation where several meet).
     pub on_axis: bool,
+    /// How the mesh is graded towards the point.
+    pub grading: Option<GradingReport>,
+}
+
+/// The grading towards one singular point, lengths in the model unit.
+#[derive(Serialize, Debug)]
+pub struct GradingReport {
+    /// "graded", "graded to min_size", "off", "node budget reached" or "not reached".
+    pub status: &'static str,
+    /// Radius R of the grading zone.
+    pub radius: f64,
+    /// Element size h₀ at the edge of the zone.
+    pub outer_size: f64,
+    /// Exponent μ: the size falls like r^(1−μ) towards the point.
+    pub mu: f64,
+    /// Size the law asks for at the point (innermost size, or min_size if larger).
+    pub target_size: f64,
+    /// Longest mesh edge ending at the point.
+    pub achieved_size: f64,
+}
+
+/// Words for a grading verdict.
+fn grading_status(s: GradingStatus) -> &'static str {
+    match s {
+        GradingStatus::Graded => "graded",
+        GradingStatus::AtFloor => "graded to min_size",
+        GradingStatus::Off => "off",
+        GradingStatus::BudgetReached => "node budget reached",
+        _ => "not reached",
+    }
+}
+
+/// A warning for a singular point the mesh is not graded towards, if it is not.
+fn grading_warning(label: &str, s: &mesher::SingularPoint, k: f64, unit: &str, max_nodes: usize) -> Option<String> {
+    let g = s.grading?;
+    let at = format!("{label} at ({}, {}) {unit}", sig(s.at[0] / k), sig(s.at[1] / k));
+    let sizes = format!(
+        "elements of {} {unit} at the point where the grading law asks for {} {unit}",
+        sig(g.achieved_m / k),
+        sig(g.target_m / k)
+    );
+    let why = match g.status {
+        GradingStatus::Graded | GradingStatus::AtFloor => return None,
+        GradingStatus::Off => "grading is turned off (`grade_corners = false` in [mesh]); remove that line to grade it".to_string(),
+        GradingStatus::BudgetReached => format!(
+            "the node budget (max_nodes = {max_nodes}) stopped the refinement first; raise `max_nodes` or coarsen `max_size` in [mesh]"
+        ),
+        _ => "the mesher did not follow its size field there (a defect: please report it with the model); a [[mesh.point]] with the asked size at the point forces it".to_string(),
+    };
+    Some(format!("{at} is left ungraded ({sizes}): {why}. The field near it is under-resolved and the figures that depend on it (peak stresses nearby, charges, energy) are less accurate than the mesh size suggests."))
 }
 
 /// Builds the report for a mesh of a model.
@@ -160,7 +212,21 @@ pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Optio
             conductor: s.conductor.map(|c| mesh.conductor_names[c as usize].clone()),
             regions: s.regions.iter().map(|&r| mesh.shape_names[r as usize].clone()).collect(),
             on_axis: s.on_axis,
+            grading: s.grading.map(|g| GradingReport {
+                status: grading_status(g.status),
+                radius: g.radius_m / k,
+                outer_size: g.outer_size_m / k,
+                mu: g.mu,
+                target_size: g.target_m / k,
+                achieved_size: g.achieved_m / k,
+            }),
         })
+        .collect();
+    let warnings = mesh
+        .singular_points
+        .iter()
+        .enumerate()
+        .filter_map(|(i, s)| grading_warning(&format!("singular point S{}", i + 1), s, k, model.unit, model.params.max_nodes))
         .collect();
     MeshReport {
         model: model.name.clone(),
@@ -196,6 +262,7 @@ pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Optio
             .collect(),
         regions,
         singular_points,
+        warnings,
     }
 }
 
@@ -290,6 +357,32 @@ pub fn render_text(r: &MeshReport) -> String {
                 who
             );
         }
+        let _ = writeln!(s, "\n  grading towards them: size h₀ at radius R, falling like r^(1−μ) to the size asked at the point");
+        let _ = writeln!(
+            s,
+            "  {:<4} {:>10} {:>10} {:>6} {:>12} {:>12}  verdict",
+            "",
+            format!("R ({u})"),
+            format!("h₀ ({u})"),
+            "μ",
+            "asked",
+            "at point"
+        );
+        for (i, p) in r.singular_points.iter().enumerate() {
+            if let Some(g) = &p.grading {
+                let _ = writeln!(
+                    s,
+                    "  S{:<3} {:>10} {:>10} {:>6.3} {:>12} {:>12}  {}",
+                    i + 1,
+                    sig(g.radius),
+                    sig(g.outer_size),
+                    g.mu,
+                    sig(g.target_size),
+                    sig(g.achieved_size),
+                    g.status
+                );
+            }
+        }
         if r.singular_points.iter().any(|p| p.field_singular) {
             let _ = writeln!(
                 s,
@@ -301,11 +394,14 @@ pub fn render_text(r: &MeshReport) -> String {
             );
         }
     }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\nwarning: {w}");
+    }
     s
 }
 
 /// Four significant digits, without scientific notation for everyday magnitudes.
-fn sig(v: f64) -> String {
+pub fn sig(v: f64) -> String {
     if v == 0.0 {
         return "0".into();
     }

@@ -221,6 +221,10 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let json = serde_json::to_string_pretty(&results)?;
     write_outputs(&run.out, mesh, &problem, &analysis, &[("results.json".into(), json.clone())])?;
     if run.json {
+        // The summary carries the warnings; with JSON on stdout they go to stderr too.
+        for w in &results.mesh.warnings {
+            eprintln!("warning: {w}");
+        }
         println!("{json}");
     } else {
         print!("{}", render_text(&results, model.unit_m, model.unit));
@@ -540,6 +544,9 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
                 p.file
             );
         }
+    }
+    for w in &r.mesh.warnings {
+        let _ = writeln!(s, "\nwarning: {w}");
     }
     let _ = writeln!(s, "\ncautions");
     for c in &r.cautions {

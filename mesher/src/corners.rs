@@ -42,6 +42,7 @@
 //! An axis point where several dielectrics meet keeps the planar exponent of the meridian
 //! section (the axis taken as a zero-flux wall); it is flagged `on_axis`.
 
+use crate::grading::Grading;
 use crate::arrangement::{Arrangement, Side};
 use crate::error::MeshError;
 use crate::geometry::{Fill, Geometry, OuterBoundary, Symmetry, Xy};
@@ -115,6 +116,9 @@ pub struct SingularPoint {
     pub sectors: Vec<Sector>,
     /// The walls at the start and the end of the run (None for dielectrics all round).
     pub walls: Option<(Wall, Wall)>,
+    /// How the mesh is graded towards the point: the law and what the finished mesh has
+    /// there. None until the point is meshed (set on every point of a generated mesh).
+    pub grading: Option<Grading>,
 }
 
 impl SingularPoint {
@@ -345,6 +349,7 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                         start_angle,
                         sectors,
                         walls,
+                        grading: None,
                     });
                 }
             }

@@ -37,6 +37,7 @@
 use crate::arrangement::{side_at, Arrangement, Side};
 use crate::corners::{self, SingularPoint};
 use crate::error::MeshError;
+use crate::grading::{audit, grading_radius, AuditInput, GradingLaw};
 use crate::geometry::{norm, sub, Curve, Geometry, OuterBoundary, Symmetry, Xy};
 use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
@@ -104,7 +105,7 @@ pub fn generate_with(
     params.validate()?;
     let arr = Arrangement::build(geo)?;
     let singular = corners::find(geo, &arr, params.order)?;
-    let mut field = size_field(geo, &arr, &singular, params);
+    let (mut field, laws) = size_field(geo, &arr, &singular, params);
     if let Some(bg) = background {
         field.add_background(bg);
     }
@@ -114,13 +115,12 @@ pub fn generate_with(
     clock.lap("boundary");
     let seeds = seed(geo, &field, &pslg, &grid);
     clock.lap("seeding");
-    let frame = needs_frame(&arr).then(|| {
-        // A frame of four free vertices just outside the domain (2 % of its diagonal).
-        let b = geo.bbox();
-        let m = 0.02 * geo.scale();
-        vec![[b[0] - m, b[1] - m], [b[2] + m, b[1] - m], [b[2] + m, b[3] + m], [b[0] - m, b[3] + m]]
-    });
-    let (cdt, complete) = triangulate(&pslg, &seeds, frame.as_deref().unwrap_or(&[]), &field, params, &mut clock)?;
+    // A frame of four free vertices just outside the domain (2 % of its diagonal), used
+    // when the arrangement needs one or the domain is not convex (see `triangulate`).
+    let b = geo.bbox();
+    let m = 0.02 * geo.scale();
+    let frame = [[b[0] - m, b[1] - m], [b[2] + m, b[1] - m], [b[2] + m, b[3] + m], [b[0] - m, b[3] + m]];
+    let (cdt, complete) = triangulate(&pslg, &seeds, &frame, needs_frame(&arr), &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
     crate::smooth::smooth(&mut mesh, params.smoothing_passes);
     if geo.outer == OuterBoundary::Open {
@@ -136,6 +136,7 @@ pub fn generate_with(
     clock.lap("extract");
     let edges = edges.unwrap_or_else(|| mesh.sorted_edges());
     mesh.validate_with(Some(&edges))?;
+    audit(&mut mesh, &AuditInput { laws: &laws, applied: params.grade_corners, floor: field.floor(), complete });
     clock.lap("validate");
     let reason = if complete {
         None
@@ -145,12 +146,14 @@ pub fn generate_with(
     Ok(MeshOutcome { mesh, complete, reason, size_field: field, timings: clock.laps })
 }
 
+/// The size field, and the grading law of each singular point (added to the field only
+/// with grading on).
 fn size_field(
     geo: &Geometry,
     arr: &Arrangement,
     singular: &[(usize, SingularPoint)],
     params: &RefineParams,
-) -> SizeField {
+) -> (SizeField, Vec<GradingLaw>) {
     let scale = geo.scale();
     let h_max = params.max_size_m.unwrap_or(scale / 25.0);
     let floor = params.min_size_m.unwrap_or(1e-6 * scale).min(h_max);
@@ -173,28 +176,32 @@ fn size_field(
             }
         }
     }
-    if params.grade_corners {
-        // Grading radius: half the shortest piece meeting at the point.
-        let mut shortest = vec![f64::INFINITY; arr.vertices.len()];
-        for pc in &arr.pieces {
-            let l = pc.curve.length();
-            for v in pc.v {
-                shortest[v] = shortest[v].min(l);
-            }
-        }
-        let sources: Vec<(Xy, f64, f64, f64)> = singular
-            .iter()
-            .map(|(v, s)| {
-                let h0 = f.size_at(s.at);
-                let mu = params.grading_fraction * s.lambda / params.order as f64;
-                (s.at, h0, 0.5 * shortest[*v], mu)
-            })
-            .collect();
-        for (at, h0, r, mu) in sources {
-            f.add_corner(at, h0, r, mu);
+    let mut shortest = vec![f64::INFINITY; arr.vertices.len()];
+    for pc in &arr.pieces {
+        let l = pc.curve.length();
+        for v in pc.v {
+            shortest[v] = shortest[v].min(l);
         }
     }
-    f
+    // Every law is set from the field without corners, so the order of the points does
+    // not matter.
+    let laws: Vec<GradingLaw> = singular
+        .iter()
+        .map(|(v, s)| {
+            let h0 = f.size_at(s.at);
+            GradingLaw {
+                h0,
+                radius: grading_radius(shortest[*v], h0),
+                mu: params.grading_fraction * s.lambda / params.order as f64,
+            }
+        })
+        .collect();
+    if params.grade_corners {
+        for ((_, s), l) in singular.iter().zip(&laws) {
+            f.add_corner(s.at, l.h0, l.radius, l.mu);
+        }
+    }
+    (f, laws)
 }
 
 /// Splits every piece so that the spacing follows the size field.
@@ -504,20 +511,17 @@ fn needs_frame(arr: &Arrangement) -> bool {
     })
 }
 
-fn triangulate(
-    pslg: &Pslg,
-    seeds: &[Xy],
-    frame: &[Xy],
-    field: &SizeField,
-    params: &RefineParams,
-    clock: &mut Stopwatch,
-) -> Result<(Cdt, bool), MeshError> {
+/// The constrained Delaunay triangulation of the boundary segments, with the `frame`'s
+/// vertices when `with_frame` is set.
+fn bulk_load(pslg: &Pslg, frame: &[Xy], with_frame: bool) -> Result<Cdt, MeshError> {
     let mut vertices: Vec<Point2<f64>> = pslg.points.iter().map(|p| Point2::new(p[0], p[1])).collect();
-    vertices.extend(frame.iter().map(|p| Point2::new(p[0], p[1])));
+    if with_frame {
+        vertices.extend(frame.iter().map(|p| Point2::new(p[0], p[1])));
+    }
     let n_in = vertices.len();
     let edges: Vec<[usize; 2]> = pslg.segments.iter().map(|s| [s[0] as usize, s[1] as usize]).collect();
     let mut conflicts = Vec::new();
-    let mut cdt = Cdt::try_bulk_load_cdt(vertices, edges, |e| conflicts.push(e))
+    let cdt = Cdt::try_bulk_load_cdt(vertices, edges, |e| conflicts.push(e))
         .map_err(|e| MeshError::Triangulation { detail: format!("{e:?}") })?;
     if let Some(e) = conflicts.first() {
         let (a, b) = (pslg.points.get(e[0]), pslg.points.get(e[1]));
@@ -530,6 +534,37 @@ fn triangulate(
             detail: "coincident input points were merged; features are closer than the resolution limit".into(),
         });
     }
+    Ok(cdt)
+}
+
+/// True when an edge of the triangulation's convex hull is not a boundary segment: the
+/// domain is not convex, and triangles outside it lie inside the hull.
+fn hull_leaves_domain(cdt: &Cdt) -> bool {
+    cdt.convex_hull().any(|e| !cdt.is_constraint_edge(e.as_undirected().fix()))
+}
+
+/// Triangulates the boundary, inserts the seeds and refines.
+///
+/// Spade refines every triangle of the convex hull, outside the domain too. Where the
+/// domain is not convex, a hull edge spanning a notch meets the domain's outline at a small
+/// angle (a 1 mm step on a 50 mm face: 1.1°), and refining the thin triangles there
+/// leaves a cluster of tiny elements on the boundary, far from any singular point. The
+/// triangulation is then rebuilt with the `frame` of free vertices around the domain, so
+/// the triangles outside are well shaped; they are dropped afterwards like any outside.
+fn triangulate(
+    pslg: &Pslg,
+    seeds: &[Xy],
+    frame: &[Xy],
+    force_frame: bool,
+    field: &SizeField,
+    params: &RefineParams,
+    clock: &mut Stopwatch,
+) -> Result<(Cdt, bool), MeshError> {
+    let mut cdt = bulk_load(pslg, frame, force_frame)?;
+    if !force_frame && hull_leaves_domain(&cdt) {
+        cdt = bulk_load(pslg, frame, true)?;
+    }
+    let n_in = cdt.num_vertices();
     // Seeds come in quadtree (Z-order) order, so inserting each next to the previous one is
     // cheaper than a bulk load: the point location walk is short.
     let mut hint = None;
