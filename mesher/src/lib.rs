@@ -51,6 +51,7 @@
 
 mod arrangement;
 mod corners;
+mod delaunay_refine;
 mod error;
 mod exterior;
 mod geometry;

@@ -43,7 +43,8 @@ use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::{BackgroundSize, SizeField};
-use spade::{AngleLimit, ConstrainedDelaunayTriangulation, Point2, RefinementParameters, Triangulation};
+use crate::delaunay_refine::Limits;
+use spade::{ConstrainedDelaunayTriangulation, Point2, Triangulation};
 
 pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
 
@@ -115,12 +116,12 @@ pub fn generate_with(
     clock.lap("boundary");
     let seeds = seed(geo, &field, &pslg, &grid);
     clock.lap("seeding");
-    // A frame of four free vertices just outside the domain (2 % of its diagonal), used
-    // when the arrangement needs one or the domain is not convex (see `triangulate`).
+    // A frame of four free vertices just outside the domain (2 % of its diagonal; see
+    // `triangulate`).
     let b = geo.bbox();
     let m = 0.02 * geo.scale();
     let frame = [[b[0] - m, b[1] - m], [b[2] + m, b[1] - m], [b[2] + m, b[3] + m], [b[0] - m, b[3] + m]];
-    let (cdt, complete) = triangulate(&pslg, &seeds, &frame, needs_frame(&arr), &field, params, &mut clock)?;
+    let (cdt, complete) = triangulate(geo, &pslg, &seeds, &frame, &field, params, &mut clock)?;
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
     crate::smooth::smooth(&mut mesh, params.smoothing_passes);
     if geo.outer == OuterBoundary::Open {
@@ -479,45 +480,11 @@ fn near_segment(pslg: &Pslg, grid: &BucketGrid, c: Xy, r: f64) -> bool {
     near
 }
 
-/// True when the domain's outline has consecutive straight pieces that are collinear in
-/// exact terms but not in floating point (an inclined side split where another shape
-/// touches it). On the convex hull such a chain leaves zero-area slivers outside the
-/// domain that Delaunay refinement keeps splitting without end; a frame of free vertices
-/// around the domain keeps them off the hull. Axis-parallel sides split at exact
-/// coordinates are collinear in floating point too and need no frame.
-fn needs_frame(arr: &Arrangement) -> bool {
-    let mut outer: Vec<Vec<usize>> = vec![Vec::new(); arr.vertices.len()];
-    for (i, pc) in arr.pieces.iter().enumerate() {
-        if pc.left == Side::Outside || pc.right == Side::Outside {
-            outer[pc.v[0]].push(i);
-            outer[pc.v[1]].push(i);
-        }
-    }
-    outer.iter().enumerate().any(|(v, ps)| {
-        if ps.len() != 2 {
-            return false;
-        }
-        let (a, b) = (&arr.pieces[ps[0]], &arr.pieces[ps[1]]);
-        if !matches!(a.curve, Curve::Line { .. }) || !matches!(b.curve, Curve::Line { .. }) {
-            return false;
-        }
-        let other = |p: &crate::arrangement::Piece| if p.v[0] == v { p.v[1] } else { p.v[0] };
-        let (p, q, r) = (arr.vertices[other(a)], arr.vertices[v], arr.vertices[other(b)]);
-        let d1 = sub(q, p);
-        let d2 = sub(r, q);
-        let sin = crate::geometry::cross(d1, d2) / (norm(d1) * norm(d2));
-        let axis = (p[0] == q[0] && q[0] == r[0]) || (p[1] == q[1] && q[1] == r[1]);
-        sin.abs() < 1e-9 && !axis
-    })
-}
-
-/// The constrained Delaunay triangulation of the boundary segments, with the `frame`'s
-/// vertices when `with_frame` is set.
-fn bulk_load(pslg: &Pslg, frame: &[Xy], with_frame: bool) -> Result<Cdt, MeshError> {
+/// The constrained Delaunay triangulation of the boundary segments and the `frame` around
+/// them.
+fn bulk_load(pslg: &Pslg, frame: &[Xy]) -> Result<Cdt, MeshError> {
     let mut vertices: Vec<Point2<f64>> = pslg.points.iter().map(|p| Point2::new(p[0], p[1])).collect();
-    if with_frame {
-        vertices.extend(frame.iter().map(|p| Point2::new(p[0], p[1])));
-    }
+    vertices.extend(frame.iter().map(|p| Point2::new(p[0], p[1])));
     let n_in = vertices.len();
     let edges: Vec<[usize; 2]> = pslg.segments.iter().map(|s| [s[0] as usize, s[1] as usize]).collect();
     let mut conflicts = Vec::new();
@@ -537,33 +504,24 @@ fn bulk_load(pslg: &Pslg, frame: &[Xy], with_frame: bool) -> Result<Cdt, MeshErr
     Ok(cdt)
 }
 
-/// True when an edge of the triangulation's convex hull is not a boundary segment: the
-/// domain is not convex, and triangles outside it lie inside the hull.
-fn hull_leaves_domain(cdt: &Cdt) -> bool {
-    cdt.convex_hull().any(|e| !cdt.is_constraint_edge(e.as_undirected().fix()))
-}
-
-/// Triangulates the boundary, inserts the seeds and refines.
+/// Triangulates the boundary inside a frame of four free vertices, inserts the seeds and
+/// refines the dielectric triangles (see `delaunay_refine`).
 ///
-/// Spade refines every triangle of the convex hull, outside the domain too. Where the
-/// domain is not convex, a hull edge spanning a notch meets the domain's outline at a small
-/// angle (a 1 mm step on a 50 mm face: 1.1°), and refining the thin triangles there
-/// leaves a cluster of tiny elements on the boundary, far from any singular point. The
-/// triangulation is then rebuilt with the `frame` of free vertices around the domain, so
-/// the triangles outside are well shaped; they are dropped afterwards like any outside.
+/// The frame keeps the domain's outline off the convex hull: where the domain is not
+/// convex, a hull edge spanning a notch would meet the outline at a small angle (a 1 mm
+/// step on a 50 mm face: 1.1°), and nearly collinear pieces of an inclined side would
+/// leave slivers on the hull. Triangles outside the domain and inside conductors are not
+/// refined; they are dropped by `extract`.
 fn triangulate(
+    geo: &Geometry,
     pslg: &Pslg,
     seeds: &[Xy],
     frame: &[Xy],
-    force_frame: bool,
     field: &SizeField,
     params: &RefineParams,
     clock: &mut Stopwatch,
 ) -> Result<(Cdt, bool), MeshError> {
-    let mut cdt = bulk_load(pslg, frame, force_frame)?;
-    if !force_frame && hull_leaves_domain(&cdt) {
-        cdt = bulk_load(pslg, frame, true)?;
-    }
+    let mut cdt = bulk_load(pslg, frame)?;
     let n_in = cdt.num_vertices();
     // Seeds come in quadtree (Z-order) order, so inserting each next to the previous one is
     // cheaper than a bulk load: the point location walk is short.
@@ -583,31 +541,25 @@ fn triangulate(
         });
     }
     clock.lap("spade insertion");
+    let (_, sides) = label_faces(geo, &cdt);
+    let keep = sides.iter().map(|s| matches!(s, Some(Side::Region(_)))).collect();
     let h_max = field.max();
     let floor = field.floor();
     let eq = 3f64.sqrt() / 4.0;
-    let budget = params.max_nodes.saturating_sub(n_in);
-    let rp = RefinementParameters::<f64>::new()
-        .with_angle_limit(AngleLimit::from_deg(params.min_angle_deg))
-        .with_max_allowed_area(eq * (1.3 * h_max) * (1.3 * h_max))
-        .with_min_required_area(eq * 0.1 * floor * floor)
-        .with_max_additional_vertices(budget);
-
-    let result = cdt.refine(rp);
-    clock.lap("spade refine");
-
-    Ok((cdt, result.refinement_complete && n_in <= params.max_nodes))
+    let limits = Limits {
+        min_angle_deg: params.min_angle_deg,
+        max_area: eq * (1.3 * h_max) * (1.3 * h_max),
+        min_area: eq * 0.1 * floor * floor,
+        max_vertices: params.max_nodes.max(n_in),
+    };
+    let complete = crate::delaunay_refine::refine(&mut cdt, keep, limits);
+    clock.lap("refine");
+    Ok((cdt, complete && n_in <= params.max_nodes))
 }
 
-fn extract(
-    geo: &Geometry,
-    arr: &Arrangement,
-    pslg: &Pslg,
-    grid: &BucketGrid,
-    cdt: &Cdt,
-    singular_points: Vec<SingularPoint>,
-) -> Result<Mesh, MeshError> {
-    let scale = geo.scale();
+/// Corners (vertex indices) of every face and the side each face lies on (None for the
+/// outer face and unused slots), by face index.
+fn label_faces(geo: &Geometry, cdt: &Cdt) -> (Vec<[u32; 3]>, Vec<Option<Side>>) {
     let nf = cdt.num_all_faces();
     // Components: union–find over the faces, joined across every edge that is not a
     // constraint (each face visited once, in storage order, which keeps memory access
@@ -626,7 +578,6 @@ fn extract(
     // Positions of all CDT vertices, and each face's vertices (read from spade once: its
     // handles cost a pointer chase per step).
     let all = vertex_positions(cdt);
-    const NO_FACE: [u32; 3] = [u32::MAX; 3];
     let mut corners = vec![NO_FACE; nf];
     let mut touches_outer = vec![false; nf];
     for f in cdt.inner_faces() {
@@ -679,6 +630,29 @@ fn extract(
     for &r in &roots {
         label[r] = Some(if outside[r] { Side::Outside } else { side_at(geo, best[r].1) });
     }
+    for fi in 0..nf {
+        if corners[fi] != NO_FACE {
+            label[fi] = label[root(&mut parent, fi as u32) as usize];
+        }
+    }
+    (corners, label)
+}
+
+/// Corner value of a face slot that holds no triangle.
+const NO_FACE: [u32; 3] = [u32::MAX; 3];
+
+fn extract(
+    geo: &Geometry,
+    arr: &Arrangement,
+    pslg: &Pslg,
+    grid: &BucketGrid,
+    cdt: &Cdt,
+    singular_points: Vec<SingularPoint>,
+) -> Result<Mesh, MeshError> {
+    let scale = geo.scale();
+    let nf = cdt.num_all_faces();
+    let all = vertex_positions(cdt);
+    let (corners, label) = label_faces(geo, cdt);
     // Nodes: compacted to the ones dielectric triangles use, numbered in face order.
     let mut map = vec![u32::MAX; all.len()];
     let mut nodes: Vec<Xy> = Vec::new();
@@ -688,9 +662,7 @@ fn extract(
         if corners[fi] == NO_FACE {
             continue;
         }
-        let side = label[root(&mut parent, fi as u32) as usize];
-        label[fi] = side;
-        let Some(Side::Region(r)) = side else { continue };
+        let Some(Side::Region(r)) = label[fi] else { continue };
         let tri = corners[fi].map(|i| {
             let i = i as usize;
             if map[i] == u32::MAX {

@@ -93,3 +93,58 @@ fn element_size_follows_the_grading_law() {
         assert!((h - h0 * (r / 0.25f64).powf(1.0 - mu)).abs() < 1e-12);
     }
 }
+
+/// The smallest ratio of a dielectric triangle's size (as in [`centroids_and_sizes`]) to
+/// the size field at its centroid, among triangles farther than `clear` from every
+/// singular point, and where it is.
+fn smallest_stray(out: &mesher::MeshOutcome, clear: f64) -> (f64, [f64; 2]) {
+    let m = &out.mesh;
+    centroids_and_sizes(m)
+        .filter(|(g, _)| m.singular_points.iter().all(|s| (g[0] - s.at[0]).hypot(g[1] - s.at[1]) > clear))
+        .map(|(g, h)| (h / out.size_field.size_at(g), g))
+        .fold((f64::INFINITY, [0.0; 2]), |a, b| if b.0 < a.0 { b } else { a })
+}
+
+#[test]
+fn a_thin_foil_leaves_no_small_elements_along_its_faces() {
+    // A floating foil 0.5 mm thick and 200 mm long in a dielectric meshed at 5 mm (a
+    // condenser core's grading foil): only its four edges are singular. The thin strip
+    // inside the foil is not part of the mesh; refining it for angle would split the
+    // foil's faces into pieces of its thickness and fill the dielectric beside them with
+    // elements ten times smaller than asked.
+    let geo = planar(
+        vec![
+            dielectric("core", Outline::rectangle("core", [0.0, 0.0], [0.1, 0.3], 0.0).unwrap(), 4.0),
+            conductor("foil", Outline::rectangle("foil", [0.05, 0.05], [0.0005, 0.2], 0.0).unwrap(), 0),
+        ],
+        &["foil"],
+    );
+    let out = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.005)).unwrap();
+    assert_eq!(out.mesh.singular_points.len(), 4);
+    let (ratio, at) = smallest_stray(&out, 0.02);
+    assert!(ratio >= 0.3, "a triangle {ratio:.3} times the asked size at {at:?}");
+}
+
+#[test]
+fn a_notch_in_the_domain_leaves_no_cluster_at_its_far_end() {
+    // A slab with a 1 mm step on its top face (where an electrode sits): the convex hull
+    // spans the 50 mm face at 1.1° to it. The step's corner at (10, 10) mm is the only
+    // point graded (λ = 1/2 against the free face).
+    let mm = 1e-3;
+    let slab = Outline::polygon(
+        "slab",
+        &[[0.0, 0.0], [60.0 * mm, 0.0], [60.0 * mm, 10.0 * mm], [10.0 * mm, 10.0 * mm], [10.0 * mm, 11.0 * mm], [0.0, 11.0 * mm]],
+    )
+    .unwrap();
+    let mut geo = planar(
+        vec![
+            dielectric("slab", slab, 4.0),
+            conductor("hv", Outline::rectangle("hv", [0.0, 10.0 * mm], [10.0 * mm, 1.0 * mm], 0.0).unwrap(), 0),
+        ],
+        &["hv"],
+    );
+    geo.outer = mesher::OuterBoundary::FixedPotential;
+    let out = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(mm)).unwrap();
+    let (ratio, at) = smallest_stray(&out, 4.0 * mm);
+    assert!(ratio >= 0.3, "a triangle {ratio:.3} times the asked size at {at:?}");
+}
