@@ -226,7 +226,9 @@ pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Optio
         .singular_points
         .iter()
         .enumerate()
-        .filter_map(|(i, s)| grading_warning(&format!("singular point S{}", i + 1), s, k, model.unit, model.params.max_nodes))
+        .filter_map(|(i, s)| {
+            grading_warning(&format!("singular point S{}", i + 1), s, k, model.unit, model.params.max_nodes)
+        })
         .collect();
     MeshReport {
         model: model.name.clone(),
@@ -357,7 +359,10 @@ pub fn render_text(r: &MeshReport) -> String {
                 who
             );
         }
-        let _ = writeln!(s, "\n  grading towards them: size h₀ at radius R, falling like r^(1−μ) to the size asked at the point");
+        let _ = writeln!(
+            s,
+            "\n  grading towards them: size h₀ at radius R, falling like r^(1−μ) to the size asked at the point"
+        );
         let _ = writeln!(
             s,
             "  {:<4} {:>10} {:>10} {:>6} {:>12} {:>12}  verdict",

@@ -8,6 +8,8 @@ mod common;
 mod debug_matrix;
 /// Every bad model file gives a located message, exit code 2, and writes nothing.
 mod errors;
+/// Every singular point the mesh lists is graded by the corner law (checked on the VTU).
+mod grading;
 /// `fieldgrade mesh` statistics of the shipped demo models (insta snapshots).
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.

@@ -133,7 +133,14 @@ fn a_notch_in_the_domain_leaves_no_cluster_at_its_far_end() {
     let mm = 1e-3;
     let slab = Outline::polygon(
         "slab",
-        &[[0.0, 0.0], [60.0 * mm, 0.0], [60.0 * mm, 10.0 * mm], [10.0 * mm, 10.0 * mm], [10.0 * mm, 11.0 * mm], [0.0, 11.0 * mm]],
+        &[
+            [0.0, 0.0],
+            [60.0 * mm, 0.0],
+            [60.0 * mm, 10.0 * mm],
+            [10.0 * mm, 10.0 * mm],
+            [10.0 * mm, 11.0 * mm],
+            [0.0, 11.0 * mm],
+        ],
     )
     .unwrap();
     let mut geo = planar(
