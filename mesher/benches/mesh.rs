@@ -80,12 +80,12 @@ fn main() {
     let _ = writeln!(out, "# Meshing benchmark (`cargo bench -p mesher --bench mesh`)\n");
     let _ =
         writeln!(out, "Domain: the L-shaped electrode demo (0.2 m box, 5 singular corners graded, P2 grading law).");
-    let _ = writeln!(out, "fieldgrade = graded, size-field driven mesh (seeding + spade bulk load + spade refine for angles + tagging + validation).");
+    let _ = writeln!(out, "fieldgrade = graded, size-field driven mesh (seeding + spade bulk load and insertion + own Delaunay refinement of the dielectric for angles + tagging + validation).");
     let _ = writeln!(
         out,
         "spade = spade's own uniform refine (30°, one global max area chosen to give a similar triangle count).\n"
     );
-    let _ = writeln!(out, "| target | fieldgrade triangles | fieldgrade s | fieldgrade Mtri/s | in spade (bulk load + refine) | spade triangles | spade s | spade Mtri/s | ratio fieldgrade/spade tri/s | same, fieldgrade on 1 thread |");
+    let _ = writeln!(out, "| target | fieldgrade triangles | fieldgrade s | fieldgrade Mtri/s | in spade (bulk load + insertion) | spade triangles | spade s | spade Mtri/s | ratio fieldgrade/spade tri/s | same, fieldgrade on 1 thread |");
     let _ = writeln!(out, "|---|---|---|---|---|---|---|---|---|---|");
     let targets: &[f64] = if quick { &[1e5] } else { &[1e5, 1e6] };
     let one_thread = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();

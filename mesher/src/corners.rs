@@ -42,10 +42,10 @@
 //! An axis point where several dielectrics meet keeps the planar exponent of the meridian
 //! section (the axis taken as a zero-flux wall); it is flagged `on_axis`.
 
-use crate::grading::Grading;
 use crate::arrangement::{Arrangement, Side};
 use crate::error::MeshError;
 use crate::geometry::{Fill, Geometry, OuterBoundary, Symmetry, Xy};
+use crate::grading::Grading;
 use std::f64::consts::TAU;
 
 /// What kind of singular point this is.

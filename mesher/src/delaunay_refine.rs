@@ -124,15 +124,8 @@ pub(crate) fn refine(cdt: &mut Cdt, keep: Vec<bool>, limits: Limits) -> bool {
     let ratio_limit = if sin > 0.0 { 1.0 / (2.0 * sin) } else { f64::INFINITY };
     let segments: VecDeque<_> = cdt.undirected_edges().filter(|e| e.is_constraint_edge()).map(|e| e.fix()).collect();
     let bad: VecDeque<_> = cdt.fixed_inner_faces().filter(|f| keep[f.index()]).collect();
-    let mut r = Refiner {
-        cdt,
-        keep,
-        origin: HashMap::new(),
-        limits,
-        ratio_limit_sq: ratio_limit * ratio_limit,
-        bad,
-        segments,
-    };
+    let mut r =
+        Refiner { cdt, keep, origin: HashMap::new(), limits, ratio_limit_sq: ratio_limit * ratio_limit, bad, segments };
     r.run()
 }
 
@@ -164,7 +157,8 @@ impl Refiner<'_> {
         let e = self.cdt.directed_edge(seg.as_directed());
         let [a, b] = e.positions();
         [e, e.rev()].into_iter().any(|d| {
-            self.keep_of(d.face().as_inner().map(|f| f.fix())) && d.opposite_position().is_some_and(|o| in_diametral_circle(a, b, o))
+            self.keep_of(d.face().as_inner().map(|f| f.fix()))
+                && d.opposite_position().is_some_and(|o| in_diametral_circle(a, b, o))
         })
     }
 
@@ -363,7 +357,8 @@ impl Refiner<'_> {
         }
         let d = self.cdt.directed_edge(seg.as_directed());
         let (a, b) = (d.from().fix(), d.to().fix());
-        let (left_face, right_face) = (d.face().as_inner().map(|f| f.fix()), d.rev().face().as_inner().map(|f| f.fix()));
+        let (left_face, right_face) =
+            (d.face().as_inner().map(|f| f.fix()), d.rev().face().as_inner().map(|f| f.fix()));
         let (keep_left, keep_right) = (self.keep_of(left_face), self.keep_of(right_face));
         if !keep_left && !keep_right {
             return false;
@@ -398,15 +393,18 @@ impl Refiner<'_> {
         }
         if !on_segment {
             // The point went into a triangle beside the segment, joined to both its ends:
-            // the segment becomes an ordinary edge (and flips away from the point), its two
-            // halves the segments.
+            // its two halves become the segments, and the segment an ordinary edge (which
+            // flips away from the point).
+            // The halves are marked first: the flips that restore the Delaunay property
+            // after the segment is unmarked must not flip them, or faces away from the
+            // point would straddle the segment.
+            self.cdt.try_add_constraint(a, v);
+            self.cdt.try_add_constraint(v, b);
+            debug_assert!(self.cdt.exists_constraint(a, v) && self.cdt.exists_constraint(v, b));
             if let Some(e) = self.cdt.get_edge_from_neighbors(a, b) {
                 let e = e.as_undirected().fix();
                 self.cdt.remove_constraint_edge(e);
             }
-            self.cdt.try_add_constraint(a, v);
-            self.cdt.try_add_constraint(v, b);
-            debug_assert!(self.cdt.exists_constraint(a, v) && self.cdt.exists_constraint(v, b));
         }
         self.keep.resize(self.cdt.num_all_faces(), false);
         let star: Vec<FixedFaceHandle<InnerTag>> =

@@ -19,7 +19,8 @@
 //!
 //! with r the distance to the point, h₀ the size the other sources ask for there, R the
 //! grading radius (half the shortest piece meeting at the point, so it stays fixed under
-//! refinement), and f < 1 the grading fraction (default 0.85). The innermost size
+//! refinement, but at least four sizes h₀, so that the law takes effect next to short
+//! pieces; see the `grading` module), and f < 1 the grading fraction (default 0.85). The innermost size
 //! r₀ = R·(h₀/R)^(1/μ) is where the law meets h = r: the graded meshes of the theory keep
 //! the elements within r₀ of the point at size r₀ (Apel, Sändig & Whiteman 1996), and
 //! without it the law would drive the size at the point down to the floor, whose tiny

@@ -13,13 +13,18 @@
 //! 4. Seed the interior from a quadtree whose leaves are at most four times the local size:
 //!    each leaf gets a small shifted-row lattice of points (spacing at most the local
 //!    size); points inside the dielectric and clear of the boundary become vertices.
-//! 5. Bulk-load the boundary into a constrained Delaunay triangulation (spade), insert the
-//!    seeds in quadtree order, and run Delaunay refinement (Ruppert/Chew, in spade) for the
-//!    minimum angle, with the node budget as a stop.
+//! 5. Bulk-load the boundary and a frame of four free vertices around it into a
+//!    constrained Delaunay triangulation (spade), insert the seeds in quadtree order, and
+//!    run Delaunay refinement (Ruppert, with Shewchuk's concentric shells) for the minimum
+//!    angle on the dielectric triangles only (see `delaunay_refine`), with the node budget
+//!    as a stop.
 //! 6. Flood-fill the triangles across non-constraint edges into components, label each by
 //!    the paint order at one interior point, drop conductor interiors and the outside, tag
 //!    every boundary and interface edge, and move the nodes that refinement inserted on arc
 //!    chords onto their arcs (reverted if that would invert a triangle).
+//! 7. Smooth (optionally), attach the open boundary's exterior, add the P2 nodes, validate,
+//!    and record at every singular point the grading law it was given and the size of the
+//!    finished mesh's elements there (see `grading`).
 //!
 //! # References
 //! - J. Ruppert, "A Delaunay refinement algorithm for quality 2-dimensional mesh
@@ -27,8 +32,8 @@
 //! - L. P. Chew, "Guaranteed-quality mesh generation for curved surfaces", Proc. 9th ACM
 //!   Symposium on Computational Geometry (1993) 274–280.
 //! - J. R. Shewchuk, "Delaunay refinement algorithms for triangular mesh generation",
-//!   Comput. Geom. 22 (2002) 21–74 (small input angles: concentric-shell splitting, which
-//!   spade's refinement uses by rounding splits to powers of two).
+//!   Comput. Geom. 22 (2002) 21–74 (small input angles: concentric-shell splitting, splits
+//!   rounded to powers of two).
 //!
 //! # Complexity
 //! O(N log N) for N triangles: the quadtree and the spatially ordered insertion of its seeds dominate; refinement only
@@ -36,14 +41,14 @@
 
 use crate::arrangement::{side_at, Arrangement, Side};
 use crate::corners::{self, SingularPoint};
+use crate::delaunay_refine::Limits;
 use crate::error::MeshError;
-use crate::grading::{audit, grading_radius, AuditInput, GradingLaw};
 use crate::geometry::{norm, sub, Curve, Geometry, OuterBoundary, Symmetry, Xy};
+use crate::grading::{audit, grading_radius, AuditInput, GradingLaw};
 use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::{BackgroundSize, SizeField};
-use crate::delaunay_refine::Limits;
 use spade::{ConstrainedDelaunayTriangulation, Point2, Triangulation};
 
 pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;

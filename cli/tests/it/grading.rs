@@ -214,3 +214,16 @@ fn grade_corners_false_gives_an_ungraded_mesh_and_a_warning() {
     let o = run(&["solve", slab_with("", dir.path()).to_str().unwrap(), "--out", out.to_str().unwrap()]);
     assert!(!stdout(&o).contains("warning"), "{}", stdout(&o));
 }
+
+#[test]
+fn a_node_budget_that_stops_the_grading_is_reported() {
+    // 400 vertices are not enough to grade the slab's λ = 1/2 point (the full mesh has
+    // about 1 700 vertices): the point is reported with the budget as the reason.
+    let dir = tempfile::tempdir().unwrap();
+    let model = slab_with("max_nodes = 400", dir.path());
+    let (j, _) = mesh(&model, dir.path());
+    assert_eq!(j["refinement_complete"], false);
+    assert_eq!(j["singular_points"][0]["grading"]["status"], "node budget reached");
+    let w = j["warnings"][0].as_str().unwrap();
+    assert!(w.contains("left ungraded") && w.contains("max_nodes = 400"), "{w}");
+}

@@ -155,3 +155,36 @@ fn a_notch_in_the_domain_leaves_no_cluster_at_its_far_end() {
     let (ratio, at) = smallest_stray(&out, 4.0 * mm);
     assert!(ratio >= 0.3, "a triangle {ratio:.3} times the asked size at {at:?}");
 }
+
+#[test]
+fn inclined_thin_features_are_refined_only_where_they_are_dielectric() {
+    // An inclined foil 0.5 mm thick (a conductor: its inside is not refined), and an
+    // inclined dielectric layer 0.3 mm thick between two others (refined to the angle
+    // bound like any dielectric). Splitting an inclined segment puts its point off the
+    // line by round-off; the triangles on either side must keep the side they are on (a
+    // mix-up once left the layer with 1.1° triangles and filled the foil with 17 000).
+    let foil = Outline::polygon("foil", &[[0.1, 0.1], [0.9, 0.7], [0.9, 0.7005], [0.1, 0.1005]]).unwrap();
+    let geo = planar(
+        vec![
+            dielectric("core", Outline::rectangle("core", [0.0, 0.0], [1.0, 1.0], 0.0).unwrap(), 3.0),
+            conductor("foil", foil, 0),
+        ],
+        &["foil"],
+    );
+    let out = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.02)).unwrap();
+    assert!(out.mesh.stats().min_angle_deg >= 29.9);
+    assert_eq!(out.mesh.singular_points.len(), 4);
+    let (ratio, at) = smallest_stray(&out, 0.1);
+    assert!(ratio >= 0.3, "a triangle {ratio:.3} times the asked size at {at:?}");
+    let layer = Outline::polygon("layer", &[[0.0, 0.3], [1.0, 0.5], [1.0, 0.5003], [0.0, 0.3003]]).unwrap();
+    let geo = planar(
+        vec![
+            dielectric("oil", Outline::rectangle("oil", [0.0, 0.0], [1.0, 1.0], 0.0).unwrap(), 2.2),
+            dielectric("layer", layer, 4.0),
+        ],
+        &[],
+    );
+    let out = generate(&geo, &RefineParams::new().with_order(1).with_max_size_m(0.05)).unwrap();
+    let st = out.mesh.stats();
+    assert!(st.min_angle_deg >= 29.9, "min angle {}", st.min_angle_deg);
+}

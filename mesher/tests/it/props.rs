@@ -35,7 +35,11 @@ fn case() -> impl Strategy<Value = (Vec<f64>, Vec<f64>, usize, Vec<f64>, f64, u8
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 48, ..ProptestConfig::default() })]
+    // 48 cases per run; raise PROPTEST_CASES for a longer one.
+    #![proptest_config(ProptestConfig {
+        cases: std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(48),
+        ..ProptestConfig::default()
+    })]
 
     #[test]
     fn random_polygons_with_holes_mesh_validly((radii, jitter, holes, hole_r, h, order) in case()) {
