@@ -410,3 +410,70 @@ pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> Er
         solution_norm: norm.sqrt(),
     }
 }
+
+/// The recovered gradient of one nodal potential on a mesh (see the module docs), for the
+/// goal-oriented estimates.
+pub(crate) struct RecoveredField<'a> {
+    potential: &'a [f64],
+    recovery: Recovery,
+}
+
+/// Recovers the gradient of `potential` (any nodal field of the mesh's space: a solution or
+/// the solution of a dual problem).
+pub(crate) fn recover_field<'a>(mesh: &Mesh, quad: &SingularQuadrature, potential: &'a [f64]) -> RecoveredField<'a> {
+    RecoveredField { potential, recovery: recover(mesh, potential, quad) }
+}
+
+/// Per triangle: the error product ∫ₜ (G_u − ∇u_h)ᵀ ε (G_z − ∇z_h) w dA of two recovered
+/// fields (signed), and, for a weight ω, ∫ₜ ω·(G_u − ∇u_h)ᵀ(G_u − ∇u_h) w dA and
+/// ∫ₜ ω·|∇u_h|² w dA and ∫ₜ ω w dA (w = 1 planar, 2πr axisymmetric).
+pub(crate) fn error_products(
+    mesh: &Mesh,
+    problem: &Problem,
+    quad: &SingularQuadrature,
+    u: &RecoveredField<'_>,
+    z: &RecoveredField<'_>,
+    omega: Option<&(dyn Fn(Xy) -> f64 + Sync)>,
+) -> Vec<[f64; 4]> {
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    (0..mesh.triangles.len())
+        .into_par_iter()
+        .map(|t| {
+            let r = mesh.regions[t] as usize;
+            let eps = match problem.tensor.get(r).copied().flatten() {
+                Some(e) => e.map(|row| row.map(|x| EPSILON_0 * x)),
+                None => {
+                    let e = EPSILON_0 * problem.permittivity[r];
+                    [[e, 0.0], [0.0, e]]
+                }
+            };
+            let corner = quad.corner(mesh, t);
+            let mut out = [0.0; 4];
+            for &(xi, eta, w) in quad.rule(corner) {
+                let pu = eval_point(mesh, u.potential, t, xi, eta);
+                let pz = eval_point(mesh, z.potential, t, xi, eta);
+                let mut weight = w * pu.det.abs();
+                if axisym {
+                    weight *= 2.0 * std::f64::consts::PI * pu.at[0];
+                }
+                let gu = u.recovery.at(mesh, t, corner, xi, eta, pu.at);
+                let gz = z.recovery.at(mesh, t, corner, xi, eta, pu.at);
+                // ∇V_h = −E.
+                let du = [gu[0] + pu.e[0], gu[1] + pu.e[1]];
+                let dz = [gz[0] + pz.e[0], gz[1] + pz.e[1]];
+                out[0] += weight
+                    * (du[0] * (eps[0][0] * dz[0] + eps[0][1] * dz[1])
+                        + du[1] * (eps[1][0] * dz[0] + eps[1][1] * dz[1]));
+                if let Some(om) = omega {
+                    let o = om(pu.at);
+                    if o != 0.0 {
+                        out[1] += weight * o * (du[0] * du[0] + du[1] * du[1]);
+                        out[2] += weight * o * (pu.e[0] * pu.e[0] + pu.e[1] * pu.e[1]);
+                        out[3] += weight * o;
+                    }
+                }
+            }
+            out
+        })
+        .collect()
+}

@@ -61,10 +61,12 @@
 #![warn(missing_debug_implementations)]
 
 mod adapt;
+mod certify;
 mod convergence;
 mod error;
 mod estimate;
 mod fields;
+mod goal;
 mod ordering;
 mod probe;
 mod problem;
@@ -73,10 +75,12 @@ mod solve;
 pub mod space;
 
 pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, Watched};
+pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
+pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use singular::{
@@ -84,6 +88,6 @@ pub use singular::{
     SingularFit,
 };
 pub use solve::{
-    capacitance_matrix, reduced_system, solve, solve_with_capacitance, solver_ordering, CapacitanceMatrix,
-    ReducedSystem, Solution, SolveTimings, EPSILON_0,
+    capacitance_matrix, reduced_system, solve, solve_factored, solve_with_capacitance, solver_ordering,
+    CapacitanceMatrix, FactoredSolution, ReducedSystem, Solution, SolveTimings, EPSILON_0,
 };

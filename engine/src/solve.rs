@@ -596,7 +596,7 @@ fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space
 /// describe, no fixed potential anywhere, a part cut off from every fixed potential, or a
 /// factorisation failure.
 pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
-    Ok(solve_cases(mesh, problem, false)?.0)
+    Ok(solve_cases(mesh, problem, false)?.solution)
 }
 
 /// [`solve`] and [`capacitance_matrix`] from one assembly and one factorisation (the
@@ -606,19 +606,106 @@ pub fn solve(mesh: &Mesh, problem: &Problem) -> Result<Solution, SolveError> {
 /// # Errors
 /// As [`solve`].
 pub fn solve_with_capacitance(mesh: &Mesh, problem: &Problem) -> Result<(Solution, CapacitanceMatrix), SolveError> {
-    let (sol, c) = solve_cases(mesh, problem, true)?;
-    Ok((sol, c.unwrap_or_default()))
+    let f = solve_cases(mesh, problem, true)?;
+    Ok((f.solution, f.capacitance))
+}
+
+/// [`solve_with_capacitance`] that keeps the factorised system, so that further
+/// right-hand sides (the dual problems of goal-oriented error estimates, see
+/// [`crate::goal_estimates`]) cost a forward and back substitution each.
+///
+/// # Errors
+/// As [`solve`].
+pub fn solve_factored(mesh: &Mesh, problem: &Problem) -> Result<FactoredSolution, SolveError> {
+    solve_cases(mesh, problem, true)
+}
+
+/// A solution with its capacitance matrix, the nodal potentials of every capacitance
+/// column and the factorised system they came from.
+pub struct FactoredSolution {
+    /// The load case.
+    pub solution: Solution,
+    /// The Maxwell capacitance matrix of the fixed conductors.
+    pub capacitance: CapacitanceMatrix,
+    /// Nodal potentials of each capacitance column (conductor `capacitance.0[k]` at 1 V,
+    /// the other fixed conductors and a held outer boundary at 0 V, floating conductors
+    /// uncharged).
+    pub columns: Vec<Vec<f64>>,
+    system: System,
+    factor: Option<Factor>,
+}
+
+impl std::fmt::Debug for FactoredSolution {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("FactoredSolution")
+            .field("solution", &self.solution)
+            .field("capacitance", &self.capacitance)
+            .field("unknowns", &self.system.num_unknowns())
+            .finish_non_exhaustive()
+    }
+}
+
+/// One dual problem: homogeneous (every fixed conductor and a held outer boundary at 0 V,
+/// no space charge) except for the units asked for, plus a load per mesh node (the
+/// consistent load ∫ g·∇φᵢ of a functional's derivative).
+#[derive(Clone, Debug, Default)]
+pub(crate) struct DualCase {
+    /// This floating conductor carries a unit charge.
+    pub unit_charge: Option<usize>,
+    /// Load per mesh node (summed into the unknown the node belongs to; held nodes drop it).
+    pub node_load: Option<Vec<f64>>,
+}
+
+impl FactoredSolution {
+    /// Nodal potentials of each dual case, by the kept factorisation.
+    pub(crate) fn solve_duals(&self, mesh: &Mesh, problem: &Problem, cases: &[DualCase]) -> Vec<Vec<f64>> {
+        let m = self.system.num_unknowns();
+        let mut homogeneous = problem.clone();
+        for spec in homogeneous.conductors.iter_mut() {
+            *spec = match spec {
+                ConductorSpec::Fixed { .. } => ConductorSpec::Fixed { potential_v: 0.0 },
+                ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
+            };
+        }
+        homogeneous.outer_potential_v =
+            (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then_some(0.0);
+        homogeneous.outer_potential_fn = None;
+        let mut b = Mat::<f64>::zeros(m, cases.len());
+        for (c, case) in cases.iter().enumerate() {
+            let mut p = homogeneous.clone();
+            if let Some(k) = case.unit_charge {
+                p.conductors[k] = ConductorSpec::Floating { charge_c: 1.0 };
+            }
+            let mut col = vec![0.0; m];
+            case_rhs(&self.system, &p, &mut col, false);
+            if let Some(load) = &case.node_load {
+                for (d, l) in self.system.dof.iter().zip(load) {
+                    if let Dof::Free(i) = d {
+                        col[*i as usize] += l;
+                    }
+                }
+            }
+            for (i, v) in col.iter().enumerate() {
+                b[(i, c)] = *v;
+            }
+        }
+        if let Some(f) = &self.factor {
+            f.solve_in_place(&mut b);
+        }
+        (0..cases.len())
+            .map(|c| {
+                let x: Vec<f64> = (0..m).map(|i| b[(i, c)]).collect();
+                finish(mesh, &homogeneous, &self.system, &x, false).potential
+            })
+            .collect()
+    }
 }
 
 /// Indices of the fixed conductors (row and column order) and the Maxwell capacitance
 /// matrix, F (F/m planar).
 pub type CapacitanceMatrix = (Vec<usize>, Vec<Vec<f64>>);
 
-fn solve_cases(
-    mesh: &Mesh,
-    problem: &Problem,
-    with_capacitance: bool,
-) -> Result<(Solution, Option<CapacitanceMatrix>), SolveError> {
+fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result<FactoredSolution, SolveError> {
     let t0 = Instant::now();
     let system = System::assemble(mesh, problem)?;
     let mut timings = SolveTimings { assembly_s: t0.elapsed().as_secs_f64(), ..Default::default() };
@@ -656,14 +743,16 @@ fn solve_cases(
             b[(i, c)] = *v;
         }
     }
+    let mut factor = None;
     if m > 0 {
         let t1 = Instant::now();
-        let factor = Factor::new(&system)?;
+        let f = Factor::new(&system)?;
         timings.factor_s = t1.elapsed().as_secs_f64();
-        [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = factor.laps;
+        [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = f.laps;
         let t2 = Instant::now();
-        factor.solve_in_place(&mut b);
+        f.solve_in_place(&mut b);
         timings.solve_s = t2.elapsed().as_secs_f64();
+        factor = Some(f);
     }
     let t3 = Instant::now();
     let column = |c: usize, out: &mut Vec<f64>| {
@@ -673,20 +762,19 @@ fn solve_cases(
     };
     column(0, &mut col);
     let mut sol = finish(mesh, problem, &system, &col, true);
-    let cmat = with_capacitance.then(|| {
-        let mut cmat = vec![vec![0.0; fixed.len()]; fixed.len()];
-        for (c, p) in cases.iter().enumerate() {
-            column(c + 1, &mut col);
-            let s = finish(mesh, p, &system, &col, false);
-            for (row, &i) in fixed.iter().enumerate() {
-                cmat[row][c] = s.conductor_charges[i];
-            }
+    let mut columns = Vec::with_capacity(cases.len());
+    let mut cmat = vec![vec![0.0; fixed.len()]; fixed.len()];
+    for (c, p) in cases.iter().enumerate() {
+        column(c + 1, &mut col);
+        let s = finish(mesh, p, &system, &col, false);
+        for (row, &i) in fixed.iter().enumerate() {
+            cmat[row][c] = s.conductor_charges[i];
         }
-        (fixed.clone(), cmat)
-    });
+        columns.push(s.potential);
+    }
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
-    Ok((sol, cmat))
+    Ok(FactoredSolution { solution: sol, capacitance: (fixed, cmat), columns, system, factor })
 }
 
 /// The open-boundary term of an axisymmetric model. With the Kelvin transform

@@ -6,6 +6,8 @@ mod closed_forms;
 mod common;
 /// The re-entrant corner benchmark: uniform and graded convergence rates.
 mod corner;
+/// Goal-oriented estimates of a charge, a floating potential and a local field.
+mod goals;
 /// The L-shaped corner benchmark's exact solution and problem.
 pub mod lshape;
 /// Linear potentials reproduced exactly; invariants of the solution.

@@ -1,0 +1,244 @@
+//! Goal-oriented error estimates: the error of one quantity of interest, not of the whole
+//! solution, by dual-weighted recovered errors.
+//!
+//! # Algorithm
+//! For a quantity J(V) and the Galerkin solution V_h, the error is J(V) − J(V_h) =
+//! a(V − V_h, Z − Z_h) (plus a quadratic remainder for a nonlinear J), where Z is the
+//! solution of the dual problem a(v, Z) = J′(v) for every admissible v and a the energy
+//! bilinear form ∫∇vᵀε∇Z w dA (w = 2πr in axisymmetry). Both errors are replaced by the
+//! recovered ones of the module `estimate` (gradient recovery one degree higher):
+//!
+//! ```text
+//! J(V) − J(V_h) ≈ Σₜ ∫ₜ (G_V − ∇V_h)ᵀ ε (G_Z − ∇Z_h) w dA,
+//! ```
+//!
+//! whose terms, in absolute value, are the triangles' indicators for refining towards the
+//! quantity. The quantities and their dual problems:
+//! - the charge Q_k of a conductor at a fixed potential: Z is the potential with conductor
+//!   k at 1 V and the other fixed conductors at 0 (the capacitance column, already solved);
+//!   Q_k is the reaction a(V, Z) − ℓ(Z), so Q_k − Q_k,h = −a(V − V_h, Z − Z_h);
+//! - the potential of a floating conductor: Z is the potential of a unit charge on it with
+//!   every fixed conductor at 0 V;
+//! - the mean square field over a disc, J = ∫ω|∇V|² w dA / ∫ω w dA with the bump
+//!   ω = (1 − |x − c|²/ρ²)² inside the disc (and inside one region): the load of the dual
+//!   problem is J′(v) = 2∫ω∇V_h·∇v w dA / ∫ω w dA, and the remainder ∫ω|∇(V − V_h)|² w dA /
+//!   ∫ω w dA is added, recovered. This stands in for a peak field, which is not a
+//!   functional of V: centred at the peak, with ρ a few elements, its relative error is
+//!   twice the relative error of the field there.
+//!
+//! Every dual problem reuses the factorisation of the solution ([`FactoredSolution`]): one
+//! forward and back substitution each.
+//!
+//! # References
+//! - R. Becker, R. Rannacher, "An optimal control approach to a posteriori error
+//!   estimation in finite element methods", Acta Numerica 10 (2001) 1–102,
+//!   doi:10.1017/S0962492901000010.
+//! - S. Prudhomme, J. T. Oden, "On goal-oriented error estimation for elliptic problems:
+//!   application to the control of pointwise errors", Comput. Methods Appl. Mech. Eng. 176
+//!   (1999) 313–331, doi:10.1016/S0045-7825(98)00343-0.
+//! - O. C. Zienkiewicz, J. Z. Zhu, "The superconvergent patch recovery and a posteriori
+//!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364 (the
+//!   recovered gradients).
+
+use crate::estimate::{error_products, recover_field};
+use crate::fields::SingularQuadrature;
+use crate::problem::Problem;
+use crate::solve::{DualCase, FactoredSolution};
+use crate::space::{Element, P1, P2};
+use mesher::{Mesh, Symmetry, Xy};
+
+/// A quantity of interest whose error is estimated.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Goal {
+    /// The charge of conductor `k` (a conductor at a fixed potential).
+    Charge(usize),
+    /// The potential of floating conductor `k`.
+    FloatingPotential(usize),
+    /// The root-mean-square field over a disc, weighted by the bump (1 − |x − c|²/ρ²)²,
+    /// within `region` only if one is given: the stand-in for a peak field at `center`.
+    LocalField {
+        /// Centre c, metres.
+        center: Xy,
+        /// Radius ρ, metres.
+        radius_m: f64,
+        /// Only the triangles of this region count.
+        region: Option<u32>,
+    },
+}
+
+/// The estimated error of one goal.
+#[derive(Clone, Debug, PartialEq)]
+pub struct GoalEstimate {
+    /// The quantity on this mesh: C (C/m planar) for a charge, V for a potential, V/m for
+    /// a local field (its root-mean-square value over the disc).
+    pub value: f64,
+    /// Estimated exact − computed value, in the quantity's unit.
+    pub estimate: f64,
+    /// |contribution| per triangle, in the unit of the quantity (for a local field, of
+    /// its mean square), for marking.
+    pub indicators: Vec<f64>,
+}
+
+/// Shape functions' gradients of triangle `t` at reference point (ξ, η): node ids, their
+/// count (3 or 6), the physical gradients, the physical point and the Jacobian determinant.
+fn basis_gradients(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize, [[f64; 2]; 6], Xy, f64) {
+    fn build<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> ([[f64; 2]; 6], Xy, f64) {
+        let g = E::gradients(xi, eta);
+        let s = E::values(xi, eta);
+        let mut j = [[0.0; 2]; 2];
+        let mut p = [0.0; 2];
+        for k in 0..N {
+            j[0][0] += x[k][0] * g[k][0];
+            j[0][1] += x[k][0] * g[k][1];
+            j[1][0] += x[k][1] * g[k][0];
+            j[1][1] += x[k][1] * g[k][1];
+            p[0] += x[k][0] * s[k];
+            p[1] += x[k][1] * s[k];
+        }
+        let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+        let mut out = [[0.0; 2]; 6];
+        for k in 0..N {
+            // ∇φ = J⁻ᵀ ∇̂φ.
+            out[k] = [(j[1][1] * g[k][0] - j[1][0] * g[k][1]) / det, (-j[0][1] * g[k][0] + j[0][0] * g[k][1]) / det];
+        }
+        (out, p, det)
+    }
+    let tri = mesh.triangles[t];
+    if mesh.mid_nodes.is_empty() {
+        let (g, p, det) = build::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta);
+        ([tri[0], tri[1], tri[2], 0, 0, 0], 3, g, p, det)
+    } else {
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        let (g, p, det) = build::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), xi, eta);
+        (ids, 6, g, p, det)
+    }
+}
+
+/// The bump weight of a local-field goal at `x`.
+fn bump(center: Xy, radius: f64, x: Xy) -> f64 {
+    let q = ((x[0] - center[0]).powi(2) + (x[1] - center[1]).powi(2)) / (radius * radius);
+    if q < 1.0 {
+        (1.0 - q).powi(2)
+    } else {
+        0.0
+    }
+}
+
+/// Estimates the error of every goal on the solution's mesh (module docs).
+///
+/// # Panics
+/// If a goal names a conductor that is not fixed (a charge) or not floating (a
+/// potential), or the solution does not belong to the mesh.
+#[track_caller]
+pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution, goals: &[Goal]) -> Vec<GoalEstimate> {
+    let sol = &solved.solution;
+    assert_eq!(sol.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    let quad = SingularQuadrature::new(mesh);
+    let u = recover_field(mesh, &quad, &sol.potential);
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    // The dual problems that need a solve, in goal order.
+    let mut cases = Vec::new();
+    for g in goals {
+        match *g {
+            Goal::Charge(_) => {}
+            Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
+            Goal::LocalField { center, radius_m, region } => {
+                // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
+                let mut load = vec![0.0; mesh.nodes.len()];
+                let mut total = 0.0;
+                for t in 0..mesh.triangles.len() {
+                    if region.is_some_and(|r| r != mesh.regions[t]) {
+                        continue;
+                    }
+                    for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
+                        let (ids, n, grads, at, det) = basis_gradients(mesh, t, xi, eta);
+                        let o = bump(center, radius_m, at);
+                        if o == 0.0 {
+                            continue;
+                        }
+                        let mut weight = w * det.abs() * o;
+                        if axisym {
+                            weight *= 2.0 * std::f64::consts::PI * at[0];
+                        }
+                        let mut gv = [0.0; 2];
+                        for k in 0..n {
+                            let v = sol.potential[ids[k] as usize];
+                            gv[0] += v * grads[k][0];
+                            gv[1] += v * grads[k][1];
+                        }
+                        for k in 0..n {
+                            load[ids[k] as usize] += 2.0 * weight * (gv[0] * grads[k][0] + gv[1] * grads[k][1]);
+                        }
+                        total += weight;
+                    }
+                }
+                if total > 0.0 {
+                    for l in &mut load {
+                        *l /= total;
+                    }
+                }
+                cases.push(DualCase { unit_charge: None, node_load: Some(load) });
+            }
+        }
+    }
+    let mut duals = solved.solve_duals(mesh, problem, &cases).into_iter();
+    goals
+        .iter()
+        .map(|g| match *g {
+            Goal::Charge(k) => {
+                let col = solved
+                    .capacitance
+                    .0
+                    .iter()
+                    .position(|&c| c == k)
+                    .expect("a charge goal names a conductor at a fixed potential");
+                let z = recover_field(mesh, &quad, &solved.columns[col]);
+                let p = error_products(mesh, problem, &quad, &u, &z, None);
+                let sum: f64 = p.iter().map(|x| x[0]).sum();
+                GoalEstimate {
+                    value: sol.conductor_charges[k],
+                    estimate: -sum,
+                    indicators: p.iter().map(|x| x[0].abs()).collect(),
+                }
+            }
+            Goal::FloatingPotential(k) => {
+                let zp = duals.next().expect("one dual per floating potential");
+                let z = recover_field(mesh, &quad, &zp);
+                let p = error_products(mesh, problem, &quad, &u, &z, None);
+                GoalEstimate {
+                    value: sol.conductor_potentials[k],
+                    estimate: p.iter().map(|x| x[0]).sum(),
+                    indicators: p.iter().map(|x| x[0].abs()).collect(),
+                }
+            }
+            Goal::LocalField { center, radius_m, region } => {
+                let zp = duals.next().expect("one dual per local field");
+                let z = recover_field(mesh, &quad, &zp);
+                let omega = move |x: Xy| bump(center, radius_m, x);
+                let mut p = error_products(mesh, problem, &quad, &u, &z, Some(&omega));
+                if let Some(r) = region {
+                    for (t, x) in p.iter_mut().enumerate() {
+                        if mesh.regions[t] != r {
+                            x[1] = 0.0;
+                            x[2] = 0.0;
+                            x[3] = 0.0;
+                        }
+                    }
+                }
+                let total: f64 = p.iter().map(|x| x[3]).sum();
+                let mean_square = if total > 0.0 { p.iter().map(|x| x[2]).sum::<f64>() / total } else { 0.0 };
+                let remainder = if total > 0.0 { p.iter().map(|x| x[1]).sum::<f64>() / total } else { 0.0 };
+                let linear: f64 = p.iter().map(|x| x[0]).sum();
+                let rms = mean_square.sqrt();
+                // J = E_rms²: δE ≈ δJ/(2E).
+                let d_ms = linear + remainder;
+                GoalEstimate {
+                    value: rms,
+                    estimate: if rms > 0.0 { d_ms / (2.0 * rms) } else { 0.0 },
+                    indicators: p.iter().map(|x| x[0].abs() + if total > 0.0 { x[1] / total } else { 0.0 }).collect(),
+                }
+            }
+        })
+        .collect()
+}
