@@ -22,7 +22,7 @@ use crate::UserError;
 use anyhow::Result;
 use engine::{
     adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
-    singular_field_factor, singular_radius_above, AdaptParams, ConvergenceKind, Solution, Watched,
+    singular_field_factor, singular_radius_above, AdaptParams, ConvergenceKind, Goal, QuantityClass, Solution, Watched,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -132,6 +132,35 @@ pub struct QuantityStudy {
     pub gci: Option<f64>,
     /// A negative observed order or divergent changes: the sign of a singularity.
     pub flagged: Option<String>,
+    /// The final value with its error bar and verdict.
+    pub error_bar: BarReport,
+}
+
+/// A value with its error bar (see `engine::certify`).
+#[derive(Serialize, Debug)]
+pub struct BarReport {
+    /// The value on the finest mesh so far.
+    pub value: f64,
+    /// Estimated |exact − value|, in the quantity's unit (null when nothing is known yet).
+    pub absolute: Option<f64>,
+    /// `absolute` / max(|value|, floor).
+    pub relative: Option<f64>,
+    /// "converged" or "not converged".
+    pub status: &'static str,
+    /// How the bar was formed and, if not converged, why.
+    pub reason: String,
+}
+
+impl BarReport {
+    fn of(b: &engine::ErrorBar) -> BarReport {
+        BarReport {
+            value: b.value,
+            absolute: b.absolute.is_finite().then_some(b.absolute),
+            relative: b.relative.is_finite().then_some(b.relative),
+            status: if b.status == engine::BarStatus::Converged { "converged" } else { "not converged" },
+            reason: b.reason.clone(),
+        }
+    }
 }
 
 /// One value in a sequence.
@@ -145,6 +174,12 @@ pub struct SequencePoint {
     pub relative_change: Option<f64>,
     /// Observed order over this and the two previous meshes.
     pub observed_order: Option<f64>,
+    /// The quantity's own a-posteriori estimate of |exact − value| on this mesh.
+    pub own_estimate: Option<f64>,
+    /// The error bar on the sequence up to this mesh.
+    pub error_bar: Option<f64>,
+    /// Its verdict then.
+    pub status: &'static str,
 }
 
 /// One singular point on the final mesh.
@@ -194,7 +229,9 @@ enum Quantity {
 ///
 /// # Errors
 /// Model, meshing and solve errors (as [`UserError`]), I/O errors.
-pub fn run(run: &CheckRun) -> Result<()> {
+/// Returns whether the loop converged (the caller turns "not converged" into its own exit
+/// code, after everything is written).
+pub fn run(run: &CheckRun) -> Result<bool> {
     let t0 = Instant::now();
     let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
     if let Some(o) = run.order {
@@ -229,9 +266,9 @@ pub fn run(run: &CheckRun) -> Result<()> {
         &model.params,
         &problem,
         &ap,
-        |mesh, sol| {
+        |mesh, solved, est| {
             let (discs, quantities) = setup.get_or_insert_with(|| (exclusion_discs(mesh), quantity_list(&model, mesh)));
-            Ok(watch(&model, mesh, sol, quantities, discs))
+            Ok(watch(&model, &problem, mesh, solved, est, quantities, discs))
         },
         |step| {
             meshes_done += 1;
@@ -251,7 +288,7 @@ pub fn run(run: &CheckRun) -> Result<()> {
     })?;
     let (discs, quantities) = setup.expect("the adaptive loop watches every mesh it solves");
     let t_adapt = t0.elapsed().as_secs_f64();
-    let engine::AdaptOutcome { converged, reason, history, mesh, solution, capacitance: (fixed, cmat), estimate } =
+    let engine::AdaptOutcome { converged, reason, history, mesh, solution, capacitance: (fixed, cmat), estimate, bars } =
         outcome;
     let mesh_report = report_of(&model, &mesh, true, None);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
@@ -263,7 +300,9 @@ pub fn run(run: &CheckRun) -> Result<()> {
         .enumerate()
         .map(|(i, (name, unit, _))| {
             let seq: Vec<(usize, f64)> = history.iter().map(|s| (s.unknowns, s.watched[i].value)).collect();
-            study(name.clone(), unit, &seq, run.tolerance)
+            let per_mesh: Vec<(&engine::ErrorBar, Option<f64>)> =
+                history.iter().map(|s| (&s.bars[i], s.watched[i].estimate)).collect();
+            study(name.clone(), unit, &seq, &per_mesh, &bars[i], run.tolerance)
         })
         .collect();
     let results = CheckResults {
@@ -307,7 +346,7 @@ pub fn run(run: &CheckRun) -> Result<()> {
         text.push_str(&render_check(&results, model.unit));
         print!("{text}");
     }
-    Ok(())
+    Ok(results.adaptivity.converged)
 }
 
 /// A disc (centre, radius) around every point whose field is singular.
@@ -360,14 +399,84 @@ fn quantity_list(model: &Model, mesh: &Mesh) -> Watchlist {
     q
 }
 
-/// The watched values on one mesh, with their floors (see `engine::Watched`).
+/// The largest |E| of a probe outside the discs: value, where, and the region there.
+fn probe_peak(model: &Model, mesh: &Mesh, sol: &Solution, i: usize, discs: &[(Xy, f64)]) -> (f64, Xy, Option<u32>) {
+    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+    let kind = &model.probes[i].kind;
+    let mut best = (0.0, [0.0; 2], None);
+    match (kind, interface_selector(kind)) {
+        (ProbeKind::Line { path, samples }, _) => {
+            let rows = engine::probe_line(mesh, sol, path, *samples);
+            let value = line_peak(&rows, outside);
+            for r in &rows {
+                if outside(r.at) && r.e[0].hypot(r.e[1]) == value {
+                    best = (value, r.at, r.region);
+                }
+            }
+            best.0 = value;
+        }
+        (_, Some((which, _))) => {
+            let rows = engine::probe_interface(mesh, sol, which);
+            let value = interface_peak(&rows, outside).0;
+            for r in rows.iter().filter(|r| outside(r.at)) {
+                for f in std::iter::once(&r.first).chain(r.second.as_ref()) {
+                    if f.e_n.hypot(f.e_t) == value {
+                        best = (value, r.at, Some(f.region));
+                    }
+                }
+            }
+            best.0 = value;
+        }
+        (_, None) => unreachable!("only line probes have no interface selector"),
+    }
+    best
+}
+
+/// Radius of the local-field goal standing in for a peak at `at`: three times the longest
+/// edge of the triangles around the point (at least one element ring, however the mesh
+/// grows, so the functional's own quadrature resolves it).
+fn local_radius(mesh: &Mesh, at: Xy) -> f64 {
+    let d2 = |q: Xy| (q[0] - at[0]).powi(2) + (q[1] - at[1]).powi(2);
+    let edges = |t: usize| {
+        let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
+        (0..3).map(|k| (p[k][0] - p[(k + 1) % 3][0]).hypot(p[k][1] - p[(k + 1) % 3][1])).fold(0.0, f64::max)
+    };
+    let tol2 = (1e-12 * mesh.scale()).powi(2);
+    let mut longest: f64 = 0.0;
+    let mut nearest = (f64::INFINITY, 0usize);
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        let mut touches = false;
+        for &v in tri {
+            let d = d2(mesh.nodes[v as usize]);
+            touches |= d <= tol2;
+            if d < nearest.0 {
+                nearest = (d, t);
+            }
+        }
+        if touches {
+            longest = longest.max(edges(t));
+        }
+    }
+    if longest == 0.0 {
+        longest = edges(nearest.1);
+    }
+    3.0 * longest
+}
+
+/// The watched values on one mesh, with their floors, classes and own estimates (see
+/// `engine::Watched`): the energy by its recovery estimate, charges and floating
+/// potentials by their goal-oriented estimates, each peak by the local-field goal around
+/// it (the relative error of its root-mean-square field, applied to the peak).
 fn watch(
     model: &Model,
+    problem: &engine::Problem,
     mesh: &Mesh,
-    sol: &Solution,
+    solved: &engine::FactoredSolution,
+    est: &engine::ErrorEstimate,
     quantities: &[(String, &'static str, Quantity)],
     discs: &[(Xy, f64)],
 ) -> Vec<Watched> {
+    let sol = &solved.solution;
     let peaks = region_peaks_away_from(mesh, sol, discs);
     let peak_max = peaks.iter().map(|p| p.e_max_v_per_m).fold(0.0, f64::max);
     let q_max = sol.conductor_charges.iter().map(|q| q.abs()).fold(0.0, f64::max);
@@ -377,34 +486,84 @@ fn watch(
         .map(|v| v.abs())
         .fold(0.0, f64::max)
         .max(model.outer_potential_v.unwrap_or(0.0).abs());
-    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
-    quantities
-        .iter()
-        .map(|(_, _, q)| match *q {
-            Quantity::Energy => Watched { value: sol.energy, floor: 0.0 },
-            Quantity::Charge(i) => Watched { value: sol.conductor_charges[i], floor: 0.01 * q_max },
-            Quantity::FloatingPotential(i) => Watched { value: sol.conductor_potentials[i], floor: v_max },
-            Quantity::RegionPeak(r) => Watched {
-                value: peaks.iter().find(|p| p.region == r).map(|p| p.e_max_v_per_m).unwrap_or(0.0),
-                floor: 0.01 * peak_max,
+    // Each quantity's value, floor, class, and the goal that estimates it (with the peak
+    // value its local field stands in for).
+    let mut goals = Vec::new();
+    let mut rows = Vec::new();
+    for (_, _, q) in quantities {
+        let (value, floor, class, goal) = match *q {
+            Quantity::Energy => (sol.energy, 0.0, QuantityClass::Functional, None),
+            Quantity::Charge(i) => {
+                (sol.conductor_charges[i], 0.01 * q_max, QuantityClass::Functional, Some(Goal::Charge(i)))
+            }
+            Quantity::FloatingPotential(i) => {
+                (sol.conductor_potentials[i], v_max, QuantityClass::Functional, Some(Goal::FloatingPotential(i)))
+            }
+            Quantity::RegionPeak(r) => match peaks.iter().find(|p| p.region == r) {
+                Some(p) => (
+                    p.e_max_v_per_m,
+                    0.01 * peak_max,
+                    QuantityClass::Field,
+                    Some(Goal::LocalField { center: p.at, radius_m: local_radius(mesh, p.at), region: Some(r) }),
+                ),
+                None => (0.0, 0.01 * peak_max, QuantityClass::Field, None),
             },
             Quantity::ProbePeak(i) => {
-                let kind = &model.probes[i].kind;
-                let value = match (kind, interface_selector(kind)) {
-                    (ProbeKind::Line { path, samples }, _) => {
-                        line_peak(&engine::probe_line(mesh, sol, path, *samples), outside)
-                    }
-                    (_, Some((which, _))) => interface_peak(&engine::probe_interface(mesh, sol, which), outside).0,
-                    (_, None) => unreachable!("only line probes have no interface selector"),
-                };
-                Watched { value, floor: 0.01 * peak_max }
+                let (value, at, region) = probe_peak(model, mesh, sol, i, discs);
+                let goal =
+                    (value > 0.0).then(|| Goal::LocalField { center: at, radius_m: local_radius(mesh, at), region });
+                (value, 0.01 * peak_max, QuantityClass::Field, goal)
+            }
+        };
+        let slot = goal.map(|g| {
+            goals.push(g);
+            goals.len() - 1
+        });
+        rows.push((value, floor, class, slot));
+    }
+    let t0 = std::time::Instant::now();
+    let estimates = engine::goal_estimates(mesh, problem, solved, &goals);
+    if std::env::var_os("FIELDGRADE_TIMINGS").is_some() {
+        eprintln!(
+            "goal estimates ({} goals, {} unknowns): {:.3} s",
+            goals.len(),
+            sol.num_unknowns,
+            t0.elapsed().as_secs_f64()
+        );
+    }
+    rows.into_iter()
+        .zip(quantities)
+        .map(|((value, floor, class, slot), (_, _, q))| {
+            let w = Watched::new(value, floor, class);
+            if let Quantity::Energy = q {
+                // |W − W_h| = ½‖V − V_h‖², recovered: ½η² (the energy estimate's own
+                // indicators already drive the marking).
+                return w.with_estimate(0.5 * est.global * est.global, None);
+            }
+            match slot.map(|k| (goals[k], &estimates[k])) {
+                Some((Goal::LocalField { .. }, e)) if e.value > 0.0 => {
+                    // The local field's relative error, applied to the peak it stands for;
+                    // its indicators are in units of the mean square field.
+                    let rel = e.estimate.abs() / e.value;
+                    let scale = value / (e.value * e.value);
+                    w.with_estimate(rel * value, Some(e.indicators.iter().map(|z| z * scale).collect()))
+                }
+                Some((Goal::LocalField { .. }, _)) | None => w,
+                Some((_, e)) => w.with_estimate(e.estimate, Some(e.indicators.clone())),
             }
         })
         .collect()
 }
 
-/// The convergence study of one sequence.
-fn study(quantity: String, unit: &'static str, seq: &[(usize, f64)], tolerance: f64) -> QuantityStudy {
+/// The convergence study of one sequence, with the error bar at each mesh and at the end.
+fn study(
+    quantity: String,
+    unit: &'static str,
+    seq: &[(usize, f64)],
+    per_mesh: &[(&engine::ErrorBar, Option<f64>)],
+    last: &engine::ErrorBar,
+    tolerance: f64,
+) -> QuantityStudy {
     let increasing = |w: &[(usize, f64)]| w.windows(2).all(|p| p[1].0 > p[0].0);
     let sequence: Vec<SequencePoint> = seq
         .iter()
@@ -421,9 +580,19 @@ fn study(quantity: String, unit: &'static str, seq: &[(usize, f64)], tolerance: 
             let observed_order = (k >= 2 && increasing(&seq[k - 2..=k]))
                 .then(|| grid_convergence(&seq[k - 2..=k]).observed_order)
                 .filter(|p| p.is_finite());
-            SequencePoint { unknowns: n, value: v, relative_change, observed_order }
+            let (bar, own) = per_mesh[k];
+            SequencePoint {
+                unknowns: n,
+                value: v,
+                relative_change,
+                observed_order,
+                own_estimate: own,
+                error_bar: bar.absolute.is_finite().then_some(bar.absolute),
+                status: if bar.status == engine::BarStatus::Converged { "converged" } else { "not converged" },
+            }
         })
         .collect();
+    let error_bar = BarReport::of(last);
     if seq.len() < 3 || !increasing(&seq[seq.len() - 3..]) {
         return QuantityStudy {
             quantity,
@@ -434,6 +603,7 @@ fn study(quantity: String, unit: &'static str, seq: &[(usize, f64)], tolerance: 
             extrapolated: None,
             gci: None,
             flagged: None,
+            error_bar,
         };
     }
     let st = grid_convergence(seq);
@@ -459,6 +629,7 @@ fn study(quantity: String, unit: &'static str, seq: &[(usize, f64)], tolerance: 
         extrapolated: (st.kind == ConvergenceKind::Monotone).then_some(st.extrapolated),
         gci: st.gci_fine.is_finite().then_some(st.gci_fine),
         flagged,
+        error_bar,
     }
 }
 
@@ -532,20 +703,25 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
 /// convergence.csv: one row per quantity and mesh.
 fn convergence_csv(studies: &[QuantityStudy]) -> String {
     use std::fmt::Write;
-    let mut s = String::from("quantity,unit,mesh,unknowns,value,relative_change,observed_order\n");
+    let mut s = String::from(
+        "quantity,unit,mesh,unknowns,value,relative_change,observed_order,own_estimate,error_bar,status\n",
+    );
     let opt = |v: Option<f64>| v.map(|x| format!("{x:e}")).unwrap_or_default();
     for q in studies {
         for (k, p) in q.sequence.iter().enumerate() {
             let _ = writeln!(
                 s,
-                "\"{}\",{},{},{},{:e},{},{}",
+                "\"{}\",{},{},{},{:e},{},{},{},{},{}",
                 q.quantity.replace('"', "\"\""),
                 q.unit,
                 k + 1,
                 p.unknowns,
                 p.value,
                 opt(p.relative_change),
-                opt(p.observed_order)
+                opt(p.observed_order),
+                opt(p.own_estimate),
+                opt(p.error_bar),
+                p.status
             );
         }
     }
@@ -569,33 +745,36 @@ fn render_check(r: &CheckResults, unit: &str) -> String {
         "             estimated error: energy norm {:.3e}, energy (capacitance) {:.3e}",
         ad.estimated_energy_norm_error, ad.estimated_energy_error
     );
-    let _ = writeln!(s, "\nconvergence (three finest meshes; GCI with safety factor 1.25)");
     let _ = writeln!(
         s,
-        "  {:<72} {:>14} {:>10} {:>8} {:>14} {:>10}",
-        "quantity", "final", "change", "order", "extrapolated", "GCI"
+        "\nconvergence and error bars (bar: the larger of the quantity's own estimate and the GCI of the three finest meshes)"
+    );
+    let _ = writeln!(
+        s,
+        "  {:<64} {:>14} {:>12} {:>9} {:>7} {:>14}  verdict",
+        "quantity", "value", "± bar", "rel. bar", "order", "extrapolated"
     );
     for q in conv {
-        let last = q.sequence.last();
-        let f = |v: Option<f64>, w: usize, pct: bool| match v {
-            Some(x) if pct => format!("{:>w$.3e}", x),
-            Some(x) => format!("{:>w$.3}", x),
-            None => format!("{:>w$}", "-"),
-        };
+        let b = &q.error_bar;
         let _ = writeln!(
             s,
-            "  {:<72} {:>14.6e} {} {} {} {}{}",
+            "  {:<64} {:>14.6e} {:>12} {:>9} {:>7} {:>14}  {}{}",
             format!("{} ({})", q.quantity, q.unit),
-            last.map(|p| p.value).unwrap_or(f64::NAN),
-            f(last.and_then(|p| p.relative_change), 10, true),
-            f(q.observed_order, 8, false),
-            match q.extrapolated {
-                Some(x) => format!("{x:>14.6e}"),
-                None => format!("{:>14}", "-"),
-            },
-            f(q.gci, 10, true),
-            if q.flagged.is_some() { "  (!) diverging: singular" } else { "" }
+            b.value,
+            b.absolute.map(|x| format!("± {x:.2e}")).unwrap_or_else(|| "-".into()),
+            b.relative.map(|x| format!("{x:.2e}")).unwrap_or_else(|| "-".into()),
+            q.observed_order.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into()),
+            q.extrapolated.map(|x| format!("{x:.6e}")).unwrap_or_else(|| "-".into()),
+            b.status,
+            if q.flagged.is_some() { " (!) diverging: singular" } else { "" }
         );
+    }
+    let open: Vec<&QuantityStudy> = conv.iter().filter(|q| q.error_bar.status != "converged").collect();
+    if !open.is_empty() {
+        let _ = writeln!(s, "\n  not converged:");
+        for q in open {
+            let _ = writeln!(s, "  - {}: {}", q.quantity, q.error_bar.reason);
+        }
     }
     if !sing.is_empty() {
         let _ = writeln!(s, "\nsingular points (coefficient A of V ≈ V₀ + A·r^λ·f(θ), by the dual singular function)");

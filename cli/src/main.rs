@@ -4,7 +4,8 @@
 //! This is the user's world: command-line arguments, the model file and its diagnostics,
 //! and writing results. The numerics live in the `mesher` and `engine` crates. Errors become
 //! text and exit codes here and only here: 0 success, 1 a run that failed (I/O, meshing),
-//! 2 a model file or argument the user must fix.
+//! 2 a model file or argument the user must fix, 3 a `check` that did not converge within
+//! its budget (its results are written, with the verdict of every quantity).
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
@@ -125,6 +126,9 @@ impl std::fmt::Display for UserError {
 }
 impl std::error::Error for UserError {}
 
+/// Exit code of a `check` whose quantities did not all converge within the budget.
+const NOT_CONVERGED: u8 = 3;
+
 fn main() -> ExitCode {
     let args = Args::parse();
     let result = match args.command {
@@ -133,7 +137,7 @@ fn main() -> ExitCode {
         }
         Command::Solve { model, out, order, json } => solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json }),
         Command::Check { model, out, tol, order, max_meshes, max_unknowns, json } => {
-            check_cmd::run(&check_cmd::CheckRun {
+            let converged = check_cmd::run(&check_cmd::CheckRun {
                 model,
                 out,
                 tolerance: tol,
@@ -141,7 +145,11 @@ fn main() -> ExitCode {
                 max_meshes: max_meshes as usize,
                 max_unknowns,
                 json,
-            })
+            });
+            match converged {
+                Ok(false) => return ExitCode::from(NOT_CONVERGED),
+                other => other.map(|_| ()),
+            }
         }
         Command::Debug { what: DebugCommand::Matrix { model, out, order } } => {
             solve_cmd::dump_matrix(&model, &out, order)

@@ -95,7 +95,8 @@ fn main() {
             &params,
             &pb,
             &ap,
-            |mesh, sol| {
+            |mesh, solved, _| {
+                let sol = &solved.solution;
                 let (e, u) = energy_error(mesh, &pb, sol, exact_gradient);
                 seq.push((sol.num_unknowns, e / u));
                 Ok(Vec::new())

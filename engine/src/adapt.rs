@@ -24,11 +24,25 @@
 //! The loop's meshes use their own angle bound, gradation, smoothing and smallest size
 //! ([`AdaptiveMesh`]), measured to need fewer unknowns for the same error.
 //!
-//! The loop stops with `converged = true` when, after at least `min_meshes` meshes, the
-//! estimated relative energy-norm error η/‖V_h‖ is at most the tolerance and every watched
-//! quantity changed by at most the tolerance (relative to its magnitude, or to its stated
-//! floor) since the previous mesh. Reaching the step or unknown budget is an outcome, not
-//! an error: `converged = false` with the reason.
+//! Marking refines for what is watched, not only for the energy: each triangle's
+//! indicator is θₜ = (ηₜ/(tol·‖V_h‖))² plus, for every watched quantity whose error bar is
+//! not yet within the tolerance, its goal-oriented indicator ζ_q,ₜ (see `goal`) divided
+//! by tol·|q|, so that a triangle counts by how far it keeps the energy and each open
+//! quantity from the tolerance.
+//!
+//! # Stop rule
+//! After every mesh each watched quantity gets an error bar and a verdict from its values
+//! on the meshes so far and its own a-posteriori estimate ([`certify`]: the larger of the
+//! estimate and the grid convergence index, the latter only when the sequence is monotone
+//! with an observed order in [p_th/2, 2·p_th] around the theoretical order — 2p for the
+//! energy, charges and floating potentials, p for field values — or faster; an oscillating,
+//! growing or pre-asymptotic sequence, or one small change after a large one, is not
+//! converged whatever its last change). The loop stops with `converged = true` when, after
+//! at least `min_meshes` meshes, the estimated relative energy-norm error η/‖V_h‖ is at most
+//! the tolerance and every watched quantity's verdict is converged (its bar at most the
+//! tolerance times max(|value|, floor)). Reaching the step or unknown budget is an outcome,
+//! not an error: `converged = false`, the reason naming what is still open, and the verdict
+//! of every quantity in [`AdaptOutcome::bars`].
 //!
 //! # References
 //! - W. Dörfler, "A convergent adaptive algorithm for Poisson's equation", SIAM J. Numer.
@@ -37,17 +51,18 @@
 //!   error estimates. Part 2: Error estimates and adaptivity", Int. J. Numer. Methods Eng.
 //!   33 (1992) 1365–1382, doi:10.1002/nme.1620330703.
 
+use crate::certify::{certify, BarStatus, ErrorBar, QuantityClass};
 use crate::error::SolveError;
 use crate::estimate::{estimate_error, ErrorEstimate};
 use crate::problem::Problem;
-use crate::solve::{solve_with_capacitance, CapacitanceMatrix, Solution};
+use crate::solve::{solve_factored, CapacitanceMatrix, FactoredSolution, Solution};
 use mesher::{generate_with, BackgroundSize, Geometry, Mesh, RefineParams};
 
 /// Settings of the adaptive loop, with documented defaults.
 #[derive(Clone, Debug, PartialEq)]
 pub struct AdaptParams {
-    /// Target relative energy-norm error η/‖V_h‖, and the largest relative change allowed
-    /// of every watched quantity between the last two meshes. Default 0.01.
+    /// Target relative energy-norm error η/‖V_h‖, and the largest relative error bar allowed
+    /// of every watched quantity. Default 0.01.
     pub tolerance: f64,
     /// Most meshes solved. Default 12.
     pub max_iterations: usize,
@@ -127,10 +142,31 @@ impl AdaptiveMesh {
 pub struct Watched {
     /// Value.
     pub value: f64,
-    /// Changes are taken relative to max(|value|, floor): a floor keeps a quantity that is
-    /// near zero (a coupling capacitance, a floating potential near 0 V) from demanding a
-    /// meaningless relative accuracy.
+    /// Changes and error bars are taken relative to max(|value|, floor): a floor keeps a
+    /// quantity that is near zero (a coupling capacitance, a floating potential near 0 V)
+    /// from demanding a meaningless relative accuracy.
     pub floor: f64,
+    /// What kind of quantity it is (sets the order theory predicts; see [`certify`]).
+    pub class: QuantityClass,
+    /// Its own a-posteriori estimate of |exact − value| on this mesh, if it has one.
+    pub estimate: Option<f64>,
+    /// Per-triangle indicators of its error, in its unit, to refine towards it (a goal's
+    /// [`crate::GoalEstimate::indicators`]), if any.
+    pub indicators: Option<Vec<f64>>,
+}
+
+impl Watched {
+    /// A watched value without an estimate of its own.
+    pub fn new(value: f64, floor: f64, class: QuantityClass) -> Watched {
+        Watched { value, floor, class, estimate: None, indicators: None }
+    }
+
+    /// The same with its own estimate and its indicators.
+    pub fn with_estimate(mut self, estimate: f64, indicators: Option<Vec<f64>>) -> Watched {
+        self.estimate = Some(estimate.abs());
+        self.indicators = indicators;
+        self
+    }
 }
 
 /// One step of the loop.
@@ -149,6 +185,8 @@ pub struct AdaptStep {
     /// Largest relative change of a watched quantity since the previous mesh (NaN on the
     /// first).
     pub max_change: f64,
+    /// The error bar and verdict of every watched quantity on the sequence up to this mesh.
+    pub bars: Vec<ErrorBar>,
 }
 
 /// The result of the loop.
@@ -169,6 +207,8 @@ pub struct AdaptOutcome {
     pub capacitance: CapacitanceMatrix,
     /// The estimate on the last mesh.
     pub estimate: ErrorEstimate,
+    /// The error bar and verdict of every watched quantity on the whole sequence.
+    pub bars: Vec<ErrorBar>,
 }
 
 /// Runs the adaptive loop with the element order of `params`, watching nothing but the
@@ -182,14 +222,16 @@ pub fn adapt(
     problem: &Problem,
     ap: &AdaptParams,
 ) -> Result<AdaptOutcome, SolveError> {
-    adapt_watching(geo, params, problem, ap, |_, _| Ok(Vec::new()), |_| {})
+    adapt_watching(geo, params, problem, ap, |_, _, _| Ok(Vec::new()), |_| {})
 }
 
 /// Runs the adaptive loop; after each solve `watch` returns the quantities to converge
-/// (the same number, in the same order, every time) and `progress` sees each step.
+/// (the same number, in the same order, every time; it sees the factorised solution, on
+/// which [`crate::goal_estimates`] estimates their errors, and the energy estimate) and
+/// `progress` sees each step.
 ///
 /// ```
-/// use engine::{adapt_watching, AdaptParams, ConductorSpec, Problem, Watched};
+/// use engine::{adapt_watching, AdaptParams, ConductorSpec, Problem, QuantityClass, Watched};
 /// use mesher::{Fill, Geometry, OuterBoundary, Outline, RefineParams, Shape, Symmetry};
 /// // Coaxial cylinders 1 cm / 3 cm in air, core at 1 V: watch the core's charge.
 /// let shapes = vec![
@@ -204,7 +246,8 @@ pub fn adapt(
 ///                         outer_potential_v: Some(0.0), ..Default::default() };
 /// let ap = AdaptParams { tolerance: 1e-3, ..Default::default() };
 /// let out = adapt_watching(&geo, &RefineParams::new().with_order(2), &problem, &ap,
-///     |_, sol| Ok(vec![Watched { value: sol.conductor_charges[0], floor: 0.0 }]), |_| {}).unwrap();
+///     |_, solved, _| Ok(vec![Watched::new(solved.solution.conductor_charges[0], 0.0, QuantityClass::Functional)]),
+///     |_| {}).unwrap();
 /// assert!(out.converged, "{}", out.reason);
 /// assert!(out.history.len() >= 3);
 /// # Ok::<(), mesher::MeshError>(())
@@ -217,7 +260,7 @@ pub fn adapt_watching(
     params: &RefineParams,
     problem: &Problem,
     ap: &AdaptParams,
-    mut watch: impl FnMut(&Mesh, &Solution) -> Result<Vec<Watched>, SolveError>,
+    mut watch: impl FnMut(&Mesh, &FactoredSolution, &ErrorEstimate) -> Result<Vec<Watched>, SolveError>,
     mut progress: impl FnMut(&AdaptStep),
 ) -> Result<AdaptOutcome, SolveError> {
     let p = params.order.max(1) as f64;
@@ -230,11 +273,13 @@ pub fn adapt_watching(
             None => generate_with(geo, &params, None).map_err(SolveError::Mesh)?.mesh,
         };
         // The capacitance columns ride on the load case's factorisation (a few more
-        // right-hand sides), so the last mesh needs no second solve for them.
-        let (solution, capacitance) = solve_with_capacitance(&mesh, problem)?;
-        let est = estimate_error(&mesh, problem, &solution);
+        // right-hand sides), so the last mesh needs no second solve for them; the kept
+        // factorisation serves the dual problems of the watched quantities' estimates.
+        let solved = solve_factored(&mesh, problem)?;
+        let est = estimate_error(&mesh, problem, &solved.solution);
         let rel = est.relative();
-        let watched = watch(&mesh, &solution)?;
+        let watched = watch(&mesh, &solved, &est)?;
+        let FactoredSolution { solution, capacitance, .. } = solved;
         let max_change = match history.last() {
             Some(prev) => prev
                 .watched
@@ -244,6 +289,17 @@ pub fn adapt_watching(
                 .fold(0.0, f64::max),
             None => f64::NAN,
         };
+        let bars: Vec<ErrorBar> = (0..watched.len())
+            .map(|q| {
+                let seq: Vec<(usize, f64)> = history
+                    .iter()
+                    .map(|s| (s.unknowns, s.watched[q].value))
+                    .chain(std::iter::once((solution.num_unknowns, watched[q].value)))
+                    .collect();
+                let w = &watched[q];
+                certify(&seq, w.estimate, w.class, params.order, w.floor, ap.tolerance)
+            })
+            .collect();
         let step = AdaptStep {
             unknowns: solution.num_unknowns,
             triangles: mesh.triangles.len(),
@@ -251,18 +307,17 @@ pub fn adapt_watching(
             energy: solution.energy,
             watched,
             max_change,
+            bars,
         };
         progress(&step);
         history.push(step);
-        // On the first mesh there is nothing to compare with (that only matters for
-        // min_meshes = 1).
-        let settled = history.len() == 1 || max_change <= ap.tolerance;
-        let stop = if history.len() >= ap.min_meshes.max(1) && rel <= ap.tolerance && settled {
+        let step = history.last().expect("just pushed");
+        let open: Vec<usize> = (0..step.bars.len()).filter(|&q| step.bars[q].status != BarStatus::Converged).collect();
+        let stop = if history.len() >= ap.min_meshes.max(1) && rel <= ap.tolerance && open.is_empty() {
             Some((
                 true,
                 format!(
-                    "estimated relative energy error {rel:.2e} and largest change {:.2e} ≤ tolerance {:.2e}",
-                    if max_change.is_nan() { 0.0 } else { max_change },
+                    "estimated relative energy error {rel:.2e} ≤ tolerance {:.2e}, and every watched quantity's error bar within it",
                     ap.tolerance
                 ),
             ))
@@ -270,31 +325,59 @@ pub fn adapt_watching(
             Some((
                 false,
                 format!(
-                    "not converged: {} meshes solved; estimated error {rel:.2e}, last change {max_change:.2e}, tolerance {:.2e}",
+                    "not converged: {} meshes solved (the most allowed); {}",
                     history.len(),
-                    ap.tolerance
+                    open_reason(rel, ap.tolerance, &open)
                 ),
             ))
         } else {
             None
         };
         if let Some((converged, reason)) = stop {
-            return Ok(AdaptOutcome { converged, reason, history, mesh, solution, capacitance, estimate: est });
+            let bars = history.last().map(|s| s.bars.clone()).unwrap_or_default();
+            return Ok(AdaptOutcome { converged, reason, history, mesh, solution, capacitance, estimate: est, bars });
         }
         // Unknowns per triangle of this mesh, to turn triangle counts into unknowns.
         let per = solution.num_unknowns as f64 / mesh.triangles.len() as f64;
         let nt = mesh.triangles.len() as f64;
         // Aim at the count that the optimal rate N^(−p/2) says reaches the tolerance, but
         // grow by 1.5× to 2× per step.
-        let target = (nt * (rel / ap.tolerance).powf(2.0 / p) * 1.1).clamp(1.5 * nt, 2.0 * nt);
-        if target * per > ap.max_unknowns as f64 {
-            let reason = format!(
-                "not converged: the next mesh would exceed {} unknowns; estimated error {rel:.2e}, last change {max_change:.2e}",
-                ap.max_unknowns
-            );
-            return Ok(AdaptOutcome { converged: false, reason, history, mesh, solution, capacitance, estimate: est });
+        // A functional's error goes like N^(−p), a field value's and the energy norm's like
+        // N^(−p/2).
+        let step = history.last().expect("pushed above");
+        let mut factor = (rel / ap.tolerance).powf(2.0 / p);
+        for (w, b) in step.watched.iter().zip(&step.bars) {
+            if b.relative.is_finite() && b.status != BarStatus::Converged {
+                let e = match w.class {
+                    QuantityClass::Functional => 1.0 / p,
+                    QuantityClass::Field => 2.0 / p,
+                };
+                factor = factor.max((b.relative / ap.tolerance).powf(e));
+            }
         }
-        let plan = SizePlan::new(&mesh, &est, ap, p);
+        let target = (nt * factor * 1.1).clamp(1.5 * nt, 2.0 * nt);
+        if target * per > ap.max_unknowns as f64 {
+            let open: Vec<usize> =
+                (0..step.bars.len()).filter(|&q| step.bars[q].status != BarStatus::Converged).collect();
+            let reason = format!(
+                "not converged: the next mesh would exceed {} unknowns; {}",
+                ap.max_unknowns,
+                open_reason(rel, ap.tolerance, &open)
+            );
+            let bars = step.bars.clone();
+            return Ok(AdaptOutcome {
+                converged: false,
+                reason,
+                history,
+                mesh,
+                solution,
+                capacitance,
+                estimate: est,
+                bars,
+            });
+        }
+        let indicators = combined_indicators(&est, step, ap.tolerance);
+        let plan = SizePlan::new(&mesh, &indicators, ap, p);
         // The prediction is rough (the gradation spreads refinement, coarsening may not
         // happen): ask again for more if the mesh did not grow by 1.3×, so that the meshes
         // form a refinement sequence, as the convergence study needs.
@@ -313,6 +396,43 @@ pub fn adapt_watching(
         }
         pending = next;
     }
+}
+
+/// Why the loop has not converged: the energy estimate and the quantities still open.
+fn open_reason(rel: f64, tolerance: f64, open: &[usize]) -> String {
+    let mut parts = Vec::new();
+    if rel > tolerance {
+        parts.push(format!("estimated relative energy error {rel:.2e} above the tolerance {tolerance:.2e}"));
+    }
+    if !open.is_empty() {
+        let list: Vec<String> = open.iter().map(|q| (q + 1).to_string()).collect();
+        parts.push(format!("watched quantities {} not converged (see their verdicts)", list.join(", ")));
+    }
+    if parts.is_empty() {
+        parts.push("too few meshes for a convergence study".into());
+    }
+    parts.join("; ")
+}
+
+/// The indicators that drive the next mesh: the energy estimate's, and those of every
+/// watched quantity not yet converged, each scaled by its tolerance, so that a triangle
+/// counts by how much it keeps its quantities from the tolerance:
+/// θₜ = (ηₜ/(tol·‖V_h‖))² + Σ_q ζ_q,ₜ/(tol·max(|q|, floor_q)), returned as
+/// tol·‖V_h‖·√θₜ (energy-norm units, as the size plan expects).
+fn combined_indicators(est: &ErrorEstimate, step: &AdaptStep, tolerance: f64) -> Vec<f64> {
+    let unit = tolerance * est.solution_norm.max(f64::MIN_POSITIVE);
+    let mut theta: Vec<f64> = est.indicators.iter().map(|e| (e / unit).powi(2)).collect();
+    for (w, b) in step.watched.iter().zip(&step.bars) {
+        let Some(ind) = &w.indicators else { continue };
+        if b.status == BarStatus::Converged || ind.len() != theta.len() {
+            continue;
+        }
+        let scale = tolerance * w.value.abs().max(w.floor).max(f64::MIN_POSITIVE);
+        for (t, z) in theta.iter_mut().zip(ind) {
+            *t += z.abs() / scale;
+        }
+    }
+    theta.into_iter().map(|t| unit * t.sqrt()).collect()
 }
 
 /// What the next mesh should look like, from the estimate on this one (module docs).
@@ -343,10 +463,9 @@ struct Corner {
 }
 
 impl SizePlan {
-    fn new(mesh: &Mesh, est: &ErrorEstimate, ap: &AdaptParams, p: f64) -> SizePlan {
+    fn new(mesh: &Mesh, ind: &[f64], ap: &AdaptParams, p: f64) -> SizePlan {
         let nt = mesh.triangles.len();
         let h: Vec<f64> = (0..nt).map(|t| (4.0 * mesh.triangle_area(t).abs() / 3f64.sqrt()).sqrt()).collect();
-        let ind = &est.indicators;
         // Dörfler marking: largest indicators first until θ of the squared total.
         let mut order: Vec<u32> = (0..nt as u32).collect();
         order.sort_unstable_by(|&a, &b| ind[b as usize].total_cmp(&ind[a as usize]).then(a.cmp(&b)));
@@ -373,14 +492,19 @@ impl SizePlan {
             .map(|sp| Corner { lambda: sp.lambda, h: 0.0, eta: 0.0, marked: false, triangles: 0 })
             .collect();
         let mut corner_of = vec![None; nt];
+        // The vertex on each singular point, found once (the mesher puts a vertex exactly
+        // there); then a triangle is at a point when one of its corners is that vertex.
+        let mut vertex_point: std::collections::HashMap<u32, usize> = std::collections::HashMap::new();
+        let tol2 = (1e-9 * scale).powi(2);
+        for v in 0..mesh.num_vertices {
+            let q = mesh.nodes[v as usize];
+            if let Some(k) = points.iter().position(|sp| (q[0] - sp.at[0]).powi(2) + (q[1] - sp.at[1]).powi(2) <= tol2)
+            {
+                vertex_point.insert(v, k);
+            }
+        }
         for (t, tri) in mesh.triangles.iter().enumerate() {
-            let at = |sp: &&mesher::SingularPoint| {
-                tri.iter().any(|&v| {
-                    let q = mesh.nodes[v as usize];
-                    (q[0] - sp.at[0]).hypot(q[1] - sp.at[1]) <= 1e-9 * scale
-                })
-            };
-            if let Some(k) = points.iter().position(at) {
+            if let Some(k) = tri.iter().find_map(|v| vertex_point.get(v).copied()) {
                 let c = &mut corners[k];
                 c.h = c.h.max(h[t]);
                 c.eta += ind[t] * ind[t];

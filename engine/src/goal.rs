@@ -14,6 +14,8 @@
 //!
 //! whose terms, in absolute value, are the triangles' indicators for refining towards the
 //! quantity. The quantities and their dual problems:
+//! - the stored energy W: no dual problem; W − W_h equals ½‖V − V_h‖² up to its sign, the
+//!   recovered ½η²;
 //! - the charge Q_k of a conductor at a fixed potential: Z is the potential with conductor
 //!   k at 1 V and the other fixed conductors at 0 (the capacitance column, already solved);
 //!   Q_k is the reaction a(V, Z) − ℓ(Z), so Q_k − Q_k,h = −a(V − V_h, Z − Z_h);
@@ -50,6 +52,10 @@ use mesher::{Mesh, Symmetry, Xy};
 /// A quantity of interest whose error is estimated.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Goal {
+    /// The stored energy: its error is ½‖V − V_h‖² in the energy norm (of either sign: the
+    /// computed energy is too high with fixed potentials, too low with given charges), the
+    /// recovered estimate ½η².
+    Energy,
     /// The charge of conductor `k` (a conductor at a fixed potential).
     Charge(usize),
     /// The potential of floating conductor `k`.
@@ -141,7 +147,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let mut cases = Vec::new();
     for g in goals {
         match *g {
-            Goal::Charge(_) => {}
+            Goal::Energy | Goal::Charge(_) => {}
             Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
             Goal::LocalField { center, radius_m, region } => {
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
@@ -149,6 +155,17 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                 let mut total = 0.0;
                 for t in 0..mesh.triangles.len() {
                     if region.is_some_and(|r| r != mesh.regions[t]) {
+                        continue;
+                    }
+                    // Only triangles that reach into the disc (their corners' bounding box,
+                    // widened by a tenth for curved P2 edges).
+                    let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
+                    let (x0, x1) = (p[0][0].min(p[1][0]).min(p[2][0]), p[0][0].max(p[1][0]).max(p[2][0]));
+                    let (y0, y1) = (p[0][1].min(p[1][1]).min(p[2][1]), p[0][1].max(p[1][1]).max(p[2][1]));
+                    let pad = 0.1 * (x1 - x0).max(y1 - y0);
+                    let dx = (x0 - pad - center[0]).max(center[0] - x1 - pad).max(0.0);
+                    let dy = (y0 - pad - center[1]).max(center[1] - y1 - pad).max(0.0);
+                    if dx.hypot(dy) >= radius_m {
                         continue;
                     }
                     for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
@@ -186,6 +203,15 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     goals
         .iter()
         .map(|g| match *g {
+            Goal::Energy => {
+                let p = error_products(mesh, problem, &quad, &u, &u, None);
+                let sum: f64 = p.iter().map(|x| x[0]).sum();
+                GoalEstimate {
+                    value: sol.energy,
+                    estimate: 0.5 * sum,
+                    indicators: p.iter().map(|x| 0.5 * x[0].abs()).collect(),
+                }
+            }
             Goal::Charge(k) => {
                 let col = solved
                     .capacitance

@@ -70,7 +70,15 @@ fn check_converges_on_the_coaxial_line() {
     assert_eq!(seq.len(), meshes.len());
     assert!(seq.last().unwrap()["relative_change"].as_f64().unwrap() <= 0.002);
     let csv = std::fs::read_to_string(out.join("convergence.csv")).unwrap();
-    assert!(csv.starts_with("quantity,unit,mesh,unknowns,value,relative_change,observed_order\n"));
+    assert!(csv.starts_with(
+        "quantity,unit,mesh,unknowns,value,relative_change,observed_order,own_estimate,error_bar,status\n"
+    ));
+    // The charge's printed bar holds its true error (and is not absurdly loose).
+    let bar = &charge["error_bar"];
+    assert_eq!(bar["status"], "converged", "{bar}");
+    let abs = bar["absolute"].as_f64().unwrap();
+    eprintln!("coax check: charge bar {abs:.3e} for a true error {:.3e}", (q - exact).abs());
+    assert!(abs >= (q - exact).abs() && abs <= 1e-3 * exact, "bar {abs:e} for error {:e}", (q - exact).abs());
     assert_eq!(csv.lines().filter(|l| l.starts_with("\"charge of core\"")).count(), seq.len());
 }
 
@@ -117,4 +125,29 @@ fn a_bad_tolerance_is_a_clean_error() {
         assert!(stderr(&o).contains("tol"), "{}", stderr(&o));
         assert!(!out.exists(), "no output for a bad argument");
     }
+}
+
+#[test]
+fn check_exit_codes_tell_converged_from_not_converged() {
+    // docs/results-format.md: 0 converged, 3 not converged within the budget (everything
+    // is written, with each quantity's verdict), 2 bad input.
+    let dir = tempfile::tempdir().unwrap();
+    let model = dir.path().join("coax.toml");
+    std::fs::write(&model, COAX).unwrap();
+    let out = dir.path().join("res");
+    let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap(), "--max-meshes", "2"]);
+    assert_eq!(o.status.code(), Some(3), "{}", stderr(&o));
+    assert!(stdout(&o).contains("NOT CONVERGED"), "{}", stdout(&o));
+    let j = json(&out.join("results.json"));
+    assert_eq!(j["adaptivity"]["converged"], false);
+    for q in j["convergence"].as_array().unwrap() {
+        assert_eq!(q["error_bar"]["status"], "not converged", "{q}");
+        assert!(q["error_bar"]["reason"].as_str().unwrap().contains("three"), "{q}");
+    }
+    let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let bad = dir.path().join("bad.toml");
+    std::fs::write(&bad, COAX.replace("potential_v = 1000.0", "potential_v = \"high\"")).unwrap();
+    let o = run(&["check", bad.to_str().unwrap(), "--out", dir.path().join("other").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
 }
