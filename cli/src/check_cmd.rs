@@ -432,37 +432,6 @@ fn probe_peak(model: &Model, mesh: &Mesh, sol: &Solution, i: usize, discs: &[(Xy
     best
 }
 
-/// Radius of the local-field goal standing in for a peak at `at`: three times the longest
-/// edge of the triangles around the point (at least one element ring, however the mesh
-/// grows, so the functional's own quadrature resolves it).
-fn local_radius(mesh: &Mesh, at: Xy) -> f64 {
-    let d2 = |q: Xy| (q[0] - at[0]).powi(2) + (q[1] - at[1]).powi(2);
-    let edges = |t: usize| {
-        let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
-        (0..3).map(|k| (p[k][0] - p[(k + 1) % 3][0]).hypot(p[k][1] - p[(k + 1) % 3][1])).fold(0.0, f64::max)
-    };
-    let tol2 = (1e-12 * mesh.scale()).powi(2);
-    let mut longest: f64 = 0.0;
-    let mut nearest = (f64::INFINITY, 0usize);
-    for (t, tri) in mesh.triangles.iter().enumerate() {
-        let mut touches = false;
-        for &v in tri {
-            let d = d2(mesh.nodes[v as usize]);
-            touches |= d <= tol2;
-            if d < nearest.0 {
-                nearest = (d, t);
-            }
-        }
-        if touches {
-            longest = longest.max(edges(t));
-        }
-    }
-    if longest == 0.0 {
-        longest = edges(nearest.1);
-    }
-    3.0 * longest
-}
-
 /// The watched values on one mesh, with their floors, classes and own estimates (see
 /// `engine::Watched`): the energy by its recovery estimate, charges and floating
 /// potentials by their goal-oriented estimates, each peak by the local-field goal around
@@ -504,14 +473,13 @@ fn watch(
                     p.e_max_v_per_m,
                     0.01 * peak_max,
                     QuantityClass::Field,
-                    Some(Goal::LocalField { center: p.at, radius_m: local_radius(mesh, p.at), region: Some(r) }),
+                    Some(Goal::PeakField { at: p.at, value: p.e_max_v_per_m, region: Some(r) }),
                 ),
                 None => (0.0, 0.01 * peak_max, QuantityClass::Field, None),
             },
             Quantity::ProbePeak(i) => {
                 let (value, at, region) = probe_peak(model, mesh, sol, i, discs);
-                let goal =
-                    (value > 0.0).then(|| Goal::LocalField { center: at, radius_m: local_radius(mesh, at), region });
+                let goal = (value > 0.0).then_some(Goal::PeakField { at, value, region });
                 (value, 0.01 * peak_max, QuantityClass::Field, goal)
             }
         };
@@ -540,16 +508,9 @@ fn watch(
                 // indicators already drive the marking).
                 return w.with_estimate(0.5 * est.global * est.global, None);
             }
-            match slot.map(|k| (goals[k], &estimates[k])) {
-                Some((Goal::LocalField { .. }, e)) if e.value > 0.0 => {
-                    // The local field's relative error, applied to the peak it stands for;
-                    // its indicators are in units of the mean square field.
-                    let rel = e.estimate.abs() / e.value;
-                    let scale = value / (e.value * e.value);
-                    w.with_estimate(rel * value, Some(e.indicators.iter().map(|z| z * scale).collect()))
-                }
-                Some((Goal::LocalField { .. }, _)) | None => w,
-                Some((_, e)) => w.with_estimate(e.estimate, Some(e.indicators.clone())),
+            match slot.map(|k| &estimates[k]) {
+                Some(e) => w.with_estimate(e.estimate, Some(e.indicators.clone())),
+                None => w,
             }
         })
         .collect()

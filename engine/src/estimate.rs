@@ -477,3 +477,16 @@ pub(crate) fn error_products(
         })
         .collect()
 }
+
+impl RecoveredField<'_> {
+    /// True when vertex `v` has a patch fit in `region`.
+    pub(crate) fn has_fit(&self, v: u32, region: u32) -> bool {
+        self.recovery.fits.get(v as usize).is_some_and(|f| f.iter().any(|f| f.region == region))
+    }
+
+    /// The recovered field E = −G at vertex `v` in `region` (the vertex patch's fit there).
+    pub(crate) fn field_at_vertex(&self, v: u32, region: u32) -> [f64; 2] {
+        let g = self.recovery.fit_of(v, region).at_center();
+        [-g[0], -g[1]]
+    }
+}

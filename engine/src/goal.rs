@@ -70,6 +70,55 @@ pub enum Goal {
         /// Only the triangles of this region count.
         region: Option<u32>,
     },
+    /// A peak field |E| = `value` at `at` (a mesh node): estimated by the local field over
+    /// a disc three times the longest edge ending at the point (at least one ring of
+    /// elements), its relative error applied to the peak, or, if larger, by the distance
+    /// between the peak and the recovered field at the point.
+    PeakField {
+        /// Where the peak is, metres.
+        at: Xy,
+        /// The peak value, V/m.
+        value: f64,
+        /// The region whose field it is.
+        region: Option<u32>,
+    },
+}
+
+/// The recovered (patch-fit) field at a mesh vertex of a region: a better value than the
+/// vertex mean of the element fields, for estimating a peak's error.
+pub fn recovered_field_at(mesh: &Mesh, solution: &crate::Solution, vertex: u32, region: u32) -> [f64; 2] {
+    let quad = SingularQuadrature::new(mesh);
+    recover_field(mesh, &quad, &solution.potential).field_at_vertex(vertex, region)
+}
+
+/// Radius of the disc of a peak's local field: three times the longest edge of the
+/// triangles at `at` (of the nearest triangle if no vertex sits there).
+fn peak_radius(mesh: &Mesh, at: Xy) -> f64 {
+    let d2 = |q: Xy| (q[0] - at[0]).powi(2) + (q[1] - at[1]).powi(2);
+    let edges = |t: usize| {
+        let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
+        (0..3).map(|k| (p[k][0] - p[(k + 1) % 3][0]).hypot(p[k][1] - p[(k + 1) % 3][1])).fold(0.0, f64::max)
+    };
+    let tol2 = (1e-12 * mesh.scale()).powi(2);
+    let mut longest: f64 = 0.0;
+    let mut nearest = (f64::INFINITY, 0usize);
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        let mut touches = false;
+        for &v in tri {
+            let d = d2(mesh.nodes[v as usize]);
+            touches |= d <= tol2;
+            if d < nearest.0 {
+                nearest = (d, t);
+            }
+        }
+        if touches {
+            longest = longest.max(edges(t));
+        }
+    }
+    if longest == 0.0 && !mesh.triangles.is_empty() {
+        longest = edges(nearest.1);
+    }
+    3.0 * longest
 }
 
 /// The estimated error of one goal.
@@ -140,6 +189,18 @@ fn bump(center: Xy, radius: f64, x: Xy) -> f64 {
 pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution, goals: &[Goal]) -> Vec<GoalEstimate> {
     let sol = &solved.solution;
     assert_eq!(sol.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    // A peak is estimated through the local field around it.
+    let asked = goals;
+    let local: Vec<Goal> = goals
+        .iter()
+        .map(|g| match *g {
+            Goal::PeakField { at, region, .. } => {
+                Goal::LocalField { center: at, radius_m: peak_radius(mesh, at), region }
+            }
+            other => other,
+        })
+        .collect();
+    let goals = &local[..];
     let quad = SingularQuadrature::new(mesh);
     let u = recover_field(mesh, &quad, &sol.potential);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
@@ -147,7 +208,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let mut cases = Vec::new();
     for g in goals {
         match *g {
-            Goal::Energy | Goal::Charge(_) => {}
+            Goal::Energy | Goal::Charge(_) | Goal::PeakField { .. } => {}
             Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
             Goal::LocalField { center, radius_m, region } => {
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
@@ -200,7 +261,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
         }
     }
     let mut duals = solved.solve_duals(mesh, problem, &cases).into_iter();
-    goals
+    let estimates: Vec<GoalEstimate> = goals
         .iter()
         .map(|g| match *g {
             Goal::Energy => {
@@ -265,6 +326,43 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     indicators: p.iter().map(|x| x[0].abs() + if total > 0.0 { x[1] / total } else { 0.0 }).collect(),
                 }
             }
+            Goal::PeakField { .. } => unreachable!("peaks were turned into local fields"),
+        })
+        .collect();
+    // Peaks: the local field's relative error applied to the peak value; its indicators
+    // (in units of the mean square field) turned into the peak's unit.
+    // At a vertex the recovered field is a second opinion: the distance between it and the
+    // peak (a mean of the elements' own fields) bounds the peak's error where the
+    // recovered field is the better of the two, as it is on a smooth solution.
+    let tol2 = (1e-12 * mesh.scale()).powi(2);
+    let vertex_at = |at: Xy| {
+        (0..mesh.num_vertices).find(|&v| {
+            let q = mesh.nodes[v as usize];
+            (q[0] - at[0]).powi(2) + (q[1] - at[1]).powi(2) <= tol2
+        })
+    };
+    asked
+        .iter()
+        .zip(estimates)
+        .map(|(g, e)| match *g {
+            Goal::PeakField { value, at, region } if e.value > 0.0 => {
+                let scale = value / (2.0 * e.value * e.value);
+                let dwr = e.estimate / e.value * value;
+                let second = match (vertex_at(at), region) {
+                    (Some(v), Some(r)) if u.has_fit(v, r) => {
+                        let f = u.field_at_vertex(v, r);
+                        (f[0].hypot(f[1]) - value).abs()
+                    }
+                    _ => 0.0,
+                };
+                GoalEstimate {
+                    value,
+                    estimate: dwr.signum() * dwr.abs().max(second),
+                    indicators: e.indicators.iter().map(|z| z * scale).collect(),
+                }
+            }
+            Goal::PeakField { value, .. } => GoalEstimate { value, estimate: 0.0, indicators: e.indicators },
+            _ => e,
         })
         .collect()
 }

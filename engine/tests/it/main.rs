@@ -8,6 +8,8 @@ mod common;
 mod corner;
 /// Goal-oriented estimates of a charge, a floating potential and a local field.
 mod goals;
+/// Error bars against true errors on closed forms (containment and sharpness).
+mod honesty;
 /// The L-shaped corner benchmark's exact solution and problem.
 pub mod lshape;
 /// Linear potentials reproduced exactly; invariants of the solution.

@@ -1,0 +1,206 @@
+//! Are the error bars honest? On cases with known answers the adaptive loop watches a
+//! peak field (or a charge) with its goal-oriented estimate, and on every mesh the printed
+//! bar (engine::certify) is compared with the true error: it must hold it, and not be
+//! wildly larger once the sequence is asymptotic.
+
+use crate::common::{cond, diel, shape};
+use crate::lshape::{l_problem, l_shape};
+use engine::{
+    adapt_watching, goal_estimates, probe_line, region_peaks_away_from, AdaptParams, BarStatus, ConductorSpec, Goal,
+    Problem, QuantityClass, Watched, EPSILON_0,
+};
+use mesher::{Geometry, OuterBoundary, Outline, RefineParams, Symmetry, Xy};
+use std::f64::consts::PI;
+
+/// What one mesh of a sequence gave for one quantity.
+#[derive(Debug, Clone, Copy)]
+struct Row {
+    unknowns: usize,
+    value: f64,
+    bar: f64,
+    converged: bool,
+}
+
+/// How the watched quantity is read off a solution: its value, where it is (for a peak's
+/// local estimate) and its region, or None for a charge (goal `Charge(0)`).
+type Reader<'a> = dyn Fn(&mesher::Mesh, &engine::Solution) -> (f64, Option<(Xy, Option<u32>)>) + 'a;
+
+/// Runs the adaptive loop watching one quantity and returns its rows.
+fn sequence(
+    geo: &Geometry,
+    problem: &Problem,
+    order: u8,
+    h: f64,
+    tol: f64,
+    meshes: usize,
+    read: &Reader<'_>,
+) -> Vec<Row> {
+    let params = RefineParams::new().with_order(order).with_max_size_m(h);
+    let ap = AdaptParams { tolerance: tol, max_iterations: meshes, max_unknowns: 250_000, ..Default::default() };
+    let mut rows = Vec::new();
+    adapt_watching(
+        geo,
+        &params,
+        problem,
+        &ap,
+        |mesh, solved, _| {
+            let (value, at) = read(mesh, &solved.solution);
+            let (goal, class) = match at {
+                Some((at, region)) => (Goal::PeakField { at, value, region }, QuantityClass::Field),
+                None => (Goal::Charge(0), QuantityClass::Functional),
+            };
+            let e = goal_estimates(mesh, problem, solved, &[goal]).remove(0);
+            Ok(vec![Watched::new(value, 0.0, class).with_estimate(e.estimate, Some(e.indicators))])
+        },
+        |step| {
+            let b = &step.bars[0];
+            rows.push(Row {
+                unknowns: step.unknowns,
+                value: step.watched[0].value,
+                bar: b.absolute,
+                converged: b.status == BarStatus::Converged,
+            })
+        },
+    )
+    .unwrap();
+    rows
+}
+
+/// Prints the bar against the true error per mesh (kept in bench-results/error-bars.md)
+/// and, with `strict`, checks containment (bar + the reference's own uncertainty `unc` ≥
+/// true error on at least 95 % of the meshes) and that the bar is at most 5× the true error
+/// on the meshes where the quantity is converged and the error is well above `unc`.
+fn judge(case: &str, rows: &[Row], exact: f64, unc: f64, strict: bool) {
+    let mut held = 0;
+    for (k, r) in rows.iter().enumerate() {
+        let err = (r.value - exact).abs();
+        let ratio = r.bar / err;
+        eprintln!(
+            "{case}: mesh {} ({} unknowns): value {:.9e}, true error {:.2e}, bar {:.2e}, bar/error {:.2}{}",
+            k + 1,
+            r.unknowns,
+            r.value,
+            err / exact.abs(),
+            r.bar / exact.abs(),
+            ratio,
+            if r.converged { ", converged" } else { "" }
+        );
+        if r.bar + unc * exact.abs() >= err {
+            held += 1;
+        }
+        if strict && r.converged && err > 10.0 * unc * exact.abs() {
+            assert!(ratio <= 5.0, "{case}, mesh {}: bar {:.2e} is {ratio:.1}× the true error", k + 1, r.bar);
+        }
+    }
+    let share = held as f64 / rows.len() as f64;
+    eprintln!("{case}: the bar held the true error on {held} of {} meshes", rows.len());
+    if strict {
+        assert!(share >= 0.95, "{case}: the bar held the true error on {held} of {} meshes", rows.len());
+    }
+}
+
+#[test]
+fn peak_fields_on_both_sides_of_a_coaxial_interface() {
+    // Two-layer coaxial line (planar): core a = 1 cm at 1 V, layers εr 4 to c = 2 cm and
+    // 2.2 to the earthed b = 3 cm. |E(r)| = 1/(r·εᵢ·S), S = ln(c/a)/ε₁ + ln(b/c)/ε₂
+    // (capacitors in series; any electrostatics text, e.g. Griffiths 2017 §4.4): the peak of
+    // the inner layer sits on the core, of the outer layer on the interface.
+    let (a, c, b, e1, e2) = (0.01f64, 0.02f64, 0.03f64, 4.0, 2.2);
+    let s = (c / a).ln() / e1 + (b / c).ln() / e2;
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("outer", Outline::circle("outer", [0.0, 0.0], b).unwrap(), diel(e2)),
+            shape("inner", Outline::circle("inner", [0.0, 0.0], c).unwrap(), diel(e1)),
+            shape("core", Outline::circle("core", [0.0, 0.0], a).unwrap(), cond(0)),
+        ],
+        conductors: vec!["core".into()],
+        outer: OuterBoundary::FixedPotential,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![e2, e1, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
+        outer_potential_v: Some(0.0),
+        ..Default::default()
+    };
+    for (region, exact, name) in
+        [(1u32, 1.0 / (a * e1 * s), "coax inner layer"), (0, 1.0 / (c * e2 * s), "coax outer layer")]
+    {
+        let read = move |mesh: &mesher::Mesh, sol: &engine::Solution| {
+            let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == region).unwrap();
+            (p.e_max_v_per_m, Some((p.at, Some(region))))
+        };
+        let rows = sequence(&geo, &problem, 2, 0.004, 1e-4, 7, &read);
+        judge(name, &rows, exact, 0.0, true);
+    }
+}
+
+#[test]
+fn peak_field_on_a_cylinder_above_a_ground_plane() {
+    // Image solution (Smythe, Static and Dynamic Electricity, 3rd ed., 1968, §4.13): a
+    // cylinder of radius a, axis h above an earthed plane, at V: line charges ±λ at
+    // ±d = ±√(h² − a²), V = λ/(2πε₀)·acosh(h/a); the largest field, at the point nearest
+    // the plane, is E = λ/(2πε₀)·(1/(d − h + a) + 1/(d + h − a)) = V·d/(a(h − a)·acosh(h/a)).
+    // a = 5 mm, h = 20 mm; the plane and the zero-flux far boundary end 20 m away, where
+    // the dipole field's truncation error, of order (h/L)², is 1e-6.
+    let (a, h, l): (f64, f64, f64) = (0.005, 0.02, 20.0);
+    let d = (h * h - a * a).sqrt();
+    let exact = d / (a * (h - a) * (h / a).acosh());
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("air", Outline::rectangle("air", [-l, -0.01], [2.0 * l, l + 0.01], 0.0).unwrap(), diel(1.0)),
+            shape("plane", Outline::rectangle("plane", [-l, -0.01], [2.0 * l, 0.01], 0.0).unwrap(), cond(1)),
+            shape("wire", Outline::circle("wire", [0.0, h], a).unwrap(), cond(0)),
+        ],
+        conductors: vec!["wire".into(), "plane".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![1.0, f64::NAN, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        ..Default::default()
+    };
+    let read = |mesh: &mesher::Mesh, sol: &engine::Solution| {
+        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == 0).unwrap();
+        (p.e_max_v_per_m, Some((p.at, Some(0))))
+    };
+    let rows = sequence(&geo, &problem, 2, 0.5, 1e-4, 8, &read);
+    judge("cylinder over plane, peak", &rows, exact, 1e-6, true);
+    // The charge too: C' = 2πε₀/acosh(h/a) (same source).
+    let read = |_: &mesher::Mesh, sol: &engine::Solution| (sol.conductor_charges[0], None);
+    let rows = sequence(&geo, &problem, 2, 0.5, 1e-5, 6, &read);
+    // The far boundary's truncation (about 1e-6, see above) is the reference's own
+    // uncertainty.
+    judge("cylinder over plane, charge", &rows, 2.0 * PI * EPSILON_0 / (h / a).acosh(), 1e-6, true);
+}
+
+/// A measurement, not yet a claim: run with `cargo test --release -p engine --test it
+/// honesty -- --ignored --nocapture`. A field value between vertices (a probe sample) has
+/// no recovered second opinion, and its local goal estimate alone missed the true error on
+/// 2 of 8 P2 meshes when this was written (bench-results/error-bars.md).
+#[test]
+#[ignore]
+fn field_at_a_fixed_distance_from_the_re_entrant_corner() {
+    // The L-shaped benchmark V = r^(2/3)·sin(2θ/3) (Mitchell 2013): |∇V| = (2/3)·r^(−1/3)
+    // whatever θ, so along the bisector from r = 0.1 outwards the largest field is
+    // (2/3)·0.1^(−1/3), at r = 0.1.
+    let exact = (2.0 / 3.0) * 0.1f64.powf(-1.0 / 3.0);
+    let (c, s) = ((3.0 * PI / 4.0).cos(), (3.0 * PI / 4.0).sin());
+    let path = [[0.1 * c, 0.1 * s], [0.5 * c, 0.5 * s]];
+    let read = move |mesh: &mesher::Mesh, sol: &engine::Solution| {
+        let rows = probe_line(mesh, sol, &path, 201);
+        let best = rows
+            .iter()
+            .filter(|r| r.e[0].is_finite())
+            .max_by(|x, y| x.e[0].hypot(x.e[1]).total_cmp(&y.e[0].hypot(y.e[1])))
+            .unwrap();
+        (best.e[0].hypot(best.e[1]), Some((best.at, best.region)))
+    };
+    for order in [1u8, 2] {
+        let rows = sequence(&l_shape(), &l_problem(), order, 0.2, 1e-4, 8, &read);
+        judge(&format!("L-shape P{order}, |E| at r = 0.1"), &rows, exact, 0.0, false);
+    }
+}
