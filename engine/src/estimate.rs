@@ -146,18 +146,20 @@ fn basis(s: f64, t: f64) -> [f64; 6] {
 /// One gradient sample: position and ∇V_h.
 type Sample = (Xy, [f64; 2]);
 
-/// Solves the least-squares problem min Σ(rowᵢ·x − yᵢ)² over the first `m` unknowns by the
-/// normal equations (Gaussian elimination with partial pivoting); None when they are
-/// singular to working precision.
-fn least_squares(rows: impl Iterator<Item = ([f64; 6], f64)>, m: usize) -> Option<[f64; 6]> {
+/// Solves the least-squares problems min Σ(rowᵢ·x − yᵢ,c)² over the first `m` unknowns, for
+/// `K` right-hand sides c at once, by the normal equations (Gaussian elimination with partial
+/// pivoting); None when they are singular to working precision.
+fn least_squares<const K: usize>(rows: impl Iterator<Item = ([f64; 6], [f64; K])>, m: usize) -> Option<[[f64; 6]; K]> {
     let mut a = [[0.0; 6]; 6];
-    let mut rhs = [0.0; 6];
+    let mut rhs = [[0.0; K]; 6];
     for (b, y) in rows {
         for i in 0..m {
             for j in 0..m {
                 a[i][j] += b[i] * b[j];
             }
-            rhs[i] += b[i] * y;
+            for c in 0..K {
+                rhs[i][c] += b[i] * y[c];
+            }
         }
     }
     let big = (0..m).map(|i| a[i][i]).fold(0.0, f64::max);
@@ -174,13 +176,18 @@ fn least_squares(rows: impl Iterator<Item = ([f64; 6], f64)>, m: usize) -> Optio
             for (x, p) in a[row][col..m].iter_mut().zip(&pivot_row[col..m]) {
                 *x -= f * p;
             }
-            rhs[row] -= f * rhs[col];
+            let pivot_rhs = rhs[col];
+            for c in 0..K {
+                rhs[row][c] -= f * pivot_rhs[c];
+            }
         }
     }
-    let mut x = [0.0; 6];
+    let mut x = [[0.0; 6]; K];
     for row in (0..m).rev() {
-        let s: f64 = (row + 1..m).map(|k| a[row][k] * x[k]).sum();
-        x[row] = (rhs[row] - s) / a[row][row];
+        for c in 0..K {
+            let s: f64 = (row + 1..m).map(|k| a[row][k] * x[c][k]).sum();
+            x[c][row] = (rhs[row][c] - s) / a[row][row];
+        }
     }
     Some(x)
 }
@@ -194,12 +201,10 @@ fn patch_scale(samples: &[Sample], center: Xy) -> Option<f64> {
 /// Polynomial fit of both gradient components with the first `m` basis functions.
 fn fit_polynomial(samples: &[Sample], center: Xy, m: usize) -> Option<(FitKind, f64)> {
     let scale = patch_scale(samples, center)?;
-    let rows = |c: usize| {
-        samples.iter().map(move |(p, g)| (basis((p[0] - center[0]) / scale, (p[1] - center[1]) / scale), g[c]))
-    };
-    let cx = least_squares(rows(0), m)?;
-    let cy = least_squares(rows(1), m)?;
-    Some((FitKind::Polynomial([cx, cy]), scale))
+    // Both components share the basis: one normal matrix, two right-hand sides.
+    let rows = samples.iter().map(|(p, g)| (basis((p[0] - center[0]) / scale, (p[1] - center[1]) / scale), *g));
+    let c = least_squares::<2>(rows, m)?;
+    Some((FitKind::Polynomial(c), scale))
 }
 
 /// Fit with the singular basis of exponent `lambda` plus a constant, both components
@@ -215,9 +220,9 @@ fn fit_singular(samples: &[Sample], center: Xy, lambda: f64) -> Option<(FitKind,
     let cut = my.atan2(mx) + std::f64::consts::PI;
     let rows = samples.iter().flat_map(|(p, g)| {
         let [u, v] = singular_gradients((p[0] - center[0]) / scale, (p[1] - center[1]) / scale, lambda, cut);
-        [([u[0], v[0], 1.0, 0.0, 0.0, 0.0], g[0]), ([u[1], v[1], 0.0, 1.0, 0.0, 0.0], g[1])]
+        [([u[0], v[0], 1.0, 0.0, 0.0, 0.0], [g[0]]), ([u[1], v[1], 0.0, 1.0, 0.0, 0.0], [g[1]])]
     });
-    let c = least_squares(rows, 4)?;
+    let [c] = least_squares::<1>(rows, 4)?;
     Some((FitKind::Singular { lambda, cut, coef: [c[0], c[1], c[2], c[3]] }, scale))
 }
 
