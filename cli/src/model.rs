@@ -885,11 +885,12 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    const FIXTURES: [&str; 5] = [
+    const FIXTURES: [&str; 6] = [
         include_str!("../../fixtures/models/l-electrode.toml"),
         include_str!("../../fixtures/models/busbar-support.toml"),
         include_str!("../../fixtures/models/gis-spacer.toml"),
         include_str!("../../fixtures/models/bushing.toml"),
+        include_str!("../../fixtures/models/bushing-sharp.toml"),
         include_str!("../../fixtures/models/grading-ring.toml"),
     ];
 

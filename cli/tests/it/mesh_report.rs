@@ -31,6 +31,11 @@ fn bushing() {
 }
 
 #[test]
+fn bushing_sharp() {
+    insta::assert_snapshot!(report("bushing-sharp.toml"));
+}
+
+#[test]
 fn grading_ring_open_boundary() {
     insta::assert_snapshot!(report("grading-ring.toml"));
 }
