@@ -267,7 +267,9 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         &problem,
         &ap,
         |mesh, solved, est| {
-            let (discs, quantities) = setup.get_or_insert_with(|| (exclusion_discs(mesh), quantity_list(&model, mesh)));
+            let (discs, quantities) = setup.get_or_insert_with(|| {
+                (exclusion_discs(mesh, model.singular_exclusion_radius_m), quantity_list(&model, mesh))
+            });
             Ok(watch(&model, &problem, mesh, solved, est, quantities, discs))
         },
         |step| {
@@ -349,8 +351,12 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     Ok(results.adaptivity.converged)
 }
 
-/// A disc (centre, radius) around every point whose field is singular.
-fn exclusion_discs(mesh: &Mesh) -> Vec<(Xy, f64)> {
+/// A disc (centre, radius) around every point whose field is singular: the radius the
+/// model gives (`[check] singular_exclusion_radius`), or 2 % of the model's size, or a
+/// quarter of the distance to the nearest other singular point if that is smaller. It is
+/// set once, from the first mesh, so every mesh of the loop leaves out the same region and
+/// the watched peaks have a limit.
+fn exclusion_discs(mesh: &Mesh, given: Option<f64>) -> Vec<(Xy, f64)> {
     let scale = mesh.scale();
     let pts = &mesh.singular_points;
     pts.iter()
@@ -361,7 +367,7 @@ fn exclusion_discs(mesh: &Mesh) -> Vec<(Xy, f64)> {
                 .map(|o| (o.at[0] - s.at[0]).hypot(o.at[1] - s.at[1]))
                 .filter(|&d| d > 1e-9 * scale)
                 .fold(f64::INFINITY, f64::min);
-            (s.at, (0.02 * scale).min(0.25 * nearest))
+            (s.at, given.unwrap_or((0.02 * scale).min(0.25 * nearest)))
         })
         .collect()
 }
@@ -635,7 +641,11 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                     s.lambda - 1.0
                 );
                 if let Some(r) = radius_above {
-                    n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {r:.4} {} of the point", allowable.unwrap_or(0.0), model.unit));
+                    n.push_str(&format!(
+                        "; |E| exceeds the allowable {} kV/mm within {} of the point",
+                        allowable.unwrap_or(0.0),
+                        length_text(r * k, model.unit_m, model.unit)
+                    ));
                 }
                 if dual.is_none() {
                     n.push_str("; coefficient not extracted (it is, where a conductor bounds the field: corners, triple junctions, conical tips on the axis with one dielectric)");
@@ -659,6 +669,17 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
             }
         })
         .collect()
+}
+
+/// A length for a sentence: in the model unit with four significant digits, or in µm when
+/// it is below 0.01 mm (a stress radius at a sharp edge can be a few µm; "0.0000 mm" would
+/// hide it).
+fn length_text(m: f64, unit_m: f64, unit: &str) -> String {
+    if m < 1e-5 {
+        format!("{} µm", crate::mesh_cmd::sig(m * 1e6))
+    } else {
+        format!("{} {unit}", crate::mesh_cmd::sig(m / unit_m))
+    }
 }
 
 /// convergence.csv: one row per quantity and mesh.
@@ -753,4 +774,16 @@ fn render_check(r: &CheckResults, unit: &str) -> String {
         }
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::length_text;
+
+    #[test]
+    fn small_lengths_are_printed_in_micrometres() {
+        assert_eq!(length_text(2.5e-6, 1e-3, "mm"), "2.500 µm");
+        assert_eq!(length_text(1.2345e-3, 1e-3, "mm"), "1.234 mm");
+        assert_eq!(length_text(0.5, 1.0, "m"), "0.5000 m");
+    }
 }

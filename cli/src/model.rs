@@ -24,8 +24,15 @@ struct RawModel {
     shape: Vec<S<RawShape>>,
     boundary: Option<S<RawBoundary>>,
     mesh: Option<S<RawMesh>>,
+    check: Option<S<RawCheck>>,
     #[serde(default)]
     probe: Vec<S<RawProbe>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+struct RawCheck {
+    singular_exclusion_radius: Option<S<f64>>,
 }
 
 #[derive(Deserialize, Debug)]
@@ -228,6 +235,10 @@ pub struct Model {
     pub outer_potential_v: Option<f64>,
     /// Field probes.
     pub probes: Vec<Probe>,
+    /// `[check] singular_exclusion_radius`: the radius of the disc around every
+    /// field-singular point that `check` leaves out of the watched peaks, metres (None: the
+    /// default from the geometry).
+    pub singular_exclusion_radius_m: Option<f64>,
     /// Metres per model length unit.
     pub unit_m: f64,
     /// Name of the model length unit.
@@ -858,10 +869,19 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         outer,
         size_points,
     };
+    let singular_exclusion_radius_m =
+        match raw.check.as_ref().and_then(|c| c.get_ref().singular_exclusion_radius.as_ref()) {
+            Some(r) => Some(
+                positive(r, "check.singular_exclusion_radius".into(), "the exclusion radius around singular points")?
+                    * unit_m,
+            ),
+            None => None,
+        };
     let model = Model {
         name,
         geometry,
         params,
+        singular_exclusion_radius_m,
         sets_min_angle,
         sets_gradation,
         materials,

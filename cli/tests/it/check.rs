@@ -151,3 +151,25 @@ fn check_exit_codes_tell_converged_from_not_converged() {
     let o = run(&["check", bad.to_str().unwrap(), "--out", dir.path().join("other").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
 }
+
+#[test]
+fn the_exclusion_radius_is_the_models_and_the_same_on_every_mesh() {
+    // docs/model-format.md, [check] singular_exclusion_radius: the disc left out around
+    // each field-singular point is the model's (5 mm here), not the default (2 % of the
+    // 283 mm diagonal); a bad value is a located error.
+    let dir = tempfile::tempdir().unwrap();
+    let text = std::fs::read_to_string(fixture("l-electrode.toml")).unwrap();
+    let model = dir.path().join("l.toml");
+    std::fs::write(&model, format!("{text}\n[check]\nsingular_exclusion_radius = 5.0\n")).unwrap();
+    let out = dir.path().join("res");
+    let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+    assert!(o.status.code() == Some(0) || o.status.code() == Some(3), "{}", stderr(&o));
+    let j = json(&out.join("results.json"));
+    let radii = j["adaptivity"]["singular_exclusion_radius_m"].as_array().unwrap();
+    assert_eq!(radii.len(), 5);
+    assert!(radii.iter().all(|r| (r.as_f64().unwrap() - 5e-3).abs() < 1e-15), "{radii:?}");
+    std::fs::write(&model, format!("{text}\n[check]\nsingular_exclusion_radius = -1.0\n")).unwrap();
+    let o = run(&["check", model.to_str().unwrap(), "--out", dir.path().join("bad").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("check.singular_exclusion_radius"), "{}", stderr(&o));
+}
