@@ -194,8 +194,8 @@ fn least_squares<const K: usize>(rows: impl Iterator<Item = ([f64; 6], [f64; K])
 
 /// The largest distance of a sample from `center` (the patch scale), if positive.
 fn patch_scale(samples: &[Sample], center: Xy) -> Option<f64> {
-    let scale = samples.iter().map(|(p, _)| (p[0] - center[0]).hypot(p[1] - center[1])).fold(0.0, f64::max);
-    (scale > 0.0).then_some(scale)
+    let scale2 = samples.iter().map(|(p, _)| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
+    (scale2 > 0.0).then(|| scale2.sqrt())
 }
 
 /// Polynomial fit of both gradient components with the first `m` basis functions.

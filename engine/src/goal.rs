@@ -260,7 +260,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
         }
     }
-    let mut duals = solved.solve_duals(mesh, problem, &cases).into_iter();
+    let mut duals = solved.solve_duals(problem, &cases).into_iter();
     let estimates: Vec<GoalEstimate> = goals
         .iter()
         .map(|g| match *g {

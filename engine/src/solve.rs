@@ -658,7 +658,7 @@ pub(crate) struct DualCase {
 
 impl FactoredSolution {
     /// Nodal potentials of each dual case, by the kept factorisation.
-    pub(crate) fn solve_duals(&self, mesh: &Mesh, problem: &Problem, cases: &[DualCase]) -> Vec<Vec<f64>> {
+    pub(crate) fn solve_duals(&self, problem: &Problem, cases: &[DualCase]) -> Vec<Vec<f64>> {
         let m = self.system.num_unknowns();
         let mut homogeneous = problem.clone();
         for spec in homogeneous.conductors.iter_mut() {
@@ -692,10 +692,18 @@ impl FactoredSolution {
         if let Some(f) = &self.factor {
             f.solve_in_place(&mut b);
         }
+        // Only the potentials: a dual problem's charges and energy are not needed. Held
+        // nodes are at 0 V in every dual case (its units are charges).
         (0..cases.len())
             .map(|c| {
-                let x: Vec<f64> = (0..m).map(|i| b[(i, c)]).collect();
-                finish(mesh, &homogeneous, &self.system, &x, false).potential
+                self.system
+                    .dof
+                    .iter()
+                    .map(|d| match *d {
+                        Dof::Free(i) => b[(i as usize, c)],
+                        Dof::Held(_) => 0.0,
+                    })
+                    .collect()
             })
             .collect()
     }
