@@ -194,7 +194,8 @@ fn least_squares<const K: usize>(rows: impl Iterator<Item = ([f64; 6], [f64; K])
 
 /// The largest distance of a sample from `center` (the patch scale), if positive.
 fn patch_scale(samples: &[Sample], center: Xy) -> Option<f64> {
-    let scale2 = samples.iter().map(|(p, _)| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
+    let scale2 =
+        samples.iter().map(|(p, _)| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
     (scale2 > 0.0).then(|| scale2.sqrt())
 }
 
