@@ -119,6 +119,12 @@ pub struct RegionResult {
     pub allowable_kv_per_mm: Option<f64>,
     /// E_max / allowable.
     pub utilisation: Option<f64>,
+    /// `check` only: the error bar of the peak, V/m (see docs/results-format.md), when the
+    /// peak lies away from singular points.
+    pub error_bar_v_per_m: Option<f64>,
+    /// `check` only: "converged", "not converged", or "singular — mesh-dependent" for a
+    /// peak at a singular point; `solve` (one mesh, no study) leaves it out.
+    pub status: Option<String>,
 }
 
 /// `fieldgrade debug matrix`: the reduced system in Matrix Market format.
@@ -297,6 +303,8 @@ pub fn analyse(
                 near_singular_point: near,
                 allowable_kv_per_mm: allow,
                 utilisation: allow.map(|a| p.e_max_v_per_m / 1e6 / a),
+                error_bar_v_per_m: None,
+                status: None,
             }
         })
         .collect();
@@ -508,10 +516,11 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
     let _ = writeln!(s, "\npeak field per region (vertex values averaged within the region)");
     let _ = writeln!(
         s,
-        "  {:<20} {:<10} {:>12} {:>22} {:>10} {:>8}  note",
+        "  {:<20} {:<10} {:>12} {:>11} {:>22} {:>10} {:>8}  note",
         "region",
         "material",
         "E max kV/mm",
+        "",
         format!("at ({unit})"),
         "allowable",
         "util."
@@ -520,14 +529,20 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
         let at = format!("({:.4}, {:.4})", g.at_m[0] / unit_m, g.at_m[1] / unit_m);
         let allow = g.allowable_kv_per_mm.map(|a| format!("{a}")).unwrap_or_else(|| "-".into());
         let util = g.utilisation.map(|u| format!("{u:.3}")).unwrap_or_else(|| "-".into());
-        let note = match &g.near_singular_point {
-            Some(sp) => format!("at singular point {sp}: mesh-dependent"),
+        let note = match (&g.near_singular_point, &g.status) {
+            (Some(sp), Some(st)) => format!("at singular point {sp}: {st}"),
+            (Some(sp), None) => format!("at singular point {sp}: singular — mesh-dependent"),
+            (None, Some(st)) => st.clone(),
+            (None, None) => String::new(),
+        };
+        let bar = match g.error_bar_v_per_m {
+            Some(b) => format!("± {:.2e}", b / 1e6),
             None => String::new(),
         };
         let _ = writeln!(
             s,
-            "  {:<20} {:<10} {:>12.4} {:>22} {:>10} {:>8}  {note}",
-            g.name, g.material, g.e_max_kv_per_mm, at, allow, util
+            "  {:<20} {:<10} {:>12.4} {:>11} {:>22} {:>10} {:>8}  {note}",
+            g.name, g.material, g.e_max_kv_per_mm, bar, at, allow, util
         );
     }
     if !r.probes.is_empty() {

@@ -485,6 +485,21 @@ pub(crate) fn error_products(
 }
 
 impl RecoveredField<'_> {
+    /// At point `x` (reference point (ξ, η) of triangle `t`): the recovered field E* = −G
+    /// and the element's own field E_h.
+    pub(crate) fn fields_at(
+        &self,
+        mesh: &Mesh,
+        quad: &SingularQuadrature,
+        t: usize,
+        xi: f64,
+        eta: f64,
+    ) -> ([f64; 2], [f64; 2]) {
+        let p = eval_point(mesh, self.potential, t, xi, eta);
+        let g = self.recovery.at(mesh, t, quad.corner(mesh, t), xi, eta, p.at);
+        ([-g[0], -g[1]], p.e)
+    }
+
     /// True when vertex `v` has a patch fit in `region`.
     pub(crate) fn has_fit(&self, v: u32, region: u32) -> bool {
         self.recovery.fits.get(v as usize).is_some_and(|f| f.iter().any(|f| f.region == region))

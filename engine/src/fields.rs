@@ -26,7 +26,8 @@ pub struct RegionPeak {
     pub e_max_v_per_m: f64,
     /// Where it occurs.
     pub at: Xy,
-    /// The mesh vertex it occurs at.
+    /// The mesh vertex it occurs at (for a peak on the rim of an exclusion disc, the
+    /// nearest corner of the triangle there).
     pub node: u32,
 }
 
@@ -302,14 +303,69 @@ fn peaks_of(mesh: &Mesh, means: Vec<VertexMean>, discs: &[(Xy, f64)]) -> Vec<Reg
     peaks.into_iter().flatten().collect()
 }
 
-/// The peak |E| per region leaving out every vertex inside the given discs (centre,
-/// radius in metres) — the peaks *away from* singular points, which converge under
-/// refinement while the peaks at them do not. Same recovery as [`element_fields`].
+/// The peak |E| per region leaving out the inside of the given discs (centre, radius in
+/// metres) — the peaks *away from* singular points, which converge under refinement while
+/// the peaks at them do not: the largest vertex value outside the discs (same recovery as
+/// [`element_fields`]) or the largest recovered field sampled on the discs' rims (256
+/// points each).
 ///
 /// # Panics
 /// If the solution does not belong to the mesh.
 #[track_caller]
 pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    peaks_of(mesh, region_vertex_means(vertex_fields(mesh, &solution.potential)), discs)
+    let mut peaks = peaks_of(mesh, region_vertex_means(vertex_fields(mesh, &solution.potential)), discs);
+    // The rim of every disc belongs to the region left in: the field sampled there (it is
+    // largest there next to a singular point), so that the peak is the same quantity on
+    // every mesh, not the field at whichever vertex happens to lie nearest outside.
+    let points: Vec<Xy> = discs
+        .iter()
+        .flat_map(|&(c, r)| {
+            (0..RIM_SAMPLES).map(move |k| {
+                let a = std::f64::consts::TAU * k as f64 / RIM_SAMPLES as f64;
+                [c[0] + r * a.cos(), c[1] + r * a.sin()]
+            })
+        })
+        .collect();
+    let outside = |p: Xy| discs.iter().all(|(c, rad)| (p[0] - c[0]).hypot(p[1] - c[1]) >= rad * (1.0 - 1e-9));
+    if points.is_empty() {
+        return peaks;
+    }
+    // On the rim the recovered field (continuous, one degree better; see `estimate`): the
+    // largest of the elements' own fields, discontinuous from one element to the next,
+    // would pick whichever is most in error.
+    let grid = crate::probe::TriangleGrid::new(mesh);
+    let quad = SingularQuadrature::new(mesh);
+    let rec = crate::estimate::recover_field(mesh, &quad, &solution.potential);
+    for p in &points {
+        if !outside(*p) {
+            continue;
+        }
+        let Some((t, xi, eta)) = grid.locate(mesh, *p) else { continue };
+        let region = mesh.regions[t];
+        if mesh.exterior.is_some_and(|x| x.region == region) {
+            continue;
+        }
+        let (e, _) = rec.fields_at(mesh, &quad, t, xi, eta);
+        let m = e[0].hypot(e[1]);
+        let node = nearest_corner(mesh, t, *p);
+        match peaks.iter_mut().find(|q| q.region == region) {
+            Some(q) if m > q.e_max_v_per_m => *q = RegionPeak { region, e_max_v_per_m: m, at: *p, node },
+            Some(_) => {}
+            None => peaks.push(RegionPeak { region, e_max_v_per_m: m, at: *p, node }),
+        }
+    }
+    peaks
 }
+
+/// The corner of triangle `t` nearest to `p`.
+fn nearest_corner(mesh: &Mesh, t: usize, p: Xy) -> u32 {
+    let d = |v: &u32| {
+        let q = mesh.nodes[*v as usize];
+        (q[0] - p[0]).powi(2) + (q[1] - p[1]).powi(2)
+    };
+    *mesh.triangles[t].iter().min_by(|a, b| d(a).total_cmp(&d(b))).expect("three corners")
+}
+
+/// Points sampled on the rim of each exclusion disc.
+const RIM_SAMPLES: usize = 256;

@@ -335,6 +335,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     // peak (a mean of the elements' own fields) bounds the peak's error where the
     // recovered field is the better of the two, as it is on a smooth solution.
     let tol2 = (1e-12 * mesh.scale()).powi(2);
+    let grid = crate::probe::TriangleGrid::new(mesh);
     let vertex_at = |at: Xy| {
         (0..mesh.num_vertices).find(|&v| {
             let q = mesh.nodes[v as usize];
@@ -353,7 +354,15 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                         let f = u.field_at_vertex(v, r);
                         (f[0].hypot(f[1]) - value).abs()
                     }
-                    _ => 0.0,
+                    // Between vertices (a rim or probe sample): the recovered against the
+                    // element's own field there.
+                    _ => match grid.locate(mesh, at) {
+                        Some((t, xi, eta)) => {
+                            let (rec, own) = u.fields_at(mesh, &quad, t, xi, eta);
+                            (rec[0].hypot(rec[1]) - own[0].hypot(own[1])).abs()
+                        }
+                        None => 0.0,
+                    },
                 };
                 GoalEstimate {
                     value,

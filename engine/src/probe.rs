@@ -116,17 +116,17 @@ fn evaluate(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> (f64
 }
 
 /// Point location over the triangles' bounding boxes (padded for curved P2 edges).
-struct TriangleGrid {
+pub(crate) struct TriangleGrid {
     grid: BucketGrid,
 }
 
 impl TriangleGrid {
-    fn new(mesh: &Mesh) -> TriangleGrid {
+    pub(crate) fn new(mesh: &Mesh) -> TriangleGrid {
         // Curved P2 edges bulge by at most a few per cent of the element: pad a little.
         TriangleGrid { grid: mesher::triangle_grid(mesh, 0.1) }
     }
 
-    fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {
+    pub(crate) fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {
         let mut found = None;
         self.grid.for_each_near(p, 0.0, |t| {
             if found.is_none() {
