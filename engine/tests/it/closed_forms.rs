@@ -300,7 +300,7 @@ fn recovery_estimate_effectivity_on_the_coaxial_line() {
 /// Magnetic Fields*, Wiley 1992, ch. 9–10 (recalled from memory, the derivation above
 /// stands on its own). Checks: w → 0 gives C′ → 0; w ≫ d gives ε₀εᵣ(w/d + 4 ln 2/π), the
 /// parallel plate plus a fringe of 2 ln 2/π per edge.
-fn electroded_slab_capacitance(w: f64, d: f64, eps_r: f64) -> f64 {
+pub fn electroded_slab_capacitance(w: f64, d: f64, eps_r: f64) -> f64 {
     let a = (PI * w / (2.0 * d)).exp();
     // a − √(a² − 1), without the cancellation.
     let k = (1.0 / (a + (a * a - 1.0).sqrt())).powi(2);

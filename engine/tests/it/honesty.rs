@@ -199,3 +199,55 @@ fn field_at_a_fixed_distance_from_the_re_entrant_corner() {
         judge(&format!("L-shape P{order}, |E| at r = 0.1"), &rows, exact, 0.0, false);
     }
 }
+
+#[test]
+fn energy_estimate_at_an_electrode_end_on_a_slab_face() {
+    // The partially electroded slab of closed_forms.rs (an electrode end of exponent λ = ½;
+    // conformal-map capacitance, derived there): on the adaptive loop's meshes the energy's
+    // own estimate ½η² stays within 0.5–2× of its true error while that error is well above
+    // the model's truncation (about 1.5e-7 relative).
+    let (d, half_w, len, t, eps_r) = (0.01, 0.01, 0.06, 0.001, 4.0);
+    let slab = Outline::polygon("slab", &[[0.0, -t], [len, -t], [len, d], [half_w, d], [half_w, d + t], [0.0, d + t]])
+        .unwrap();
+    let geo = Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("slab", slab, diel(eps_r)),
+            shape("electrode", Outline::rectangle("electrode", [0.0, d], [half_w, t], 0.0).unwrap(), cond(0)),
+            shape("earth", Outline::rectangle("earth", [0.0, -t], [len, t], 0.0).unwrap(), cond(1)),
+        ],
+        conductors: vec!["electrode".into(), "earth".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![eps_r, f64::NAN, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        ..Default::default()
+    };
+    let exact_w = 0.5 * crate::closed_forms::electroded_slab_capacitance(2.0 * half_w, d, eps_r) / 2.0;
+    let params = RefineParams::new().with_order(2).with_max_size_m(d / 10.0);
+    let ap = AdaptParams { tolerance: 1e-4, max_iterations: 4, ..Default::default() };
+    let mut checked = 0;
+    adapt_watching(
+        &geo,
+        &params,
+        &problem,
+        &ap,
+        |_, solved, est| {
+            let w = solved.solution.energy;
+            let own = 0.5 * est.global * est.global;
+            let truth = (w - exact_w).abs();
+            eprintln!("slab energy: true {:.2e}, own estimate {:.2e}", truth / exact_w, own / exact_w);
+            if truth > 1e-6 * exact_w {
+                let eff = own / truth;
+                assert!((0.5..=2.0).contains(&eff), "effectivity {eff}");
+                checked += 1;
+            }
+            Ok(vec![Watched::new(w, 0.0, QuantityClass::Functional).with_estimate(own, None)])
+        },
+        |_| {},
+    )
+    .unwrap();
+    assert!(checked >= 2, "{checked} meshes checked");
+}
