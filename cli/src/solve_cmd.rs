@@ -105,8 +105,8 @@ pub struct RegionResult {
     pub name: String,
     /// Material name.
     pub material: String,
-    /// Largest |E| at a vertex of the region (averaged over the region's elements there;
-    /// one-sided maximum at singular points), V/m.
+    /// Largest |E| at a vertex of the region (the recovered field of the region's elements
+    /// there; one-sided maximum at singular points), V/m.
     pub e_max_v_per_m: f64,
     /// The same in kV/mm.
     pub e_max_kv_per_mm: f64,
@@ -513,7 +513,7 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
             let _ = writeln!(s);
         }
     }
-    let _ = writeln!(s, "\npeak field per region (vertex values averaged within the region)");
+    let _ = writeln!(s, "\npeak field per region (recovered vertex values within the region)");
     let _ = writeln!(
         s,
         "  {:<20} {:<10} {:>12} {:>11} {:>22} {:>10} {:>8}  note",

@@ -68,10 +68,12 @@ fn sequence(
 
 /// Prints the bar against the true error per mesh (kept in bench-results/error-bars.md)
 /// and, with `strict`, checks containment (bar + the reference's own uncertainty `unc` ≥
-/// true error on at least 95 % of the meshes) and that the bar is at most 5× the true error
-/// on the meshes where the quantity is converged and the error is well above `unc`.
+/// true error on at least 95 % of the meshes from the third on, where the study that can
+/// declare a quantity converged begins; the first two meshes' bars, from one change and the
+/// own estimate, are counted in the printout only) and that the bar is at most 5× the true
+/// error on the meshes where the quantity is converged and the error is well above `unc`.
 fn judge(case: &str, rows: &[Row], exact: f64, unc: f64, strict: bool) {
-    let mut held = 0;
+    let (mut held, mut held_all) = (0, 0);
     for (k, r) in rows.iter().enumerate() {
         let err = (r.value - exact).abs();
         let ratio = r.bar / err;
@@ -86,16 +88,26 @@ fn judge(case: &str, rows: &[Row], exact: f64, unc: f64, strict: bool) {
             if r.converged { ", converged" } else { "" }
         );
         if r.bar + unc * exact.abs() >= err {
-            held += 1;
+            held_all += 1;
+            if k >= 2 {
+                held += 1;
+            }
         }
         if strict && r.converged && err > 10.0 * unc * exact.abs() {
             assert!(ratio <= 5.0, "{case}, mesh {}: bar {:.2e} is {ratio:.1}× the true error", k + 1, r.bar);
         }
     }
-    let share = held as f64 / rows.len() as f64;
-    eprintln!("{case}: the bar held the true error on {held} of {} meshes", rows.len());
+    let studied = rows.len().saturating_sub(2);
+    eprintln!(
+        "{case}: the bar held the true error on {held_all} of {} meshes ({held} of {studied} from the third on)",
+        rows.len()
+    );
     if strict {
-        assert!(share >= 0.95, "{case}: the bar held the true error on {held} of {} meshes", rows.len());
+        assert!(studied >= 2, "{case}: only {} meshes", rows.len());
+        assert!(
+            held as f64 >= 0.95 * studied as f64,
+            "{case}: the bar held the true error on {held} of {studied} meshes from the third on"
+        );
     }
 }
 
@@ -250,4 +262,51 @@ fn energy_estimate_at_an_electrode_end_on_a_slab_face() {
     )
     .unwrap();
     assert!(checked >= 2, "{checked} meshes checked");
+}
+
+#[test]
+fn peak_field_on_a_sphere_above_a_ground_plane() {
+    // Image series (Smythe 1968, §5.08, the construction behind the capacitance series of
+    // closed_forms.rs): a sphere of radius a centred d above an earthed plane, at V. Start
+    // with q₀ = 4πε₀aV at the centre; the image of a charge −q_k at −z_k (below the plane) in
+    // the sphere is q_(k+1) = q_k·a/(d + z_k) at z_(k+1) = d − a²/(d + z_k), and every q_k at
+    // z_k has its image −q_k at −z_k. The field at the sphere's lowest point p = d − a, the
+    // peak, is Σ q_k/(4πε₀)·(1/(z_k − p)² + 1/(z_k + p)²). a = 5 mm, d = 10 mm; the model
+    // reaches 2 m, where the truncation (of order (d/L)³) is about 1e-7.
+    let (a, d, l): (f64, f64, f64) = (0.005, 0.01, 2.0);
+    let p = d - a;
+    let (mut q, mut z, mut e) = (a, d, 0.0); // q in units of 4πε₀V
+    for _ in 0..200 {
+        e += q * (1.0 / (z - p).powi(2) + 1.0 / (z + p).powi(2));
+        let next = d - a * a / (d + z);
+        q *= a / (d + z);
+        z = next;
+    }
+    let exact = e;
+    let ball = {
+        let arc = mesher::Curve::Arc { center: [0.0, d], radius: a, start: -PI / 2.0, sweep: PI };
+        Outline::new("ball", vec![arc, mesher::Curve::Line { from: arc.to(), to: arc.from() }]).unwrap()
+    };
+    let geo = Geometry {
+        symmetry: Symmetry::Axisymmetric,
+        shapes: vec![
+            shape("air", Outline::rectangle("air", [0.0, -0.005], [l, l + 0.005], 0.0).unwrap(), diel(1.0)),
+            shape("plane", Outline::rectangle("plane", [0.0, -0.005], [l, 0.005], 0.0).unwrap(), cond(1)),
+            shape("ball", ball, cond(0)),
+        ],
+        conductors: vec!["ball".into(), "plane".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![],
+    };
+    let problem = Problem {
+        permittivity: vec![1.0, f64::NAN, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        ..Default::default()
+    };
+    let read = |mesh: &mesher::Mesh, sol: &engine::Solution| {
+        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == 0).unwrap();
+        (p.e_max_v_per_m, Some((p.at, Some(0))))
+    };
+    let rows = sequence(&geo, &problem, 2, 0.1, 1e-4, 7, &read);
+    judge("sphere over plane, peak", &rows, exact, 1e-6, true);
 }
