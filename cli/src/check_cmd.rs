@@ -211,6 +211,9 @@ pub struct SingularResult {
     pub radius_above_allowable: Option<f64>,
     /// The report line.
     pub note: String,
+    /// The coefficient's error bar (V/m^λ) and verdict from the adaptive sequence, when it
+    /// is watched.
+    pub coefficient_error_bar: Option<BarReport>,
 }
 
 /// The watched quantities: (name, SI unit, what).
@@ -223,6 +226,10 @@ enum Quantity {
     FloatingPotential(usize),
     RegionPeak(u32),
     ProbePeak(usize),
+    /// The largest tangential field of an interface or conductor-surface probe.
+    ProbeTangential(usize),
+    /// The coefficient A of the singular term at singular point k (one a conductor bounds).
+    Singular(usize),
 }
 
 /// Runs `fieldgrade check`.
@@ -294,7 +301,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         outcome;
     let mesh_report = report_of(&model, &mesh, true, None);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
-    let singular = singular_section(&model, &mesh, &analysis.sol, &discs);
+    let mut singular = singular_section(&model, &mesh, &analysis.sol, &discs);
     let t_post = t0.elapsed().as_secs_f64() - t_adapt;
     solve.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];
     let convergence: Vec<QuantityStudy> = quantities
@@ -307,6 +314,18 @@ pub fn run(run: &CheckRun) -> Result<bool> {
             study(name.clone(), unit, &seq, &per_mesh, &bars[i], run.tolerance)
         })
         .collect();
+    for p in &mut singular {
+        let name = format!("singular coefficient A at {}", p.id);
+        if let Some(q) = convergence.iter().find(|q| q.quantity == name) {
+            p.coefficient_error_bar = Some(BarReport {
+                value: q.error_bar.value,
+                absolute: q.error_bar.absolute,
+                relative: q.error_bar.relative,
+                status: q.error_bar.status,
+                reason: q.error_bar.reason.clone(),
+            });
+        }
+    }
     // Each region's peak with the bar of the watched peak away from singular points, where
     // it is that peak.
     for g in &mut solve.regions {
@@ -432,6 +451,18 @@ fn quantity_list(model: &Model, mesh: &Mesh) -> Watchlist {
     }
     for (i, p) in model.probes.iter().enumerate() {
         q.push((format!("largest field on probe {} away from singular points", p.name), "V/m", Quantity::ProbePeak(i)));
+        if interface_selector(&p.kind).is_some() {
+            q.push((
+                format!("largest tangential field on probe {} away from singular points", p.name),
+                "V/m",
+                Quantity::ProbeTangential(i),
+            ));
+        }
+    }
+    for (k, sp) in mesh.singular_points.iter().enumerate() {
+        if sp.is_field_singular() && sp.conductor.is_some() && singular_field_factor(sp).is_some() {
+            q.push((format!("singular coefficient A at S{}", k + 1), "V/m^λ", Quantity::Singular(k)));
+        }
     }
     q
 }
@@ -518,6 +549,27 @@ fn watch(
                 let (value, at, region) = probe_peak(model, mesh, sol, i, discs);
                 let goal = (value > 0.0).then_some(Goal::PeakField { at, value, region });
                 (value, 0.01 * peak_max, QuantityClass::Field, goal)
+            }
+            Quantity::ProbeTangential(i) => {
+                let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+                let value = match interface_selector(&model.probes[i].kind) {
+                    Some((which, _)) => interface_peak(&engine::probe_interface(mesh, sol, which), outside).1,
+                    None => 0.0,
+                };
+                (value, 0.01 * peak_max, QuantityClass::Field, None)
+            }
+            Quantity::Singular(k) => {
+                let sp = &mesh.singular_points[k];
+                let radius = discs.iter().find(|d| d.0 == sp.at).map(|d| d.1).unwrap_or(0.02 * mesh.scale());
+                let v0 = sp.conductor.map(|c| sol.conductor_potentials[c as usize]).unwrap_or(0.0);
+                let value = singular_coefficient_dual(mesh, sol, sp, v0, radius)
+                    .or_else(|| singular_coefficient(mesh, sol, sp, v0, 0.5 * radius).map(|f| f.coefficient))
+                    .unwrap_or(0.0);
+                // A singular term whose field at the disc's rim is below 1 % of the largest
+                // peak is not asked to be relatively exact.
+                let factor = singular_field_factor(sp).unwrap_or(1.0).max(f64::MIN_POSITIVE);
+                let floor = 0.01 * peak_max * radius.powf(1.0 - sp.lambda) / factor;
+                (value, floor, QuantityClass::Functional, None)
             }
         };
         let slot = goal.map(|g| {
@@ -697,6 +749,7 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
                 allowable_kv_per_mm: allowable,
                 radius_above_allowable: radius_above,
                 note,
+                coefficient_error_bar: None,
             }
         })
         .collect()
@@ -799,7 +852,15 @@ fn render_check(r: &CheckResults, unit: &str) -> String {
                 p.kind,
                 p.at[0],
                 p.at[1],
-                p.coefficient.map(|a| format!("{a:.4e}")).unwrap_or_else(|| "-".into()),
+                match (p.coefficient, &p.coefficient_error_bar) {
+                    (Some(a), Some(b)) => format!(
+                        "{a:.4e} ± {} ({})",
+                        b.absolute.map(|x| format!("{x:.2e}")).unwrap_or_else(|| "?".into()),
+                        b.status
+                    ),
+                    (Some(a), None) => format!("{a:.4e}"),
+                    _ => "-".into(),
+                },
                 p.note
             );
         }
