@@ -368,6 +368,17 @@ fn recover(mesh: &Mesh, potential: &[f64], quad: &SingularQuadrature) -> Recover
     rec
 }
 
+/// The absolute permittivity tensor ε₀·εᵣ of region `r`.
+fn absolute_permittivity(problem: &Problem, r: usize) -> [[f64; 2]; 2] {
+    match problem.tensor.get(r).copied().flatten() {
+        Some(e) => e.map(|row| row.map(|x| EPSILON_0 * x)),
+        None => {
+            let e = EPSILON_0 * problem.permittivity[r];
+            [[e, 0.0], [0.0, e]]
+        }
+    }
+}
+
 /// Recovery-based estimate for a linear or quadratic solution.
 ///
 /// # Panics
@@ -381,14 +392,7 @@ pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> Er
     let per_element: Vec<(f64, f64)> = (0..mesh.triangles.len())
         .into_par_iter()
         .map(|t| {
-            let r = mesh.regions[t] as usize;
-            let eps = match problem.tensor.get(r).copied().flatten() {
-                Some(e) => e.map(|row| row.map(|x| EPSILON_0 * x)),
-                None => {
-                    let e = EPSILON_0 * problem.permittivity[r];
-                    [[e, 0.0], [0.0, e]]
-                }
-            };
+            let eps = absolute_permittivity(problem, mesh.regions[t] as usize);
             let energy = |d: [f64; 2]| {
                 d[0] * (eps[0][0] * d[0] + eps[0][1] * d[1]) + d[1] * (eps[1][0] * d[0] + eps[1][1] * d[1])
             };
@@ -445,14 +449,7 @@ pub(crate) fn error_products(
     (0..mesh.triangles.len())
         .into_par_iter()
         .map(|t| {
-            let r = mesh.regions[t] as usize;
-            let eps = match problem.tensor.get(r).copied().flatten() {
-                Some(e) => e.map(|row| row.map(|x| EPSILON_0 * x)),
-                None => {
-                    let e = EPSILON_0 * problem.permittivity[r];
-                    [[e, 0.0], [0.0, e]]
-                }
-            };
+            let eps = absolute_permittivity(problem, mesh.regions[t] as usize);
             let corner = quad.corner(mesh, t);
             let mut out = [0.0; 4];
             for &(xi, eta, w) in quad.rule(corner) {

@@ -62,24 +62,40 @@ pub(crate) struct PointValue {
 
 /// V, E, position and Jacobian at reference point (ξ, η) of triangle `t` (isoparametric
 /// for P2) — the one evaluator behind fields, probes, the estimator and energy errors.
+/// The isoparametric map of an element with nodes `x` at reference point (ξ, η): the
+/// shape functions' reference gradients and values, the Jacobian, the physical point and the
+/// Jacobian's determinant.
+#[allow(clippy::type_complexity)]
+pub(crate) fn isoparametric<const N: usize, E: Element<N>>(
+    x: &[Xy; N],
+    xi: f64,
+    eta: f64,
+) -> ([[f64; 2]; N], [f64; N], [[f64; 2]; 2], Xy, f64) {
+    let g = E::gradients(xi, eta);
+    let s = E::values(xi, eta);
+    let mut j = [[0.0; 2]; 2];
+    let mut p = [0.0; 2];
+    for k in 0..N {
+        j[0][0] += x[k][0] * g[k][0];
+        j[0][1] += x[k][0] * g[k][1];
+        j[1][0] += x[k][1] * g[k][0];
+        j[1][1] += x[k][1] * g[k][1];
+        p[0] += x[k][0] * s[k];
+        p[1] += x[k][1] * s[k];
+    }
+    let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+    (g, s, j, p, det)
+}
+
 pub(crate) fn eval_point(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> PointValue {
     fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], u: &[f64; N], xi: f64, eta: f64) -> PointValue {
-        let g = E::gradients(xi, eta);
-        let s = E::values(xi, eta);
-        let mut j = [[0.0; 2]; 2];
-        let (mut v, mut gr, mut p) = (0.0, [0.0; 2], [0.0; 2]);
+        let (g, s, j, p, det) = isoparametric::<N, E>(x, xi, eta);
+        let (mut v, mut gr) = (0.0, [0.0; 2]);
         for k in 0..N {
-            j[0][0] += x[k][0] * g[k][0];
-            j[0][1] += x[k][0] * g[k][1];
-            j[1][0] += x[k][1] * g[k][0];
-            j[1][1] += x[k][1] * g[k][1];
-            p[0] += x[k][0] * s[k];
-            p[1] += x[k][1] * s[k];
             v += u[k] * s[k];
             gr[0] += u[k] * g[k][0];
             gr[1] += u[k] * g[k][1];
         }
-        let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
         // ∇V = J⁻ᵀ ∇̂V.
         let gx = (j[1][1] * gr[0] - j[1][0] * gr[1]) / det;
         let gy = (-j[0][1] * gr[0] + j[0][0] * gr[1]) / det;

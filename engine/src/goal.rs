@@ -168,19 +168,7 @@ pub struct GoalEstimate {
 /// count (3 or 6), the physical gradients, the physical point and the Jacobian determinant.
 fn basis_gradients(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize, [[f64; 2]; 6], Xy, f64) {
     fn build<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> ([[f64; 2]; 6], Xy, f64) {
-        let g = E::gradients(xi, eta);
-        let s = E::values(xi, eta);
-        let mut j = [[0.0; 2]; 2];
-        let mut p = [0.0; 2];
-        for k in 0..N {
-            j[0][0] += x[k][0] * g[k][0];
-            j[0][1] += x[k][0] * g[k][1];
-            j[1][0] += x[k][1] * g[k][0];
-            j[1][1] += x[k][1] * g[k][1];
-            p[0] += x[k][0] * s[k];
-            p[1] += x[k][1] * s[k];
-        }
-        let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+        let (g, _, j, p, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
         let mut out = [[0.0; 2]; 6];
         for k in 0..N {
             // ∇φ = J⁻ᵀ ∇̂φ.

@@ -21,6 +21,17 @@ pub fn half_disc(name: &str, r: f64) -> Outline {
     Outline::new(name, vec![arc, Curve::Line { from: arc.to(), to: arc.from() }]).unwrap()
 }
 
+/// Relative permittivity per shape (NaN for conductors), as a `Problem` takes it.
+pub fn permittivities(shapes: &[Shape]) -> Vec<f64> {
+    shapes
+        .iter()
+        .map(|s| match s.fill {
+            Fill::Dielectric { permittivity } => permittivity,
+            Fill::Conductor { .. } => f64::NAN,
+        })
+        .collect()
+}
+
 pub fn run(
     symmetry: Symmetry,
     shapes: Vec<Shape>,
@@ -29,13 +40,7 @@ pub fn run(
     h: f64,
     order: u8,
 ) -> (mesher::Mesh, Solution) {
-    let permittivity = shapes
-        .iter()
-        .map(|s| match s.fill {
-            Fill::Dielectric { permittivity } => permittivity,
-            Fill::Conductor { .. } => f64::NAN,
-        })
-        .collect();
+    let permittivity = permittivities(&shapes);
     let geo = Geometry {
         symmetry,
         shapes,

@@ -2,9 +2,9 @@
 //! estimated error of a charge, a floating potential and a local field lies close to the
 //! true error (effectivity = estimate / true error).
 
-use crate::common::{cond, diel, shape};
+use crate::common::{cond, diel, permittivities, shape};
 use engine::{goal_estimates, solve_factored, ConductorSpec, Goal, Problem, EPSILON_0};
-use mesher::{generate, Fill, Geometry, OuterBoundary, Outline, RefineParams, Shape, Symmetry};
+use mesher::{generate, Geometry, OuterBoundary, Outline, RefineParams, Shape, Symmetry};
 use std::f64::consts::PI;
 
 /// Meshes and solves with the factorisation kept.
@@ -14,13 +14,7 @@ fn run(
     h: f64,
     order: u8,
 ) -> (mesher::Mesh, Problem, engine::FactoredSolution) {
-    let permittivity = shapes
-        .iter()
-        .map(|s| match s.fill {
-            Fill::Dielectric { permittivity } => permittivity,
-            Fill::Conductor { .. } => f64::NAN,
-        })
-        .collect();
+    let permittivity = permittivities(&shapes);
     let geo = Geometry {
         symmetry: Symmetry::Planar,
         shapes,

@@ -23,24 +23,15 @@ struct Row {
 
 /// How the watched quantity is read off a solution: its value, where it is (for a peak's
 /// local estimate) and its region, or None for a charge (goal `Charge(0)`).
-type Reader<'a> = dyn Fn(&mesher::Mesh, &engine::Solution) -> (f64, Option<(Xy, Option<u32>)>) + 'a;
+type Reader<'a> = dyn Fn(&mesher::Mesh, &engine::Solution) -> Reading + 'a;
 
-/// Runs the adaptive loop watching one quantity and returns its rows.
-fn sequence(
-    geo: &Geometry,
-    problem: &Problem,
-    order: u8,
-    h: f64,
-    tol: f64,
-    meshes: usize,
-    read: &Reader<'_>,
-) -> Vec<Row> {
-    sequence_up_to(geo, problem, order, h, tol, meshes, 250_000, read)
-}
+/// A value and, for a peak, where it is and its region.
+type Reading = (f64, Option<(Xy, Option<u32>)>);
 
-/// [`sequence`] with its own unknown budget.
+/// Runs the adaptive loop watching one quantity, up to `max_unknowns`, and returns its
+/// rows.
 #[allow(clippy::too_many_arguments)]
-fn sequence_up_to(
+fn sequence(
     geo: &Geometry,
     problem: &Problem,
     order: u8,
@@ -79,6 +70,26 @@ fn sequence_up_to(
     )
     .unwrap();
     rows
+}
+
+/// The unknowns a test sequence may reach.
+const BUDGET: usize = 250_000;
+
+/// Air (region 0) between an electrode at 1 V (conductor 0) and an earthed plane.
+fn electrode_over_earth() -> Problem {
+    Problem {
+        permittivity: vec![1.0, f64::NAN, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
+        ..Default::default()
+    }
+}
+
+/// Reads the peak of `region` (no exclusion discs) with its place for the local estimate.
+fn peak_of(region: u32) -> impl Fn(&mesher::Mesh, &engine::Solution) -> Reading {
+    move |mesh, sol| {
+        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == region).unwrap();
+        (p.e_max_v_per_m, Some((p.at, Some(region))))
+    }
 }
 
 /// Prints the bar against the true error per mesh (kept in bench-results/error-bars.md)
@@ -154,11 +165,8 @@ fn peak_fields_on_both_sides_of_a_coaxial_interface() {
     for (region, exact, name) in
         [(1u32, 1.0 / (a * e1 * s), "coax inner layer"), (0, 1.0 / (c * e2 * s), "coax outer layer")]
     {
-        let read = move |mesh: &mesher::Mesh, sol: &engine::Solution| {
-            let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == region).unwrap();
-            (p.e_max_v_per_m, Some((p.at, Some(region))))
-        };
-        let rows = sequence(&geo, &problem, 2, 0.004, 1e-4, 7, &read);
+        let read = peak_of(region);
+        let rows = sequence(&geo, &problem, 2, 0.004, 1e-4, 7, BUDGET, &read);
         judge(name, &rows, exact, 0.0, true);
     }
 }
@@ -185,20 +193,13 @@ fn peak_field_on_a_cylinder_above_a_ground_plane() {
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
     };
-    let problem = Problem {
-        permittivity: vec![1.0, f64::NAN, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
-        ..Default::default()
-    };
-    let read = |mesh: &mesher::Mesh, sol: &engine::Solution| {
-        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == 0).unwrap();
-        (p.e_max_v_per_m, Some((p.at, Some(0))))
-    };
-    let rows = sequence(&geo, &problem, 2, 0.5, 1e-4, 8, &read);
+    let problem = electrode_over_earth();
+    let read = peak_of(0);
+    let rows = sequence(&geo, &problem, 2, 0.5, 1e-4, 8, BUDGET, &read);
     judge("cylinder over plane, peak", &rows, exact, 1e-6, true);
     // The charge too: C' = 2πε₀/acosh(h/a) (same source).
     let read = |_: &mesher::Mesh, sol: &engine::Solution| (sol.conductor_charges[0], None);
-    let rows = sequence(&geo, &problem, 2, 0.5, 1e-5, 6, &read);
+    let rows = sequence(&geo, &problem, 2, 0.5, 1e-5, 6, BUDGET, &read);
     // The far boundary's truncation (about 1e-6, see above) is the reference's own
     // uncertainty.
     judge("cylinder over plane, charge", &rows, 2.0 * PI * EPSILON_0 / (h / a).acosh(), 1e-6, true);
@@ -222,7 +223,7 @@ fn field_at_a_fixed_distance_from_the_re_entrant_corner() {
         (p.e_max_v_per_m, Some((p.at, Some(0))))
     };
     for order in [1u8, 2] {
-        let rows = sequence(&l_shape(), &l_problem(), order, 0.2, 1e-4, 8, &read);
+        let rows = sequence(&l_shape(), &l_problem(), order, 0.2, 1e-4, 8, BUDGET, &read);
         judge(&format!("L-shape P{order}, |E| at r = 0.1"), &rows, exact, 0.0, false);
     }
 }
@@ -313,16 +314,9 @@ fn peak_field_on_a_sphere_above_a_ground_plane() {
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
     };
-    let problem = Problem {
-        permittivity: vec![1.0, f64::NAN, f64::NAN],
-        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }, ConductorSpec::Fixed { potential_v: 0.0 }],
-        ..Default::default()
-    };
-    let read = |mesh: &mesher::Mesh, sol: &engine::Solution| {
-        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == 0).unwrap();
-        (p.e_max_v_per_m, Some((p.at, Some(0))))
-    };
-    let rows = sequence(&geo, &problem, 2, 0.1, 1e-4, 7, &read);
+    let problem = electrode_over_earth();
+    let read = peak_of(0);
+    let rows = sequence(&geo, &problem, 2, 0.1, 1e-4, 7, BUDGET, &read);
     judge("sphere over plane, peak", &rows, exact, 1e-6, true);
 }
 
@@ -352,13 +346,10 @@ fn peak_field_on_a_rounded_re_entrant_corner_against_a_finer_reference() {
     let mut geo = l_shape();
     geo.shapes[1].outline = corner;
     let problem = l_problem();
-    let read = |mesh: &mesher::Mesh, sol: &engine::Solution| {
-        let p = region_peaks_away_from(mesh, sol, &[]).into_iter().find(|p| p.region == 0).unwrap();
-        (p.e_max_v_per_m, Some((p.at, Some(0))))
-    };
-    let reference = sequence_up_to(&geo, &problem, 2, 0.2, 1e-6, 14, 1_200_000, &read);
+    let read = peak_of(0);
+    let reference = sequence(&geo, &problem, 2, 0.2, 1e-6, 14, 1_200_000, &read);
     let last = reference.last().unwrap();
     eprintln!("rounded corner reference: {:.9e} ± {:.1e} at {} unknowns", last.value, last.bar, last.unknowns);
-    let rows = sequence(&geo, &problem, 2, 0.2, 1e-4, 6, &read);
+    let rows = sequence(&geo, &problem, 2, 0.2, 1e-4, 6, BUDGET, &read);
     judge("rounded re-entrant corner, peak", &rows, last.value, last.bar / last.value.abs(), false);
 }
