@@ -570,6 +570,7 @@ fn watch(
                 let factor = singular_field_factor(sp).unwrap_or(1.0).max(f64::MIN_POSITIVE);
                 let floor = 0.01 * peak_max * radius.powf(1.0 - sp.lambda) / factor;
                 (value, floor, QuantityClass::Functional, None)
+                // (reported only: see the note where the rows become `Watched`)
             }
         };
         let slot = goal.map(|g| {
@@ -591,7 +592,13 @@ fn watch(
     rows.into_iter()
         .zip(quantities)
         .map(|((value, floor, class, slot), (_, _, q))| {
-            let w = Watched::new(value, floor, class);
+            let mut w = Watched::new(value, floor, class);
+            // A singular coefficient is reported with its bar but does not hold the loop: it
+            // describes a point whose stress is mesh-dependent anyway, and at a triple
+            // junction it jitters by 1e-3 from one remeshing to the next.
+            if let Quantity::Singular(_) = q {
+                w = w.reported_only();
+            }
             if let Quantity::Energy = q {
                 // |W − W_h| = ½‖V − V_h‖², recovered: ½η² (the energy estimate's own
                 // indicators already drive the marking).

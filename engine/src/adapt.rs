@@ -38,7 +38,7 @@
 //! energy, charges and floating potentials, p for field values — or faster; an oscillating,
 //! growing or pre-asymptotic sequence, or one small change after a large one, is not
 //! converged whatever its last change). The loop stops with `converged = true` when, after
-//! at least `min_meshes` meshes, every watched quantity's verdict is converged (its bar at
+//! at least `min_meshes` meshes, every deciding watched quantity's verdict is converged (its bar at
 //! most the tolerance times max(|value|, floor)); with nothing watched, when the estimated
 //! relative energy-norm error η/‖V_h‖ is at most the tolerance. (The energy-norm error of a
 //! mesh graded towards singular points settles far above the errors of the energy, charges
@@ -156,12 +156,20 @@ pub struct Watched {
     /// Per-triangle indicators of its error, in its unit, to refine towards it (a goal's
     /// [`crate::GoalEstimate::indicators`]), if any.
     pub indicators: Option<Vec<f64>>,
+    /// Its verdict holds the loop (true), or it is only reported with its bar.
+    pub decides: bool,
 }
 
 impl Watched {
     /// A watched value without an estimate of its own.
     pub fn new(value: f64, floor: f64, class: QuantityClass) -> Watched {
-        Watched { value, floor, class, estimate: None, indicators: None }
+        Watched { value, floor, class, estimate: None, indicators: None, decides: true }
+    }
+
+    /// The same, reported with its bar and verdict but not holding the loop.
+    pub fn reported_only(mut self) -> Watched {
+        self.decides = false;
+        self
     }
 
     /// The same with its own estimate and its indicators.
@@ -315,7 +323,9 @@ pub fn adapt_watching(
         progress(&step);
         history.push(step);
         let step = history.last().expect("just pushed");
-        let open: Vec<usize> = (0..step.bars.len()).filter(|&q| step.bars[q].status != BarStatus::Converged).collect();
+        let open: Vec<usize> = (0..step.bars.len())
+            .filter(|&q| step.watched[q].decides && step.bars[q].status != BarStatus::Converged)
+            .collect();
         // With watched quantities, their verdicts decide (the energy among them, with its
         // own bar ½η²); without, the relative energy-norm estimate does.
         let watching = !step.bars.is_empty();
@@ -358,7 +368,7 @@ pub fn adapt_watching(
         let step = history.last().expect("pushed above");
         let mut factor = (rel / ap.tolerance).powf(2.0 / p);
         for (w, b) in step.watched.iter().zip(&step.bars) {
-            if b.relative.is_finite() && b.status != BarStatus::Converged {
+            if w.decides && b.relative.is_finite() && b.status != BarStatus::Converged {
                 let e = match w.class {
                     QuantityClass::Functional => 1.0 / p,
                     QuantityClass::Field => 2.0 / p,
@@ -368,8 +378,9 @@ pub fn adapt_watching(
         }
         let target = (nt * factor * 1.1).clamp(1.5 * nt, 2.0 * nt);
         if target * per > ap.max_unknowns as f64 {
-            let open: Vec<usize> =
-                (0..step.bars.len()).filter(|&q| step.bars[q].status != BarStatus::Converged).collect();
+            let open: Vec<usize> = (0..step.bars.len())
+                .filter(|&q| step.watched[q].decides && step.bars[q].status != BarStatus::Converged)
+                .collect();
             let reason = format!(
                 "not converged: the next mesh would exceed {} unknowns; {}",
                 ap.max_unknowns,

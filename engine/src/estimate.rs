@@ -434,44 +434,74 @@ pub(crate) fn recover_field<'a>(mesh: &Mesh, quad: &SingularQuadrature, potentia
     RecoveredField { potential, recovery: recover(mesh, potential, quad) }
 }
 
-/// Per triangle: the error product ∫ₜ (G_u − ∇u_h)ᵀ ε (G_z − ∇z_h) w dA of two recovered
-/// fields (signed), and, for a weight ω, ∫ₜ ω·(G_u − ∇u_h)ᵀ(G_u − ∇u_h) w dA and
-/// ∫ₜ ω·|∇u_h|² w dA and ∫ₜ ω w dA (w = 1 planar, 2πr axisymmetric).
+/// The primal solution at every quadrature point of every triangle, computed once and
+/// shared by the error products of all goals of a mesh: (weight w·|J|·(2πr), x, y, E_h, G − ∇V_h).
+pub(crate) struct PrimalSamples {
+    start: Vec<usize>,
+    data: Vec<[f64; 7]>,
+}
+
+/// Samples the recovered primal field `u` for [`error_products`].
+pub(crate) fn primal_samples(mesh: &Mesh, quad: &SingularQuadrature, u: &RecoveredField<'_>) -> PrimalSamples {
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    let per: Vec<Vec<[f64; 7]>> = (0..mesh.triangles.len())
+        .into_par_iter()
+        .map(|t| {
+            let corner = quad.corner(mesh, t);
+            quad.rule(corner)
+                .iter()
+                .map(|&(xi, eta, w)| {
+                    let pu = eval_point(mesh, u.potential, t, xi, eta);
+                    let mut weight = w * pu.det.abs();
+                    if axisym {
+                        weight *= 2.0 * std::f64::consts::PI * pu.at[0];
+                    }
+                    let gu = u.recovery.at(mesh, t, corner, xi, eta, pu.at);
+                    // ∇V_h = −E.
+                    [weight, pu.at[0], pu.at[1], pu.e[0], pu.e[1], gu[0] + pu.e[0], gu[1] + pu.e[1]]
+                })
+                .collect()
+        })
+        .collect();
+    let mut start = Vec::with_capacity(per.len() + 1);
+    start.push(0);
+    for v in &per {
+        start.push(start.last().copied().unwrap_or(0) + v.len());
+    }
+    PrimalSamples { start, data: per.concat() }
+}
+
+/// Per triangle: the error product ∫ₜ (G_u − ∇u_h)ᵀ ε (G_z − ∇z_h) w dA of the primal
+/// (sampled once, [`primal_samples`]) and a recovered dual field (signed), and, for a
+/// weight ω, ∫ₜ ω·(G_u − ∇u_h)ᵀ(G_u − ∇u_h) w dA and ∫ₜ ω·|∇u_h|² w dA and ∫ₜ ω w dA
+/// (w = 1 planar, 2πr axisymmetric).
 pub(crate) fn error_products(
     mesh: &Mesh,
     problem: &Problem,
     quad: &SingularQuadrature,
-    u: &RecoveredField<'_>,
+    u: &PrimalSamples,
     z: &RecoveredField<'_>,
     omega: Option<&(dyn Fn(Xy) -> f64 + Sync)>,
 ) -> Vec<[f64; 4]> {
-    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     (0..mesh.triangles.len())
         .into_par_iter()
         .map(|t| {
             let eps = absolute_permittivity(problem, mesh.regions[t] as usize);
             let corner = quad.corner(mesh, t);
             let mut out = [0.0; 4];
-            for &(xi, eta, w) in quad.rule(corner) {
-                let pu = eval_point(mesh, u.potential, t, xi, eta);
+            let samples = &u.data[u.start[t]..u.start[t + 1]];
+            for (&(xi, eta, _), s) in quad.rule(corner).iter().zip(samples) {
+                let [weight, x, y, ex, ey, dux, duy] = *s;
                 let pz = eval_point(mesh, z.potential, t, xi, eta);
-                let mut weight = w * pu.det.abs();
-                if axisym {
-                    weight *= 2.0 * std::f64::consts::PI * pu.at[0];
-                }
-                let gu = u.recovery.at(mesh, t, corner, xi, eta, pu.at);
-                let gz = z.recovery.at(mesh, t, corner, xi, eta, pu.at);
-                // ∇V_h = −E.
-                let du = [gu[0] + pu.e[0], gu[1] + pu.e[1]];
+                let gz = z.recovery.at(mesh, t, corner, xi, eta, [x, y]);
                 let dz = [gz[0] + pz.e[0], gz[1] + pz.e[1]];
                 out[0] += weight
-                    * (du[0] * (eps[0][0] * dz[0] + eps[0][1] * dz[1])
-                        + du[1] * (eps[1][0] * dz[0] + eps[1][1] * dz[1]));
+                    * (dux * (eps[0][0] * dz[0] + eps[0][1] * dz[1]) + duy * (eps[1][0] * dz[0] + eps[1][1] * dz[1]));
                 if let Some(om) = omega {
-                    let o = om(pu.at);
+                    let o = om([x, y]);
                     if o != 0.0 {
-                        out[1] += weight * o * (du[0] * du[0] + du[1] * du[1]);
-                        out[2] += weight * o * (pu.e[0] * pu.e[0] + pu.e[1] * pu.e[1]);
+                        out[1] += weight * o * (dux * dux + duy * duy);
+                        out[2] += weight * o * (ex * ex + ey * ey);
                         out[3] += weight * o;
                     }
                 }
