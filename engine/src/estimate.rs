@@ -512,6 +512,11 @@ pub(crate) fn error_products(
 }
 
 impl RecoveredField<'_> {
+    /// The nodal potential it was recovered from.
+    pub(crate) fn potential(&self) -> &[f64] {
+        self.potential
+    }
+
     /// At point `x` (reference point (ξ, η) of triangle `t`): the recovered field E* = −G
     /// and the element's own field E_h.
     pub(crate) fn fields_at(
