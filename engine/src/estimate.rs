@@ -146,85 +146,21 @@ fn basis(s: f64, t: f64) -> [f64; 6] {
 /// One gradient sample: position and ∇V_h.
 type Sample = (Xy, [f64; 2]);
 
-/// Solves the least-squares problems min Σ(rowᵢ·x − yᵢ,c)² over the first `m` unknowns, for
-/// `K` right-hand sides c at once, by the normal equations (Gaussian elimination with partial
-/// pivoting); None when they are singular to working precision.
-fn least_squares<const K: usize>(rows: impl Iterator<Item = ([f64; 6], [f64; K])>, m: usize) -> Option<[[f64; 6]; K]> {
-    let mut a = [[0.0; 6]; 6];
-    let mut rhs = [[0.0; K]; 6];
-    for (b, y) in rows {
-        for i in 0..m {
-            for j in 0..m {
-                a[i][j] += b[i] * b[j];
-            }
-            for c in 0..K {
-                rhs[i][c] += b[i] * y[c];
-            }
-        }
-    }
-    let big = (0..m).map(|i| a[i][i]).fold(0.0, f64::max);
-    for col in 0..m {
-        let piv = (col..m).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
-        if a[piv][col].abs().partial_cmp(&(1e-10 * big)) != Some(std::cmp::Ordering::Greater) {
-            return None;
-        }
-        a.swap(col, piv);
-        rhs.swap(col, piv);
-        for row in col + 1..m {
-            let f = a[row][col] / a[col][col];
-            let pivot_row = a[col];
-            for (x, p) in a[row][col..m].iter_mut().zip(&pivot_row[col..m]) {
-                *x -= f * p;
-            }
-            let pivot_rhs = rhs[col];
-            for c in 0..K {
-                rhs[row][c] -= f * pivot_rhs[c];
-            }
-        }
-    }
-    let mut x = [[0.0; 6]; K];
-    for row in (0..m).rev() {
-        for c in 0..K {
-            let s: f64 = (row + 1..m).map(|k| a[row][k] * x[c][k]).sum();
-            x[c][row] = (rhs[row][c] - s) / a[row][row];
-        }
-    }
-    Some(x)
-}
-
-/// The largest distance of a sample from `center` (the patch scale), if positive.
-fn patch_scale(samples: &[Sample], center: Xy) -> Option<f64> {
-    let scale2 =
-        samples.iter().map(|(p, _)| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
+/// The largest distance of a sample point from `center` (the patch scale), if positive.
+fn patch_scale_of(points: &[Xy], center: Xy) -> Option<f64> {
+    let scale2 = points.iter().map(|p| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
     (scale2 > 0.0).then(|| scale2.sqrt())
 }
 
-/// Polynomial fit of both gradient components with the first `m` basis functions.
-fn fit_polynomial(samples: &[Sample], center: Xy, m: usize) -> Option<(FitKind, f64)> {
-    let scale = patch_scale(samples, center)?;
-    // Both components share the basis: one normal matrix, two right-hand sides.
-    let rows = samples.iter().map(|(p, g)| (basis((p[0] - center[0]) / scale, (p[1] - center[1]) / scale), *g));
-    let c = least_squares::<2>(rows, m)?;
-    Some((FitKind::Polynomial(c), scale))
-}
-
-/// Fit with the singular basis of exponent `lambda` plus a constant, both components
-/// jointly (four unknowns). The branch cut of the angle is put opposite the patch's mean
-/// direction, outside the region's sector.
-fn fit_singular(samples: &[Sample], center: Xy, lambda: f64) -> Option<(FitKind, f64)> {
-    let scale = patch_scale(samples, center)?;
-    let (mx, my) = samples.iter().fold((0.0, 0.0), |a, (p, _)| {
+/// The branch cut of the singular basis' angle: opposite the patch's mean direction from
+/// the singular point, outside the region's sector.
+fn branch_cut(points: &[Xy], center: Xy) -> f64 {
+    let (mx, my) = points.iter().fold((0.0, 0.0), |a, p| {
         let (dx, dy) = (p[0] - center[0], p[1] - center[1]);
         let d = dx.hypot(dy).max(1e-300);
         (a.0 + dx / d, a.1 + dy / d)
     });
-    let cut = my.atan2(mx) + std::f64::consts::PI;
-    let rows = samples.iter().flat_map(|(p, g)| {
-        let [u, v] = singular_gradients((p[0] - center[0]) / scale, (p[1] - center[1]) / scale, lambda, cut);
-        [([u[0], v[0], 1.0, 0.0, 0.0, 0.0], [g[0]]), ([u[1], v[1], 0.0, 1.0, 0.0, 0.0], [g[1]])]
-    });
-    let [c] = least_squares::<1>(rows, 4)?;
-    Some((FitKind::Singular { lambda, cut, coef: [c[0], c[1], c[2], c[3]] }, scale))
+    my.atan2(mx) + std::f64::consts::PI
 }
 
 /// The recovered gradient of a solution.
@@ -265,107 +201,283 @@ impl Recovery {
     }
 }
 
-/// Fits the recovered gradient per vertex and region as described in the module docs.
-fn recover(mesh: &Mesh, potential: &[f64], quad: &SingularQuadrature) -> Recovery {
-    let p2 = !mesh.mid_nodes.is_empty();
-    let (m, points): (usize, Vec<(f64, f64)>) =
-        if p2 { (6, QUAD_DEG2.iter().map(|q| (q.0, q.1)).collect()) } else { (3, vec![(1.0 / 3.0, 1.0 / 3.0)]) };
-    let nt = mesh.triangles.len();
-    // Samples of element t at samples[t·k .. (t+1)·k], k points per element.
-    let k = points.len();
-    let samples: Vec<Sample> = (0..nt * k)
-        .into_par_iter()
-        .map(|i| {
-            let (xi, eta) = points[i % k];
-            let PointValue { e, at, .. } = eval_point(mesh, potential, i / k, xi, eta);
-            (at, [-e[0], -e[1]])
-        })
-        .collect();
-    let nv = mesh.num_vertices as usize;
-    let (start, around) = mesh.vertex_triangles();
-    let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
-    let fits: Vec<Vec<PatchFit>> = (0..nv as u32)
-        .into_par_iter()
-        .map(|v| {
-            let center = mesh.nodes[v as usize];
-            let mut regions: Vec<u32> = star(v).iter().map(|&t| mesh.regions[t as usize]).collect();
-            regions.sort_unstable();
-            regions.dedup();
-            regions
-                .into_iter()
-                .map(|region| {
-                    let mut patch: Vec<u32> =
-                        star(v).iter().copied().filter(|&t| mesh.regions[t as usize] == region).collect();
-                    let gather = |patch: &[u32]| -> Vec<Sample> {
-                        patch.iter().flat_map(|&t| &samples[t as usize * k..(t as usize + 1) * k]).copied().collect()
-                    };
-                    let mut result = None;
-                    // At a singular point the gradient is unbounded and no polynomial fits
-                    // it: the patch is fitted with the singular basis instead.
-                    let lambda = quad.lambda_at(v);
-                    let unknowns = if lambda.is_some() { 2 } else { m };
-                    for grow in 0..2 {
-                        if grow == 1 {
-                            // One more ring of elements of the same region.
-                            let mut more: Vec<u32> = patch
+/// How each vertex patch is fitted: everything about the least-squares fits that depends on
+/// the mesh only (patch, centre, scale, basis and the inverse of its normal matrix), so that
+/// the gradients of several fields on one mesh (a solution and its dual problems) are
+/// recovered by a matrix–vector product per patch.
+pub(crate) struct RecoveryPlan {
+    p2: bool,
+    /// Sample points per element (reference coordinates).
+    points: Vec<(f64, f64)>,
+    /// Per vertex, one plan per region there.
+    patches: Vec<Vec<PatchPlan>>,
+}
+
+struct PatchPlan {
+    region: u32,
+    center: Xy,
+    scale: f64,
+    triangles: Vec<u32>,
+    solver: Solver,
+}
+
+enum Solver {
+    /// Polynomial basis of `m` terms (see `basis`), normal matrix inverted.
+    Poly { m: usize, inv: [[f64; 6]; 6] },
+    /// Singular basis with a constant, both components jointly (four unknowns).
+    Singular { lambda: f64, cut: f64, inv: [[f64; 6]; 6] },
+    /// The mean of the samples (a patch too small for a fit).
+    Mean,
+}
+
+/// Inverts the leading `m`×`m` block of the normal matrix `a` (Gauss–Jordan with partial
+/// pivoting); None when it is singular to working precision (a pivot at most 1e-10 of the
+/// largest diagonal entry): the fit then falls back to a larger patch or the mean.
+fn invert(mut a: [[f64; 6]; 6], m: usize) -> Option<[[f64; 6]; 6]> {
+    let big = (0..m).map(|i| a[i][i]).fold(0.0, f64::max);
+    let mut inv = [[0.0; 6]; 6];
+    for (i, row) in inv.iter_mut().enumerate().take(m) {
+        row[i] = 1.0;
+    }
+    for col in 0..m {
+        let piv = (col..m).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
+        if a[piv][col].abs().partial_cmp(&(1e-10 * big)) != Some(std::cmp::Ordering::Greater) {
+            return None;
+        }
+        a.swap(col, piv);
+        inv.swap(col, piv);
+        let d = a[col][col];
+        for k in 0..m {
+            a[col][k] /= d;
+            inv[col][k] /= d;
+        }
+        for row in 0..m {
+            if row != col {
+                let f = a[row][col];
+                if f != 0.0 {
+                    for k in 0..m {
+                        a[row][k] -= f * a[col][k];
+                        inv[row][k] -= f * inv[col][k];
+                    }
+                }
+            }
+        }
+    }
+    Some(inv)
+}
+
+impl RecoveryPlan {
+    /// Chooses every patch and its fit from the mesh (module docs).
+    pub(crate) fn new(mesh: &Mesh, quad: &SingularQuadrature) -> RecoveryPlan {
+        let p2 = !mesh.mid_nodes.is_empty();
+        let (m, points): (usize, Vec<(f64, f64)>) =
+            if p2 { (6, QUAD_DEG2.iter().map(|q| (q.0, q.1)).collect()) } else { (3, vec![(1.0 / 3.0, 1.0 / 3.0)]) };
+        let nt = mesh.triangles.len();
+        let k = points.len();
+        let zero = vec![0.0; mesh.nodes.len()];
+        let positions: Vec<Xy> = (0..nt * k)
+            .into_par_iter()
+            .map(|i| eval_point(mesh, &zero, i / k, points[i % k].0, points[i % k].1).at)
+            .collect();
+        let nv = mesh.num_vertices as usize;
+        let (start, around) = mesh.vertex_triangles();
+        let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
+        let patches: Vec<Vec<PatchPlan>> = (0..nv as u32)
+            .into_par_iter()
+            .map(|v| {
+                let center = mesh.nodes[v as usize];
+                let mut regions: Vec<u32> = star(v).iter().map(|&t| mesh.regions[t as usize]).collect();
+                regions.sort_unstable();
+                regions.dedup();
+                regions
+                    .into_iter()
+                    .map(|region| {
+                        let mut patch: Vec<u32> =
+                            star(v).iter().copied().filter(|&t| mesh.regions[t as usize] == region).collect();
+                        let pts = |patch: &[u32]| -> Vec<Xy> {
+                            patch
                                 .iter()
-                                .flat_map(|&t| mesh.triangles[t as usize])
-                                .flat_map(|w| star(w).iter().copied())
-                                .filter(|&t| mesh.regions[t as usize] == region)
-                                .collect();
-                            more.sort_unstable();
-                            more.dedup();
-                            patch = more;
-                        }
-                        let s = gather(&patch);
-                        // Ask for a margin of samples over unknowns so the fit is not an
-                        // interpolation of a few points.
-                        if s.len() > unknowns {
-                            let r = match lambda {
-                                Some(l) => fit_singular(&s, center, l),
-                                None => fit_polynomial(&s, center, m),
+                                .flat_map(|&t| &positions[t as usize * k..(t as usize + 1) * k])
+                                .copied()
+                                .collect()
+                        };
+                        // At a singular point the gradient is unbounded and no polynomial fits
+                        // it: the patch is fitted with the singular basis instead.
+                        let lambda = quad.lambda_at(v);
+                        let unknowns = if lambda.is_some() { 2 } else { m };
+                        let mut found = None;
+                        for grow in 0..2 {
+                            if grow == 1 {
+                                // One more ring of elements of the same region.
+                                let mut more: Vec<u32> = patch
+                                    .iter()
+                                    .flat_map(|&t| mesh.triangles[t as usize])
+                                    .flat_map(|w| star(w).iter().copied())
+                                    .filter(|&t| mesh.regions[t as usize] == region)
+                                    .collect();
+                                more.sort_unstable();
+                                more.dedup();
+                                patch = more;
+                            }
+                            let p = pts(&patch);
+                            // Ask for a margin of samples over unknowns so the fit is not an
+                            // interpolation of a few points.
+                            if p.len() <= unknowns {
+                                continue;
+                            }
+                            let Some(scale) = patch_scale_of(&p, center) else { continue };
+                            let mut a = [[0.0; 6]; 6];
+                            let solver = match lambda {
+                                Some(l) => {
+                                    let cut = branch_cut(&p, center);
+                                    for q in &p {
+                                        let [uu, vv] = singular_gradients(
+                                            (q[0] - center[0]) / scale,
+                                            (q[1] - center[1]) / scale,
+                                            l,
+                                            cut,
+                                        );
+                                        for row in [[uu[0], vv[0], 1.0, 0.0], [uu[1], vv[1], 0.0, 1.0]] {
+                                            for i in 0..4 {
+                                                for j in 0..4 {
+                                                    a[i][j] += row[i] * row[j];
+                                                }
+                                            }
+                                        }
+                                    }
+                                    invert(a, 4).map(|inv| Solver::Singular { lambda: l, cut, inv })
+                                }
+                                None => {
+                                    for q in &p {
+                                        let b = basis((q[0] - center[0]) / scale, (q[1] - center[1]) / scale);
+                                        for i in 0..m {
+                                            for j in 0..m {
+                                                a[i][j] += b[i] * b[j];
+                                            }
+                                        }
+                                    }
+                                    invert(a, m).map(|inv| Solver::Poly { m, inv })
+                                }
                             };
-                            if r.is_some() {
-                                result = r;
+                            if let Some(solver) = solver {
+                                found = Some((scale, solver));
                                 break;
                             }
                         }
-                    }
-                    let (kind, scale) = result.unwrap_or_else(|| {
-                        let s = gather(&patch);
-                        let n = s.len().max(1) as f64;
-                        let mut c = [[0.0; 6]; 2];
-                        c[0][0] = s.iter().map(|x| x.1[0]).sum::<f64>() / n;
-                        c[1][0] = s.iter().map(|x| x.1[1]).sum::<f64>() / n;
-                        (FitKind::Polynomial(c), 1.0)
-                    });
-                    PatchFit { region, center, scale, kind }
-                })
-                .collect()
-        })
-        .collect();
-    let mut rec = Recovery { fits, nodes: Vec::new() };
-    rec.nodes = (0..nt)
-        .into_par_iter()
-        .map(|t| {
-            let tri = mesh.triangles[t];
-            let r = mesh.regions[t];
-            let mut g = [[0.0; 2]; 6];
-            for k in 0..3 {
-                g[k] = rec.fit_of(tri[k], r).at_center();
-            }
-            if p2 {
-                let mids = mesh.mid_nodes[t];
-                for (k, (a, b)) in [(0, 1), (1, 2), (2, 0)].into_iter().enumerate() {
-                    let x = mesh.nodes[mids[k] as usize];
-                    let (ga, gb) = (rec.fit_of(tri[a], r).eval(x), rec.fit_of(tri[b], r).eval(x));
-                    g[3 + k] = [0.5 * (ga[0] + gb[0]), 0.5 * (ga[1] + gb[1])];
+                        let (scale, solver) = found.unwrap_or((1.0, Solver::Mean));
+                        PatchPlan { region, center, scale, triangles: patch, solver }
+                    })
+                    .collect()
+            })
+            .collect();
+        RecoveryPlan { p2, points, patches }
+    }
+
+    /// The recovered gradient of `potential` (module docs).
+    fn apply(&self, mesh: &Mesh, potential: &[f64]) -> Recovery {
+        let k = self.points.len();
+        let nt = mesh.triangles.len();
+        let samples: Vec<Sample> = (0..nt * k)
+            .into_par_iter()
+            .map(|i| {
+                let (xi, eta) = self.points[i % k];
+                let PointValue { e, at, .. } = eval_point(mesh, potential, i / k, xi, eta);
+                (at, [-e[0], -e[1]])
+            })
+            .collect();
+        let fits: Vec<Vec<PatchFit>> = self
+            .patches
+            .par_iter()
+            .map(|plans| {
+                plans
+                    .iter()
+                    .map(|pl| {
+                        let samples = pl.triangles.iter().flat_map(|&t| &samples[t as usize * k..(t as usize + 1) * k]);
+                        let (c, s) = (pl.center, pl.scale);
+                        let kind = match &pl.solver {
+                            Solver::Poly { m, inv } => {
+                                let mut rhs = [[0.0; 6]; 2];
+                                for (q, g) in samples {
+                                    let b = basis((q[0] - c[0]) / s, (q[1] - c[1]) / s);
+                                    for i in 0..*m {
+                                        rhs[0][i] += b[i] * g[0];
+                                        rhs[1][i] += b[i] * g[1];
+                                    }
+                                }
+                                let mut coef = [[0.0; 6]; 2];
+                                for comp in 0..2 {
+                                    for i in 0..*m {
+                                        coef[comp][i] = (0..*m).map(|j| inv[i][j] * rhs[comp][j]).sum();
+                                    }
+                                }
+                                FitKind::Polynomial(coef)
+                            }
+                            Solver::Singular { lambda, cut, inv } => {
+                                let mut rhs = [0.0; 4];
+                                for (q, g) in samples {
+                                    let [uu, vv] =
+                                        singular_gradients((q[0] - c[0]) / s, (q[1] - c[1]) / s, *lambda, *cut);
+                                    for (row, y) in [([uu[0], vv[0], 1.0, 0.0], g[0]), ([uu[1], vv[1], 0.0, 1.0], g[1])]
+                                    {
+                                        for i in 0..4 {
+                                            rhs[i] += row[i] * y;
+                                        }
+                                    }
+                                }
+                                let mut coef = [0.0; 4];
+                                for i in 0..4 {
+                                    coef[i] = (0..4).map(|j| inv[i][j] * rhs[j]).sum();
+                                }
+                                FitKind::Singular { lambda: *lambda, cut: *cut, coef }
+                            }
+                            Solver::Mean => {
+                                let (mut sum, mut n) = ([0.0; 2], 0.0);
+                                for (_, g) in samples {
+                                    sum[0] += g[0];
+                                    sum[1] += g[1];
+                                    n += 1.0;
+                                }
+                                let n = f64::max(n, 1.0);
+                                let mut c = [[0.0; 6]; 2];
+                                c[0][0] = sum[0] / n;
+                                c[1][0] = sum[1] / n;
+                                FitKind::Polynomial(c)
+                            }
+                        };
+                        PatchFit { region: pl.region, center: c, scale: s, kind }
+                    })
+                    .collect()
+            })
+            .collect();
+        let p2 = self.p2;
+        let mut rec = Recovery { fits, nodes: Vec::new() };
+        rec.nodes = (0..nt)
+            .into_par_iter()
+            .map(|t| {
+                let tri = mesh.triangles[t];
+                let r = mesh.regions[t];
+                let mut g = [[0.0; 2]; 6];
+                for k in 0..3 {
+                    g[k] = rec.fit_of(tri[k], r).at_center();
                 }
-            }
-            g
-        })
-        .collect();
-    rec
+                if p2 {
+                    let mids = mesh.mid_nodes[t];
+                    for (k, (a, b)) in [(0, 1), (1, 2), (2, 0)].into_iter().enumerate() {
+                        let x = mesh.nodes[mids[k] as usize];
+                        let (ga, gb) = (rec.fit_of(tri[a], r).eval(x), rec.fit_of(tri[b], r).eval(x));
+                        g[3 + k] = [0.5 * (ga[0] + gb[0]), 0.5 * (ga[1] + gb[1])];
+                    }
+                }
+                g
+            })
+            .collect();
+        rec
+    }
+}
+
+/// Fits the recovered gradient per vertex and region as described in the module docs.
+fn recover(mesh: &Mesh, potential: &[f64], quad: &SingularQuadrature) -> Recovery {
+    RecoveryPlan::new(mesh, quad).apply(mesh, potential)
 }
 
 /// The absolute permittivity tensor ε₀·εᵣ of region `r`.
@@ -426,6 +538,12 @@ pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> Er
 pub(crate) struct RecoveredField<'a> {
     potential: &'a [f64],
     recovery: Recovery,
+}
+
+/// Recovers the gradient of `potential` with a plan made for its mesh (the plan is shared
+/// by all the fields of one mesh).
+pub(crate) fn recover_field_with<'a>(plan: &RecoveryPlan, mesh: &Mesh, potential: &'a [f64]) -> RecoveredField<'a> {
+    RecoveredField { potential, recovery: plan.apply(mesh, potential) }
 }
 
 /// Recovers the gradient of `potential` (any nodal field of the mesh's space: a solution or

@@ -42,7 +42,7 @@
 //!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364 (the
 //!   recovered gradients).
 
-use crate::estimate::{error_products, primal_samples, recover_field};
+use crate::estimate::{error_products, primal_samples, recover_field, recover_field_with, RecoveryPlan};
 use crate::fields::SingularQuadrature;
 use crate::problem::Problem;
 use crate::solve::{DualCase, FactoredSolution};
@@ -220,7 +220,8 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
         .collect();
     let goals = &local[..];
     let quad = SingularQuadrature::new(mesh);
-    let u = recover_field(mesh, &quad, &sol.potential);
+    let plan = RecoveryPlan::new(mesh, &quad);
+    let u = recover_field_with(&plan, mesh, &sol.potential);
     let primal = primal_samples(mesh, &quad, &u);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     // The dual problems that need a solve, in goal order.
@@ -299,7 +300,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     .iter()
                     .position(|&c| c == k)
                     .expect("a charge goal names a conductor at a fixed potential");
-                let z = recover_field(mesh, &quad, &solved.columns[col]);
+                let z = recover_field_with(&plan, mesh, &solved.columns[col]);
                 let p = error_products(mesh, problem, &quad, &primal, &z, None);
                 let sum: f64 = p.iter().map(|x| x[0]).sum();
                 GoalEstimate {
@@ -310,7 +311,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
             Goal::FloatingPotential(k) => {
                 let zp = duals.next().expect("one dual per floating potential");
-                let z = recover_field(mesh, &quad, &zp);
+                let z = recover_field_with(&plan, mesh, &zp);
                 let p = error_products(mesh, problem, &quad, &primal, &z, None);
                 GoalEstimate {
                     value: sol.conductor_potentials[k],
@@ -320,7 +321,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
             Goal::LocalField { center, radius_m, region } => {
                 let zp = duals.next().expect("one dual per local field");
-                let z = recover_field(mesh, &quad, &zp);
+                let z = recover_field_with(&plan, mesh, &zp);
                 let omega = move |x: Xy| bump(center, radius_m, x);
                 let mut p = error_products(mesh, problem, &quad, &primal, &z, Some(&omega));
                 if let Some(r) = region {
