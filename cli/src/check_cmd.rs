@@ -137,7 +137,7 @@ pub struct QuantityStudy {
 }
 
 /// A value with its error bar (see `engine::certify`).
-#[derive(Serialize, Debug)]
+#[derive(Serialize, Debug, Clone)]
 pub struct BarReport {
     /// The value on the finest mesh so far.
     pub value: f64,
@@ -151,13 +151,22 @@ pub struct BarReport {
     pub reason: String,
 }
 
+/// The word for a verdict in the reports.
+fn status_word(s: engine::BarStatus) -> &'static str {
+    if s == engine::BarStatus::Converged {
+        "converged"
+    } else {
+        "not converged"
+    }
+}
+
 impl BarReport {
     fn of(b: &engine::ErrorBar) -> BarReport {
         BarReport {
             value: b.value,
             absolute: b.absolute.is_finite().then_some(b.absolute),
             relative: b.relative.is_finite().then_some(b.relative),
-            status: if b.status == engine::BarStatus::Converged { "converged" } else { "not converged" },
+            status: status_word(b.status),
             reason: b.reason.clone(),
         }
     }
@@ -317,13 +326,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     for p in &mut singular {
         let name = format!("singular coefficient A at {}", p.id);
         if let Some(q) = convergence.iter().find(|q| q.quantity == name) {
-            p.coefficient_error_bar = Some(BarReport {
-                value: q.error_bar.value,
-                absolute: q.error_bar.absolute,
-                relative: q.error_bar.relative,
-                status: q.error_bar.status,
-                reason: q.error_bar.reason.clone(),
-            });
+            p.coefficient_error_bar = Some(q.error_bar.clone());
         }
     }
     // Each region's peak with the bar of the watched peak away from singular points, where
@@ -334,9 +337,8 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         if g.near_singular_point.is_some() {
             g.status = Some(match watched {
                 Some(q) => format!(
-                    "singular — mesh-dependent; away from singular points {:.4} kV/mm ± {} ({})",
-                    q.error_bar.value / 1e6,
-                    q.error_bar.absolute.map(|b| format!("{:.2e}", b / 1e6)).unwrap_or_else(|| "?".into()),
+                    "singular — mesh-dependent; away from singular points {} ({})",
+                    field_with_bar(&q.error_bar),
                     q.error_bar.status
                 ),
                 None => "singular — mesh-dependent".into(),
@@ -349,11 +351,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
                 g.error_bar_v_per_m = q.error_bar.absolute;
                 g.status = Some(q.error_bar.status.to_string());
             } else {
-                g.status = Some(format!(
-                    "the peak away from singular points is {:.4} kV/mm ± {}",
-                    q.error_bar.value / 1e6,
-                    q.error_bar.absolute.map(|b| format!("{:.2e}", b / 1e6)).unwrap_or_else(|| "?".into())
-                ));
+                g.status = Some(format!("the peak away from singular points is {}", field_with_bar(&q.error_bar)));
             }
         }
     }
@@ -645,7 +643,7 @@ fn study(
                 observed_order,
                 own_estimate: own,
                 error_bar: bar.absolute.is_finite().then_some(bar.absolute),
-                status: if bar.status == engine::BarStatus::Converged { "converged" } else { "not converged" },
+                status: status_word(bar.status),
             }
         })
         .collect();
@@ -873,6 +871,12 @@ fn render_check(r: &CheckResults, unit: &str) -> String {
         }
     }
     s
+}
+
+/// A field value with its bar in kV/mm ("3.1000 kV/mm ± 1.20e-3"; "?" where the bar is open).
+fn field_with_bar(bar: &BarReport) -> String {
+    let width = bar.absolute.map(|b| format!("{:.2e}", b / 1e6)).unwrap_or_else(|| "?".into());
+    format!("{:.4} kV/mm ± {width}", bar.value / 1e6)
 }
 
 #[cfg(test)]

@@ -330,6 +330,7 @@ pub fn adapt_watching(
         // own bar ½η²); without, the relative energy-norm estimate does.
         let watching = !step.bars.is_empty();
         let energy_ok = watching || rel <= ap.tolerance;
+        let energy_open = (!watching).then_some(rel);
         let stop = if history.len() >= ap.min_meshes.max(1) && energy_ok && open.is_empty() {
             Some((
                 true,
@@ -348,7 +349,7 @@ pub fn adapt_watching(
                 format!(
                     "not converged: {} meshes solved (the most allowed); {}",
                     history.len(),
-                    open_reason(rel, ap.tolerance, &open)
+                    open_reason(Some(rel), ap.tolerance, &open)
                 ),
             ))
         } else {
@@ -365,7 +366,6 @@ pub fn adapt_watching(
         // grow by 1.5× to 2× per step.
         // A functional's error goes like N^(−p), a field value's and the energy norm's like
         // N^(−p/2).
-        let step = history.last().expect("pushed above");
         let mut factor = (rel / ap.tolerance).powf(2.0 / p);
         for (w, b) in step.watched.iter().zip(&step.bars) {
             if w.decides && b.relative.is_finite() && b.status != BarStatus::Converged {
@@ -378,13 +378,10 @@ pub fn adapt_watching(
         }
         let target = (nt * factor * 1.1).clamp(1.5 * nt, 2.0 * nt);
         if target * per > ap.max_unknowns as f64 {
-            let open: Vec<usize> = (0..step.bars.len())
-                .filter(|&q| step.watched[q].decides && step.bars[q].status != BarStatus::Converged)
-                .collect();
             let reason = format!(
                 "not converged: the next mesh would exceed {} unknowns; {}",
                 ap.max_unknowns,
-                open_reason(if step.bars.is_empty() { rel } else { 0.0 }, ap.tolerance, &open)
+                open_reason(energy_open, ap.tolerance, &open)
             );
             let bars = step.bars.clone();
             return Ok(AdaptOutcome {
@@ -420,10 +417,11 @@ pub fn adapt_watching(
     }
 }
 
-/// Why the loop has not converged: the energy estimate and the quantities still open.
-fn open_reason(rel: f64, tolerance: f64, open: &[usize]) -> String {
+/// Why the loop has not converged: the energy estimate (when it decides) and the
+/// quantities still open.
+fn open_reason(energy: Option<f64>, tolerance: f64, open: &[usize]) -> String {
     let mut parts = Vec::new();
-    if rel > tolerance {
+    if let Some(rel) = energy.filter(|&rel| rel > tolerance) {
         parts.push(format!("estimated relative energy error {rel:.2e} above the tolerance {tolerance:.2e}"));
     }
     if !open.is_empty() {
@@ -507,24 +505,17 @@ impl SizePlan {
         // The triangles around a singular point are sized together: one size for the
         // whole patch, so that the corner vertex gets it (the background field averages
         // the sizes of a vertex's triangles).
-        let scale = mesh.scale();
-        let points: Vec<&mesher::SingularPoint> = mesh.singular_points.iter().filter(|sp| sp.lambda < p).collect();
-        let mut corners: Vec<Corner> = points
+        let vertices = mesh.singular_vertices();
+        let watched: Vec<(&mesher::SingularPoint, Option<u32>)> =
+            mesh.singular_points.iter().zip(vertices).filter(|(sp, _)| sp.lambda < p).collect();
+        let mut corners: Vec<Corner> = watched
             .iter()
-            .map(|sp| Corner { lambda: sp.lambda, h: 0.0, eta: 0.0, marked: false, triangles: 0 })
+            .map(|(sp, _)| Corner { lambda: sp.lambda, h: 0.0, eta: 0.0, marked: false, triangles: 0 })
             .collect();
         let mut corner_of = vec![None; nt];
-        // The vertex on each singular point, found once (the mesher puts a vertex exactly
-        // there); then a triangle is at a point when one of its corners is that vertex.
-        let mut vertex_point: std::collections::HashMap<u32, usize> = std::collections::HashMap::new();
-        let tol2 = (1e-9 * scale).powi(2);
-        for v in 0..mesh.num_vertices {
-            let q = mesh.nodes[v as usize];
-            if let Some(k) = points.iter().position(|sp| (q[0] - sp.at[0]).powi(2) + (q[1] - sp.at[1]).powi(2) <= tol2)
-            {
-                vertex_point.insert(v, k);
-            }
-        }
+        // A triangle is at a point when one of its corners is the point's vertex.
+        let vertex_point: std::collections::HashMap<u32, usize> =
+            watched.iter().enumerate().filter_map(|(k, (_, v))| v.map(|v| (v, k))).collect();
         for (t, tri) in mesh.triangles.iter().enumerate() {
             if let Some(k) = tri.iter().find_map(|v| vertex_point.get(v).copied()) {
                 let c = &mut corners[k];

@@ -14,8 +14,6 @@
 //!
 //! whose terms, in absolute value, are the triangles' indicators for refining towards the
 //! quantity. The quantities and their dual problems:
-//! - the stored energy W: no dual problem; W − W_h equals ½‖V − V_h‖² up to its sign, the
-//!   recovered ½η²;
 //! - the charge Q_k of a conductor at a fixed potential: Z is the potential with conductor
 //!   k at 1 V and the other fixed conductors at 0 (the capacitance column, already solved);
 //!   Q_k is the reaction a(V, Z) − ℓ(Z), so Q_k − Q_k,h = −a(V − V_h, Z − Z_h);
@@ -42,7 +40,7 @@
 //!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364 (the
 //!   recovered gradients).
 
-use crate::estimate::{error_products, primal_samples, recover_field, recover_field_with, RecoveryPlan};
+use crate::estimate::{error_products, primal_samples, recover_field_with, RecoveryPlan};
 use crate::fields::SingularQuadrature;
 use crate::problem::Problem;
 use crate::solve::{DualCase, FactoredSolution};
@@ -52,10 +50,6 @@ use mesher::{Mesh, Symmetry, Xy};
 /// A quantity of interest whose error is estimated.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Goal {
-    /// The stored energy: its error is ½‖V − V_h‖² in the energy norm (of either sign: the
-    /// computed energy is too high with fixed potentials, too low with given charges), the
-    /// recovered estimate ½η².
-    Energy,
     /// The charge of conductor `k` (a conductor at a fixed potential).
     Charge(usize),
     /// The potential of floating conductor `k`.
@@ -112,13 +106,6 @@ fn vertex_mean_field(mesh: &Mesh, potential: &[f64], v: u32, r: u32) -> [f64; 2]
     } else {
         acc
     }
-}
-
-/// The recovered (patch-fit) field at a mesh vertex of a region: a better value than the
-/// vertex mean of the element fields, for estimating a peak's error.
-pub fn recovered_field_at(mesh: &Mesh, solution: &crate::Solution, vertex: u32, region: u32) -> [f64; 2] {
-    let quad = SingularQuadrature::new(mesh);
-    recover_field(mesh, &quad, &solution.potential).field_at_vertex(vertex, region)
 }
 
 /// Radius of the disc of a peak's local field: three times the longest edge of the
@@ -228,7 +215,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let mut cases = Vec::new();
     for g in goals {
         match *g {
-            Goal::Energy | Goal::Charge(_) | Goal::PeakField { .. } => {}
+            Goal::Charge(_) | Goal::PeakField { .. } => {}
             Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
             Goal::LocalField { center, radius_m, region } => {
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
@@ -284,15 +271,6 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let estimates: Vec<GoalEstimate> = goals
         .iter()
         .map(|g| match *g {
-            Goal::Energy => {
-                let p = error_products(mesh, problem, &quad, &primal, &u, None);
-                let sum: f64 = p.iter().map(|x| x[0]).sum();
-                GoalEstimate {
-                    value: sol.energy,
-                    estimate: 0.5 * sum,
-                    indicators: p.iter().map(|x| 0.5 * x[0].abs()).collect(),
-                }
-            }
             Goal::Charge(k) => {
                 let col = solved
                     .capacitance

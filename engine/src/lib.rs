@@ -80,7 +80,7 @@ pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_S
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
-pub use goal::{goal_estimates, recovered_field_at, Goal, GoalEstimate};
+pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};
 pub use singular::{

@@ -21,9 +21,8 @@
 //!   finite element solutions of elliptic boundary value problems in non-smooth domains",
 //!   Math. Methods Appl. Sci. 19 (1996) 63–85 (the innermost elements of size h^(1/μ)).
 
-use crate::geometry::{norm, sub, Xy};
+use crate::geometry::{norm, sub};
 use crate::mesh::Mesh;
-use std::collections::HashMap;
 
 /// Least radius of a grading zone, in elements of the size around it.
 pub(crate) const GRADING_RADIUS_SIZES: f64 = 4.0;
@@ -105,16 +104,6 @@ pub struct Grading {
 }
 
 impl Grading {
-    /// The size the law asks for at distance `r_m` from the point (before the floor), metres;
-    /// beyond the zone, h₀ (the other sources take over).
-    pub fn law_size_m(&self, r_m: f64) -> f64 {
-        if r_m >= self.radius_m {
-            return self.outer_size_m;
-        }
-        let innermost = self.radius_m * (self.outer_size_m / self.radius_m).powf(1.0 / self.mu);
-        (self.outer_size_m * (r_m / self.radius_m).powf(1.0 - self.mu)).max(innermost)
-    }
-
     /// True unless the mesh is left ungraded at the point (grading off, budget, or missed).
     pub fn is_graded(&self) -> bool {
         matches!(self.status, GradingStatus::Graded | GradingStatus::AtFloor)
@@ -141,18 +130,22 @@ pub(crate) struct AuditInput<'a> {
 #[track_caller]
 pub(crate) fn audit(mesh: &mut Mesh, input: &AuditInput<'_>) {
     assert_eq!(input.laws.len(), mesh.singular_points.len(), "one grading law per singular point");
-    let key = |p: Xy| (p[0].to_bits(), p[1].to_bits());
-    let index: HashMap<(u64, u64), usize> =
-        mesh.singular_points.iter().enumerate().map(|(k, s)| (key(s.at), k)).collect();
+    // The longest edge ending at each point's vertex.
+    let vertices = mesh.singular_vertices();
+    let mut point_of = vec![u32::MAX; mesh.num_vertices as usize];
+    for (k, v) in vertices.iter().enumerate() {
+        if let Some(v) = v {
+            point_of[*v as usize] = k as u32;
+        }
+    }
     let mut longest = vec![0.0f64; mesh.singular_points.len()];
-    if !index.is_empty() {
-        for tri in &mesh.triangles {
-            for (i, &v) in tri.iter().enumerate() {
-                if let Some(&k) = index.get(&key(mesh.nodes[v as usize])) {
-                    let p = mesh.nodes[v as usize];
-                    for w in [tri[(i + 1) % 3], tri[(i + 2) % 3]] {
-                        longest[k] = longest[k].max(norm(sub(mesh.nodes[w as usize], p)));
-                    }
+    for tri in &mesh.triangles {
+        for (i, &v) in tri.iter().enumerate() {
+            let k = point_of[v as usize];
+            if k != u32::MAX {
+                let p = mesh.nodes[v as usize];
+                for w in [tri[(i + 1) % 3], tri[(i + 2) % 3]] {
+                    longest[k as usize] = longest[k as usize].max(norm(sub(mesh.nodes[w as usize], p)));
                 }
             }
         }

@@ -479,6 +479,24 @@ impl Mesh {
         self.mid_nodes = mids;
     }
 
+    /// The vertex on each singular point, in the order of `singular_points` (the mesher
+    /// puts a vertex exactly at every point; None only for a mesh built otherwise).
+    pub fn singular_vertices(&self) -> Vec<Option<u32>> {
+        let key = |p: Xy| (p[0].to_bits(), p[1].to_bits());
+        let mut found = vec![None; self.singular_points.len()];
+        if self.singular_points.is_empty() {
+            return found;
+        }
+        let index: std::collections::HashMap<(u64, u64), usize> =
+            self.singular_points.iter().enumerate().map(|(k, s)| (key(s.at), k)).collect();
+        for v in 0..self.num_vertices {
+            if let Some(&k) = index.get(&key(self.nodes[v as usize])) {
+                found[k].get_or_insert(v);
+            }
+        }
+        found
+    }
+
     /// The triangles around each vertex, compressed: those of vertex v are
     /// `around[start[v]..start[v + 1]]`, in triangle order. Returns (start, around).
     ///

@@ -546,7 +546,7 @@ fn triangulate(
         });
     }
     clock.lap("spade insertion");
-    let (_, sides) = label_faces(geo, &cdt);
+    let (_, _, sides) = label_faces(geo, &cdt);
     let keep = sides.iter().map(|s| matches!(s, Some(Side::Region(_)))).collect();
     let h_max = field.max();
     let floor = field.floor();
@@ -562,9 +562,9 @@ fn triangulate(
     Ok((cdt, complete && n_in <= params.max_nodes))
 }
 
-/// Corners (vertex indices) of every face and the side each face lies on (None for the
-/// outer face and unused slots), by face index.
-fn label_faces(geo: &Geometry, cdt: &Cdt) -> (Vec<[u32; 3]>, Vec<Option<Side>>) {
+/// Positions of all vertices, corners (vertex indices) of every face and the side each face
+/// lies on (None for the outer face and unused slots), by face index.
+fn label_faces(geo: &Geometry, cdt: &Cdt) -> (Vec<Xy>, Vec<[u32; 3]>, Vec<Option<Side>>) {
     let nf = cdt.num_all_faces();
     // Components: union–find over the faces, joined across every edge that is not a
     // constraint (each face visited once, in storage order, which keeps memory access
@@ -640,7 +640,7 @@ fn label_faces(geo: &Geometry, cdt: &Cdt) -> (Vec<[u32; 3]>, Vec<Option<Side>>) 
             label[fi] = label[root(&mut parent, fi as u32) as usize];
         }
     }
-    (corners, label)
+    (all, corners, label)
 }
 
 /// Corner value of a face slot that holds no triangle.
@@ -656,8 +656,7 @@ fn extract(
 ) -> Result<Mesh, MeshError> {
     let scale = geo.scale();
     let nf = cdt.num_all_faces();
-    let all = vertex_positions(cdt);
-    let (corners, label) = label_faces(geo, cdt);
+    let (all, corners, label) = label_faces(geo, cdt);
     // Nodes: compacted to the ones dielectric triangles use, numbered in face order.
     let mut map = vec![u32::MAX; all.len()];
     let mut nodes: Vec<Xy> = Vec::new();
