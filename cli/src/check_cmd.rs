@@ -21,8 +21,8 @@ use crate::solve_cmd::{
 use crate::UserError;
 use anyhow::Result;
 use engine::{
-    adapt_watching, grid_convergence, region_peaks_away_from, singular_coefficient, singular_coefficient_dual,
-    singular_field_factor, singular_radius_above, AdaptParams, ConvergenceKind, Goal, QuantityClass, Solution, Watched,
+    adapt_watching, grid_convergence, singular_coefficient, singular_coefficient_dual, singular_field_factor,
+    singular_radius_above, AdaptParams, ConvergenceKind, Goal, QuantityClass, Solution, Watched,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -512,7 +512,7 @@ fn watch(
     discs: &[(Xy, f64)],
 ) -> Vec<Watched> {
     let sol = &solved.solution;
-    let peaks = region_peaks_away_from(mesh, sol, discs);
+    let peaks = solved.region_peaks_away_from(mesh, discs);
     let peak_max = peaks.iter().map(|p| p.e_max_v_per_m).fold(0.0, f64::max);
     let q_max = sol.conductor_charges.iter().map(|q| q.abs()).fold(0.0, f64::max);
     let v_max = sol

@@ -56,7 +56,7 @@
 
 use crate::certify::{certify, BarStatus, ErrorBar, QuantityClass};
 use crate::error::SolveError;
-use crate::estimate::{estimate_error, ErrorEstimate};
+use crate::estimate::{estimate_error_with, ErrorEstimate};
 use crate::problem::Problem;
 use crate::solve::{solve_factored, CapacitanceMatrix, FactoredSolution, Solution};
 use mesher::{generate_with, BackgroundSize, Geometry, Mesh, RefineParams};
@@ -287,7 +287,7 @@ pub fn adapt_watching(
         // right-hand sides), so the last mesh needs no second solve for them; the kept
         // factorisation serves the dual problems of the watched quantities' estimates.
         let solved = solve_factored(&mesh, problem)?;
-        let est = estimate_error(&mesh, problem, &solved.solution);
+        let est = estimate_error_with(&mesh, problem, &solved.solution, solved.recovery(&mesh));
         let rel = est.relative();
         let watched = watch(&mesh, &solved, &est)?;
         let FactoredSolution { solution, capacitance, .. } = solved;

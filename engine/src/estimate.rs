@@ -56,6 +56,7 @@ use crate::solve::{Solution, EPSILON_0};
 use crate::space::{Element, P1, P2, QUAD_DEG2};
 use mesher::{Mesh, Symmetry, Xy};
 use rayon::prelude::*;
+use std::borrow::Cow;
 
 /// Per-element indicators and the global estimate.
 #[derive(Clone, Debug)]
@@ -164,6 +165,7 @@ fn branch_cut(points: &[Xy], center: Xy) -> f64 {
 }
 
 /// The recovered gradient of a solution.
+#[derive(Clone)]
 struct Recovery {
     /// The fits around every vertex, one per region there.
     fits: Vec<Vec<PatchFit>>,
@@ -475,11 +477,6 @@ impl RecoveryPlan {
     }
 }
 
-/// Fits the recovered gradient per vertex and region as described in the module docs.
-fn recover(mesh: &Mesh, potential: &[f64], quad: &SingularQuadrature) -> Recovery {
-    RecoveryPlan::new(mesh, quad).apply(mesh, potential)
-}
-
 /// The absolute permittivity tensor ε₀·εᵣ of region `r`.
 fn absolute_permittivity(problem: &Problem, r: usize) -> [[f64; 2]; 2] {
     match problem.tensor.get(r).copied().flatten() {
@@ -498,8 +495,17 @@ fn absolute_permittivity(problem: &Problem, r: usize) -> [[f64; 2]; 2] {
 #[track_caller]
 pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> ErrorEstimate {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let quad = SingularQuadrature::new(mesh);
-    let recovered = recover(mesh, &solution.potential, &quad);
+    estimate_error_with(mesh, problem, solution, &PrimalRecovery::new(mesh, &solution.potential))
+}
+
+/// [`estimate_error`] with the solution's recovery already made.
+pub(crate) fn estimate_error_with(
+    mesh: &Mesh,
+    problem: &Problem,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+) -> ErrorEstimate {
+    let (quad, recovered) = (&primal.quad, &primal.recovery);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let per_element: Vec<(f64, f64)> = (0..mesh.triangles.len())
         .into_par_iter()
@@ -533,23 +539,42 @@ pub fn estimate_error(mesh: &Mesh, problem: &Problem, solution: &Solution) -> Er
     }
 }
 
-/// The recovered gradient of one nodal potential on a mesh (see the module docs), for the
-/// goal-oriented estimates.
+/// The recovered gradient of one nodal potential on a mesh (see the module docs): a
+/// solution (borrowed from its [`PrimalRecovery`]) or the solution of a dual problem.
 pub(crate) struct RecoveredField<'a> {
     potential: &'a [f64],
-    recovery: Recovery,
+    recovery: Cow<'a, Recovery>,
 }
 
 /// Recovers the gradient of `potential` with a plan made for its mesh (the plan is shared
 /// by all the fields of one mesh).
 pub(crate) fn recover_field_with<'a>(plan: &RecoveryPlan, mesh: &Mesh, potential: &'a [f64]) -> RecoveredField<'a> {
-    RecoveredField { potential, recovery: plan.apply(mesh, potential) }
+    RecoveredField { potential, recovery: Cow::Owned(plan.apply(mesh, potential)) }
 }
 
-/// Recovers the gradient of `potential` (any nodal field of the mesh's space: a solution or
-/// the solution of a dual problem).
-pub(crate) fn recover_field<'a>(mesh: &Mesh, quad: &SingularQuadrature, potential: &'a [f64]) -> RecoveredField<'a> {
-    RecoveredField { potential, recovery: recover(mesh, potential, quad) }
+/// A solution's recovered gradient with the quadrature and the recovery plan it was made
+/// with: made once per mesh (see `FactoredSolution::recovery`) and shared by the error
+/// estimate, the peaks away from singular points and the goal-oriented estimates, whose dual
+/// fields reuse the plan.
+pub(crate) struct PrimalRecovery {
+    pub(crate) quad: SingularQuadrature,
+    pub(crate) plan: RecoveryPlan,
+    recovery: Recovery,
+}
+
+impl PrimalRecovery {
+    /// Recovers the gradient of `potential`, a nodal field of `mesh`.
+    pub(crate) fn new(mesh: &Mesh, potential: &[f64]) -> PrimalRecovery {
+        let quad = SingularQuadrature::new(mesh);
+        let plan = RecoveryPlan::new(mesh, &quad);
+        let recovery = plan.apply(mesh, potential);
+        PrimalRecovery { quad, plan, recovery }
+    }
+
+    /// The recovered field, read with `potential`: the one it was made from.
+    pub(crate) fn field<'a>(&'a self, potential: &'a [f64]) -> RecoveredField<'a> {
+        RecoveredField { potential, recovery: Cow::Borrowed(&self.recovery) }
+    }
 }
 
 /// The primal solution at every quadrature point of every triangle, computed once and

@@ -12,6 +12,7 @@
 //! interface keeps its own field. At a singular point (λ < 1) the largest one-sided value
 //! is kept instead of the average, so that the unbounded peak is not hidden.
 
+use crate::estimate::PrimalRecovery;
 use crate::problem::Problem;
 use crate::solve::Solution;
 use crate::space::{corner_graded_rule, Element, QuadPoint, P1, P2, QUAD_DEG4};
@@ -167,9 +168,9 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
         centroid.push(ec);
         max_magnitude.push(own.iter().map(|v| v.2[0].hypot(v.2[1])).fold(ec[0].hypot(ec[1]), f64::max));
     }
-    let quad = SingularQuadrature::new(mesh);
-    let rec = crate::estimate::recover_field(mesh, &quad, &solution.potential);
-    let region_peaks = peaks_of(mesh, recovered_means(&quad, &rec, region_vertex_means(at_vertex)), &[]);
+    let primal = PrimalRecovery::new(mesh, &solution.potential);
+    let rec = primal.field(&solution.potential);
+    let region_peaks = peaks_of(mesh, recovered_means(&primal.quad, &rec, region_vertex_means(at_vertex)), &[]);
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
     let mut weight = vec![0.0; mesh.nodes.len()];
     for (t, tri) in mesh.triangles.iter().enumerate() {
@@ -332,11 +333,21 @@ fn peaks_of(mesh: &Mesh, means: Vec<VertexMean>, discs: &[(Xy, f64)]) -> Vec<Reg
 #[track_caller]
 pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let quad = SingularQuadrature::new(mesh);
-    let rec = crate::estimate::recover_field(mesh, &quad, &solution.potential);
-    let means = recovered_means(&quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential)));
+    peaks_away_from_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), discs)
+}
+
+/// [`region_peaks_away_from`] with the solution's recovery already made.
+pub(crate) fn peaks_away_from_with(
+    mesh: &Mesh,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+    discs: &[(Xy, f64)],
+) -> Vec<RegionPeak> {
+    let quad = &primal.quad;
+    let rec = primal.field(&solution.potential);
+    let means = recovered_means(quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential)));
     let mut peaks = peaks_of(mesh, means, discs);
-    polish_peaks(mesh, &quad, &rec, &mut peaks, discs);
+    polish_peaks(mesh, quad, &rec, &mut peaks, discs);
     // The rim of every disc belongs to the region left in: the field sampled there (it is
     // largest there next to a singular point), so that the peak is the same quantity on
     // every mesh, not the field at whichever vertex happens to lie nearest outside.
@@ -366,7 +377,7 @@ pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f6
         if mesh.exterior.is_some_and(|x| x.region == region) {
             continue;
         }
-        let (e, _) = rec.fields_at(mesh, &quad, t, xi, eta);
+        let (e, _) = rec.fields_at(mesh, quad, t, xi, eta);
         let m = e[0].hypot(e[1]);
         let node = nearest_corner(mesh, t, *p);
         match peaks.iter_mut().find(|q| q.region == region) {

@@ -40,8 +40,7 @@
 //!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364 (the
 //!   recovered gradients).
 
-use crate::estimate::{error_products, primal_samples, recover_field_with, RecoveryPlan};
-use crate::fields::SingularQuadrature;
+use crate::estimate::{error_products, primal_samples, recover_field_with};
 use crate::problem::Problem;
 use crate::solve::{DualCase, FactoredSolution};
 use crate::space::{Element, P1, P2};
@@ -206,10 +205,10 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
         })
         .collect();
     let goals = &local[..];
-    let quad = SingularQuadrature::new(mesh);
-    let plan = RecoveryPlan::new(mesh, &quad);
-    let u = recover_field_with(&plan, mesh, &sol.potential);
-    let primal = primal_samples(mesh, &quad, &u);
+    let recovered = solved.recovery(mesh);
+    let (quad, plan) = (&recovered.quad, &recovered.plan);
+    let u = recovered.field(&sol.potential);
+    let primal = primal_samples(mesh, quad, &u);
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     // The dual problems that need a solve, in goal order.
     let mut cases = Vec::new();
@@ -278,8 +277,8 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     .iter()
                     .position(|&c| c == k)
                     .expect("a charge goal names a conductor at a fixed potential");
-                let z = recover_field_with(&plan, mesh, &solved.columns[col]);
-                let p = error_products(mesh, problem, &quad, &primal, &z, None);
+                let z = recover_field_with(plan, mesh, &solved.columns[col]);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
                 let sum: f64 = p.iter().map(|x| x[0]).sum();
                 GoalEstimate {
                     value: sol.conductor_charges[k],
@@ -289,8 +288,8 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
             Goal::FloatingPotential(k) => {
                 let zp = duals.next().expect("one dual per floating potential");
-                let z = recover_field_with(&plan, mesh, &zp);
-                let p = error_products(mesh, problem, &quad, &primal, &z, None);
+                let z = recover_field_with(plan, mesh, &zp);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
                 GoalEstimate {
                     value: sol.conductor_potentials[k],
                     estimate: p.iter().map(|x| x[0]).sum(),
@@ -299,9 +298,9 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
             Goal::LocalField { center, radius_m, region } => {
                 let zp = duals.next().expect("one dual per local field");
-                let z = recover_field_with(&plan, mesh, &zp);
+                let z = recover_field_with(plan, mesh, &zp);
                 let omega = move |x: Xy| bump(center, radius_m, x);
-                let mut p = error_products(mesh, problem, &quad, &primal, &z, Some(&omega));
+                let mut p = error_products(mesh, problem, quad, &primal, &z, Some(&omega));
                 if let Some(r) = region {
                     for (t, x) in p.iter_mut().enumerate() {
                         if mesh.regions[t] != r {
@@ -361,7 +360,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     // element's own field there.
                     _ => match grid.locate(mesh, at) {
                         Some((t, xi, eta)) => {
-                            let (rec, own) = u.fields_at(mesh, &quad, t, xi, eta);
+                            let (rec, own) = u.fields_at(mesh, quad, t, xi, eta);
                             SECOND_OPINION_SAFETY * (rec[0].hypot(rec[1]) - own[0].hypot(own[1])).abs()
                         }
                         None => 0.0,

@@ -24,6 +24,8 @@
 //!   (the supernodal method faer implements).
 
 use crate::error::SolveError;
+use crate::estimate::PrimalRecovery;
+use crate::fields::RegionPeak;
 use crate::ordering::nested_dissection;
 use crate::problem::{ConductorSpec, Problem};
 use crate::space::{Element, P1, P2, QUAD_DEG2, QUAD_DEG4};
@@ -633,6 +635,8 @@ pub struct FactoredSolution {
     pub columns: Vec<Vec<f64>>,
     system: System,
     factor: Option<Factor>,
+    /// The load case's recovered gradient, made on first use (see [`Self::recovery`]).
+    recovered: std::sync::OnceLock<PrimalRecovery>,
 }
 
 impl std::fmt::Debug for FactoredSolution {
@@ -657,6 +661,25 @@ pub(crate) struct DualCase {
 }
 
 impl FactoredSolution {
+    /// The recovered gradient of the load case (as solved) on `mesh`, with its quadrature
+    /// and recovery plan: made once and shared by the error estimate, the peaks and the
+    /// goal-oriented estimates of the mesh.
+    ///
+    /// # Panics
+    /// If the solution does not belong to the mesh.
+    #[track_caller]
+    pub(crate) fn recovery(&self, mesh: &Mesh) -> &PrimalRecovery {
+        assert_eq!(self.solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+        self.recovered.get_or_init(|| PrimalRecovery::new(mesh, &self.solution.potential))
+    }
+
+    /// The peak |E| per region away from the given discs, as
+    /// [`region_peaks_away_from`](crate::region_peaks_away_from) finds them, with the
+    /// recovery shared by the mesh's other estimates.
+    pub fn region_peaks_away_from(&self, mesh: &Mesh, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
+        crate::fields::peaks_away_from_with(mesh, &self.solution, self.recovery(mesh), discs)
+    }
+
     /// Nodal potentials of each dual case, by the kept factorisation.
     pub(crate) fn solve_duals(&self, problem: &Problem, cases: &[DualCase]) -> Vec<Vec<f64>> {
         let m = self.system.num_unknowns();
@@ -782,7 +805,14 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
     }
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
-    Ok(FactoredSolution { solution: sol, capacitance: (fixed, cmat), columns, system, factor })
+    Ok(FactoredSolution {
+        solution: sol,
+        capacitance: (fixed, cmat),
+        columns,
+        system,
+        factor,
+        recovered: std::sync::OnceLock::new(),
+    })
 }
 
 /// The open-boundary term of an axisymmetric model. With the Kelvin transform
