@@ -2,7 +2,7 @@
 //! error and every quantity the caller watches have settled, or a budget is reached.
 //!
 //! # Algorithm
-//! After each solve the recovery estimate gives ηₜ per triangle (see [`estimate_error`]).
+//! After each solve the recovery estimate gives ηₜ per triangle (see [`crate::estimate_error`]).
 //! Marking is by bulk (Dörfler 1996): the smallest set M of triangles, largest indicators
 //! first, with Σ_M ηₜ² ≥ θ·Σηₜ² (θ = `bulk_fraction`, default 0.5) is refined; the others
 //! are not, and may coarsen. How much comes from equidistribution: on a smooth solution
