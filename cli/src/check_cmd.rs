@@ -110,6 +110,21 @@ pub struct MeshStep {
     pub estimated_error: f64,
     /// Largest relative change of a watched quantity since the previous mesh.
     pub max_change: Option<f64>,
+    /// Wall seconds of the step's stages: `mesh`, `solve`, `estimate`, `watch`.
+    pub timings_s: MeshStepTimings,
+}
+
+/// Wall seconds of one adaptive step, stage by stage (see [`engine::StepTimings`]).
+#[derive(Serialize, Debug)]
+pub struct MeshStepTimings {
+    /// Size plan and meshing.
+    pub mesh: f64,
+    /// Assembly, factorisation, solves.
+    pub solve: f64,
+    /// Energy-norm estimate.
+    pub estimate: f64,
+    /// Watched quantities and their own estimates.
+    pub watch: f64,
 }
 
 /// The convergence study of one quantity.
@@ -369,6 +384,12 @@ pub fn run(run: &CheckRun) -> Result<bool> {
                     triangles: s.triangles,
                     estimated_error: s.estimate,
                     max_change: s.max_change.is_finite().then_some(s.max_change),
+                    timings_s: MeshStepTimings {
+                        mesh: s.timings.mesh_s,
+                        solve: s.timings.solve_s,
+                        estimate: s.timings.estimate_s,
+                        watch: s.timings.watch_s,
+                    },
                 })
                 .collect(),
             singular_exclusion_radius_m: discs.iter().map(|d| d.1).collect(),

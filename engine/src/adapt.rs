@@ -198,6 +198,22 @@ pub struct AdaptStep {
     pub max_change: f64,
     /// The error bar and verdict of every watched quantity on the sequence up to this mesh.
     pub bars: Vec<ErrorBar>,
+    /// Wall time of this step's stages.
+    pub timings: StepTimings,
+}
+
+/// Wall seconds of one step of the loop, stage by stage.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct StepTimings {
+    /// Making the mesh (for every mesh after the first: the size plan and the remeshings
+    /// asked for by the previous step).
+    pub mesh_s: f64,
+    /// Assembly, factorisation and the solves of the load case and capacitance columns.
+    pub solve_s: f64,
+    /// The recovery-based energy estimate.
+    pub estimate_s: f64,
+    /// The watched quantities and their goal-oriented estimates.
+    pub watch_s: f64,
 }
 
 /// The result of the loop.
@@ -278,18 +294,29 @@ pub fn adapt_watching(
     let params = ap.mesh.apply(geo, params);
     let mut pending: Option<Mesh> = None;
     let mut history: Vec<AdaptStep> = Vec::new();
+    let mut clock = std::time::Instant::now();
+    let mut lap = move || {
+        let now = std::time::Instant::now();
+        let s = (now - clock).as_secs_f64();
+        clock = now;
+        s
+    };
     loop {
         let mesh = match pending.take() {
             Some(m) => m,
             None => generate_with(geo, &params, None).map_err(SolveError::Mesh)?.mesh,
         };
+        let mesh_s = lap();
         // The capacitance columns ride on the load case's factorisation (a few more
         // right-hand sides), so the last mesh needs no second solve for them; the kept
         // factorisation serves the dual problems of the watched quantities' estimates.
         let solved = solve_factored(&mesh, problem)?;
+        let solve_s = lap();
         let est = estimate_error_with(&mesh, problem, &solved.solution, solved.recovery(&mesh));
         let rel = est.relative();
+        let estimate_s = lap();
         let watched = watch(&mesh, &solved, &est)?;
+        let watch_s = lap();
         let FactoredSolution { solution, capacitance, .. } = solved;
         let max_change = match history.last() {
             Some(prev) => prev
@@ -319,6 +346,7 @@ pub fn adapt_watching(
             watched,
             max_change,
             bars,
+            timings: StepTimings { mesh_s, solve_s, estimate_s, watch_s },
         };
         progress(&step);
         history.push(step);

@@ -74,7 +74,7 @@ mod singular;
 mod solve;
 pub mod space;
 
-pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, Watched};
+pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;
