@@ -46,6 +46,8 @@ pub struct CheckRun {
     pub max_unknowns: usize,
     /// JSON to stdout instead of the summary.
     pub json: bool,
+    /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
+    pub memory_limit: Option<f64>,
 }
 
 /// Parses a tolerance such as "0.5%" or "0.005".
@@ -265,9 +267,7 @@ enum Quantity {
 pub fn run(run: &CheckRun) -> Result<bool> {
     let t0 = Instant::now();
     let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
-    if let Some(o) = run.order {
-        model.params.order = o;
-    }
+    crate::budget::prepare(&mut model, run.order, run.memory_limit, true);
     let problem = problem_of(&model);
     let bar = indicatif::ProgressBar::new_spinner();
     bar.set_style(
@@ -279,7 +279,12 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let mut ap = AdaptParams {
         tolerance: run.tolerance,
         max_iterations: run.max_meshes,
-        max_unknowns: run.max_unknowns,
+        // The memory budget may allow fewer.
+        max_unknowns: run.max_unknowns.min(engine::unknowns_within(
+            crate::budget::MemoryBudget::new(run.memory_limit).bytes,
+            model.params.order,
+            true,
+        ) as usize),
         ..Default::default()
     };
     if model.sets_min_angle {

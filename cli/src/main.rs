@@ -9,6 +9,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
+mod budget;
 mod check_cmd;
 mod diag;
 mod mesh_cmd;
@@ -46,6 +47,10 @@ enum Command {
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
         /// Print the statistics as JSON instead of a table.
+        /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
+        /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
+        #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
+        memory_limit: Option<f64>,
         #[arg(long)]
         json: bool,
     },
@@ -62,6 +67,10 @@ enum Command {
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
         /// Print results.json on stdout instead of the summary.
+        /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
+        /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
+        #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
+        memory_limit: Option<f64>,
         #[arg(long)]
         json: bool,
     },
@@ -85,10 +94,14 @@ enum Command {
         /// Most meshes the adaptive loop may solve.
         #[arg(long, default_value_t = 12, value_parser = clap::value_parser!(u64).range(1..=100))]
         max_meshes: u64,
-        /// Most unknowns a mesh may have.
-        #[arg(long, default_value_t = 2_000_000)]
-        max_unknowns: usize,
+        /// Most unknowns a mesh may have (at least 1000; the memory budget may lower it).
+        #[arg(long, default_value_t = 2_000_000, value_parser = clap::value_parser!(u64).range(1000..))]
+        max_unknowns: u64,
         /// Print results.json on stdout instead of the summary.
+        /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
+        /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
+        #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
+        memory_limit: Option<f64>,
         #[arg(long)]
         json: bool,
     },
@@ -113,6 +126,10 @@ enum DebugCommand {
         /// Element order, overriding the model's `[mesh] order`.
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
+        /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
+        /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
+        #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
+        memory_limit: Option<f64>,
     },
 }
 
@@ -132,27 +149,30 @@ const NOT_CONVERGED: u8 = 3;
 fn main() -> ExitCode {
     let args = Args::parse();
     let result = match args.command {
-        Command::Mesh { model, out, svg, order, json } => {
-            mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json })
+        Command::Mesh { model, out, svg, order, memory_limit, json } => {
+            mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json, memory_limit })
         }
-        Command::Solve { model, out, order, json } => solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json }),
-        Command::Check { model, out, tol, order, max_meshes, max_unknowns, json } => {
+        Command::Solve { model, out, order, memory_limit, json } => {
+            solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json, memory_limit })
+        }
+        Command::Check { model, out, tol, order, max_meshes, max_unknowns, memory_limit, json } => {
             let converged = check_cmd::run(&check_cmd::CheckRun {
                 model,
                 out,
                 tolerance: tol,
                 order,
                 max_meshes: max_meshes as usize,
-                max_unknowns,
+                max_unknowns: max_unknowns as usize,
                 json,
+                memory_limit,
             });
             match converged {
                 Ok(false) => return ExitCode::from(NOT_CONVERGED),
                 other => other.map(|_| ()),
             }
         }
-        Command::Debug { what: DebugCommand::Matrix { model, out, order } } => {
-            solve_cmd::dump_matrix(&model, &out, order)
+        Command::Debug { what: DebugCommand::Matrix { model, out, order, memory_limit } } => {
+            solve_cmd::dump_matrix(&model, &out, order, memory_limit)
         }
     };
     match result {

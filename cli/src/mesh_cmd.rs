@@ -22,6 +22,8 @@ pub struct MeshRun {
     pub order: Option<u8>,
     /// JSON to stdout.
     pub json: bool,
+    /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
+    pub memory_limit: Option<f64>,
 }
 
 /// Statistics of a meshing run, in the model's length unit.
@@ -425,9 +427,7 @@ pub fn sig(v: f64) -> String {
 /// Model errors (as [`UserError`]), meshing errors and I/O errors.
 pub fn run(run: &MeshRun) -> Result<()> {
     let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
-    if let Some(o) = run.order {
-        model.params.order = o;
-    }
+    crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
     let out = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
     let rep = report(&model, &out);
     if let Some(p) = &run.out {

@@ -239,6 +239,9 @@ pub struct Model {
     /// field-singular point that `check` leaves out of the watched peaks, metres (None: the
     /// default from the geometry).
     pub singular_exclusion_radius_m: Option<f64>,
+    /// Set when the memory budget lowered `max_nodes`: the sentence a refusal over the node
+    /// budget adds (see `budget::prepare`).
+    pub budget_note: Option<String>,
     /// Metres per model length unit.
     pub unit_m: f64,
     /// Name of the model length unit.
@@ -259,6 +262,9 @@ impl Model {
         let mut err = ModelError::new(&self.path, &self.source, span, e.message_in(self.unit_m, self.unit));
         if let Some(name) = e.shape() {
             err = err.key(format!("in shape '{name}'"));
+        }
+        if let (MeshError::OverBudget { .. }, Some(note)) = (e, &self.budget_note) {
+            err = err.help(note.clone());
         }
         err
     }
@@ -882,6 +888,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         geometry,
         params,
         singular_exclusion_radius_m,
+        budget_note: None,
         sets_min_angle,
         sets_gradation,
         materials,

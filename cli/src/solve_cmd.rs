@@ -30,6 +30,8 @@ pub struct SolveRun {
     pub order: Option<u8>,
     /// JSON to stdout instead of the summary.
     pub json: bool,
+    /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
+    pub memory_limit: Option<f64>,
 }
 
 /// `results.json`, documented in `docs/results-format.md`.
@@ -131,11 +133,14 @@ pub struct RegionResult {
 ///
 /// # Errors
 /// Model, meshing and assembly errors (as [`UserError`]), I/O errors.
-pub fn dump_matrix(model_path: &std::path::Path, out: &std::path::Path, order: Option<u8>) -> Result<()> {
+pub fn dump_matrix(
+    model_path: &std::path::Path,
+    out: &std::path::Path,
+    order: Option<u8>,
+    memory_limit: Option<f64>,
+) -> Result<()> {
     let mut model = model::load(model_path).map_err(|e| UserError(e.to_string()))?;
-    if let Some(o) = order {
-        model.params.order = o;
-    }
+    crate::budget::prepare(&mut model, order, memory_limit, false);
     let meshed = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
     let problem = problem_of(&model);
     let sys = engine::reduced_system(&meshed.mesh, &problem)
@@ -209,9 +214,7 @@ pub fn problem_of(model: &Model) -> Problem {
 pub fn run(run: &SolveRun) -> Result<()> {
     let t0 = Instant::now();
     let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
-    if let Some(o) = run.order {
-        model.params.order = o;
-    }
+    crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
     let meshed = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;

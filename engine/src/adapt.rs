@@ -306,6 +306,9 @@ pub fn adapt_watching(
             Some(m) => m,
             None => generate_with(geo, &params, None).map_err(SolveError::Mesh)?.mesh,
         };
+        if history.is_empty() && mesh.nodes.len() > ap.max_unknowns {
+            return Err(SolveError::FirstMeshOverBudget { nodes: mesh.nodes.len(), max_unknowns: ap.max_unknowns });
+        }
         let mesh_s = lap();
         // The capacitance columns ride on the load case's factorisation (a few more
         // right-hand sides), so the last mesh needs no second solve for them; the kept

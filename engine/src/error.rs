@@ -42,6 +42,13 @@ pub enum SolveError {
     /// Nothing holds the potential: no conductor at a fixed potential and no outer
     /// boundary potential, so the potential is defined only up to a constant.
     NoPotentialReference,
+    /// The adaptive loop's first mesh already has more nodes than its budget of unknowns.
+    FirstMeshOverBudget {
+        /// Nodes of the first mesh.
+        nodes: usize,
+        /// The budget.
+        max_unknowns: usize,
+    },
     /// A part of the domain touches no fixed potential (for example a dielectric enclosed
     /// by a floating conductor), so its potential is undetermined.
     FloatingPart {
@@ -76,6 +83,7 @@ impl fmt::Display for SolveError {
             SolveError::BadChargeDensity { region, value } => write!(f, "region '{region}' has volume charge density {value}; give a finite number of C/m³"),
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
+            SolveError::FirstMeshOverBudget { nodes, max_unknowns } => write!(f, "the first mesh already has {nodes} nodes, more than the budget of {max_unknowns} unknowns for the adaptive loop; raise --max-unknowns (or --memory-limit) or coarsen the sizes in [mesh]"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
             SolveError::FloatingPart { region, at } => write!(f, "region '{region}' (near ({:.6e}, {:.6e}) m) is cut off from every fixed potential, so its potential is undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a potential", at[0], at[1]),
             SolveError::NotPositiveDefinite { pivot, node } => match node {

@@ -61,6 +61,7 @@
 #![warn(missing_debug_implementations)]
 
 mod adapt;
+mod budget;
 mod certify;
 mod convergence;
 mod error;
@@ -75,6 +76,7 @@ mod solve;
 pub mod space;
 
 pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
+pub use budget::{predicted_memory_bytes, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
 pub use error::SolveError;

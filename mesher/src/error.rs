@@ -129,6 +129,22 @@ pub enum MeshError {
         /// What went wrong.
         detail: String,
     },
+    /// The mesh the sizes ask for would exceed the node budget (predicted from the size field
+    /// before meshing, or counted while meshing).
+    OverBudget {
+        /// Predicted (or counted) vertices.
+        vertices: f64,
+        /// The count is a lower bound: the prediction stopped once it passed the budget.
+        at_least: bool,
+        /// The budget (`max_nodes`, vertices).
+        max_nodes: usize,
+        /// What asks for most of the triangles, its share (0–1), and what it names (a
+        /// shape's name, a size point's position, a singular point's label).
+        cause: (crate::SizeSource, f64, String),
+        /// The size that source asks for, metres (its smallest over the domain for graded
+        /// sources: the floor, the innermost grading size).
+        size_m: f64,
+    },
     /// A mesh fails a consistency check.
     InvalidMesh {
         /// What failed, with ids and coordinates.
@@ -194,6 +210,20 @@ impl MeshError {
             OpenBoundaryShape { shape } => write!(f, "an open boundary needs a circular domain: make the first shape '{shape}' a circle (planar) or a half disc centred on the axis (axisymmetric), enclosing every part of the model"),
             BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
             Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
+            OverBudget { vertices, at_least, max_nodes, cause, size_m } => {
+                let count = if *at_least { format!("more than {vertices:.2e}") } else { format!("about {vertices:.2e}") };
+                let share = format!("{:.0} %", 100.0 * cause.1);
+                let what = match cause.0 {
+                    crate::SizeSource::MaxSize => format!("the global element size (max_size = {}); raise max_size in [mesh]", l(*size_m)),
+                    crate::SizeSource::MinSize => format!("the smallest element size (min_size = {}); raise min_size in [mesh]", l(*size_m)),
+                    crate::SizeSource::Shape(_) => format!("shape '{}', whose max_size is {}; raise it", cause.2, l(*size_m)),
+                    crate::SizeSource::Point(_) => format!("the size point {} (size {}); raise its size", cause.2, l(*size_m)),
+                    crate::SizeSource::Arc => "the small-radius arcs, meshed to the chord tolerance; raise chord_tolerance in [mesh]".to_string(),
+                    crate::SizeSource::Corner(_) => format!("the grading towards singular point {}; raise min_size or set grade_corners = false in [mesh]", cause.2),
+                    crate::SizeSource::Background => "the sizes the adaptive loop asked for; loosen the tolerance".to_string(),
+                };
+                write!(f, "the mesh would have {count} vertices (predicted from the element sizes before meshing), over the node budget max_nodes = {max_nodes}; {share} of its triangles come from {what}")
+            }
             InvalidMesh { detail } => write!(f, "invalid mesh: {detail}"),
         }
     }
@@ -220,6 +250,7 @@ impl MeshError {
             | NegativeRadius { shape, .. }
             | OpenBoundaryShape { shape } => Some(shape),
             DuplicateName { name } => Some(name),
+            OverBudget { cause: (crate::SizeSource::Shape(_), _, name), .. } => Some(name),
             _ => None,
         }
     }

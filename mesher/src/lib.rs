@@ -50,6 +50,7 @@
 #![warn(missing_debug_implementations)]
 
 mod arrangement;
+mod budget;
 mod corners;
 mod delaunay_refine;
 mod error;
@@ -64,6 +65,7 @@ mod smooth;
 mod triangulate;
 mod vtu;
 
+pub use budget::{predict, SizePrediction, DELIVERY};
 pub use corners::{conical_exponent, legendre_p, wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
 pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
@@ -71,6 +73,6 @@ pub use grading::{Grading, GradingStatus, GRADED_WITHIN};
 pub use grid::{triangle_grid, BucketGrid};
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams};
-pub use size_field::{BackgroundSize, SizeField};
+pub use size_field::{BackgroundSize, SizeField, SizeSource};
 pub use triangulate::{generate, generate_with};
 pub use vtu::{write_vtu, CellArray, NodeArray};

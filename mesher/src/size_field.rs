@@ -171,6 +171,26 @@ impl BackgroundSize {
     }
 }
 
+/// What asked for the size at a point: the setting a user would change to coarsen the mesh
+/// there.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SizeSource {
+    /// The global maximum size (`max_size`).
+    MaxSize,
+    /// The floor (`min_size`): every other source asks for less.
+    MinSize,
+    /// A shape's own maximum size (shape index).
+    Shape(usize),
+    /// A size point (index in `Geometry::size_points`).
+    Point(usize),
+    /// The chord tolerance along a small-radius arc.
+    Arc,
+    /// The grading towards a singular point (index in the mesh's singular points).
+    Corner(usize),
+    /// Sizes requested on an earlier mesh (the adaptive loop).
+    Background,
+}
+
 /// Element edge length wanted at every point, metres.
 #[derive(Clone, Debug)]
 pub struct SizeField {
@@ -178,6 +198,8 @@ pub struct SizeField {
     h_floor: f64,
     slope: f64,
     sources: Vec<Source>,
+    /// What each source stands for (see [`SizeField::tag_last`]).
+    tags: Vec<SizeSource>,
 }
 
 impl SizeField {
@@ -188,35 +210,69 @@ impl SizeField {
     #[track_caller]
     pub fn uniform(h_max: f64, gradation: f64, h_floor: f64) -> SizeField {
         assert!(h_max > 0.0 && h_floor > 0.0 && gradation > 1.0, "invalid size field parameters");
-        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new() }
+        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new(), tags: Vec::new() }
     }
 
     /// Adds a size `h` inside (and on) a closed outline.
     pub fn add_inside(&mut self, outline: &Outline, h: f64) {
         let bbox = outline.bbox();
         self.sources.push(Source::Inside { outline: outline.clone(), bbox, h });
+        self.tags.push(SizeSource::Shape(usize::MAX));
     }
 
     /// Adds a size `h` at a point.
     pub fn add_point(&mut self, at: Xy, h: f64) {
         self.sources.push(Source::Point { at, h });
+        self.tags.push(SizeSource::Point(usize::MAX));
     }
 
     /// Adds a size `h` along a curve.
     pub(crate) fn add_curve(&mut self, curve: Curve, h: f64) {
         self.sources.push(Source::Curve { curve, h });
+        self.tags.push(SizeSource::Arc);
     }
 
     /// Adds sizes given on an earlier mesh (the adaptive loop's request).
     pub fn add_background(&mut self, mut bg: BackgroundSize) {
         bg.limit_gradation(self.slope);
         self.sources.push(Source::Background(std::sync::Arc::new(bg)));
+        self.tags.push(SizeSource::Background);
     }
 
     /// Adds grading towards a point: `h₀·(r/R)^(1−μ)` inside radius `R`, never below the
     /// innermost size `R·(h₀/R)^(1/μ)`.
     pub fn add_corner(&mut self, at: Xy, h0: f64, radius: f64, mu: f64) {
         self.sources.push(Source::Corner { at, h0, radius, mu });
+        self.tags.push(SizeSource::Corner(usize::MAX));
+    }
+
+    /// Says what the source added last stands for (a shape, point or singular point index
+    /// the adding method does not know).
+    pub(crate) fn tag_last(&mut self, tag: SizeSource) {
+        if let Some(t) = self.tags.last_mut() {
+            *t = tag;
+        }
+    }
+
+    /// The size at `p` and what asks for it.
+    pub fn size_and_source(&self, p: Xy) -> (f64, SizeSource) {
+        let (h, source) = self.size_and_source_below(p, self.h_max);
+        (h.min(self.h_max), source)
+    }
+
+    /// [`SizeField::size_below`] (with the floor applied) and what asks for it.
+    pub(crate) fn size_and_source_below(&self, p: Xy, cap: f64) -> (f64, SizeSource) {
+        let (h, source) = self.smallest_source(p, cap);
+        match source {
+            _ if h < self.h_floor => (self.h_floor, SizeSource::MinSize),
+            Some(i) => (h, self.tags[i]),
+            None => (h, SizeSource::MaxSize),
+        }
+    }
+
+    /// True when sizes from an earlier mesh are part of the field.
+    pub fn has_background(&self) -> bool {
+        self.tags.contains(&SizeSource::Background)
     }
 
     /// The smallest size the field may return.
@@ -245,8 +301,14 @@ impl SizeField {
     /// the global size plus slope·r, the whole disc of radius r around `p` is at the global
     /// size.
     pub(crate) fn size_below(&self, p: Xy, cap: f64) -> f64 {
+        self.smallest_source(p, cap).0
+    }
+
+    /// [`SizeField::size_below`] with the index of the source that gives it (`None`: the cap).
+    fn smallest_source(&self, p: Xy, cap: f64) -> (f64, Option<usize>) {
         let mut h = cap;
-        for s in &self.sources {
+        let mut which = None;
+        for (i, s) in self.sources.iter().enumerate() {
             let v = match s {
                 Source::Inside { outline, bbox, h: hs } => {
                     // Cheap lower bound on the distance first: the bounding box.
@@ -278,9 +340,12 @@ impl SizeField {
                     }
                 }
             };
-            h = h.min(v);
+            if v < h {
+                h = v;
+                which = Some(i);
+            }
         }
-        h
+        (h, which)
     }
 }
 

@@ -48,7 +48,7 @@ use crate::grading::{audit, grading_radius, AuditInput, GradingLaw};
 use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
-use crate::size_field::{BackgroundSize, SizeField};
+use crate::size_field::{BackgroundSize, SizeField, SizeSource};
 use spade::{ConstrainedDelaunayTriangulation, Point2, Triangulation};
 
 pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
@@ -116,6 +116,16 @@ pub fn generate_with(
         field.add_background(bg);
     }
     clock.lap("geometry");
+    // The adaptive loop sizes its requests itself (and stops at its own budget); a mesh
+    // from the model's settings is predicted first, so that sizes the machine cannot hold
+    // are refused before the boundary is split.
+    if !field.has_background() {
+        let p = crate::budget::predict(geo, &field, 2.0 * params.max_nodes as f64);
+        clock.lap("prediction");
+        if p.vertices > params.max_nodes as f64 {
+            return Err(over_budget(geo, &field, params, p.vertices, p.at_least, p.main_source));
+        }
+    }
     let pslg = discretise(&arr, &field);
     let grid = segment_grid(&pslg.points, &pslg.segments, geo.bbox());
     clock.lap("boundary");
@@ -152,6 +162,26 @@ pub fn generate_with(
     Ok(MeshOutcome { mesh, complete, reason, size_field: field, timings: clock.laps })
 }
 
+/// The refusal of a mesh over the node budget, naming what asks for most of it.
+fn over_budget(
+    geo: &Geometry,
+    field: &SizeField,
+    params: &RefineParams,
+    vertices: f64,
+    at_least: bool,
+    (source, share): (SizeSource, f64),
+) -> MeshError {
+    let (name, size_m) = match source {
+        SizeSource::MaxSize => (String::new(), field.max()),
+        SizeSource::MinSize => (String::new(), field.floor()),
+        SizeSource::Shape(i) => (geo.shapes[i].name.clone(), geo.shapes[i].max_size_m.unwrap_or(field.max())),
+        SizeSource::Point(i) => (format!("#{} ([[mesh.point]] entry {})", i + 1, i + 1), geo.size_points[i].size_m),
+        SizeSource::Corner(k) => (format!("S{}", k + 1), field.floor()),
+        SizeSource::Arc | SizeSource::Background => (String::new(), params.chord_tolerance),
+    };
+    MeshError::OverBudget { vertices, at_least, max_nodes: params.max_nodes, cause: (source, share, name), size_m }
+}
+
 /// The size field, and the grading law of each singular point (added to the field only
 /// with grading on).
 fn size_field(
@@ -164,15 +194,17 @@ fn size_field(
     let h_max = params.max_size_m.unwrap_or(scale / 25.0);
     let floor = params.min_size_m.unwrap_or(1e-6 * scale).min(h_max);
     let mut f = SizeField::uniform(h_max, params.gradation, floor);
-    for s in &geo.shapes {
+    for (i, s) in geo.shapes.iter().enumerate() {
         if let Some(h) = s.max_size_m {
             if h < h_max {
                 f.add_inside(&s.outline, h);
+                f.tag_last(SizeSource::Shape(i));
             }
         }
     }
-    for p in &geo.size_points {
+    for (i, p) in geo.size_points.iter().enumerate() {
         f.add_point(p.at, p.size_m);
+        f.tag_last(SizeSource::Point(i));
     }
     for pc in &arr.pieces {
         if let Curve::Arc { radius, .. } = pc.curve {
@@ -203,8 +235,9 @@ fn size_field(
         })
         .collect();
     if params.grade_corners {
-        for ((_, s), l) in singular.iter().zip(&laws) {
+        for (k, ((_, s), l)) in singular.iter().zip(&laws).enumerate() {
             f.add_corner(s.at, l.h0, l.radius, l.mu);
+            f.tag_last(SizeSource::Corner(k));
         }
     }
     (f, laws)

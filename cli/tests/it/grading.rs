@@ -216,14 +216,17 @@ fn grade_corners_false_gives_an_ungraded_mesh_and_a_warning() {
 }
 
 #[test]
-fn a_node_budget_that_stops_the_grading_is_reported() {
-    // 400 vertices are not enough to grade the slab's λ = 1/2 point (the full mesh has
-    // about 1 700 vertices): the point is reported with the budget as the reason.
+fn a_node_budget_below_the_predicted_mesh_is_refused_before_meshing() {
+    // 400 vertices are not enough for the slab (the full mesh has about 1 700): the size
+    // field's prediction says so before meshing, with the count, the budget and what to
+    // change, exit code 2 (the stop of the refinement at the budget, when a prediction was
+    // low, is tested in the mesher's own tests: `budget.rs`).
     let dir = tempfile::tempdir().unwrap();
     let model = slab_with("max_nodes = 400", dir.path());
-    let (j, _) = mesh(&model, dir.path());
-    assert_eq!(j["refinement_complete"], false);
-    assert_eq!(j["singular_points"][0]["grading"]["status"], "node budget reached");
-    let w = j["warnings"][0].as_str().unwrap();
-    assert!(w.contains("left ungraded") && w.contains("max_nodes = 400"), "{w}");
+    let o = run(&["mesh", model.to_str().unwrap(), "--json"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let e = stderr(&o);
+    assert!(e.contains("over the node budget max_nodes = 400") && e.contains("vertices"), "{e}");
+    assert!(e.contains("slab.toml"), "{e}");
+    assert!(o.stdout.is_empty());
 }

@@ -1,5 +1,7 @@
 //! End-to-end tests of the `fieldgrade` binary, by topic.
 
+/// Sizes the machine cannot hold are refused before meshing.
+mod budget;
 /// `fieldgrade check`: adaptivity, convergence and singular-point sections.
 mod check;
 /// Running the binary and reading what it wrote.

@@ -2,6 +2,8 @@
 
 /// Circular arcs: nodes on the true circle, chord error within the tolerance.
 mod arcs;
+/// The mesh size predicted before meshing, and the node budget.
+mod budget;
 /// Shared helpers: small geometries and mesh measurements.
 mod common;
 /// Singular points and their exponents on whole geometries.
