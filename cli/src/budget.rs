@@ -85,6 +85,7 @@ pub fn prepare(model: &mut Model, order: Option<u8>, memory_limit: Option<f64>, 
         model.params.order = o;
     }
     let budget = MemoryBudget::new(memory_limit);
+    model.memory_budget_bytes = budget.bytes;
     if budget.apply(model, adaptive) {
         model.budget_note = Some(budget.explain(model.params.max_nodes, model.params.order, adaptive));
     }

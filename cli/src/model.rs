@@ -242,6 +242,8 @@ pub struct Model {
     /// Set when the memory budget lowered `max_nodes`: the sentence a refusal over the node
     /// budget adds (see `budget::prepare`).
     pub budget_note: Option<String>,
+    /// The run's memory budget, bytes (set by `budget::prepare`; infinite until then).
+    pub memory_budget_bytes: f64,
     /// Metres per model length unit.
     pub unit_m: f64,
     /// Name of the model length unit.
@@ -889,6 +891,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         params,
         singular_exclusion_radius_m,
         budget_note: None,
+        memory_budget_bytes: f64::INFINITY,
         sets_min_angle,
         sets_gradation,
         materials,

@@ -204,6 +204,7 @@ pub fn problem_of(model: &Model) -> Problem {
             .collect(),
         outer_potential_v: model.outer_potential_v,
         outer_potential_fn: None,
+        memory_budget_bytes: Some(model.memory_budget_bytes),
     }
 }
 

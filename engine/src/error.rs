@@ -42,6 +42,15 @@ pub enum SolveError {
     /// Nothing holds the potential: no conductor at a fixed potential and no outer
     /// boundary potential, so the potential is defined only up to a constant.
     NoPotentialReference,
+    /// The factorisation would not fit in the memory budget (`Problem::memory_budget_bytes`).
+    FactorOverBudget {
+        /// Unknowns of the system.
+        unknowns: usize,
+        /// Bytes the factor's values need.
+        bytes: f64,
+        /// The budget.
+        budget: f64,
+    },
     /// The adaptive loop's first mesh already has more nodes than its budget of unknowns.
     FirstMeshOverBudget {
         /// Nodes of the first mesh.
@@ -83,6 +92,7 @@ impl fmt::Display for SolveError {
             SolveError::BadChargeDensity { region, value } => write!(f, "region '{region}' has volume charge density {value}; give a finite number of C/m³"),
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
+            SolveError::FactorOverBudget { unknowns, bytes, budget } => write!(f, "the factorisation of the {unknowns} unknowns would need {:.2} GB for its values alone, over the memory budget of {:.2} GB; coarsen the sizes in [mesh] or raise --memory-limit if the machine has the memory", bytes / 1e9, budget / 1e9),
             SolveError::FirstMeshOverBudget { nodes, max_unknowns } => write!(f, "the first mesh already has {nodes} nodes, more than the budget of {max_unknowns} unknowns for the adaptive loop; raise --max-unknowns (or --memory-limit) or coarsen the sizes in [mesh]"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
             SolveError::FloatingPart { region, at } => write!(f, "region '{region}' (near ({:.6e}, {:.6e}) m) is cut off from every fixed potential, so its potential is undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a potential", at[0], at[1]),

@@ -41,6 +41,11 @@ pub struct Problem {
     /// When given it holds the outer boundary and `outer_potential_v` is ignored; the
     /// capacitance matrix still takes the outer boundary at 0 V.
     pub outer_potential_fn: Option<fn([f64; 2]) -> f64>,
+    /// A resource limit, not physics: the solve stops with
+    /// [`SolveError::FactorOverBudget`](crate::SolveError::FactorOverBudget) before the
+    /// numeric factorisation if the factor's values alone would take more bytes than this
+    /// (known exactly from the symbolic factorisation). `None`: no limit.
+    pub memory_budget_bytes: Option<f64>,
 }
 
 impl Problem {

@@ -448,7 +448,7 @@ struct Factor {
 
 impl Factor {
     /// Orders (geometric nested dissection, [`nested_dissection`]), then factorises.
-    fn new(system: &System) -> Result<Factor, SolveError> {
+    fn new(system: &System, memory_budget_bytes: Option<f64>) -> Result<Factor, SolveError> {
         let m = system.num_unknowns();
         let a = system.matrix.as_ref();
         let t0 = Instant::now();
@@ -458,6 +458,10 @@ impl Factor {
         let symbolic = factorize_symbolic_cholesky(a.symbolic(), Side::Lower, ordering, Default::default())
             .map_err(|e| SolveError::Factorisation { detail: format!("{e:?}") })?;
         let t2 = Instant::now();
+        let bytes = 8.0 * symbolic.len_val() as f64;
+        if let Some(budget) = memory_budget_bytes.filter(|&b| bytes > b) {
+            return Err(SolveError::FactorOverBudget { unknowns: m, bytes, budget });
+        }
         let mut values = vec![0.0; symbolic.len_val()];
         let mut mem = MemBuffer::new(symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()));
         let numeric = symbolic.factorize_numeric_llt(
@@ -777,7 +781,7 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
     let mut factor = None;
     if m > 0 {
         let t1 = Instant::now();
-        let f = Factor::new(&system)?;
+        let f = Factor::new(&system, problem.memory_budget_bytes)?;
         timings.factor_s = t1.elapsed().as_secs_f64();
         [timings.ordering_s, timings.symbolic_s, timings.numeric_s] = f.laps;
         let t2 = Instant::now();

@@ -340,3 +340,34 @@ fn a_non_positive_pivot_names_the_failing_node() {
         other => panic!("expected a non-positive pivot, got {:?}", other.map(|s| s.num_unknowns)),
     }
 }
+
+#[test]
+fn a_factor_over_the_memory_budget_stops_before_the_factorisation() {
+    // Coaxial cylinders 1 cm / 3 cm: the factor of a few thousand unknowns needs far more
+    // than 1 kB and far less than 1 GB: refused at the first budget, solved at the second.
+    let geo = mesher::Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("gap", Outline::circle("gap", [0.0, 0.0], 0.03).unwrap(), diel(1.0)),
+            shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+        ],
+        conductors: vec!["core".into()],
+        outer: mesher::OuterBoundary::FixedPotential,
+        size_points: vec![],
+    };
+    let mesh = mesher::generate(&geo, &mesher::RefineParams::new().with_order(2)).unwrap().mesh;
+    let problem = |budget: f64| engine::Problem {
+        permittivity: vec![1.0, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
+        outer_potential_v: Some(0.0),
+        memory_budget_bytes: Some(budget),
+        ..Default::default()
+    };
+    match engine::solve(&mesh, &problem(1e3)) {
+        Err(e @ engine::SolveError::FactorOverBudget { .. }) => {
+            assert!(e.to_string().contains("over the memory budget"), "{e}")
+        }
+        other => panic!("expected a refusal, got {other:?}"),
+    }
+    assert!(engine::solve(&mesh, &problem(1e9)).is_ok());
+}
