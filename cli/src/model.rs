@@ -272,6 +272,21 @@ impl Model {
     }
 }
 
+/// Largest potential accepted, V: a million times the highest transmission voltages, and
+/// small enough that every energy, charge and field derived from it stays finite in double
+/// precision (ε₀·V² ≈ 10¹³ J/m; a field of V over 10⁻¹² m is 10²⁴ V/m).
+const MAX_POTENTIAL_V: f64 = 1e12;
+/// Largest floating-conductor charge accepted, C.
+const MAX_CHARGE_C: f64 = 1e3;
+/// Largest volume charge density accepted, C/m³.
+const MAX_CHARGE_DENSITY: f64 = 1e12;
+/// Largest relative permittivity accepted (ferroelectric ceramics reach about 10⁴).
+const MAX_PERMITTIVITY: f64 = 1e6;
+/// Largest coordinate accepted, m.
+const MAX_COORDINATE_M: f64 = 1e6;
+/// What the range errors add.
+const LIMIT_HELP: &str = "the limits keep every result a finite number (docs/model-format.md lists them); check the value and its unit";
+
 fn units(name: &str) -> Option<(f64, &'static str)> {
     Some(match name {
         "m" => (1.0, "m"),
@@ -354,10 +369,12 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     };
     let finite_xy = |v: &S<[f64; 2]>, key: String| -> Result<Xy, ModelError> {
         let p = *v.get_ref();
-        if p.iter().all(|c| c.is_finite()) {
+        if p.iter().all(|c| c.is_finite() && (c * unit_m).abs() <= MAX_COORDINATE_M) {
             Ok([p[0] * unit_m, p[1] * unit_m])
         } else {
-            Err(err(v.span(), format!("coordinates must be finite numbers, not [{}, {}]", p[0], p[1])).key(key))
+            Err(err(v.span(), format!("coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]", p[0], p[1]))
+                .key(key)
+                .help(LIMIT_HELP))
         }
     };
 
@@ -375,6 +392,11 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                 .help("give each material its own name"));
         }
         let eps = positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
+        if eps > MAX_PERMITTIVITY {
+            return Err(err(m.permittivity.span(), format!("the relative permittivity {eps:e} is above {MAX_PERMITTIVITY:e}"))
+                .key(format!("material[{i}].permittivity"))
+                .help(LIMIT_HELP));
+        }
         let allow = match &m.allowable_stress_kv_per_mm {
             Some(a) => Some(positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?),
             None => None,
@@ -419,9 +441,10 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         let kind = match (&c.potential_v, floating) {
             (Some(v), false) => {
                 let x = *v.get_ref();
-                if !x.is_finite() {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}"))
-                        .key(format!("conductor[{i}].potential_v")));
+                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"))
+                        .key(format!("conductor[{i}].potential_v"))
+                        .help(LIMIT_HELP));
                 }
                 if let Some(q) = &c.charge_c {
                     return Err(err(
@@ -435,9 +458,10 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             }
             (None, true) => {
                 let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
-                if !q.is_finite() {
-                    return Err(err(c.charge_c.as_ref().unwrap().span(), "the charge must be a finite number".into())
-                        .key(format!("conductor[{i}].charge_c")));
+                if !(q.is_finite() && q.abs() <= MAX_CHARGE_C) {
+                    return Err(err(c.charge_c.as_ref().unwrap().span(), format!("the charge must be a finite number of coulombs within ±{MAX_CHARGE_C:e}, not {q:e}"))
+                        .key(format!("conductor[{i}].charge_c"))
+                        .help(LIMIT_HELP));
                 }
                 ConductorKind::Floating { charge_c: q }
             }
@@ -646,9 +670,10 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         let rho = match &sh.charge_density_c_per_m3 {
             Some(r) => {
                 let v = *r.get_ref();
-                if !v.is_finite() {
-                    return Err(err(r.span(), format!("the charge density must be a finite number, not {v}"))
-                        .key(key("charge_density_c_per_m3")));
+                if !(v.is_finite() && v.abs() <= MAX_CHARGE_DENSITY) {
+                    return Err(err(r.span(), format!("the charge density must be a finite number of C/m³ within ±{MAX_CHARGE_DENSITY:e}, not {v:e}"))
+                        .key(key("charge_density_c_per_m3"))
+                        .help(LIMIT_HELP));
                 }
                 if mat.is_none() {
                     return Err(err(r.span(), "a conductor shape cannot carry a volume charge density".into())
@@ -686,9 +711,10 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                         .help("add potential_v = 0.0 for an earthed enclosure")
                 })?;
                 let x = *v.get_ref();
-                if !x.is_finite() {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts, not {x}"))
-                        .key("boundary.potential_v"));
+                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
+                    return Err(err(v.span(), format!("the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"))
+                        .key("boundary.potential_v")
+                        .help(LIMIT_HELP));
                 }
                 outer = OuterBoundary::FixedPotential;
                 outer_potential_v = Some(x);

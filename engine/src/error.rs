@@ -42,6 +42,11 @@ pub enum SolveError {
     /// Nothing holds the potential: no conductor at a fixed potential and no outer
     /// boundary potential, so the potential is defined only up to a constant.
     NoPotentialReference,
+    /// A result came out NaN or infinite (inputs so large that their products overflow).
+    NonFinite {
+        /// Which quantity, and where.
+        quantity: String,
+    },
     /// The factorisation would not fit in the memory budget (`Problem::memory_budget_bytes`).
     FactorOverBudget {
         /// Unknowns of the system.
@@ -92,6 +97,7 @@ impl fmt::Display for SolveError {
             SolveError::BadChargeDensity { region, value } => write!(f, "region '{region}' has volume charge density {value}; give a finite number of C/m³"),
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
             SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
+            SolveError::NonFinite { quantity } => write!(f, "the computed {quantity} is not a finite number; the inputs' scale overflows double precision: check the potentials, charges, charge densities and permittivities for values far outside any real part"),
             SolveError::FactorOverBudget { unknowns, bytes, budget } => write!(f, "the factorisation of the {unknowns} unknowns would need {:.2} GB for its values alone, over the memory budget of {:.2} GB; coarsen the sizes in [mesh] or raise --memory-limit if the machine has the memory", bytes / 1e9, budget / 1e9),
             SolveError::FirstMeshOverBudget { nodes, max_unknowns } => write!(f, "the first mesh already has {nodes} nodes, more than the budget of {max_unknowns} unknowns for the adaptive loop; raise --max-unknowns (or --memory-limit) or coarsen the sizes in [mesh]"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),

@@ -522,6 +522,30 @@ fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64], with_space_char
     }
 }
 
+/// No NaN or infinity leaves the solve: the first non-finite result, named.
+fn non_finite_check(mesh: &Mesh, sol: &Solution, cmat: &[Vec<f64>]) -> Result<(), SolveError> {
+    let bad = |quantity: String| Err(SolveError::NonFinite { quantity });
+    if let Some(v) = sol.potential.iter().position(|p| !p.is_finite()) {
+        let at = mesh.nodes[v];
+        return bad(format!("potential at node {v} ({:.6e}, {:.6e}) m", at[0], at[1]));
+    }
+    if !sol.energy.is_finite() {
+        return bad("stored energy".into());
+    }
+    for (c, name) in mesh.conductor_names.iter().enumerate() {
+        if !sol.conductor_charges[c].is_finite() {
+            return bad(format!("charge of conductor '{name}'"));
+        }
+        if !sol.conductor_potentials[c].is_finite() {
+            return bad(format!("potential of conductor '{name}'"));
+        }
+    }
+    if cmat.iter().flatten().any(|c| !c.is_finite()) {
+        return bad("capacitance matrix".into());
+    }
+    Ok(())
+}
+
 /// Nodal potentials, charges and energy from the reduced solution `x` of one case.
 fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64], with_space_charge: bool) -> Solution {
     let n = mesh.nodes.len();
@@ -809,6 +833,7 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
     }
     timings.post_s = t3.elapsed().as_secs_f64();
     sol.timings = timings;
+    non_finite_check(mesh, &sol, &cmat)?;
     Ok(FactoredSolution {
         solution: sol,
         capacitance: (fixed, cmat),

@@ -6,6 +6,8 @@ mod budget;
 mod check;
 /// Running the binary and reading what it wrote.
 mod common;
+/// The corpus of bad inputs in `fixtures/bad/`: message fragments and exit codes.
+mod corpus;
 /// `fieldgrade debug matrix` dumps a system an independent solver can solve.
 mod debug_matrix;
 /// Every bad model file gives a located message, exit code 2, and writes nothing.
