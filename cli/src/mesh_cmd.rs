@@ -224,7 +224,7 @@ pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Optio
             }),
         })
         .collect();
-    let warnings = mesh
+    let mut warnings: Vec<String> = mesh
         .singular_points
         .iter()
         .enumerate()
@@ -232,6 +232,28 @@ pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Optio
             grading_warning(&format!("singular point S{}", i + 1), s, k, model.unit, model.params.max_nodes)
         })
         .collect();
+    // A dielectric shape that the shapes painted after it cover entirely has no elements:
+    // it would vanish from the results without a word.
+    for (i, shape) in model.geometry.shapes.iter().enumerate() {
+        let meshed = st.per_region.iter().any(|&(r, n, _)| r as usize == i && n > 0);
+        if model.shape_material.get(i).is_some_and(|m| m.is_some()) && !meshed {
+            let covers: Vec<&str> = model.geometry.shapes[i + 1..]
+                .iter()
+                .filter(|o| {
+                    shape.outline.curves().iter().all(|c| {
+                        o.outline.contains(c.point_at(0.5))
+                            || o.outline.distance(c.point_at(0.5)) <= 1e-9 * mesh.scale()
+                    })
+                })
+                .map(|o| o.name.as_str())
+                .collect();
+            warnings.push(format!(
+                "shape '{}' has no elements: the shapes painted after it{} cover it entirely, so it is not part of the results; remove it, or move it after them in the file",
+                shape.name,
+                if covers.is_empty() { String::new() } else { format!(" ({})", covers.join(", ")) }
+            ));
+        }
+    }
     MeshReport {
         model: model.name.clone(),
         symmetry: match mesh.symmetry {

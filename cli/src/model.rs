@@ -272,6 +272,15 @@ impl Model {
     }
 }
 
+/// `x` to four significant digits, for messages.
+fn round4(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let k = 10f64.powi(3 - x.abs().log10().floor() as i32);
+    (x * k).round() / k
+}
+
 /// Largest potential accepted, V: a million times the highest transmission voltages, and
 /// small enough that every energy, charge and field derived from it stays finite in double
 /// precision (ε₀·V² ≈ 10¹³ J/m; a field of V over 10⁻¹² m is 10²⁴ V/m).
@@ -285,7 +294,8 @@ const MAX_PERMITTIVITY: f64 = 1e6;
 /// Largest coordinate accepted, m.
 const MAX_COORDINATE_M: f64 = 1e6;
 /// What the range errors add.
-const LIMIT_HELP: &str = "the limits keep every result a finite number (docs/model-format.md lists them); check the value and its unit";
+const LIMIT_HELP: &str =
+    "the limits keep every result a finite number (docs/model-format.md lists them); check the value and its unit";
 
 fn units(name: &str) -> Option<(f64, &'static str)> {
     Some(match name {
@@ -372,9 +382,15 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         if p.iter().all(|c| c.is_finite() && (c * unit_m).abs() <= MAX_COORDINATE_M) {
             Ok([p[0] * unit_m, p[1] * unit_m])
         } else {
-            Err(err(v.span(), format!("coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]", p[0], p[1]))
-                .key(key)
-                .help(LIMIT_HELP))
+            Err(err(
+                v.span(),
+                format!(
+                    "coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]",
+                    p[0], p[1]
+                ),
+            )
+            .key(key)
+            .help(LIMIT_HELP))
         }
     };
 
@@ -393,9 +409,12 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         }
         let eps = positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
         if eps > MAX_PERMITTIVITY {
-            return Err(err(m.permittivity.span(), format!("the relative permittivity {eps:e} is above {MAX_PERMITTIVITY:e}"))
-                .key(format!("material[{i}].permittivity"))
-                .help(LIMIT_HELP));
+            return Err(err(
+                m.permittivity.span(),
+                format!("the relative permittivity {eps:e} is above {MAX_PERMITTIVITY:e}"),
+            )
+            .key(format!("material[{i}].permittivity"))
+            .help(LIMIT_HELP));
         }
         let allow = match &m.allowable_stress_kv_per_mm {
             Some(a) => Some(positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?),
@@ -442,9 +461,14 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             (Some(v), false) => {
                 let x = *v.get_ref();
                 if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"))
-                        .key(format!("conductor[{i}].potential_v"))
-                        .help(LIMIT_HELP));
+                    return Err(err(
+                        v.span(),
+                        format!(
+                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
+                        ),
+                    )
+                    .key(format!("conductor[{i}].potential_v"))
+                    .help(LIMIT_HELP));
                 }
                 if let Some(q) = &c.charge_c {
                     return Err(err(
@@ -459,9 +483,12 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             (None, true) => {
                 let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
                 if !(q.is_finite() && q.abs() <= MAX_CHARGE_C) {
-                    return Err(err(c.charge_c.as_ref().unwrap().span(), format!("the charge must be a finite number of coulombs within ±{MAX_CHARGE_C:e}, not {q:e}"))
-                        .key(format!("conductor[{i}].charge_c"))
-                        .help(LIMIT_HELP));
+                    return Err(err(
+                        c.charge_c.as_ref().unwrap().span(),
+                        format!("the charge must be a finite number of coulombs within ±{MAX_CHARGE_C:e}, not {q:e}"),
+                    )
+                    .key(format!("conductor[{i}].charge_c"))
+                    .help(LIMIT_HELP));
                 }
                 ConductorKind::Floating { charge_c: q }
             }
@@ -712,9 +739,14 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                 })?;
                 let x = *v.get_ref();
                 if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                    return Err(err(v.span(), format!("the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"))
-                        .key("boundary.potential_v")
-                        .help(LIMIT_HELP));
+                    return Err(err(
+                        v.span(),
+                        format!(
+                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
+                        ),
+                    )
+                    .key("boundary.potential_v")
+                    .help(LIMIT_HELP));
                 }
                 outer = OuterBoundary::FixedPotential;
                 outer_potential_v = Some(x);
@@ -750,6 +782,29 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         }
         if let Some(h) = &m.min_size {
             params = params.with_min_size_m(positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
+            let (lo, hi) = (params.min_size_m.unwrap_or(0.0), params.max_size_m);
+            // Against the default max_size (1/25 of the domain's diagonal) when none is given.
+            let diagonal = shapes.first().map(|d| {
+                let b = d.outline.bbox();
+                (b[2] - b[0]).hypot(b[3] - b[1])
+            });
+            if let Some(max) = hi.or(diagonal.map(|d| d / 25.0)) {
+                if lo > max {
+                    return Err(err(
+                        h.span(),
+                        format!(
+                            "min_size = {} is larger than max_size = {}{}",
+                            round4(lo / unit_m),
+                            round4(max / unit_m),
+                            if hi.is_none() { " (the default, 1/25 of the domain's diagonal)" } else { "" }
+                        ),
+                    )
+                    .key("mesh.min_size")
+                    .help(
+                        "min_size is the smallest element size the grading may ask for: make it smaller than max_size",
+                    ));
+                }
+            }
         }
         if let Some(o) = &m.order {
             let v = *o.get_ref();
@@ -805,6 +860,24 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
             let p = p.get_ref();
             let at = finite_xy(&p.at, format!("mesh.point[{k}].at"))?;
             let size = positive(&p.size, format!("mesh.point[{k}].size"), "the point size")? * unit_m;
+            if let Some(d) = shapes.first() {
+                let b = d.outline.bbox();
+                let diagonal = (b[2] - b[0]).hypot(b[3] - b[1]);
+                if !d.outline.contains(at) && d.outline.distance(at) > 1e-9 * diagonal {
+                    return Err(err(
+                        p.at.span(),
+                        format!(
+                            "the point ({}, {}) {} lies outside the domain '{}', so its size would be ignored",
+                            at[0] / unit_m,
+                            at[1] / unit_m,
+                            unit,
+                            d.name
+                        ),
+                    )
+                    .key(format!("mesh.point[{k}].at"))
+                    .help("move the point inside the first shape, or remove it"));
+                }
+            }
             size_points.push(SizePoint { at, size_m: size });
         }
     }

@@ -668,12 +668,20 @@ impl Geometry {
         if self.outer == OuterBoundary::Open {
             crate::exterior::domain_circle(self)?;
         }
-        for p in &self.size_points {
+        for (i, p) in self.size_points.iter().enumerate() {
             if !(p.size_m.is_finite() && p.size_m > 0.0 && p.at.iter().all(|v| v.is_finite())) {
                 return Err(MeshError::BadNumber {
                     shape: "mesh.point".into(),
                     what: "point size".into(),
                     value: p.size_m,
+                });
+            }
+            let dom = &self.shapes[0].outline;
+            if !dom.contains(p.at) && dom.distance(p.at) > 1e-9 * scale {
+                return Err(MeshError::OutsideDomain {
+                    shape: format!("size point #{}", i + 1),
+                    domain: self.shapes[0].name.clone(),
+                    at: p.at,
                 });
             }
         }

@@ -109,6 +109,16 @@ pub fn generate_with(
     let mut clock = Stopwatch::new();
     geo.validate()?;
     params.validate()?;
+    if let Some(min) = params.min_size_m {
+        let max = params.max_size_m.unwrap_or(geo.scale() / 25.0);
+        if min > max {
+            return Err(MeshError::BadParameter {
+                name: "min_size_m",
+                value: min,
+                allowed: "at most max_size (by default 1/25 of the domain's diagonal)",
+            });
+        }
+    }
     let arr = Arrangement::build(geo)?;
     let singular = corners::find(geo, &arr, params.order)?;
     let (mut field, laws) = size_field(geo, &arr, &singular, params);
@@ -192,6 +202,8 @@ fn size_field(
 ) -> (SizeField, Vec<GradingLaw>) {
     let scale = geo.scale();
     let h_max = params.max_size_m.unwrap_or(scale / 25.0);
+    // `generate_with` refuses a min_size above max_size; the adaptive loop's own floor
+    // (1e-9 of the diagonal) never is.
     let floor = params.min_size_m.unwrap_or(1e-6 * scale).min(h_max);
     let mut f = SizeField::uniform(h_max, params.gradation, floor);
     for (i, s) in geo.shapes.iter().enumerate() {
