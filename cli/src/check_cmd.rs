@@ -322,7 +322,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     bar.finish_and_clear();
     let outcome = outcome.map_err(|e| match e {
         engine::SolveError::Mesh(m) => UserError(model.mesh_error(&m).to_string()).into(),
-        e => solve_error(&run.model, e),
+        e => solve_error(&model, e),
     })?;
     let (discs, quantities) = setup.expect("the adaptive loop watches every mesh it solves");
     let t_adapt = t0.elapsed().as_secs_f64();

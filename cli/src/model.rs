@@ -297,6 +297,47 @@ const MAX_COORDINATE_M: f64 = 1e6;
 const LIMIT_HELP: &str =
     "the limits keep every result a finite number (docs/model-format.md lists them); check the value and its unit";
 
+impl Model {
+    /// A solve error as a model-file diagnostic: at the shape it names, when it names one,
+    /// with the table to look at otherwise.
+    pub fn solve_error(&self, e: &engine::SolveError) -> ModelError {
+        use engine::SolveError as E;
+        let region = match e {
+            E::BadPermittivity { region, .. }
+            | E::BadTensor { region, .. }
+            | E::BadChargeDensity { region, .. }
+            | E::FloatingPart { region, .. } => Some(region.as_str()),
+            _ => None,
+        };
+        if let E::Mesh(m) = e {
+            return self.mesh_error(m);
+        }
+        let shape = region.and_then(|r| self.geometry.shapes.iter().position(|s| s.name == r));
+        let span = shape.map(|i| self.shape_spans[i].clone());
+        let mut err = ModelError::new(&self.path, &self.source, span, e.to_string());
+        let look_at = match e {
+            _ if shape.is_some() => format!("in shape '{}'", region.unwrap_or_default()),
+            E::BadConductor { .. } | E::NoPotentialReference | E::ConductorMismatch { .. } => {
+                "[[conductor]] and [boundary]".into()
+            }
+            E::NonFinite { .. } => {
+                "[[conductor]] potentials and charges, [[material]] permittivities, shape charge densities".into()
+            }
+            E::FactorOverBudget { .. } | E::FirstMeshOverBudget { .. } => {
+                "[mesh] max_size, min_size and the shapes' max_size".into()
+            }
+            E::NotPositiveDefinite { .. } | E::Factorisation { .. } => {
+                "the shapes around the node named, with `fieldgrade mesh --svg`".into()
+            }
+            _ => String::new(),
+        };
+        if !look_at.is_empty() {
+            err = err.key(look_at);
+        }
+        err
+    }
+}
+
 fn units(name: &str) -> Option<(f64, &'static str)> {
     Some(match name {
         "m" => (1.0, "m"),
@@ -314,9 +355,29 @@ fn units(name: &str) -> Option<(f64, &'static str)> {
 /// A [`ModelError`] naming file, line, column and key, for unreadable files, TOML syntax
 /// errors, unknown keys, and every inconsistency listed in `docs/model-format.md`.
 pub fn load(path: &Path) -> Result<Model, ModelError> {
-    let source = std::fs::read_to_string(path).map_err(|e| {
+    let bytes = std::fs::read(path).map_err(|e| {
         ModelError::new(path, "", None, format!("cannot read the model file: {e}"))
-            .help("check the path and that the file is readable UTF-8 text")
+            .help("check the path and that the file is readable")
+    })?;
+    let source = String::from_utf8(bytes).map_err(|e| {
+        // Where the first invalid byte is: line and column of the valid text before it.
+        let good = e.utf8_error().valid_up_to();
+        let bytes = e.as_bytes();
+        let before = String::from_utf8_lossy(&bytes[..good]);
+        let line = before.matches('\n').count() + 1;
+        let column = before.rsplit('\n').next().map(|l| l.chars().count()).unwrap_or(0) + 1;
+        let nul = bytes.iter().take(8192).any(|&b| b == 0);
+        ModelError::new(
+            path,
+            "",
+            None,
+            format!(
+                "the model file is not UTF-8 text: byte 0x{:02x} at line {line}, column {column} (byte {good}) is not valid UTF-8{}",
+                bytes[good],
+                if nul { "; the file looks binary" } else { "" }
+            ),
+        )
+        .help("a model file is TOML text: save it as UTF-8 (a µ or ε typed in another encoding is the usual cause)")
     })?;
     parse(path, &source)
 }
@@ -507,6 +568,10 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     }
 
     // [[shape]]
+    if source.lines().all(|l| l.trim().is_empty() || l.trim_start().starts_with('#')) {
+        return Err(ModelError::new(path, source, None, "the model file is empty (it has no table, only blank lines or comments)")
+            .help("start from a demo in fixtures/models/ or from docs/model-format.md: a model needs [[material]], [[conductor]] and [[shape]] tables"));
+    }
     if raw.shape.is_empty() {
         return Err(ModelError::new(path, source, None, "the model has no shape")
             .key("shape")
@@ -767,6 +832,26 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
                     .help("use \"zero_flux\" (the default), \"potential\" or \"open\""))
             }
         }
+    }
+
+    // A potential reference: a conductor at a fixed potential, or an outer boundary held at
+    // one (or at 0 V at infinity); floating conductors alone leave the level undetermined.
+    let fixed = conductors.iter().any(|c| matches!(c.kind, ConductorKind::Fixed { .. }));
+    if !fixed && outer == OuterBoundary::ZeroFlux {
+        let floating: Vec<&str> = conductors.iter().map(|c| c.name.as_str()).collect();
+        let (span, what) = match raw.conductor.first() {
+            Some(c) => (
+                Some(c.span()),
+                format!(
+                    "no potential reference: the conductors ({}) are all floating and the outer boundary is zero_flux, so the potential level is undetermined",
+                    floating.iter().map(|n| format!("'{n}'")).collect::<Vec<_>>().join(", ")
+                ),
+            ),
+            None => (None, "no potential reference: the model has no conductor and the outer boundary is zero_flux".to_string()),
+        };
+        return Err(ModelError::new(path, source, span, what)
+            .key("conductor")
+            .help("give one conductor potential_v = <volts> instead of floating = true, or hold the outer boundary: [boundary] outer = \"potential\", potential_v = 0.0"));
     }
 
     // [mesh]

@@ -221,7 +221,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);
     // One factorisation serves the load case and every capacitance column.
-    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&run.model, e))?;
+    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&model, e))?;
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let mesh_report = report(&model, &meshed);
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
@@ -243,8 +243,8 @@ pub fn run(run: &SolveRun) -> Result<()> {
 }
 
 /// A solve error as a user error naming the model file.
-pub fn solve_error(model: &std::path::Path, e: engine::SolveError) -> anyhow::Error {
-    UserError(format!("error: {e}\n  --> {}\n", model.display())).into()
+pub fn solve_error(model: &Model, e: engine::SolveError) -> anyhow::Error {
+    UserError(model.solve_error(&e).to_string()).into()
 }
 
 /// What `solve` writes besides results.json: the solution, its fields and the probe files.

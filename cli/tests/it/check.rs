@@ -125,6 +125,12 @@ fn a_bad_tolerance_is_a_clean_error() {
         assert!(stderr(&o).contains("tol"), "{}", stderr(&o));
         assert!(!out.exists(), "no output for a bad argument");
     }
+    // A negative tolerance written as a separate word is the tolerance's error, not taken
+    // for an unknown flag.
+    let o =
+        run(&["check", fixture("l-electrode.toml").to_str().unwrap(), "--out", out.to_str().unwrap(), "--tol", "-1%"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("tolerance -1% is out of range"), "{}", stderr(&o));
 }
 
 #[test]
