@@ -330,6 +330,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         outcome;
     let mesh_report = report_of(&model, &mesh, true, None);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
+    crate::solve_cmd::finite_or_error(&model, &solve)?;
     let mut singular = singular_section(&model, &mesh, &analysis.sol, &discs);
     let t_post = t0.elapsed().as_secs_f64() - t_adapt;
     solve.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];

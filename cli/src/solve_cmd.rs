@@ -34,6 +34,44 @@ pub struct SolveRun {
     pub memory_limit: Option<f64>,
 }
 
+impl Results {
+    /// The first result that is not a finite number, named (no NaN or infinity may reach
+    /// the terminal or `results.json`, where it would print as "NaN" or `null`).
+    pub fn first_non_finite(&self) -> Option<String> {
+        let bad = |x: f64| !x.is_finite();
+        if bad(self.energy_j) {
+            return Some("stored energy".into());
+        }
+        for c in &self.conductors {
+            if bad(c.potential_v) || bad(c.charge_c) {
+                return Some(format!("potential or charge of conductor '{}'", c.name));
+            }
+        }
+        if self.capacitance_matrix_f.values.iter().flatten().any(|&v| bad(v)) {
+            return Some("capacitance matrix".into());
+        }
+        for r in &self.regions {
+            if bad(r.e_max_v_per_m) || r.utilisation.is_some_and(bad) || r.error_bar_v_per_m.is_some_and(bad) {
+                return Some(format!("peak field in region '{}'", r.name));
+            }
+        }
+        for p in &self.probes {
+            if bad(p.e_max_v_per_m) || p.e_t_max_v_per_m.is_some_and(bad) {
+                return Some(format!("largest field along probe '{}'", p.name));
+            }
+        }
+        None
+    }
+}
+
+/// Refuses results with a non-finite number in them (see [`Results::first_non_finite`]).
+pub fn finite_or_error(model: &Model, results: &Results) -> Result<()> {
+    match results.first_non_finite() {
+        Some(q) => Err(solve_error(model, engine::SolveError::NonFinite { quantity: q })),
+        None => Ok(()),
+    }
+}
+
 /// `results.json`, documented in `docs/results-format.md`.
 #[derive(Serialize, Debug)]
 pub struct Results {
@@ -225,6 +263,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let mesh_report = report(&model, &meshed);
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
+    finite_or_error(&model, &results)?;
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
     results.timings_s =
         vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)];

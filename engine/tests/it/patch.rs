@@ -371,3 +371,30 @@ fn a_factor_over_the_memory_budget_stops_before_the_factorisation() {
     }
     assert!(engine::solve(&mesh, &problem(1e9)).is_ok());
 }
+
+#[test]
+fn a_result_that_overflows_is_an_error_naming_it() {
+    // 10³⁰⁰ V across permittivity 10³⁰⁰: the energy ½ε₀εᵣ|E|² overflows double precision
+    // (10⁸⁸⁸ J/m); the solve says which quantity, instead of returning infinity.
+    let geo = mesher::Geometry {
+        symmetry: Symmetry::Planar,
+        shapes: vec![
+            shape("gap", Outline::circle("gap", [0.0, 0.0], 0.03).unwrap(), diel(1e300)),
+            shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+        ],
+        conductors: vec!["core".into()],
+        outer: mesher::OuterBoundary::FixedPotential,
+        size_points: vec![],
+    };
+    let mesh = mesher::generate(&geo, &mesher::RefineParams::new().with_order(1)).unwrap().mesh;
+    let problem = engine::Problem {
+        permittivity: vec![1e300, f64::NAN],
+        conductors: vec![ConductorSpec::Fixed { potential_v: 1e300 }],
+        outer_potential_v: Some(0.0),
+        ..Default::default()
+    };
+    match engine::solve(&mesh, &problem) {
+        Err(e @ engine::SolveError::NonFinite { .. }) => assert!(e.to_string().contains("not a finite number"), "{e}"),
+        other => panic!("expected a non-finite result to be refused, got {other:?}"),
+    }
+}
