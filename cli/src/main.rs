@@ -9,14 +9,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
-mod budget;
-mod check_cmd;
-mod diag;
-mod mesh_cmd;
-mod model;
-mod output;
-mod solve_cmd;
-mod svg;
+use fieldgrade::{budget, check_cmd, mesh_cmd, solve_cmd, UserError};
 
 use clap::{Parser, Subcommand};
 use std::path::PathBuf;
@@ -133,15 +126,6 @@ enum DebugCommand {
     },
 }
 
-/// An error whose message is complete as it stands (a model-file diagnostic).
-#[derive(Debug)]
-struct UserError(String);
-impl std::fmt::Display for UserError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(&self.0)
-    }
-}
-impl std::error::Error for UserError {}
 
 /// Exit code of a `check` whose quantities did not all converge within the budget.
 const NOT_CONVERGED: u8 = 3;

@@ -42,7 +42,7 @@ pub struct Problem {
     /// capacitance matrix still takes the outer boundary at 0 V.
     pub outer_potential_fn: Option<fn([f64; 2]) -> f64>,
     /// A resource limit, not physics: the solve stops with
-    /// [`SolveError::FactorOverBudget`](crate::SolveError::FactorOverBudget) before the
+    /// [`SolveError::FactorOverBudget`] before the
     /// numeric factorisation if the factor's values alone would take more bytes than this
     /// (known exactly from the symbolic factorisation). `None`: no limit.
     pub memory_budget_bytes: Option<f64>,
