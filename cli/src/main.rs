@@ -126,7 +126,6 @@ enum DebugCommand {
     },
 }
 
-
 /// Exit code of a `check` whose quantities did not all converge within the budget.
 const NOT_CONVERGED: u8 = 3;
 

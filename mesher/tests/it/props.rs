@@ -79,3 +79,50 @@ proptest! {
         prop_assert!(m.stats().min_angle_deg > 1.0);
     }
 }
+
+/// A star polygon with one spike (a vertex pushed out at a small angle: the two edges
+/// meeting there enclose `spike_deg`) and one vertex split into two points `gap` apart
+/// (relative to the size of the part): the inputs that strain Delaunay refinement.
+fn hostile_case() -> impl Strategy<Value = (Vec<f64>, f64, f64, f64, u8)> {
+    (prop::collection::vec(0.7f64..1.0, 10), 1.0f64..12.0, -9.0f64..-2.0, 0.02f64..0.3, 1u8..3)
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig {
+        cases: std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(24),
+        ..ProptestConfig::default()
+    })]
+
+    /// Sharp spikes and near-coincident points: the mesher ends within seconds and within
+    /// its node budget, with a valid mesh or a meshing error, never a hang or a panic.
+    #[test]
+    fn small_angles_and_near_coincident_points_terminate((radii, spike_deg, log_gap, h, order) in hostile_case()) {
+        let n = radii.len();
+        let mut pts: Vec<[f64; 2]> =
+            (0..n).map(|k| { let a = TAU * k as f64 / n as f64; [radii[k] * a.cos(), radii[k] * a.sin()] }).collect();
+        // The spike: vertex 0 pushed out so that its neighbours see it under spike_deg.
+        let (p1, pn) = (pts[1], pts[n - 1]);
+        let mid = [(p1[0] + pn[0]) / 2.0, (p1[1] + pn[1]) / 2.0];
+        let half = (p1[0] - pn[0]).hypot(p1[1] - pn[1]) / 2.0;
+        let dir = [mid[0] / mid[0].hypot(mid[1]), mid[1] / mid[0].hypot(mid[1])];
+        let reach = half / (spike_deg.to_radians() / 2.0).tan();
+        pts[0] = [mid[0] + dir[0] * reach, mid[1] + dir[1] * reach];
+        // The near-coincident pair: vertex 5 split along its edge to vertex 6.
+        let gap = 10f64.powf(log_gap);
+        let (a, b) = (pts[5], pts[6]);
+        let l = (b[0] - a[0]).hypot(b[1] - a[1]);
+        pts.insert(6, [a[0] + (b[0] - a[0]) * gap / l, a[1] + (b[1] - a[1]) * gap / l]);
+        let Ok(outline) = Outline::polygon("domain", &pts) else { return Ok(()) };
+        let geo = planar(vec![dielectric("domain", outline, 1.0)], &[]);
+        let budget = 60_000;
+        let params = RefineParams::new().with_order(order).with_max_size_m(h).with_max_nodes(budget);
+        let t0 = std::time::Instant::now();
+        let out = generate(&geo, &params);
+        let secs = t0.elapsed().as_secs_f64();
+        prop_assert!(secs < 20.0, "took {secs} s");
+        if let Ok(out) = out {
+            out.mesh.validate().unwrap();
+            prop_assert!(out.mesh.num_vertices as usize <= budget + 4096, "{} vertices", out.mesh.num_vertices);
+        }
+    }
+}
