@@ -97,6 +97,9 @@ pub struct Results {
     pub timings_s: Vec<(String, f64)>,
     /// Cautions that apply to every figure above.
     pub cautions: Vec<&'static str>,
+    /// Every warning of the run (the mesh's among them), one sentence each with the place
+    /// and the fix; empty when there is none.
+    pub warnings: Vec<String>,
 }
 
 /// One conductor's result.
@@ -433,6 +436,7 @@ pub fn analyse(
         probes,
         timings_s: Vec::new(),
         cautions: CAUTIONS.to_vec(),
+        warnings: mesh_report.warnings.clone(),
         mesh: mesh_report,
     };
     (results, Analysis { sol, fields, probe_files })
