@@ -265,8 +265,21 @@ impl Model {
         if let Some(name) = e.shape() {
             err = err.key(format!("in shape '{name}'"));
         }
-        if let (MeshError::OverBudget { .. }, Some(note)) = (e, &self.budget_note) {
-            err = err.help(note.clone());
+        if let MeshError::OverBudget { vertices, at_least, .. } = e {
+            // The memory that mesh would need, solved (engine's measured bytes per unknown;
+            // about four unknowns per vertex with quadratic elements).
+            let per_vertex = if self.params.order >= 2 { 4.0 } else { 1.0 };
+            let bytes = engine::predicted_memory_bytes(vertices * per_vertex, self.params.order, false);
+            let mut help = format!(
+                "solving that mesh would take {}{:.1} GB of memory (the run's memory budget is {:.1} GB)",
+                if *at_least { "more than " } else { "about " },
+                bytes / 1e9,
+                self.memory_budget_bytes / 1e9
+            );
+            if let Some(note) = &self.budget_note {
+                help = format!("{help}; {note}");
+            }
+            err = err.help(help);
         }
         err
     }
