@@ -675,42 +675,20 @@ fn study(
         })
         .collect();
     let error_bar = BarReport::of(last);
-    if seq.len() < 3 || !increasing(&seq[seq.len() - 3..]) {
-        return QuantityStudy {
-            quantity,
-            unit,
-            sequence,
-            behaviour: "too few meshes",
-            observed_order: None,
-            extrapolated: None,
-            gci: None,
-            flagged: None,
-            error_bar,
-        };
-    }
-    let st = grid_convergence(seq);
-    let behaviour = match st.kind {
-        ConvergenceKind::Monotone => "monotone",
-        ConvergenceKind::Oscillatory => "oscillatory",
-        ConvergenceKind::Divergent if st.relative_change <= 0.1 * tolerance => "settled",
-        ConvergenceKind::Divergent => "divergent",
-        ConvergenceKind::Converged => "converged",
-    };
-    // Growing changes mean something only while they are above the noise of remeshing:
-    // below a tenth of the tolerance the quantity has settled, whatever the order says.
-    let growing = st.kind == ConvergenceKind::Divergent || st.observed_order < 0.0;
-    let flagged = (growing && st.relative_change > 0.1 * tolerance).then(|| {
-        "the changes grow under refinement (negative observed order): a sign of a singularity; this value has no converged limit".to_string()
-    });
+    // The verdict on the sequence is the engine's (one reading of the tolerance).
+    let v = engine::sequence_verdict(seq, tolerance);
+    let st = v.study.as_ref();
     QuantityStudy {
         quantity,
         unit,
         sequence,
-        behaviour,
-        observed_order: st.observed_order.is_finite().then_some(st.observed_order),
-        extrapolated: (st.kind == ConvergenceKind::Monotone).then_some(st.extrapolated),
-        gci: st.gci_fine.is_finite().then_some(st.gci_fine),
-        flagged,
+        behaviour: v.behaviour.word(),
+        observed_order: st.map(|s| s.observed_order).filter(|p| p.is_finite()),
+        extrapolated: st.filter(|s| s.kind == ConvergenceKind::Monotone).map(|s| s.extrapolated),
+        gci: st.map(|s| s.gci_fine).filter(|g| g.is_finite()),
+        flagged: v.flagged.then(|| {
+            "the changes grow under refinement (negative observed order): a sign of a singularity; this value has no converged limit".to_string()
+        }),
         error_bar,
     }
 }

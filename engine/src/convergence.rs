@@ -119,9 +119,94 @@ pub fn grid_convergence(sequence: &[(usize, f64)]) -> ConvergenceStudy {
     ConvergenceStudy { kind, observed_order: p, extrapolated, gci_fine, relative_change }
 }
 
+/// How a watched quantity's whole sequence behaves, as the convergence study reports it
+/// (the verdict on its value is the error bar's: [`crate::certify`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Behaviour {
+    /// Fewer than three meshes, or unknown counts that do not increase.
+    TooFewMeshes,
+    /// The changes shrink with the same sign.
+    Monotone,
+    /// The changes alternate in sign.
+    Oscillatory,
+    /// The changes grow, and are above the remeshing noise.
+    Divergent,
+    /// The changes grow but stay below [`crate::SETTLED_FRACTION`] of the tolerance: noise
+    /// of remeshing, not a trend.
+    Settled,
+    /// The last two values agree to round-off.
+    Converged,
+}
+
+impl Behaviour {
+    /// The word the reports use.
+    pub fn word(self) -> &'static str {
+        match self {
+            Behaviour::TooFewMeshes => "too few meshes",
+            Behaviour::Monotone => "monotone",
+            Behaviour::Oscillatory => "oscillatory",
+            Behaviour::Divergent => "divergent",
+            Behaviour::Settled => "settled",
+            Behaviour::Converged => "converged",
+        }
+    }
+}
+
+/// The convergence study of a whole sequence against a relative tolerance: its behaviour,
+/// the study of the three finest meshes (when there are three with increasing unknowns),
+/// and whether it is flagged as singular.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SequenceVerdict {
+    /// How the sequence behaves.
+    pub behaviour: Behaviour,
+    /// The study of the three finest meshes.
+    pub study: Option<ConvergenceStudy>,
+    /// Set when the changes grow above the remeshing noise: the sign of a singular
+    /// quantity, which has no converged limit.
+    pub flagged: bool,
+}
+
+/// Judges a sequence (`(unknowns, value)`, coarse to fine) against `tolerance`: changes that
+/// grow mean something only while they are above the noise of remeshing,
+/// [`crate::SETTLED_FRACTION`] of the tolerance — the same fraction the error bars use to
+/// call a sequence settled.
+pub fn sequence_verdict(sequence: &[(usize, f64)], tolerance: f64) -> SequenceVerdict {
+    let n = sequence.len();
+    if n < 3 || !sequence[n - 3..].windows(2).all(|w| w[1].0 > w[0].0) {
+        return SequenceVerdict { behaviour: Behaviour::TooFewMeshes, study: None, flagged: false };
+    }
+    let st = grid_convergence(sequence);
+    let noise = crate::SETTLED_FRACTION * tolerance;
+    let behaviour = match st.kind {
+        ConvergenceKind::Monotone => Behaviour::Monotone,
+        ConvergenceKind::Oscillatory => Behaviour::Oscillatory,
+        ConvergenceKind::Divergent if st.relative_change <= noise => Behaviour::Settled,
+        ConvergenceKind::Divergent => Behaviour::Divergent,
+        ConvergenceKind::Converged => Behaviour::Converged,
+    };
+    let growing = st.kind == ConvergenceKind::Divergent || st.observed_order < 0.0;
+    let flagged = growing && st.relative_change > noise;
+    SequenceVerdict { behaviour, study: Some(st), flagged }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Growth below the remeshing noise is "settled", above it "divergent" and flagged
+    /// (the same fraction of the tolerance as the error bars': certify.rs).
+    #[test]
+    fn growth_below_the_noise_is_settled() {
+        let tol = 1e-3;
+        let seq = |d: f64| vec![(1000, 1.0), (2000, 1.0 + d), (4000, 1.0 + 3.0 * d)];
+        let quiet = sequence_verdict(&seq(0.5 * crate::SETTLED_FRACTION * tol / 2.0), tol);
+        assert_eq!(quiet.behaviour, Behaviour::Settled);
+        assert!(!quiet.flagged);
+        let loud = sequence_verdict(&seq(tol), tol);
+        assert_eq!(loud.behaviour, Behaviour::Divergent);
+        assert!(loud.flagged);
+        assert_eq!(sequence_verdict(&seq(tol)[..2], tol).behaviour, Behaviour::TooFewMeshes);
+    }
 
     /// f(h) = f₀ + C·hᵖ sampled at h = N^(−1/2): the study must return p and f₀ exactly
     /// (Richardson extrapolation is exact for a pure power law — Roache 1994).

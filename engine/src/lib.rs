@@ -78,7 +78,9 @@ pub mod space;
 pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
 pub use budget::{predicted_memory_bytes, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
-pub use convergence::{grid_convergence, ConvergenceKind, ConvergenceStudy, GCI_SAFETY_FACTOR};
+pub use convergence::{
+    grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict, GCI_SAFETY_FACTOR,
+};
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
