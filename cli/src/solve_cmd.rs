@@ -7,7 +7,7 @@ use crate::output::write_atomic;
 use crate::UserError;
 use anyhow::{Context, Result};
 use engine::{element_fields, solve_with_capacitance, ConductorSpec, Problem};
-use mesher::{generate, CellArray, Fill, NodeArray, OuterBoundary, Symmetry};
+use mesher::{generate, CellArray, NodeArray, OuterBoundary, Symmetry};
 use serde::Serialize;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -215,17 +215,13 @@ pub fn dump_matrix(
 
 /// The engine's problem from the model.
 pub fn problem_of(model: &Model) -> Problem {
-    let mut permittivity: Vec<f64> = model
-        .geometry
-        .shapes
-        .iter()
-        .map(|s| match s.fill {
-            Fill::Dielectric { permittivity } => permittivity,
-            Fill::Conductor { .. } => f64::NAN,
-        })
-        .collect();
+    // Every material property from the model's [[material]] table, through each shape's
+    // material (conductor shapes have none: their entries are not read).
+    let material = |m: &Option<usize>| m.map(|m| &model.materials[m]);
+    let mut permittivity: Vec<f64> =
+        model.shape_material.iter().map(|m| material(m).map_or(f64::NAN, |m| m.permittivity)).collect();
     let mut tensor: Vec<Option<[[f64; 2]; 2]>> =
-        model.shape_material.iter().map(|m| m.and_then(|m| model.materials[m].permittivity_tensor)).collect();
+        model.shape_material.iter().map(|m| material(m).and_then(|m| m.permittivity_tensor)).collect();
     if model.geometry.outer == OuterBoundary::Open {
         // The mapped exterior (the mesh's last region) is filled by the domain's material.
         permittivity.push(permittivity[0]);
