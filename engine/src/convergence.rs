@@ -120,7 +120,7 @@ pub fn grid_convergence(sequence: &[(usize, f64)]) -> ConvergenceStudy {
 }
 
 /// How a watched quantity's whole sequence behaves, as the convergence study reports it
-/// (the verdict on its value is the error bar's: [`crate::certify`]).
+/// (the verdict on its value is the error bar's: [`crate::certify()`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Behaviour {
     /// Fewer than three meshes, or unknown counts that do not increase.

@@ -79,7 +79,8 @@ pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, Ada
 pub use budget::{predicted_memory_bytes, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use convergence::{
-    grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict, GCI_SAFETY_FACTOR,
+    grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict,
+    GCI_SAFETY_FACTOR,
 };
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
