@@ -45,92 +45,9 @@
 use crate::arrangement::{Arrangement, Side};
 use crate::error::MeshError;
 use crate::geometry::{Fill, Geometry, OuterBoundary, Symmetry, Xy};
-use crate::grading::Grading;
+use crate::singular_point::LAMBDA_TOL;
+pub use crate::singular_point::{Sector, SingularKind, SingularPoint, Wall};
 use std::f64::consts::TAU;
-
-/// What kind of singular point this is.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum SingularKind {
-    /// A conductor corner or edge facing a single dielectric.
-    ConductorCorner,
-    /// A conductor meets two or more dielectrics (a triple junction).
-    TripleJunction,
-    /// A corner of the outer (zero-flux) boundary or where an interface meets it.
-    BoundaryCorner,
-    /// Dielectrics of different permittivity meet at a corner away from any conductor.
-    DielectricCorner,
-}
-
-impl SingularKind {
-    /// A short label for reports.
-    pub fn label(&self) -> &'static str {
-        match self {
-            SingularKind::ConductorCorner => "conductor corner",
-            SingularKind::TripleJunction => "triple junction",
-            SingularKind::BoundaryCorner => "boundary corner",
-            SingularKind::DielectricCorner => "dielectric corner",
-        }
-    }
-}
-
-/// One sector of a corner: its opening and its fill.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Sector {
-    /// Opening angle, radians.
-    pub angle: f64,
-    /// Relative permittivity.
-    pub permittivity: f64,
-}
-
-/// What bounds a run of dielectric sectors.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Wall {
-    /// Fixed potential (a conductor): Dirichlet.
-    Potential,
-    /// Zero normal flux: Neumann.
-    ZeroFlux,
-}
-
-/// A point where the field or its gradient is singular.
-#[derive(Clone, Debug, PartialEq)]
-pub struct SingularPoint {
-    /// Location, metres.
-    pub at: Xy,
-    /// Kind of point.
-    pub kind: SingularKind,
-    /// Total opening angle of the dielectric run that gives the smallest exponent, radians.
-    pub opening: f64,
-    /// Singular exponent λ: the potential varies like r^λ, the field like r^(λ−1).
-    pub lambda: f64,
-    /// The dielectric regions (shape indices) around the point, in angular order.
-    pub regions: Vec<u32>,
-    /// The conductor at the point, if any.
-    pub conductor: Option<u32>,
-    /// On the axis of an axisymmetric model (a conical point; see the module docs).
-    pub on_axis: bool,
-    /// Polar angle (radians, about `at`) of the wall where the dielectric run begins,
-    /// counter-clockwise; the run spans `opening` from there.
-    pub start_angle: f64,
-    /// The dielectric sectors of the run, counter-clockwise from `start_angle` (their
-    /// angles sum to `opening`), with the permittivities the exponent was computed for.
-    pub sectors: Vec<Sector>,
-    /// The walls at the start and the end of the run (None for dielectrics all round).
-    pub walls: Option<(Wall, Wall)>,
-    /// How the mesh is graded towards the point: the law and what the finished mesh has
-    /// there. None until the point is meshed (set on every point of a generated mesh).
-    pub grading: Option<Grading>,
-}
-
-impl SingularPoint {
-    /// True when the field itself is unbounded (λ < 1).
-    pub fn is_field_singular(&self) -> bool {
-        self.lambda < 1.0 - LAMBDA_TOL
-    }
-}
-
-/// Exponents within this distance of an integer are treated as that integer (a smooth
-/// solution, e.g. a straight boundary or a fillet joint, where round-off leaves θ₀ ≈ π).
-pub(crate) const LAMBDA_TOL: f64 = 1e-6;
 
 /// Smallest positive exponent λ ≤ `lambda_max` for a run of dielectric sectors between two
 /// walls, or `None` if there is none in that range.

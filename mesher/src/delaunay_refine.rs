@@ -42,10 +42,23 @@
 //! quadtree seeds leave refinement only the seams between leaves and the layer along the
 //! boundary, so the whole run is close to linear in the number of vertices added.
 
-use crate::triangulate::Cdt;
+use crate::geometry::Xy;
 use spade::handles::{FixedFaceHandle, FixedUndirectedEdgeHandle, FixedVertexHandle, InnerTag};
-use spade::{Point2, PositionInTriangulation, Triangulation};
+use spade::{ConstrainedDelaunayTriangulation, Point2, PositionInTriangulation, Triangulation};
 use std::collections::{HashMap, VecDeque};
+
+/// The constrained Delaunay triangulation the mesher builds and refines.
+pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
+
+/// Positions of all vertices of a triangulation, by vertex index.
+pub(crate) fn vertex_positions(cdt: &Cdt) -> Vec<Xy> {
+    cdt.vertices()
+        .map(|v| {
+            let p = v.position();
+            [p.x, p.y]
+        })
+        .collect()
+}
 
 /// The limits of a refinement run.
 #[derive(Clone, Copy, Debug)]

@@ -1,6 +1,7 @@
 //! The mesher's error type: every variant names the shape, the place and the fix.
 
-use crate::geometry::Xy;
+/// A point, metres (the geometry's `Xy`, spelled out so that errors depend on no stage).
+type Xy = [f64; 2];
 use std::fmt;
 
 /// Everything that can be wrong with a geometry or a mesh.
@@ -140,7 +141,7 @@ pub enum MeshError {
         max_nodes: usize,
         /// What asks for most of the triangles, its share (0–1), and what it names (a
         /// shape's name, a size point's position, a singular point's label).
-        cause: (crate::SizeSource, f64, String),
+        cause: (SizeSource, f64, String),
         /// The size that source asks for, metres (its smallest over the domain for graded
         /// sources: the floor, the innermost grading size).
         size_m: f64,
@@ -214,13 +215,13 @@ impl MeshError {
                 let count = if *at_least { format!("more than {vertices:.2e}") } else { format!("about {vertices:.2e}") };
                 let share = format!("{:.0} %", 100.0 * cause.1);
                 let what = match cause.0 {
-                    crate::SizeSource::MaxSize => format!("the global element size (max_size = {}); raise max_size in [mesh]", l(*size_m)),
-                    crate::SizeSource::MinSize => format!("the smallest element size (min_size = {}); raise min_size in [mesh]", l(*size_m)),
-                    crate::SizeSource::Shape(_) => format!("shape '{}', whose max_size is {}; raise it", cause.2, l(*size_m)),
-                    crate::SizeSource::Point(_) => format!("the size point {} (size {}); raise its size", cause.2, l(*size_m)),
-                    crate::SizeSource::Arc => "the small-radius arcs, meshed to the chord tolerance; raise chord_tolerance in [mesh]".to_string(),
-                    crate::SizeSource::Corner(_) => format!("the grading towards singular point {}; raise min_size or set grade_corners = false in [mesh]", cause.2),
-                    crate::SizeSource::Background => "the sizes the adaptive loop asked for; loosen the tolerance".to_string(),
+                    SizeSource::MaxSize => format!("the global element size (max_size = {}); raise max_size in [mesh]", l(*size_m)),
+                    SizeSource::MinSize => format!("the smallest element size (min_size = {}); raise min_size in [mesh]", l(*size_m)),
+                    SizeSource::Shape(_) => format!("shape '{}', whose max_size is {}; raise it", cause.2, l(*size_m)),
+                    SizeSource::Point(_) => format!("the size point {} (size {}); raise its size", cause.2, l(*size_m)),
+                    SizeSource::Arc => "the small-radius arcs, meshed to the chord tolerance; raise chord_tolerance in [mesh]".to_string(),
+                    SizeSource::Corner(_) => format!("the grading towards singular point {}; raise min_size or set grade_corners = false in [mesh]", cause.2),
+                    SizeSource::Background => "the sizes the adaptive loop asked for; loosen the tolerance".to_string(),
                 };
                 write!(f, "the mesh would have {count} vertices (predicted from the element sizes before meshing), over the node budget max_nodes = {max_nodes}; {share} of its triangles come from {what}")
             }
@@ -250,8 +251,28 @@ impl MeshError {
             | NegativeRadius { shape, .. }
             | OpenBoundaryShape { shape } => Some(shape),
             DuplicateName { name } => Some(name),
-            OverBudget { cause: (crate::SizeSource::Shape(_), _, name), .. } => Some(name),
+            OverBudget { cause: (SizeSource::Shape(_), _, name), .. } => Some(name),
             _ => None,
         }
     }
+}
+
+/// What asked for the size at a point: the setting a user would change to coarsen the mesh
+/// there.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SizeSource {
+    /// The global maximum size (`max_size`).
+    MaxSize,
+    /// The floor (`min_size`): every other source asks for less.
+    MinSize,
+    /// A shape's own maximum size (shape index).
+    Shape(usize),
+    /// A size point (index in `Geometry::size_points`).
+    Point(usize),
+    /// The chord tolerance along a small-radius arc.
+    Arc,
+    /// The grading towards a singular point (index in the mesh's singular points).
+    Corner(usize),
+    /// Sizes requested on an earlier mesh (the adaptive loop).
+    Background,
 }

@@ -31,42 +31,10 @@
 //!   (the mapped-exterior method for open-boundary problems, planar and axisymmetric).
 
 use crate::error::MeshError;
-use crate::geometry::{Curve, Geometry, Symmetry, Xy};
+use crate::geometry::{Symmetry, Xy};
 use crate::mesh::{EdgeTag, Exterior, Mesh, TaggedEdge};
 use spade::{DelaunayTriangulation, Point2, Triangulation};
 use std::f64::consts::PI;
-
-/// Centre and radius of the domain's outline if it is a circle (planar) or a half circle
-/// on the axis (axisymmetric); otherwise an error naming the domain.
-pub(crate) fn domain_circle(geo: &Geometry) -> Result<(Xy, f64), MeshError> {
-    let dom = &geo.shapes[0];
-    let bad = || MeshError::OpenBoundaryShape { shape: dom.name.clone() };
-    let mut circle: Option<(Xy, f64)> = None;
-    for c in dom.outline.curves() {
-        match *c {
-            Curve::Arc { center, radius, .. } => match circle {
-                None => circle = Some((center, radius)),
-                Some((c0, r0)) => {
-                    let tol = 1e-9 * r0;
-                    if (c0[0] - center[0]).abs() > tol || (c0[1] - center[1]).abs() > tol || (r0 - radius).abs() > tol {
-                        return Err(bad());
-                    }
-                }
-            },
-            Curve::Line { from, to } => {
-                // Only the axis segment of an axisymmetric half disc.
-                if geo.symmetry != Symmetry::Axisymmetric || from[0].abs() > 1e-12 || to[0].abs() > 1e-12 {
-                    return Err(bad());
-                }
-            }
-        }
-    }
-    let (c, r) = circle.ok_or_else(bad)?;
-    if geo.symmetry == Symmetry::Axisymmetric && c[0].abs() > 1e-9 * r {
-        return Err(bad());
-    }
-    Ok((c, r))
-}
 
 /// Adds the mapped exterior to `mesh` (before P2 nodes are made).
 pub(crate) fn attach(
@@ -285,7 +253,7 @@ fn refined_disc(
     let n_in = pts.len();
     let vertices: Vec<Point2<f64>> = pts.iter().map(|p| Point2::new(p[0], p[1])).collect();
     let mut conflicts = 0;
-    let mut cdt = crate::triangulate::Cdt::try_bulk_load_cdt(vertices, edges, |_| conflicts += 1).ok()?;
+    let mut cdt = crate::delaunay_refine::Cdt::try_bulk_load_cdt(vertices, edges, |_| conflicts += 1).ok()?;
     if conflicts > 0 || cdt.num_vertices() != n_in {
         return None;
     }
@@ -305,7 +273,7 @@ fn refined_disc(
         let [a, b] = c.map(|v| handle(local[v as usize]));
         cdt.get_edge_from_neighbors(a, b)?;
     }
-    let pts = crate::triangulate::vertex_positions(&cdt);
+    let pts = crate::delaunay_refine::vertex_positions(&cdt);
     let tris = cdt.inner_faces().map(|f| f.vertices().map(|v| v.fix().index())).collect();
     Some((pts, tris))
 }

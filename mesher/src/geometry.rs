@@ -666,7 +666,7 @@ impl Geometry {
             }
         }
         if self.outer == OuterBoundary::Open {
-            crate::exterior::domain_circle(self)?;
+            domain_circle(self)?;
         }
         for (i, p) in self.size_points.iter().enumerate() {
             if !(p.size_m.is_finite() && p.size_m > 0.0 && p.at.iter().all(|v| v.is_finite())) {
@@ -687,6 +687,38 @@ impl Geometry {
         }
         Ok(())
     }
+}
+
+/// Centre and radius of the domain's outline if it is a circle (planar) or a half circle
+/// on the axis (axisymmetric); otherwise an error naming the domain.
+pub(crate) fn domain_circle(geo: &Geometry) -> Result<(Xy, f64), MeshError> {
+    let dom = &geo.shapes[0];
+    let bad = || MeshError::OpenBoundaryShape { shape: dom.name.clone() };
+    let mut circle: Option<(Xy, f64)> = None;
+    for c in dom.outline.curves() {
+        match *c {
+            Curve::Arc { center, radius, .. } => match circle {
+                None => circle = Some((center, radius)),
+                Some((c0, r0)) => {
+                    let tol = 1e-9 * r0;
+                    if (c0[0] - center[0]).abs() > tol || (c0[1] - center[1]).abs() > tol || (r0 - radius).abs() > tol {
+                        return Err(bad());
+                    }
+                }
+            },
+            Curve::Line { from, to } => {
+                // Only the axis segment of an axisymmetric half disc.
+                if geo.symmetry != Symmetry::Axisymmetric || from[0].abs() > 1e-12 || to[0].abs() > 1e-12 {
+                    return Err(bad());
+                }
+            }
+        }
+    }
+    let (c, r) = circle.ok_or_else(bad)?;
+    if geo.symmetry == Symmetry::Axisymmetric && c[0].abs() > 1e-9 * r {
+        return Err(bad());
+    }
+    Ok((c, r))
 }
 
 /// First crossing of two non-adjacent edges of the closed polygon `pts`, if any.

@@ -23,15 +23,10 @@
 
 use crate::geometry::{norm, sub};
 use crate::mesh::Mesh;
+pub use crate::singular_point::{Grading, GradingStatus, GRADED_WITHIN};
 
 /// Least radius of a grading zone, in elements of the size around it.
 pub(crate) const GRADING_RADIUS_SIZES: f64 = 4.0;
-
-/// A point counts as graded when the longest mesh edge ending at it is at most this many
-/// times the size the law asks for there. Delaunay refinement builds the first ring of
-/// triangles around the point from boundary segments of the asked size and interior
-/// vertices a little further out: 1.3–1.8 times the size was measured on the demo models.
-pub const GRADED_WITHIN: f64 = 3.0;
 
 /// Radius R of the grading zone of a singular point where the shortest piece of outline
 /// meeting it has length `shortest` and the other sources ask for size `h0`:
@@ -61,52 +56,6 @@ impl GradingLaw {
     /// The innermost size r₀ = R·(h₀/R)^(1/μ).
     pub fn innermost(&self) -> f64 {
         self.radius * (self.h0 / self.radius).powf(1.0 / self.mu)
-    }
-}
-
-/// Whether the mesh follows the grading towards a singular point.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[non_exhaustive]
-pub enum GradingStatus {
-    /// The elements at the point are within [`GRADED_WITHIN`] of the law's innermost size.
-    Graded,
-    /// Graded, but the law's innermost size is below the size floor (`min_size`): the
-    /// elements at the point are held at the floor.
-    AtFloor,
-    /// Grading was turned off (`RefineParams::grade_corners = false`).
-    Off,
-    /// The node budget stopped the refinement before the elements at the point reached
-    /// the law's size.
-    BudgetReached,
-    /// The elements at the point are larger than [`GRADED_WITHIN`] times the law's size for
-    /// another reason (a mesher defect worth reporting).
-    NotReached,
-}
-
-/// How the mesh is graded towards one singular point: the law asked for and what the
-/// finished mesh has there.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Grading {
-    /// h₀: the element size the other sources ask for at the point, metres (the size at the
-    /// edge of the grading zone).
-    pub outer_size_m: f64,
-    /// R: radius of the grading zone, metres.
-    pub radius_m: f64,
-    /// μ = f·λ/p: the size falls like r^(1−μ) towards the point.
-    pub mu: f64,
-    /// The size the law asks for at the point: its innermost size r₀, or the size floor if
-    /// that is larger, metres (with grading off: what it would ask for).
-    pub target_m: f64,
-    /// Longest edge of the finished mesh that ends at the point, metres.
-    pub achieved_m: f64,
-    /// The verdict.
-    pub status: GradingStatus,
-}
-
-impl Grading {
-    /// True unless the mesh is left ungraded at the point (grading off, budget, or missed).
-    pub fn is_graded(&self) -> bool {
-        matches!(self.status, GradingStatus::Graded | GradingStatus::AtFloor)
     }
 }
 

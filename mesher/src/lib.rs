@@ -60,6 +60,7 @@ mod grading;
 mod grid;
 mod mesh;
 mod refine;
+mod singular_point;
 mod size_field;
 mod smooth;
 mod triangulate;

@@ -1,9 +1,9 @@
 //! The mesh handed to the solver: plain arrays and `u32` ids, tags on every boundary and
 //! interface edge, optional P2 mid-edge nodes (on the true arc for curved boundaries).
 
-use crate::corners::SingularPoint;
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Symmetry, Xy};
+use crate::singular_point::SingularPoint;
 use rayon::prelude::*;
 use std::collections::HashMap;
 

@@ -38,6 +38,7 @@
 //!   finite element solutions of elliptic boundary value problems in non-smooth domains",
 //!   Math. Methods Appl. Sci. 19 (1996) 63–85.
 
+pub use crate::error::SizeSource;
 use crate::geometry::{norm, sub, Curve, Outline, Xy};
 
 /// One contribution to the size field.
@@ -169,26 +170,6 @@ impl BackgroundSize {
         });
         found
     }
-}
-
-/// What asked for the size at a point: the setting a user would change to coarsen the mesh
-/// there.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum SizeSource {
-    /// The global maximum size (`max_size`).
-    MaxSize,
-    /// The floor (`min_size`): every other source asks for less.
-    MinSize,
-    /// A shape's own maximum size (shape index).
-    Shape(usize),
-    /// A size point (index in `Geometry::size_points`).
-    Point(usize),
-    /// The chord tolerance along a small-radius arc.
-    Arc,
-    /// The grading towards a singular point (index in the mesh's singular points).
-    Corner(usize),
-    /// Sizes requested on an earlier mesh (the adaptive loop).
-    Background,
 }
 
 /// Element edge length wanted at every point, metres.

@@ -41,7 +41,7 @@
 
 use crate::arrangement::{side_at, Arrangement, Side};
 use crate::corners::{self, SingularPoint};
-use crate::delaunay_refine::Limits;
+use crate::delaunay_refine::{vertex_positions, Cdt, Limits};
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Curve, Geometry, OuterBoundary, Symmetry, Xy};
 use crate::grading::{audit, grading_radius, AuditInput, GradingLaw};
@@ -49,19 +49,7 @@ use crate::grid::{point_segment_distance, segment_grid, BucketGrid};
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
 use crate::refine::{MeshOutcome, RefineParams};
 use crate::size_field::{BackgroundSize, SizeField, SizeSource};
-use spade::{ConstrainedDelaunayTriangulation, Point2, Triangulation};
-
-pub(crate) type Cdt = ConstrainedDelaunayTriangulation<Point2<f64>>;
-
-/// Positions of all vertices of a triangulation, by vertex index.
-pub(crate) fn vertex_positions(cdt: &Cdt) -> Vec<Xy> {
-    cdt.vertices()
-        .map(|v| {
-            let p = v.position();
-            [p.x, p.y]
-        })
-        .collect()
-}
+use spade::{Point2, Triangulation};
 
 /// Wall-clock laps of the meshing stages.
 struct Stopwatch {
@@ -150,7 +138,7 @@ pub fn generate_with(
     let mut mesh = extract(geo, &arr, &pslg, &grid, &cdt, singular.into_iter().map(|(_, s)| s).collect())?;
     crate::smooth::smooth(&mut mesh, params.smoothing_passes);
     if geo.outer == OuterBoundary::Open {
-        let (c, r) = crate::exterior::domain_circle(geo)?;
+        let (c, r) = crate::geometry::domain_circle(geo)?;
         crate::exterior::attach(&mut mesh, c, r, params.gradation, params.min_angle_deg)?;
     }
     // The edge list serves the P2 nodes and the validation; for linear meshes it is only

@@ -14,5 +14,7 @@ mod errors;
 mod exterior;
 /// Grading towards singular corners follows h₀·(r/R)^(1−μ).
 mod grading;
+/// The modules form no import cycle.
+mod layers;
 /// Random simple polygons with holes: termination, validity, coverage, areas.
 mod props;
