@@ -395,6 +395,51 @@ pub fn load(path: &Path) -> Result<Model, ModelError> {
     parse(path, &source)
 }
 
+/// What every table's checks need: the file (for messages), its text and the length unit.
+struct Ctx<'a> {
+    path: &'a Path,
+    source: &'a str,
+    /// Metres per model unit.
+    unit_m: f64,
+}
+
+impl Ctx<'_> {
+    /// An error marked at `span`.
+    fn err(&self, span: Range<usize>, msg: String) -> ModelError {
+        ModelError::new(self.path, self.source, Some(span), msg)
+    }
+
+    /// A finite number greater than zero.
+    fn positive(&self, v: &S<f64>, key: String, what: &str) -> Result<f64, ModelError> {
+        let x = *v.get_ref();
+        if x.is_finite() && x > 0.0 {
+            Ok(x)
+        } else {
+            Err(self.err(v.span(), format!("{what} must be a finite number greater than zero, not {x}")).key(key))
+        }
+    }
+
+    /// A point in the model unit, within the coordinate range, in metres.
+    fn finite_xy(&self, v: &S<[f64; 2]>, key: String) -> Result<Xy, ModelError> {
+        let unit_m = self.unit_m;
+        let p = *v.get_ref();
+        if p.iter().all(|c| c.is_finite() && (c * unit_m).abs() <= MAX_COORDINATE_M) {
+            Ok([p[0] * unit_m, p[1] * unit_m])
+        } else {
+            Err(self
+                .err(
+                    v.span(),
+                    format!(
+                        "coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]",
+                        p[0], p[1]
+                    ),
+                )
+                .key(key)
+                .help(LIMIT_HELP))
+        }
+    }
+}
+
 /// Parses and checks model text (`path` is used in messages only).
 ///
 /// # Errors
@@ -443,142 +488,13 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     }
     let name = name.unwrap_or_else(|| path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default());
 
-    let positive = |v: &S<f64>, key: String, what: &str| -> Result<f64, ModelError> {
-        let x = *v.get_ref();
-        if x.is_finite() && x > 0.0 {
-            Ok(x)
-        } else {
-            Err(err(v.span(), format!("{what} must be a finite number greater than zero, not {x}")).key(key))
-        }
-    };
-    let finite_xy = |v: &S<[f64; 2]>, key: String| -> Result<Xy, ModelError> {
-        let p = *v.get_ref();
-        if p.iter().all(|c| c.is_finite() && (c * unit_m).abs() <= MAX_COORDINATE_M) {
-            Ok([p[0] * unit_m, p[1] * unit_m])
-        } else {
-            Err(err(
-                v.span(),
-                format!(
-                    "coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]",
-                    p[0], p[1]
-                ),
-            )
-            .key(key)
-            .help(LIMIT_HELP))
-        }
-    };
+    let cx = Ctx { path, source, unit_m };
+    let positive = |v: &S<f64>, key: String, what: &str| cx.positive(v, key, what);
+    let finite_xy = |v: &S<[f64; 2]>, key: String| cx.finite_xy(v, key);
 
-    // [[material]]
-    let mut materials: Vec<Material> = Vec::new();
-    for (i, m) in raw.material.iter().enumerate() {
-        let m = m.get_ref();
-        let n = m.name.get_ref();
-        if n.trim().is_empty() {
-            return Err(err(m.name.span(), "a material name is empty".into()).key(format!("material[{i}].name")));
-        }
-        if materials.iter().any(|o| &o.name == n) {
-            return Err(err(m.name.span(), format!("material '{n}' is defined twice"))
-                .key(format!("material[{i}].name"))
-                .help("give each material its own name"));
-        }
-        let eps = positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
-        if eps > MAX_PERMITTIVITY {
-            return Err(err(
-                m.permittivity.span(),
-                format!("the relative permittivity {eps:e} is above {MAX_PERMITTIVITY:e}"),
-            )
-            .key(format!("material[{i}].permittivity"))
-            .help(LIMIT_HELP));
-        }
-        let allow = match &m.allowable_stress_kv_per_mm {
-            Some(a) => Some(positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?),
-            None => None,
-        };
-        let tensor = match &m.permittivity_tensor {
-            Some(t) => {
-                let e = *t.get_ref();
-                let finite = e.iter().flatten().all(|v| v.is_finite());
-                let sym = (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs());
-                if !(finite && sym && e[0][0] > 0.0 && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0) {
-                    return Err(err(
-                        t.span(),
-                        format!("the permittivity tensor {e:?} is not symmetric positive definite"),
-                    )
-                    .key(format!("material[{i}].permittivity_tensor"))
-                    .help("use [[εxx, εxy], [εxy, εyy]] with εxx > 0 and εxx·εyy > εxy²"));
-                }
-                Some(e)
-            }
-            None => None,
-        };
-        materials.push(Material {
-            name: n.clone(),
-            permittivity: eps,
-            permittivity_tensor: tensor,
-            allowable_stress_kv_per_mm: allow,
-        });
-    }
+    let materials = materials(&cx, &raw)?;
 
-    // [[conductor]]
-    let mut conductors: Vec<Conductor> = Vec::new();
-    for (i, c) in raw.conductor.iter().enumerate() {
-        let span = c.span();
-        let c = c.get_ref();
-        let n = c.name.get_ref();
-        if conductors.iter().any(|o| &o.name == n) {
-            return Err(err(c.name.span(), format!("conductor '{n}' is defined twice"))
-                .key(format!("conductor[{i}].name"))
-                .help("give each conductor its own name; several shapes may refer to one conductor"));
-        }
-        let floating = c.floating.as_ref().map(|f| *f.get_ref()).unwrap_or(false);
-        let kind = match (&c.potential_v, floating) {
-            (Some(v), false) => {
-                let x = *v.get_ref();
-                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                    return Err(err(
-                        v.span(),
-                        format!(
-                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
-                        ),
-                    )
-                    .key(format!("conductor[{i}].potential_v"))
-                    .help(LIMIT_HELP));
-                }
-                if let Some(q) = &c.charge_c {
-                    return Err(err(
-                        q.span(),
-                        "a conductor at a fixed potential cannot also have a given charge".into(),
-                    )
-                    .key(format!("conductor[{i}].charge_c"))
-                    .help("remove charge_c, or replace potential_v by floating = true"));
-                }
-                ConductorKind::Fixed { potential_v: x }
-            }
-            (None, true) => {
-                let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
-                if !(q.is_finite() && q.abs() <= MAX_CHARGE_C) {
-                    return Err(err(
-                        c.charge_c.as_ref().unwrap().span(),
-                        format!("the charge must be a finite number of coulombs within ±{MAX_CHARGE_C:e}, not {q:e}"),
-                    )
-                    .key(format!("conductor[{i}].charge_c"))
-                    .help(LIMIT_HELP));
-                }
-                ConductorKind::Floating { charge_c: q }
-            }
-            (Some(v), true) => {
-                return Err(err(v.span(), format!("conductor '{n}' has both a potential and floating = true"))
-                    .key(format!("conductor[{i}]"))
-                    .help("keep potential_v for an electrode, or floating = true for a floating conductor"))
-            }
-            (None, false) => {
-                return Err(err(span, format!("conductor '{n}' has neither a potential nor floating = true"))
-                    .key(format!("conductor[{i}]"))
-                    .help("add potential_v = <volts>, or floating = true"))
-            }
-        };
-        conductors.push(Conductor { name: n.clone(), kind });
-    }
+    let conductors = conductors(&cx, &raw)?;
 
     // [[shape]]
     if source.lines().all(|l| l.trim().is_empty() || l.trim_start().starts_with('#')) {
@@ -794,191 +710,9 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
         shape_spans.push(sh.name.span());
     }
 
-    // [boundary]
-    let mut outer = OuterBoundary::ZeroFlux;
-    let mut outer_potential_v = None;
-    if let Some(b) = &raw.boundary {
-        let bspan = b.span();
-        let b = b.get_ref();
-        let kind = b.outer.as_ref().map(|o| (o.get_ref().as_str(), o.span()));
-        match kind {
-            None | Some(("zero_flux", _)) => {
-                if let Some(v) = &b.potential_v {
-                    return Err(err(v.span(), "potential_v is given but the outer boundary is zero_flux".into())
-                        .key("boundary.potential_v")
-                        .help("set outer = \"potential\" to hold the outer boundary at this potential"));
-                }
-            }
-            Some(("potential", _)) => {
-                let v = b.potential_v.as_ref().ok_or_else(|| {
-                    err(bspan.clone(), "outer = \"potential\" needs potential_v".into())
-                        .key("boundary.potential_v")
-                        .help("add potential_v = 0.0 for an earthed enclosure")
-                })?;
-                let x = *v.get_ref();
-                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                    return Err(err(
-                        v.span(),
-                        format!(
-                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
-                        ),
-                    )
-                    .key("boundary.potential_v")
-                    .help(LIMIT_HELP));
-                }
-                outer = OuterBoundary::FixedPotential;
-                outer_potential_v = Some(x);
-            }
-            Some(("open", _)) => {
-                if let Some(v) = &b.potential_v {
-                    return Err(err(
-                        v.span(),
-                        "potential_v is given but the outer boundary is open (0 V at infinity)".into(),
-                    )
-                    .key("boundary.potential_v"));
-                }
-                outer = OuterBoundary::Open;
-            }
-            Some((o, span)) => {
-                return Err(err(span, format!("unknown outer boundary '{o}'"))
-                    .key("boundary.outer")
-                    .help("use \"zero_flux\" (the default), \"potential\" or \"open\""))
-            }
-        }
-    }
+    let (outer, outer_potential_v) = boundary(&cx, &raw, &conductors)?;
 
-    // A potential reference: a conductor at a fixed potential, or an outer boundary held at
-    // one (or at 0 V at infinity); floating conductors alone leave the level undetermined.
-    let fixed = conductors.iter().any(|c| matches!(c.kind, ConductorKind::Fixed { .. }));
-    if !fixed && outer == OuterBoundary::ZeroFlux {
-        let floating: Vec<&str> = conductors.iter().map(|c| c.name.as_str()).collect();
-        let (span, what) = match raw.conductor.first() {
-            Some(c) => (
-                Some(c.span()),
-                format!(
-                    "no potential reference: the conductors ({}) are all floating and the outer boundary is zero_flux, so the potential level is undetermined",
-                    floating.iter().map(|n| format!("'{n}'")).collect::<Vec<_>>().join(", ")
-                ),
-            ),
-            None => (None, "no potential reference: the model has no conductor and the outer boundary is zero_flux".to_string()),
-        };
-        return Err(ModelError::new(path, source, span, what)
-            .key("conductor")
-            .help("give one conductor potential_v = <volts> instead of floating = true, or hold the outer boundary: [boundary] outer = \"potential\", potential_v = 0.0"));
-    }
-
-    // [mesh]
-    let mut params = RefineParams::new();
-    let mut size_points = Vec::new();
-    let (mut sets_min_angle, mut sets_gradation) = (false, false);
-    if let Some(m) = &raw.mesh {
-        let m = m.get_ref();
-        sets_min_angle = m.min_angle_deg.is_some();
-        sets_gradation = m.gradation.is_some();
-        if let Some(h) = &m.max_size {
-            params = params.with_max_size_m(positive(h, "mesh.max_size".into(), "max_size")? * unit_m);
-        }
-        if let Some(h) = &m.min_size {
-            params = params.with_min_size_m(positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
-            let (lo, hi) = (params.min_size_m.unwrap_or(0.0), params.max_size_m);
-            // Against the default max_size (1/25 of the domain's diagonal) when none is given.
-            let diagonal = shapes.first().map(|d| {
-                let b = d.outline.bbox();
-                (b[2] - b[0]).hypot(b[3] - b[1])
-            });
-            if let Some(max) = hi.or(diagonal.map(|d| d / 25.0)) {
-                if lo > max {
-                    return Err(err(
-                        h.span(),
-                        format!(
-                            "min_size = {} is larger than max_size = {}{}",
-                            round4(lo / unit_m),
-                            round4(max / unit_m),
-                            if hi.is_none() { " (the default, 1/25 of the domain's diagonal)" } else { "" }
-                        ),
-                    )
-                    .key("mesh.min_size")
-                    .help(
-                        "min_size is the smallest element size the grading may ask for: make it smaller than max_size",
-                    ));
-                }
-            }
-        }
-        if let Some(o) = &m.order {
-            let v = *o.get_ref();
-            if v != 1 && v != 2 {
-                return Err(err(o.span(), format!("element order {v} is not available"))
-                    .key("mesh.order")
-                    .help("use 1 (linear) or 2 (quadratic)"));
-            }
-            params = params.with_order(v as u8);
-        }
-        let ranged =
-            |v: &Option<S<f64>>, key: &str, lo: f64, hi: f64, lo_open: bool| -> Result<Option<f64>, ModelError> {
-                match v {
-                    None => Ok(None),
-                    Some(s) => {
-                        let x = *s.get_ref();
-                        let ok = x.is_finite() && (if lo_open { x > lo } else { x >= lo }) && x <= hi;
-                        if ok {
-                            Ok(Some(x))
-                        } else {
-                            Err(err(s.span(), format!("{key} = {x} is out of range")).key(format!("mesh.{key}")).help(
-                                format!("use a value {} {lo} and at most {hi}", if lo_open { "above" } else { "from" }),
-                            ))
-                        }
-                    }
-                }
-            };
-        if let Some(x) = ranged(&m.min_angle_deg, "min_angle_deg", 0.0, 33.0, true)? {
-            params = params.with_min_angle_deg(x);
-        }
-        if let Some(x) = ranged(&m.gradation, "gradation", 1.0, 3.0, true)? {
-            params = params.with_gradation(x);
-        }
-        if let Some(x) = ranged(&m.chord_tolerance, "chord_tolerance", 0.0, 0.125, true)? {
-            params = params.with_chord_tolerance(x);
-        }
-        if let Some(x) = ranged(&m.grading_fraction, "grading_fraction", 0.0, 0.99, true)? {
-            params = params.with_grading_fraction(x);
-        }
-        if let Some(g) = m.grade_corners {
-            params = params.with_grade_corners(g);
-        }
-        if let Some(n) = &m.max_nodes {
-            let v = *n.get_ref();
-            if !(16..=100_000_000).contains(&v) {
-                return Err(err(n.span(), format!("max_nodes = {v} is out of range"))
-                    .key("mesh.max_nodes")
-                    .help("use a count from 16 to 100000000"));
-            }
-            params = params.with_max_nodes(v as usize);
-        }
-        for (k, p) in m.point.iter().enumerate() {
-            let p = p.get_ref();
-            let at = finite_xy(&p.at, format!("mesh.point[{k}].at"))?;
-            let size = positive(&p.size, format!("mesh.point[{k}].size"), "the point size")? * unit_m;
-            if let Some(d) = shapes.first() {
-                let b = d.outline.bbox();
-                let diagonal = (b[2] - b[0]).hypot(b[3] - b[1]);
-                if !d.outline.contains(at) && d.outline.distance(at) > 1e-9 * diagonal {
-                    return Err(err(
-                        p.at.span(),
-                        format!(
-                            "the point ({}, {}) {} lies outside the domain '{}', so its size would be ignored",
-                            at[0] / unit_m,
-                            at[1] / unit_m,
-                            unit,
-                            d.name
-                        ),
-                    )
-                    .key(format!("mesh.point[{k}].at"))
-                    .help("move the point inside the first shape, or remove it"));
-                }
-            }
-            size_points.push(SizePoint { at, size_m: size });
-        }
-    }
+    let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
     // [[probe]]
     let mut probes: Vec<Probe> = Vec::new();
     for (i, p) in raw.probe.iter().enumerate() {
@@ -1105,6 +839,342 @@ pub fn parse(path: &Path, source: &str) -> Result<Model, ModelError> {
     };
     model.geometry.validate().map_err(|e| model.mesh_error(&e))?;
     Ok(model)
+}
+
+/// `[[material]]`: names unique, permittivity (scalar and tensor) and allowable stress in
+/// range.
+fn materials(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Material>, ModelError> {
+    let mut materials: Vec<Material> = Vec::new();
+    for (i, m) in raw.material.iter().enumerate() {
+        let m = m.get_ref();
+        let n = m.name.get_ref();
+        if n.trim().is_empty() {
+            return Err(cx.err(m.name.span(), "a material name is empty".into()).key(format!("material[{i}].name")));
+        }
+        if materials.iter().any(|o| &o.name == n) {
+            return Err(cx
+                .err(m.name.span(), format!("material '{n}' is defined twice"))
+                .key(format!("material[{i}].name"))
+                .help("give each material its own name"));
+        }
+        let eps = cx.positive(&m.permittivity, format!("material[{i}].permittivity"), "the relative permittivity")?;
+        if eps > MAX_PERMITTIVITY {
+            return Err(cx
+                .err(m.permittivity.span(), format!("the relative permittivity {eps:e} is above {MAX_PERMITTIVITY:e}"))
+                .key(format!("material[{i}].permittivity"))
+                .help(LIMIT_HELP));
+        }
+        let allow = match &m.allowable_stress_kv_per_mm {
+            Some(a) => {
+                Some(cx.positive(a, format!("material[{i}].allowable_stress_kv_per_mm"), "the allowable stress")?)
+            }
+            None => None,
+        };
+        let tensor = match &m.permittivity_tensor {
+            Some(t) => {
+                let e = *t.get_ref();
+                let finite = e.iter().flatten().all(|v| v.is_finite());
+                let sym = (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs());
+                if !(finite && sym && e[0][0] > 0.0 && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0) {
+                    return Err(cx
+                        .err(t.span(), format!("the permittivity tensor {e:?} is not symmetric positive definite"))
+                        .key(format!("material[{i}].permittivity_tensor"))
+                        .help("use [[εxx, εxy], [εxy, εyy]] with εxx > 0 and εxx·εyy > εxy²"));
+                }
+                Some(e)
+            }
+            None => None,
+        };
+        materials.push(Material {
+            name: n.clone(),
+            permittivity: eps,
+            permittivity_tensor: tensor,
+            allowable_stress_kv_per_mm: allow,
+        });
+    }
+
+    Ok(materials)
+}
+
+/// `[[conductor]]`: names unique, a fixed potential or floating (with its charge), in range.
+fn conductors(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Conductor>, ModelError> {
+    let mut conductors: Vec<Conductor> = Vec::new();
+    for (i, c) in raw.conductor.iter().enumerate() {
+        let span = c.span();
+        let c = c.get_ref();
+        let n = c.name.get_ref();
+        if conductors.iter().any(|o| &o.name == n) {
+            return Err(cx
+                .err(c.name.span(), format!("conductor '{n}' is defined twice"))
+                .key(format!("conductor[{i}].name"))
+                .help("give each conductor its own name; several shapes may refer to one conductor"));
+        }
+        let floating = c.floating.as_ref().map(|f| *f.get_ref()).unwrap_or(false);
+        let kind =
+            match (&c.potential_v, floating) {
+                (Some(v), false) => {
+                    let x = *v.get_ref();
+                    if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
+                        return Err(cx
+                            .err(
+                                v.span(),
+                                format!(
+                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
+                        ),
+                            )
+                            .key(format!("conductor[{i}].potential_v"))
+                            .help(LIMIT_HELP));
+                    }
+                    if let Some(q) = &c.charge_c {
+                        return Err(cx
+                            .err(q.span(), "a conductor at a fixed potential cannot also have a given charge".into())
+                            .key(format!("conductor[{i}].charge_c"))
+                            .help("remove charge_c, or replace potential_v by floating = true"));
+                    }
+                    ConductorKind::Fixed { potential_v: x }
+                }
+                (None, true) => {
+                    let q = c.charge_c.as_ref().map(|q| *q.get_ref()).unwrap_or(0.0);
+                    if !(q.is_finite() && q.abs() <= MAX_CHARGE_C) {
+                        return Err(cx.err(
+                        c.charge_c.as_ref().unwrap().span(),
+                        format!("the charge must be a finite number of coulombs within ±{MAX_CHARGE_C:e}, not {q:e}"),
+                    )
+                    .key(format!("conductor[{i}].charge_c"))
+                    .help(LIMIT_HELP));
+                    }
+                    ConductorKind::Floating { charge_c: q }
+                }
+                (Some(v), true) => {
+                    return Err(cx
+                        .err(v.span(), format!("conductor '{n}' has both a potential and floating = true"))
+                        .key(format!("conductor[{i}]"))
+                        .help("keep potential_v for an electrode, or floating = true for a floating conductor"))
+                }
+                (None, false) => {
+                    return Err(cx
+                        .err(span, format!("conductor '{n}' has neither a potential nor floating = true"))
+                        .key(format!("conductor[{i}]"))
+                        .help("add potential_v = <volts>, or floating = true"))
+                }
+            };
+        conductors.push(Conductor { name: n.clone(), kind });
+    }
+
+    Ok(conductors)
+}
+
+/// `[boundary]` and the potential reference: the outer boundary's kind and potential, and
+/// at least one fixed potential somewhere.
+fn boundary(
+    cx: &Ctx<'_>,
+    raw: &RawModel,
+    conductors: &[Conductor],
+) -> Result<(OuterBoundary, Option<f64>), ModelError> {
+    let mut outer = OuterBoundary::ZeroFlux;
+    let mut outer_potential_v = None;
+    if let Some(b) = &raw.boundary {
+        let bspan = b.span();
+        let b = b.get_ref();
+        let kind = b.outer.as_ref().map(|o| (o.get_ref().as_str(), o.span()));
+        match kind {
+            None | Some(("zero_flux", _)) => {
+                if let Some(v) = &b.potential_v {
+                    return Err(cx
+                        .err(v.span(), "potential_v is given but the outer boundary is zero_flux".into())
+                        .key("boundary.potential_v")
+                        .help("set outer = \"potential\" to hold the outer boundary at this potential"));
+                }
+            }
+            Some(("potential", _)) => {
+                let v = b.potential_v.as_ref().ok_or_else(|| {
+                    cx.err(bspan.clone(), "outer = \"potential\" needs potential_v".into())
+                        .key("boundary.potential_v")
+                        .help("add potential_v = 0.0 for an earthed enclosure")
+                })?;
+                let x = *v.get_ref();
+                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
+                    return Err(cx
+                        .err(
+                            v.span(),
+                            format!(
+                                "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
+                            ),
+                        )
+                        .key("boundary.potential_v")
+                        .help(LIMIT_HELP));
+                }
+                outer = OuterBoundary::FixedPotential;
+                outer_potential_v = Some(x);
+            }
+            Some(("open", _)) => {
+                if let Some(v) = &b.potential_v {
+                    return Err(cx
+                        .err(v.span(), "potential_v is given but the outer boundary is open (0 V at infinity)".into())
+                        .key("boundary.potential_v"));
+                }
+                outer = OuterBoundary::Open;
+            }
+            Some((o, span)) => {
+                return Err(cx
+                    .err(span, format!("unknown outer boundary '{o}'"))
+                    .key("boundary.outer")
+                    .help("use \"zero_flux\" (the default), \"potential\" or \"open\""))
+            }
+        }
+    }
+
+    // A potential reference: a conductor at a fixed potential, or an outer boundary held at
+    // one (or at 0 V at infinity); floating conductors alone leave the level undetermined.
+    let fixed = conductors.iter().any(|c| matches!(c.kind, ConductorKind::Fixed { .. }));
+    if !fixed && outer == OuterBoundary::ZeroFlux {
+        let floating: Vec<&str> = conductors.iter().map(|c| c.name.as_str()).collect();
+        let (span, what) = match raw.conductor.first() {
+            Some(c) => (
+                Some(c.span()),
+                format!(
+                    "no potential reference: the conductors ({}) are all floating and the outer boundary is zero_flux, so the potential level is undetermined",
+                    floating.iter().map(|n| format!("'{n}'")).collect::<Vec<_>>().join(", ")
+                ),
+            ),
+            None => (None, "no potential reference: the model has no conductor and the outer boundary is zero_flux".to_string()),
+        };
+        return Err(ModelError::new(cx.path, cx.source, span, what)
+            .key("conductor")
+            .help("give one conductor potential_v = <volts> instead of floating = true, or hold the outer boundary: [boundary] outer = \"potential\", potential_v = 0.0"));
+    }
+
+    Ok((outer, outer_potential_v))
+}
+
+/// `[mesh]` and its `[[mesh.point]]`s: every control in range, min_size below max_size,
+/// points inside the domain.
+fn mesh_controls(
+    cx: &Ctx<'_>,
+    raw: &RawModel,
+    shapes: &[Shape],
+    unit: &str,
+) -> Result<(RefineParams, Vec<SizePoint>, bool, bool), ModelError> {
+    let unit_m = cx.unit_m;
+    let mut params = RefineParams::new();
+    let mut size_points = Vec::new();
+    let (mut sets_min_angle, mut sets_gradation) = (false, false);
+    if let Some(m) = &raw.mesh {
+        let m = m.get_ref();
+        sets_min_angle = m.min_angle_deg.is_some();
+        sets_gradation = m.gradation.is_some();
+        if let Some(h) = &m.max_size {
+            params = params.with_max_size_m(cx.positive(h, "mesh.max_size".into(), "max_size")? * unit_m);
+        }
+        if let Some(h) = &m.min_size {
+            params = params.with_min_size_m(cx.positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
+            let (lo, hi) = (params.min_size_m.unwrap_or(0.0), params.max_size_m);
+            // Against the default max_size (1/25 of the domain's diagonal) when none is given.
+            let diagonal = shapes.first().map(|d| {
+                let b = d.outline.bbox();
+                (b[2] - b[0]).hypot(b[3] - b[1])
+            });
+            if let Some(max) = hi.or(diagonal.map(|d| d / 25.0)) {
+                if lo > max {
+                    return Err(cx.err(
+                        h.span(),
+                        format!(
+                            "min_size = {} is larger than max_size = {}{}",
+                            round4(lo / unit_m),
+                            round4(max / unit_m),
+                            if hi.is_none() { " (the default, 1/25 of the domain's diagonal)" } else { "" }
+                        ),
+                    )
+                    .key("mesh.min_size")
+                    .help(
+                        "min_size is the smallest element size the grading may ask for: make it smaller than max_size",
+                    ));
+                }
+            }
+        }
+        if let Some(o) = &m.order {
+            let v = *o.get_ref();
+            if v != 1 && v != 2 {
+                return Err(cx
+                    .err(o.span(), format!("element order {v} is not available"))
+                    .key("mesh.order")
+                    .help("use 1 (linear) or 2 (quadratic)"));
+            }
+            params = params.with_order(v as u8);
+        }
+        let ranged = |v: &Option<S<f64>>,
+                      key: &str,
+                      lo: f64,
+                      hi: f64,
+                      lo_open: bool|
+         -> Result<Option<f64>, ModelError> {
+            match v {
+                None => Ok(None),
+                Some(s) => {
+                    let x = *s.get_ref();
+                    let ok = x.is_finite() && (if lo_open { x > lo } else { x >= lo }) && x <= hi;
+                    if ok {
+                        Ok(Some(x))
+                    } else {
+                        Err(cx.err(s.span(), format!("{key} = {x} is out of range")).key(format!("mesh.{key}")).help(
+                            format!("use a value {} {lo} and at most {hi}", if lo_open { "above" } else { "from" }),
+                        ))
+                    }
+                }
+            }
+        };
+        if let Some(x) = ranged(&m.min_angle_deg, "min_angle_deg", 0.0, 33.0, true)? {
+            params = params.with_min_angle_deg(x);
+        }
+        if let Some(x) = ranged(&m.gradation, "gradation", 1.0, 3.0, true)? {
+            params = params.with_gradation(x);
+        }
+        if let Some(x) = ranged(&m.chord_tolerance, "chord_tolerance", 0.0, 0.125, true)? {
+            params = params.with_chord_tolerance(x);
+        }
+        if let Some(x) = ranged(&m.grading_fraction, "grading_fraction", 0.0, 0.99, true)? {
+            params = params.with_grading_fraction(x);
+        }
+        if let Some(g) = m.grade_corners {
+            params = params.with_grade_corners(g);
+        }
+        if let Some(n) = &m.max_nodes {
+            let v = *n.get_ref();
+            if !(16..=100_000_000).contains(&v) {
+                return Err(cx
+                    .err(n.span(), format!("max_nodes = {v} is out of range"))
+                    .key("mesh.max_nodes")
+                    .help("use a count from 16 to 100000000"));
+            }
+            params = params.with_max_nodes(v as usize);
+        }
+        for (k, p) in m.point.iter().enumerate() {
+            let p = p.get_ref();
+            let at = cx.finite_xy(&p.at, format!("mesh.point[{k}].at"))?;
+            let size = cx.positive(&p.size, format!("mesh.point[{k}].size"), "the point size")? * unit_m;
+            if let Some(d) = shapes.first() {
+                let b = d.outline.bbox();
+                let diagonal = (b[2] - b[0]).hypot(b[3] - b[1]);
+                if !d.outline.contains(at) && d.outline.distance(at) > 1e-9 * diagonal {
+                    return Err(cx
+                        .err(
+                            p.at.span(),
+                            format!(
+                                "the point ({}, {}) {} lies outside the domain '{}', so its size would be ignored",
+                                at[0] / unit_m,
+                                at[1] / unit_m,
+                                unit,
+                                d.name
+                            ),
+                        )
+                        .key(format!("mesh.point[{k}].at"))
+                        .help("move the point inside the first shape, or remove it"));
+                }
+            }
+            size_points.push(SizePoint { at, size_m: size });
+        }
+    }
+    Ok((params, size_points, sets_min_angle, sets_gradation))
 }
 
 #[cfg(test)]
