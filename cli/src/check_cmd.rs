@@ -12,11 +12,11 @@
 //! like r^(λ−1)); the singular-point section describes it instead by the coefficient of
 //! the singular term.
 
-use crate::mesh_cmd::report_of;
+use crate::mesh_report::report_of;
 use crate::model::{self, ConductorKind, Model, ProbeKind};
-use crate::solve_cmd::{
-    analyse, interface_peak, interface_selector, line_peak, problem_of, render_text, solve_error, write_outputs,
-    Results,
+use crate::problem::problem_of;
+use crate::solve_results::{
+    analyse, interface_peak, interface_selector, line_peak, render_text, solve_error, write_outputs, Results,
 };
 use crate::UserError;
 use anyhow::Result;
@@ -48,23 +48,6 @@ pub struct CheckRun {
     pub json: bool,
     /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
     pub memory_limit: Option<f64>,
-}
-
-/// Parses a tolerance such as "0.5%" or "0.005".
-///
-/// # Errors
-/// A message saying what is wrong.
-pub fn parse_tolerance(s: &str) -> std::result::Result<f64, String> {
-    let t = s.trim();
-    let v = match t.strip_suffix('%') {
-        Some(p) => p.trim().parse::<f64>().map(|v| v / 100.0),
-        None => t.parse::<f64>(),
-    }
-    .map_err(|_| format!("'{s}' is not a tolerance; write a percentage such as 0.5% or a fraction such as 0.005"))?;
-    if !(v.is_finite() && v > 0.0 && v < 0.5) {
-        return Err(format!("tolerance {s} is out of range; give a value between 0 and 50 % (e.g. 0.5%)"));
-    }
-    Ok(v)
 }
 
 /// `results.json` of `check`: the `solve` record of the final mesh plus the check sections.
@@ -330,7 +313,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         outcome;
     let mesh_report = report_of(&model, &mesh, true, None);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
-    crate::solve_cmd::finite_or_error(&model, &solve)?;
+    crate::solve_results::finite_or_error(&model, &solve)?;
     let mut singular = singular_section(&model, &mesh, &analysis.sol, &discs);
     let t_post = t0.elapsed().as_secs_f64() - t_adapt;
     solve.timings_s = vec![("adaptive loop".into(), t_adapt), ("final analysis".into(), t_post)];
@@ -770,9 +753,9 @@ fn singular_section(model: &Model, mesh: &Mesh, sol: &Solution, discs: &[(Xy, f6
 /// hide it).
 fn length_text(m: f64, unit_m: f64, unit: &str) -> String {
     if m < 1e-5 {
-        format!("{} µm", crate::mesh_cmd::sig(m * 1e6))
+        format!("{} µm", crate::mesh_report::sig(m * 1e6))
     } else {
-        format!("{} {unit}", crate::mesh_cmd::sig(m / unit_m))
+        format!("{} {unit}", crate::mesh_report::sig(m / unit_m))
     }
 }
 

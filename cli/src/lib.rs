@@ -5,13 +5,17 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
+pub mod args;
 pub mod budget;
 pub mod check_cmd;
 pub mod diag;
 pub mod mesh_cmd;
+pub mod mesh_report;
 pub mod model;
 pub mod output;
+pub mod problem;
 pub mod solve_cmd;
+pub mod solve_results;
 pub mod svg;
 
 /// An error whose message is complete as it stands (a model-file diagnostic).

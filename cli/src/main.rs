@@ -9,7 +9,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
-use fieldgrade::{budget, check_cmd, mesh_cmd, solve_cmd, UserError};
+use fieldgrade::{args, budget, check_cmd, mesh_cmd, solve_cmd, UserError};
 
 use clap::{Parser, Subcommand};
 use std::path::PathBuf;
@@ -79,7 +79,7 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: PathBuf,
         /// Relative tolerance, as a percentage ("0.5%") or a fraction ("0.005").
-        #[arg(long, default_value = "0.5%", allow_hyphen_values = true, value_parser = check_cmd::parse_tolerance)]
+        #[arg(long, default_value = "0.5%", allow_hyphen_values = true, value_parser = args::parse_tolerance)]
         tol: f64,
         /// Element order, overriding the model's `[mesh] order`.
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
