@@ -8,6 +8,7 @@
 pub mod args;
 pub mod budget;
 pub mod check_cmd;
+pub mod check_results;
 pub mod diag;
 pub mod mesh_cmd;
 pub mod mesh_report;
