@@ -22,8 +22,8 @@ use crate::problem::problem_of;
 use crate::solve_results::{
     analyse, interface_peak, interface_selector, line_peak, render_text, solve_error, write_outputs,
 };
+use crate::Result;
 use crate::UserError;
-use anyhow::Result;
 use engine::{
     adapt_watching, grid_convergence, singular_coefficient, singular_coefficient_dual, singular_field_factor,
     singular_radius_above, AdaptParams, ConvergenceKind, Goal, QuantityClass, Solution, Watched,

@@ -28,3 +28,40 @@ impl std::fmt::Display for UserError {
     }
 }
 impl std::error::Error for UserError {}
+
+/// Why a command failed: something the user must fix in the model or the arguments (exit
+/// code 2), or a file that could not be written (exit code 1). `main.rs` turns it into text.
+#[derive(Debug, thiserror::Error)]
+pub enum CliError {
+    /// A located model-file diagnostic or an argument error, complete as it stands.
+    #[error("{0}")]
+    User(UserError),
+    /// A file or folder could not be written.
+    #[error("{what}: {source}")]
+    Io {
+        /// What was being done, with the path.
+        what: String,
+        /// The operating system's error.
+        #[source]
+        source: std::io::Error,
+    },
+    /// The results could not be serialised.
+    #[error("cannot serialise the results: {0}")]
+    Json(#[from] serde_json::Error),
+}
+
+impl From<UserError> for CliError {
+    fn from(e: UserError) -> Self {
+        CliError::User(e)
+    }
+}
+
+impl CliError {
+    /// An I/O failure while doing `what`.
+    pub fn io(what: impl Into<String>, source: std::io::Error) -> CliError {
+        CliError::Io { what: what.into(), source }
+    }
+}
+
+/// The result of a command.
+pub type Result<T> = std::result::Result<T, CliError>;

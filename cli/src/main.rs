@@ -9,7 +9,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
-use fieldgrade::{args, budget, check_cmd, mesh_cmd, solve_cmd, UserError};
+use fieldgrade::{args, budget, check_cmd, mesh_cmd, solve_cmd, CliError};
 
 use clap::{Parser, Subcommand};
 use std::path::PathBuf;
@@ -160,14 +160,13 @@ fn main() -> ExitCode {
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
+        Err(CliError::User(u)) => {
+            eprint!("{u}");
+            ExitCode::from(2)
+        }
         Err(e) => {
-            if let Some(u) = e.downcast_ref::<UserError>() {
-                eprint!("{u}");
-                ExitCode::from(2)
-            } else {
-                eprintln!("error: {e:#}");
-                ExitCode::from(1)
-            }
+            eprintln!("error: {e}");
+            ExitCode::from(1)
         }
     }
 }

@@ -4,8 +4,8 @@ use crate::mesh_report::{render_text, report};
 use crate::model;
 use crate::output::write_atomic;
 use crate::svg::write_mesh_svg;
+use crate::Result;
 use crate::UserError;
-use anyhow::Result;
 use mesher::generate;
 use std::path::PathBuf;
 

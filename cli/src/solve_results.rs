@@ -6,7 +6,7 @@ use crate::mesh_report::MeshReport;
 use crate::model::{ConductorKind, Model, ProbeKind};
 use crate::output::write_atomic;
 use crate::UserError;
-use anyhow::{Context, Result};
+use crate::{CliError, Result};
 use engine::{element_fields, Problem};
 use mesher::{CellArray, NodeArray, Symmetry};
 use serde::Serialize;
@@ -155,7 +155,7 @@ pub struct RegionResult {
 }
 
 /// A solve error as a user error naming the model file.
-pub fn solve_error(model: &Model, e: engine::SolveError) -> anyhow::Error {
+pub fn solve_error(model: &Model, e: engine::SolveError) -> CliError {
     UserError(model.solve_error(&e).to_string()).into()
 }
 
@@ -351,7 +351,8 @@ pub fn write_outputs(
     extra: &[(String, String)],
 ) -> Result<()> {
     let (sol, fields) = (&analysis.sol, &analysis.fields);
-    std::fs::create_dir_all(out).with_context(|| format!("cannot create the output folder '{}'", out.display()))?;
+    std::fs::create_dir_all(out)
+        .map_err(|e| CliError::io(format!("cannot create the output folder '{}'", out.display()), e))?;
     let potential = &sol.potential;
     let e_vec: Vec<f64> = fields.centroid.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
     let e_mag: Vec<f64> = fields.max_magnitude.clone();

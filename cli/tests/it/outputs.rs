@@ -36,3 +36,17 @@ fn vtu_svg_and_json_agree() {
     assert_eq!(j["order"], 2);
     assert!(j["min_angle_deg"].as_f64().unwrap() >= 29.9);
 }
+
+#[test]
+fn an_output_folder_that_cannot_be_made_is_a_run_failure() {
+    // Not the user's model: exit code 1, with the folder and the system's reason.
+    let o = crate::common::run(&[
+        "solve",
+        crate::common::fixture("l-electrode.toml").to_str().unwrap(),
+        "--out",
+        "/proc/no-such-folder/out",
+    ]);
+    let e = crate::common::stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{e}");
+    assert!(e.contains("cannot create the output folder '/proc/no-such-folder/out'"), "{e}");
+}
