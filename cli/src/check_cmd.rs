@@ -22,8 +22,8 @@ use crate::problem::problem_of;
 use crate::solve_results::{
     analyse, interface_peak, interface_selector, line_peak, render_text, solve_error, write_outputs,
 };
+use crate::CliError;
 use crate::Result;
-use crate::UserError;
 use engine::{
     adapt_watching, grid_convergence, singular_coefficient, singular_coefficient_dual, singular_field_factor,
     singular_radius_above, AdaptParams, ConvergenceKind, Goal, QuantityClass, Solution, Watched,
@@ -72,12 +72,12 @@ enum Quantity {
 /// Runs `fieldgrade check`.
 ///
 /// # Errors
-/// Model, meshing and solve errors (as [`UserError`]), I/O errors.
+/// Model, meshing and solve errors (as [`CliError::Model`]), I/O errors.
 /// Returns whether the loop converged (the caller turns "not converged" into its own exit
 /// code, after everything is written).
 pub fn run(run: &CheckRun) -> Result<bool> {
     let t0 = Instant::now();
-    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    let mut model = model::load(&run.model).map_err(CliError::from)?;
     crate::budget::prepare(&mut model, run.order, run.memory_limit, true);
     let problem = problem_of(&model);
     let bar = indicatif::ProgressBar::new_spinner();
@@ -132,7 +132,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     );
     bar.finish_and_clear();
     let outcome = outcome.map_err(|e| match e {
-        engine::SolveError::Mesh(m) => UserError(model.mesh_error(&m).to_string()).into(),
+        engine::SolveError::Mesh(m) => CliError::from(model.mesh_error(&m)),
         e => solve_error(&model, e),
     })?;
     let (discs, quantities) = setup.expect("the adaptive loop watches every mesh it solves");

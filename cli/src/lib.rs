@@ -19,23 +19,13 @@ pub mod solve_cmd;
 pub mod solve_results;
 pub mod svg;
 
-/// An error whose message is complete as it stands (a model-file diagnostic).
-#[derive(Debug)]
-pub struct UserError(pub String);
-impl std::fmt::Display for UserError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(&self.0)
-    }
-}
-impl std::error::Error for UserError {}
-
 /// Why a command failed: something the user must fix in the model or the arguments (exit
 /// code 2), or a file that could not be written (exit code 1). `main.rs` turns it into text.
 #[derive(Debug, thiserror::Error)]
 pub enum CliError {
-    /// A located model-file diagnostic or an argument error, complete as it stands.
+    /// A located model-file diagnostic (file, line, column, key, help).
     #[error("{0}")]
-    User(UserError),
+    Model(crate::diag::ModelError),
     /// A file or folder could not be written.
     #[error("{what}: {source}")]
     Io {
@@ -50,9 +40,9 @@ pub enum CliError {
     Json(#[from] serde_json::Error),
 }
 
-impl From<UserError> for CliError {
-    fn from(e: UserError) -> Self {
-        CliError::User(e)
+impl From<crate::diag::ModelError> for CliError {
+    fn from(e: crate::diag::ModelError) -> Self {
+        CliError::Model(e)
     }
 }
 

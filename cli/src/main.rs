@@ -160,8 +160,8 @@ fn main() -> ExitCode {
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
-        Err(CliError::User(u)) => {
-            eprint!("{u}");
+        Err(CliError::Model(e)) => {
+            eprint!("{e}");
             ExitCode::from(2)
         }
         Err(e) => {

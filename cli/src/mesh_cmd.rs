@@ -4,8 +4,8 @@ use crate::mesh_report::{render_text, report};
 use crate::model;
 use crate::output::write_atomic;
 use crate::svg::write_mesh_svg;
+use crate::CliError;
 use crate::Result;
-use crate::UserError;
 use mesher::generate;
 use std::path::PathBuf;
 
@@ -29,11 +29,11 @@ pub struct MeshRun {
 /// Runs `fieldgrade mesh`.
 ///
 /// # Errors
-/// Model errors (as [`UserError`]), meshing errors and I/O errors.
+/// Model errors (as [`CliError::Model`]), meshing errors and I/O errors.
 pub fn run(run: &MeshRun) -> Result<()> {
-    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    let mut model = model::load(&run.model).map_err(CliError::from)?;
     crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
-    let out = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
+    let out = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
     let rep = report(&model, &out);
     if let Some(p) = &run.out {
         write_atomic(p, |w| {

@@ -6,8 +6,8 @@ use crate::model;
 use crate::output::write_atomic;
 use crate::problem::problem_of;
 use crate::solve_results::{analyse, finite_or_error, render_text, solve_error, write_outputs};
+use crate::CliError;
 use crate::Result;
-use crate::UserError;
 use engine::solve_with_capacitance;
 use mesher::generate;
 use std::path::PathBuf;
@@ -31,19 +31,18 @@ pub struct SolveRun {
 /// `fieldgrade debug matrix`: the reduced system in Matrix Market format.
 ///
 /// # Errors
-/// Model, meshing and assembly errors (as [`UserError`]), I/O errors.
+/// Model, meshing and assembly errors (as [`CliError::Model`]), I/O errors.
 pub fn dump_matrix(
     model_path: &std::path::Path,
     out: &std::path::Path,
     order: Option<u8>,
     memory_limit: Option<f64>,
 ) -> Result<()> {
-    let mut model = model::load(model_path).map_err(|e| UserError(e.to_string()))?;
+    let mut model = model::load(model_path).map_err(CliError::from)?;
     crate::budget::prepare(&mut model, order, memory_limit, false);
-    let meshed = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
+    let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
     let problem = problem_of(&model);
-    let sys = engine::reduced_system(&meshed.mesh, &problem)
-        .map_err(|e| UserError(format!("error: {e}\n  --> {}\n", model_path.display())))?;
+    let sys = engine::reduced_system(&meshed.mesh, &problem).map_err(|e| CliError::from(model.solve_error(&e)))?;
     let n = sys.num_unknowns;
     write_atomic(out, |w| {
         writeln!(w, "%%MatrixMarket matrix coordinate real symmetric")?;
@@ -74,12 +73,12 @@ pub fn dump_matrix(
 /// Runs `fieldgrade solve`.
 ///
 /// # Errors
-/// Model errors and solve errors the user must fix (as [`UserError`]), I/O errors.
+/// Model errors and solve errors the user must fix (as [`CliError::Model`]), I/O errors.
 pub fn run(run: &SolveRun) -> Result<()> {
     let t0 = Instant::now();
-    let mut model = model::load(&run.model).map_err(|e| UserError(e.to_string()))?;
+    let mut model = model::load(&run.model).map_err(CliError::from)?;
     crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
-    let meshed = generate(&model.geometry, &model.params).map_err(|e| UserError(model.mesh_error(&e).to_string()))?;
+    let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);

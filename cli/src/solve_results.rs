@@ -5,7 +5,6 @@
 use crate::mesh_report::MeshReport;
 use crate::model::{ConductorKind, Model, ProbeKind};
 use crate::output::write_atomic;
-use crate::UserError;
 use crate::{CliError, Result};
 use engine::{element_fields, Problem};
 use mesher::{CellArray, NodeArray, Symmetry};
@@ -156,7 +155,7 @@ pub struct RegionResult {
 
 /// A solve error as a user error naming the model file.
 pub fn solve_error(model: &Model, e: engine::SolveError) -> CliError {
-    UserError(model.solve_error(&e).to_string()).into()
+    CliError::from(model.solve_error(&e))
 }
 
 /// What `solve` writes besides results.json: the solution, its fields and the probe files.
