@@ -51,10 +51,7 @@ impl MemoryBudget {
     pub fn apply(&self, model: &mut Model, adaptive: bool) -> bool {
         let order = model.params.order;
         let unknowns = engine::unknowns_within(self.bytes, order, adaptive);
-        // Unknowns per vertex: one (linear), about four (quadratic: a vertex and 1.5 edges
-        // per triangle, two triangles per vertex).
-        let per_vertex = if order >= 2 { 4.0 } else { 1.0 };
-        let vertices = (unknowns / per_vertex).floor().max(16.0) as usize;
+        let vertices = (unknowns / engine::unknowns_per_vertex(order)).floor().max(16.0) as usize;
         if vertices < model.params.max_nodes {
             model.params.max_nodes = vertices;
             true
@@ -64,15 +61,12 @@ impl MemoryBudget {
     }
 
     /// The sentence a refusal adds when the memory set the node budget.
-    pub fn explain(&self, max_nodes: usize, order: u8, adaptive: bool) -> String {
-        let per_vertex = if order >= 2 { 4.0 } else { 1.0 };
-        let need = engine::predicted_memory_bytes(max_nodes as f64 * per_vertex, order, adaptive);
+    pub fn explain(&self, max_nodes: usize) -> String {
         format!(
-            "the node budget {max_nodes} is what fits in the memory budget of {} ({}; about {} for that many nodes); \
+            "the node budget {max_nodes} is what fits in the memory budget of {} ({}); \
              raise it with --memory-limit if the machine has the memory, or coarsen the sizes",
             gib(self.bytes),
-            self.origin,
-            gib(need)
+            self.origin
         )
     }
 }
@@ -87,7 +81,7 @@ pub fn prepare(model: &mut Model, order: Option<u8>, memory_limit: Option<f64>, 
     let budget = MemoryBudget::new(memory_limit);
     model.memory_budget_bytes = budget.bytes;
     if budget.apply(model, adaptive) {
-        model.budget_note = Some(budget.explain(model.params.max_nodes, model.params.order, adaptive));
+        model.budget_note = Some(budget.explain(model.params.max_nodes));
     }
 }
 

@@ -91,11 +91,9 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         tolerance: run.tolerance,
         max_iterations: run.max_meshes,
         // The memory budget may allow fewer.
-        max_unknowns: run.max_unknowns.min(engine::unknowns_within(
-            crate::budget::MemoryBudget::new(run.memory_limit).bytes,
-            model.params.order,
-            true,
-        ) as usize),
+        max_unknowns: run
+            .max_unknowns
+            .min(engine::unknowns_within(model.memory_budget_bytes, model.params.order, true) as usize),
         ..Default::default()
     };
     if model.sets_min_angle {

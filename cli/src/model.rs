@@ -268,8 +268,8 @@ impl Model {
         if let MeshError::OverBudget { vertices, at_least, .. } = e {
             // The memory that mesh would need, solved (engine's measured bytes per unknown;
             // about four unknowns per vertex with quadratic elements).
-            let per_vertex = if self.params.order >= 2 { 4.0 } else { 1.0 };
-            let bytes = engine::predicted_memory_bytes(vertices * per_vertex, self.params.order, false);
+            let unknowns = vertices * engine::unknowns_per_vertex(self.params.order);
+            let bytes = engine::predicted_memory_bytes(unknowns, self.params.order, false);
             let mut help = format!(
                 "solving that mesh would take {}{:.1} GB of memory (the run's memory budget is {:.1} GB)",
                 if *at_least { "more than " } else { "about " },

@@ -25,6 +25,16 @@ fn base_bytes_per_unknown(order: u8, adaptive: bool) -> f64 {
     }
 }
 
+/// Unknowns per mesh vertex: one for linear elements; about four for quadratic ones (a
+/// vertex and 1.5 edges per triangle, two triangles per vertex).
+pub fn unknowns_per_vertex(order: u8) -> f64 {
+    if order >= 2 {
+        4.0
+    } else {
+        1.0
+    }
+}
+
 /// Predicted peak memory, bytes, of a run with `unknowns` unknowns (module docs).
 pub fn predicted_memory_bytes(unknowns: f64, order: u8, adaptive: bool) -> f64 {
     let doublings = (unknowns / 1e6).max(1.0).log2();

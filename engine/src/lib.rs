@@ -76,7 +76,7 @@ mod solve;
 pub mod space;
 
 pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
-pub use budget::{predicted_memory_bytes, unknowns_within};
+pub use budget::{predicted_memory_bytes, unknowns_per_vertex, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use convergence::{
     grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict,

@@ -72,18 +72,6 @@ pub struct SizePrediction {
     pub main_source: (SizeSource, f64),
 }
 
-impl SizePrediction {
-    /// Nodes of a mesh of element order `order` (1 or 2): the vertices, plus one node per
-    /// edge for order 2 (E ≈ (3T + B)/2).
-    pub fn nodes(&self, order: u8) -> f64 {
-        if order >= 2 {
-            self.vertices + 0.5 * (3.0 * self.triangles + self.boundary_points)
-        } else {
-            self.vertices
-        }
-    }
-}
-
 /// Predicts the mesh of `geo` for the size field `field` (module docs), stopping once the
 /// predicted vertices exceed `limit_vertices`.
 pub fn predict(geo: &Geometry, field: &SizeField, limit_vertices: f64) -> SizePrediction {

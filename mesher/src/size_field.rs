@@ -235,12 +235,6 @@ impl SizeField {
         }
     }
 
-    /// The size at `p` and what asks for it.
-    pub fn size_and_source(&self, p: Xy) -> (f64, SizeSource) {
-        let (h, source) = self.size_and_source_below(p, self.h_max);
-        (h.min(self.h_max), source)
-    }
-
     /// [`SizeField::size_below`] (with the floor applied) and what asks for it.
     pub(crate) fn size_and_source_below(&self, p: Xy, cap: f64) -> (f64, SizeSource) {
         let (h, source) = self.smallest_source(p, cap);
