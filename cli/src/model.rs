@@ -1098,6 +1098,12 @@ fn mesh_controls(
     unit: &'static str,
 ) -> Result<(RefineParams, Vec<SizePoint>, bool, bool), ModelError> {
     let unit_m = cx.unit_m;
+    // The domain (the first shape) and its bounding-box diagonal, the scale the defaults and
+    // tolerances refer to.
+    let domain = shapes.first().map(|d| {
+        let b = d.outline.bbox();
+        (d, (b[2] - b[0]).hypot(b[3] - b[1]))
+    });
     let mut params = RefineParams::new();
     let mut size_points = Vec::new();
     let (mut sets_min_angle, mut sets_gradation) = (false, false);
@@ -1112,11 +1118,7 @@ fn mesh_controls(
             params = params.with_min_size_m(cx.positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
             let (lo, hi) = (params.min_size_m.unwrap_or(0.0), params.max_size_m);
             // Against the default max_size (1/25 of the domain's diagonal) when none is given.
-            let diagonal = shapes.first().map(|d| {
-                let b = d.outline.bbox();
-                (b[2] - b[0]).hypot(b[3] - b[1])
-            });
-            if let Some(max) = hi.or(diagonal.map(|d| d / 25.0)) {
+            if let Some(max) = hi.or(domain.map(|(_, diagonal)| diagonal / 25.0)) {
                 if lo > max {
                     return Err(cx.err(
                         h.span(),
@@ -1194,9 +1196,7 @@ fn mesh_controls(
             let p = p.get_ref();
             let at = cx.finite_xy(&p.at, format!("mesh.point[{k}].at"))?;
             let size = cx.positive(&p.size, format!("mesh.point[{k}].size"), "the point size")? * unit_m;
-            if let Some(d) = shapes.first() {
-                let b = d.outline.bbox();
-                let diagonal = (b[2] - b[0]).hypot(b[3] - b[1]);
+            if let Some((d, diagonal)) = domain {
                 if !d.outline.contains(at) && d.outline.distance(at) > 1e-9 * diagonal {
                     return Err(cx
                         .err(

@@ -18,21 +18,12 @@ pub const CAUTIONS: [&str; 3] = [
 ];
 
 impl Results {
-    /// The first result that is not a finite number, named (no NaN or infinity may reach
-    /// the terminal or `results.json`, where it would print as "NaN" or `null`).
+    /// The first result derived from the solution that is not a finite number, named (no
+    /// NaN or infinity may reach the terminal or `results.json`, where it would print as
+    /// "NaN" or `null`; the solve itself already refuses non-finite potentials, charges,
+    /// energy and capacitances: `engine::SolveError::NonFinite`).
     pub fn first_non_finite(&self) -> Option<String> {
         let bad = |x: f64| !x.is_finite();
-        if bad(self.energy_j) {
-            return Some("stored energy".into());
-        }
-        for c in &self.conductors {
-            if bad(c.potential_v) || bad(c.charge_c) {
-                return Some(format!("potential or charge of conductor '{}'", c.name));
-            }
-        }
-        if self.capacitance_matrix_f.values.iter().flatten().any(|&v| bad(v)) {
-            return Some("capacitance matrix".into());
-        }
         for r in &self.regions {
             if bad(r.e_max_v_per_m) || r.utilisation.is_some_and(bad) || r.error_bar_v_per_m.is_some_and(bad) {
                 return Some(format!("peak field in region '{}'", r.name));
