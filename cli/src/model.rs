@@ -1118,7 +1118,7 @@ fn mesh_controls(
             params = params.with_min_size_m(cx.positive(h, "mesh.min_size".into(), "min_size")? * unit_m);
             let (lo, hi) = (params.min_size_m.unwrap_or(0.0), params.max_size_m);
             // Against the default max_size (1/25 of the domain's diagonal) when none is given.
-            if let Some(max) = hi.or(domain.map(|(_, diagonal)| diagonal / 25.0)) {
+            if let Some(max) = hi.or(domain.map(|(_, diagonal)| mesher::DEFAULT_MAX_SIZE_FRACTION * diagonal)) {
                 if lo > max {
                     return Err(cx.err(
                         h.span(),

@@ -136,8 +136,7 @@ impl AdaptiveMesh {
         if p.min_size_m.is_none() {
             // Never above the global size (a model asking for tiny elements everywhere is
             // then refused by the mesher's budget, not by a floor it did not set).
-            let max = p.max_size_m.unwrap_or(geo.scale() / 25.0);
-            p.min_size_m = Some((self.min_size_fraction * geo.scale()).min(max));
+            p.min_size_m = Some((self.min_size_fraction * geo.scale()).min(p.max_size_for(geo)));
         }
         p
     }

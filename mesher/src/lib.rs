@@ -73,7 +73,7 @@ pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoi
 pub use grading::{Grading, GradingStatus, GRADED_WITHIN};
 pub use grid::{triangle_grid, BucketGrid};
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
-pub use refine::{MeshOutcome, RefineParams};
+pub use refine::{MeshOutcome, RefineParams, DEFAULT_MAX_SIZE_FRACTION};
 pub use size_field::{BackgroundSize, SizeField, SizeSource};
 pub use triangulate::{generate, generate_with};
 pub use vtu::{write_vtu, CellArray, NodeArray};

@@ -43,7 +43,16 @@ impl Default for RefineParams {
     }
 }
 
+/// The global element size when none is given, as a fraction of the domain's diagonal.
+pub const DEFAULT_MAX_SIZE_FRACTION: f64 = 1.0 / 25.0;
+
 impl RefineParams {
+    /// The global element size for `geo`: the one given, or
+    /// [`DEFAULT_MAX_SIZE_FRACTION`] of the domain's diagonal.
+    pub fn max_size_for(&self, geo: &crate::Geometry) -> f64 {
+        self.max_size_m.unwrap_or(DEFAULT_MAX_SIZE_FRACTION * geo.scale())
+    }
+
     /// The defaults: automatic max size, order 2, 30°, gradation 1.3, chord tolerance 0.025,
     /// grading fraction 0.85, grading on, 4·10⁶ nodes at most, no smoothing.
     pub fn new() -> Self {

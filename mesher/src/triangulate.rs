@@ -98,8 +98,7 @@ pub fn generate_with(
     geo.validate()?;
     params.validate()?;
     if let Some(min) = params.min_size_m {
-        let max = params.max_size_m.unwrap_or(geo.scale() / 25.0);
-        if min > max {
+        if min > params.max_size_for(geo) {
             return Err(MeshError::BadParameter {
                 name: "min_size_m",
                 value: min,
@@ -189,7 +188,7 @@ fn size_field(
     params: &RefineParams,
 ) -> (SizeField, Vec<GradingLaw>) {
     let scale = geo.scale();
-    let h_max = params.max_size_m.unwrap_or(scale / 25.0);
+    let h_max = params.max_size_for(geo);
     // `generate_with` refuses a min_size above max_size; the adaptive loop's own floor
     // (1e-9 of the diagonal) never is.
     let floor = params.min_size_m.unwrap_or(1e-6 * scale).min(h_max);
