@@ -236,8 +236,7 @@ mod tests {
         let mut geo = square_box(1.0);
         geo.size_points.push(crate::geometry::SizePoint { at: [0.5, 0.5], size_m: 1e-5 });
         let mut field = SizeField::uniform(0.1, 1.3, 1e-6);
-        field.add_point([0.5, 0.5], 1e-5);
-        field.tag_last(SizeSource::Point(0));
+        field.add_point(0, [0.5, 0.5], 1e-5);
         let p = predict(&geo, &field, f64::INFINITY);
         // ∫ 2πr dr / (a (h₀ + 0.3 r)²) from 0 to ~0.3 m ≈ 2π/(a·0.09)·(ln(0.3·0.3/1e-5) − 1)
         // ≈ 1.3e3 ideal triangles (integral of the graded field by hand); the uniform rest

@@ -178,9 +178,8 @@ pub struct SizeField {
     h_max: f64,
     h_floor: f64,
     slope: f64,
-    sources: Vec<Source>,
-    /// What each source stands for (see [`SizeField::tag_last`]).
-    tags: Vec<SizeSource>,
+    /// Each source with what it stands for (the setting a refusal names).
+    sources: Vec<(Source, SizeSource)>,
 }
 
 impl SizeField {
@@ -191,48 +190,36 @@ impl SizeField {
     #[track_caller]
     pub fn uniform(h_max: f64, gradation: f64, h_floor: f64) -> SizeField {
         assert!(h_max > 0.0 && h_floor > 0.0 && gradation > 1.0, "invalid size field parameters");
-        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new(), tags: Vec::new() }
+        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new() }
     }
 
-    /// Adds a size `h` inside (and on) a closed outline.
-    pub fn add_inside(&mut self, outline: &Outline, h: f64) {
+    /// Adds a size `h` inside (and on) the closed outline of shape `shape` (its index).
+    pub fn add_inside(&mut self, shape: usize, outline: &Outline, h: f64) {
         let bbox = outline.bbox();
-        self.sources.push(Source::Inside { outline: outline.clone(), bbox, h });
-        self.tags.push(SizeSource::Shape(usize::MAX));
+        self.sources.push((Source::Inside { outline: outline.clone(), bbox, h }, SizeSource::Shape(shape)));
     }
 
-    /// Adds a size `h` at a point.
-    pub fn add_point(&mut self, at: Xy, h: f64) {
-        self.sources.push(Source::Point { at, h });
-        self.tags.push(SizeSource::Point(usize::MAX));
+    /// Adds a size `h` at a point (size point `index` of the geometry).
+    pub fn add_point(&mut self, index: usize, at: Xy, h: f64) {
+        self.sources.push((Source::Point { at, h }, SizeSource::Point(index)));
     }
 
     /// Adds a size `h` along a curve.
     pub(crate) fn add_curve(&mut self, curve: Curve, h: f64) {
-        self.sources.push(Source::Curve { curve, h });
-        self.tags.push(SizeSource::Arc);
+        self.sources.push((Source::Curve { curve, h }, SizeSource::Arc));
     }
 
     /// Adds sizes given on an earlier mesh (the adaptive loop's request).
     pub fn add_background(&mut self, mut bg: BackgroundSize) {
         bg.limit_gradation(self.slope);
-        self.sources.push(Source::Background(std::sync::Arc::new(bg)));
-        self.tags.push(SizeSource::Background);
+        self.sources.push((Source::Background(std::sync::Arc::new(bg)), SizeSource::Background));
     }
 
-    /// Adds grading towards a point: `h₀·(r/R)^(1−μ)` inside radius `R`, never below the
-    /// innermost size `R·(h₀/R)^(1/μ)`.
-    pub fn add_corner(&mut self, at: Xy, h0: f64, radius: f64, mu: f64) {
-        self.sources.push(Source::Corner { at, h0, radius, mu });
-        self.tags.push(SizeSource::Corner(usize::MAX));
-    }
-
-    /// Says what the source added last stands for (a shape, point or singular point index
-    /// the adding method does not know).
-    pub(crate) fn tag_last(&mut self, tag: SizeSource) {
-        if let Some(t) = self.tags.last_mut() {
-            *t = tag;
-        }
+    /// Adds grading towards singular point `point` (its index among the mesh's singular
+    /// points) at `at`: `h₀·(r/R)^(1−μ)` inside radius `R`, never below the innermost size
+    /// `R·(h₀/R)^(1/μ)`.
+    pub fn add_corner(&mut self, point: usize, at: Xy, h0: f64, radius: f64, mu: f64) {
+        self.sources.push((Source::Corner { at, h0, radius, mu }, SizeSource::Corner(point)));
     }
 
     /// [`SizeField::size_below`] (with the floor applied) and what asks for it.
@@ -240,14 +227,14 @@ impl SizeField {
         let (h, source) = self.smallest_source(p, cap);
         match source {
             _ if h < self.h_floor => (self.h_floor, SizeSource::MinSize),
-            Some(i) => (h, self.tags[i]),
+            Some(i) => (h, self.sources[i].1),
             None => (h, SizeSource::MaxSize),
         }
     }
 
     /// True when sizes from an earlier mesh are part of the field.
     pub fn has_background(&self) -> bool {
-        self.tags.contains(&SizeSource::Background)
+        self.sources.iter().any(|s| s.1 == SizeSource::Background)
     }
 
     /// The smallest size the field may return.
@@ -283,7 +270,7 @@ impl SizeField {
     fn smallest_source(&self, p: Xy, cap: f64) -> (f64, Option<usize>) {
         let mut h = cap;
         let mut which = None;
-        for (i, s) in self.sources.iter().enumerate() {
+        for (i, (s, _)) in self.sources.iter().enumerate() {
             let v = match s {
                 Source::Inside { outline, bbox, h: hs } => {
                     // Cheap lower bound on the distance first: the bounding box.
@@ -331,7 +318,7 @@ mod tests {
     #[test]
     fn corner_grading_law() {
         let mut f = SizeField::uniform(1.0, 1.3, 1e-9);
-        f.add_corner([0.0, 0.0], 0.1, 0.5, 0.3);
+        f.add_corner(0, [0.0, 0.0], 0.1, 0.5, 0.3);
         // Innermost size r₀ = R·(h₀/R)^(1/μ) = 0.5·0.2^(10/3) ≈ 2.34e-3, where the law meets h = r.
         let r0 = 0.5 * 0.2f64.powf(1.0 / 0.3);
         assert!((r0 - 0.1 * (r0 / 0.5_f64).powf(0.7)).abs() < 1e-12);
@@ -351,7 +338,7 @@ mod tests {
     fn inside_and_gradation() {
         let sq = Outline::rectangle("s", [0.0, 0.0], [1.0, 1.0], 0.0).unwrap();
         let mut f = SizeField::uniform(1.0, 1.2, 1e-9);
-        f.add_inside(&sq, 0.05);
+        f.add_inside(0, &sq, 0.05);
         assert_eq!(f.size_at([0.5, 0.5]), 0.05);
         assert!((f.size_at([1.5, 0.5]) - (0.05 + 0.2 * 0.5)).abs() < 1e-12);
     }

@@ -196,14 +196,12 @@ fn size_field(
     for (i, s) in geo.shapes.iter().enumerate() {
         if let Some(h) = s.max_size_m {
             if h < h_max {
-                f.add_inside(&s.outline, h);
-                f.tag_last(SizeSource::Shape(i));
+                f.add_inside(i, &s.outline, h);
             }
         }
     }
     for (i, p) in geo.size_points.iter().enumerate() {
-        f.add_point(p.at, p.size_m);
-        f.tag_last(SizeSource::Point(i));
+        f.add_point(i, p.at, p.size_m);
     }
     for pc in &arr.pieces {
         if let Curve::Arc { radius, .. } = pc.curve {
@@ -235,8 +233,7 @@ fn size_field(
         .collect();
     if params.grade_corners {
         for (k, ((_, s), l)) in singular.iter().zip(&laws).enumerate() {
-            f.add_corner(s.at, l.h0, l.radius, l.mu);
-            f.tag_last(SizeSource::Corner(k));
+            f.add_corner(k, s.at, l.h0, l.radius, l.mu);
         }
     }
     (f, laws)
