@@ -1,23 +1,29 @@
-//! The `fieldgrade` command's library: the model file and its diagnostics, the memory
-//! budget, the `mesh`, `solve` and `check` commands and their outputs. The binary
-//! (`main.rs`) parses the arguments and turns errors into text and exit codes; the library
-//! is also what the fuzz targets (`fuzz/`) drive.
+//! The `fieldgrade` command's library, in three stages a run passes through in order:
+//!
+//! ```text
+//!  model file (TOML)
+//!        │  plan::load — every check of the file's meaning, one function per table
+//!        ▼
+//!  plan::Plan ── plan::budget (memory budget → node / unknown limits)
+//!        │        plan::problem (the engine's Problem: materials, conductors, boundary)
+//!        ▼
+//!  commands::{mesh, solve, check}  — thin: plan → mesher / engine → results type
+//!        │                            (none imports another)
+//!        ▼
+//!  results::{mesh, solve, check}   — one results type per command and its renderers
+//!        │  (terminal text, JSON, CSV, VTU; results::svg; results::write for atomic files)
+//!        ▼
+//!  main.rs — arguments, error text and exit codes
+//! ```
+//!
+//! The binary (`main.rs`) parses the arguments and turns errors into text and exit codes;
+//! the library is also what the fuzz targets (`fuzz/`) drive.
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
-pub mod args;
-pub mod budget;
-pub mod check_cmd;
-pub mod check_results;
-pub mod diag;
-pub mod mesh_cmd;
-pub mod mesh_report;
-pub mod model;
-pub mod output;
-pub mod problem;
-pub mod solve_cmd;
-pub mod solve_results;
-pub mod svg;
+pub mod commands;
+pub mod plan;
+pub mod results;
 
 /// Why a command failed: something the user must fix in the model or the arguments (exit
 /// code 2), or a file that could not be written (exit code 1). `main.rs` turns it into text.
@@ -25,7 +31,7 @@ pub mod svg;
 pub enum CliError {
     /// A located model-file diagnostic (file, line, column, key, help).
     #[error("{0}")]
-    Model(crate::diag::ModelError),
+    Model(crate::plan::diag::ModelError),
     /// A file or folder could not be written.
     #[error("{what}: {source}")]
     Io {
@@ -40,8 +46,8 @@ pub enum CliError {
     Json(#[from] serde_json::Error),
 }
 
-impl From<crate::diag::ModelError> for CliError {
-    fn from(e: crate::diag::ModelError) -> Self {
+impl From<crate::plan::diag::ModelError> for CliError {
+    fn from(e: crate::plan::diag::ModelError) -> Self {
         CliError::Model(e)
     }
 }

@@ -9,7 +9,9 @@
 #![forbid(unsafe_code)]
 #![warn(missing_debug_implementations)]
 
-use fieldgrade::{args, budget, check_cmd, mesh_cmd, solve_cmd, CliError};
+use fieldgrade::commands::{args, check, debug, mesh, solve};
+use fieldgrade::plan::budget;
+use fieldgrade::CliError;
 
 use clap::{Parser, Subcommand};
 use std::path::PathBuf;
@@ -133,13 +135,13 @@ fn main() -> ExitCode {
     let args = Args::parse();
     let result = match args.command {
         Command::Mesh { model, out, svg, order, memory_limit, json } => {
-            mesh_cmd::run(&mesh_cmd::MeshRun { model, out, svg, order, json, memory_limit })
+            mesh::run(&mesh::MeshRun { model, out, svg, order, json, memory_limit })
         }
         Command::Solve { model, out, order, memory_limit, json } => {
-            solve_cmd::run(&solve_cmd::SolveRun { model, out, order, json, memory_limit })
+            solve::run(&solve::SolveRun { model, out, order, json, memory_limit })
         }
         Command::Check { model, out, tol, order, max_meshes, max_unknowns, memory_limit, json } => {
-            let converged = check_cmd::run(&check_cmd::CheckRun {
+            let converged = check::run(&check::CheckRun {
                 model,
                 out,
                 tolerance: tol,
@@ -155,7 +157,7 @@ fn main() -> ExitCode {
             }
         }
         Command::Debug { what: DebugCommand::Matrix { model, out, order, memory_limit } } => {
-            solve_cmd::dump_matrix(&model, &out, order, memory_limit)
+            debug::dump_matrix(&model, &out, order, memory_limit)
         }
     };
     match result {

@@ -7,7 +7,7 @@ use std::path::Path;
 
 fuzz_target!(|data: &[u8]| {
     if let Ok(text) = std::str::from_utf8(data) {
-        match fieldgrade::model::parse(Path::new("fuzz.toml"), text) {
+        match fieldgrade::plan::parse(Path::new("fuzz.toml"), text) {
             Ok(model) => {
                 let _ = model.geometry.validate();
             }

@@ -62,8 +62,8 @@ fuzz_target!(|case: Case| {
     if case.max_size > 0 {
         let _ = writeln!(t, "max_size = {}", case.max_size as f64 / 4.0);
     }
-    let Ok(mut model) = fieldgrade::model::parse(Path::new("fuzz.toml"), &t) else { return };
-    fieldgrade::budget::prepare(&mut model, None, Some(2e9), false);
+    let Ok(mut model) = fieldgrade::plan::parse(Path::new("fuzz.toml"), &t) else { return };
+    fieldgrade::plan::budget::prepare(&mut model, None, Some(2e9), false);
     match mesher::generate(&model.geometry, &model.params) {
         Ok(out) => {
             out.mesh.validate().expect("generate returns valid meshes");

@@ -1,11 +1,10 @@
 //! `fieldgrade solve`: mesh, solve, and write the stresses, charges, capacitances and
 //! energy (results.json, fields.vtu) with a summary on stdout.
 
-use crate::mesh_report::report;
-use crate::model;
-use crate::output::write_atomic;
-use crate::problem::problem_of;
-use crate::solve_results::{analyse, finite_or_error, render_text, solve_error, write_outputs};
+use crate::plan;
+use crate::plan::problem::problem_of;
+use crate::results::mesh::report;
+use crate::results::solve::{analyse, finite_or_error, render_text, solve_error, write_outputs};
 use crate::CliError;
 use crate::Result;
 use engine::solve_with_capacitance;
@@ -28,56 +27,14 @@ pub struct SolveRun {
     pub memory_limit: Option<f64>,
 }
 
-/// `fieldgrade debug matrix`: the reduced system in Matrix Market format.
-///
-/// # Errors
-/// Model, meshing and assembly errors (as [`CliError::Model`]), I/O errors.
-pub fn dump_matrix(
-    model_path: &std::path::Path,
-    out: &std::path::Path,
-    order: Option<u8>,
-    memory_limit: Option<f64>,
-) -> Result<()> {
-    let mut model = model::load(model_path).map_err(CliError::from)?;
-    crate::budget::prepare(&mut model, order, memory_limit, false);
-    let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
-    let problem = problem_of(&model);
-    let sys = engine::reduced_system(&meshed.mesh, &problem).map_err(|e| CliError::from(model.solve_error(&e)))?;
-    let n = sys.num_unknowns;
-    write_atomic(out, |w| {
-        writeln!(w, "%%MatrixMarket matrix coordinate real symmetric")?;
-        writeln!(w, "% fieldgrade reduced stiffness matrix of {} (lower triangle, F or F/m)", model.name)?;
-        writeln!(w, "{n} {n} {}", sys.values.len())?;
-        for j in 0..n {
-            for k in sys.col_ptr[j]..sys.col_ptr[j + 1] {
-                writeln!(w, "{} {} {:.17e}", sys.row_idx[k] + 1, j + 1, sys.values[k])?;
-            }
-        }
-        Ok(())
-    })?;
-    let stem = out.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "matrix".into());
-    let rhs_path = out.with_file_name(format!("{stem}_rhs.mtx"));
-    write_atomic(&rhs_path, |w| {
-        writeln!(w, "%%MatrixMarket matrix array real general")?;
-        writeln!(w, "% fieldgrade right-hand side of {} (C or C/m)", model.name)?;
-        writeln!(w, "{n} 1")?;
-        for v in &sys.rhs {
-            writeln!(w, "{v:.17e}")?;
-        }
-        Ok(())
-    })?;
-    println!("{n} unknowns, {} stored entries: {} and {}", sys.values.len(), out.display(), rhs_path.display());
-    Ok(())
-}
-
 /// Runs `fieldgrade solve`.
 ///
 /// # Errors
 /// Model errors and solve errors the user must fix (as [`CliError::Model`]), I/O errors.
 pub fn run(run: &SolveRun) -> Result<()> {
     let t0 = Instant::now();
-    let mut model = model::load(&run.model).map_err(CliError::from)?;
-    crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
+    let mut model = plan::load(&run.model).map_err(CliError::from)?;
+    crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, false);
     let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;

@@ -2,7 +2,7 @@
 //! of every watched quantity, the singular points with their coefficients, on top of the
 //! final mesh's `solve` record; with their terminal text and `convergence.csv`.
 
-use crate::solve_results::Results;
+use crate::results::solve::Results;
 use serde::Serialize;
 
 /// `results.json` of `check`: the `solve` record of the final mesh plus the check sections.
@@ -186,9 +186,9 @@ pub struct SingularResult {
 /// hide it).
 pub fn length_text(m: f64, unit_m: f64, unit: &str) -> String {
     if m < 1e-5 {
-        format!("{} µm", crate::mesh_report::sig(m * 1e6))
+        format!("{} µm", crate::results::mesh::sig(m * 1e6))
     } else {
-        format!("{} {unit}", crate::mesh_report::sig(m / unit_m))
+        format!("{} {unit}", crate::results::mesh::sig(m / unit_m))
     }
 }
 

@@ -2,7 +2,7 @@
 //! physical memory (and at most 80 % of the process's address-space limit, when one is
 //! set), turned into the node budget the mesher enforces before it places a point.
 
-use crate::model::Model;
+use crate::plan::Plan;
 
 /// Share of the physical memory a run may plan to use when no limit is given.
 pub const DEFAULT_MEMORY_SHARE: f64 = 0.5;
@@ -48,7 +48,7 @@ impl MemoryBudget {
     /// Lowers the model's node budget (`max_nodes`, vertices) to what fits in this budget for
     /// its element order; returns true when the memory, not the model's `max_nodes`, is
     /// what binds.
-    pub fn apply(&self, model: &mut Model, adaptive: bool) -> bool {
+    pub fn apply(&self, model: &mut Plan, adaptive: bool) -> bool {
         let order = model.params.order;
         let unknowns = engine::unknowns_within(self.bytes, order, adaptive);
         let vertices = (unknowns / engine::unknowns_per_vertex(order)).floor().max(16.0) as usize;
@@ -73,8 +73,8 @@ impl MemoryBudget {
 
 /// Sets the element order the command line asks for and lowers the node budget to the
 /// memory budget (`memory_limit` bytes, or the machine's default), keeping the sentence a
-/// refusal over that budget adds (see [`Model::mesh_error`]).
-pub fn prepare(model: &mut Model, order: Option<u8>, memory_limit: Option<f64>, adaptive: bool) {
+/// refusal over that budget adds (see [`Plan::mesh_error`]).
+pub fn prepare(model: &mut Plan, order: Option<u8>, memory_limit: Option<f64>, adaptive: bool) {
     if let Some(o) = order {
         model.params.order = o;
     }

@@ -2,9 +2,9 @@
 //! capacitance, region peaks, probes, warnings, cautions), its checks and its terminal
 //! text, and the files written beside it. `check` extends the same record.
 
-use crate::mesh_report::MeshReport;
-use crate::model::{ConductorKind, Model, ProbeKind};
-use crate::output::write_atomic;
+use crate::plan::{ConductorKind, Plan, ProbeKind};
+use crate::results::mesh::MeshReport;
+use crate::results::write::write_atomic;
 use crate::{CliError, Result};
 use engine::{element_fields, Problem};
 use mesher::{CellArray, NodeArray, Symmetry};
@@ -39,7 +39,7 @@ impl Results {
 }
 
 /// Refuses results with a non-finite number in them (see [`Results::first_non_finite`]).
-pub fn finite_or_error(model: &Model, results: &Results) -> Result<()> {
+pub fn finite_or_error(model: &Plan, results: &Results) -> Result<()> {
     match results.first_non_finite() {
         Some(q) => Err(solve_error(model, engine::SolveError::NonFinite { quantity: q })),
         None => Ok(()),
@@ -145,7 +145,7 @@ pub struct RegionResult {
 }
 
 /// A solve error as a user error naming the model file.
-pub fn solve_error(model: &Model, e: engine::SolveError) -> CliError {
+pub fn solve_error(model: &Plan, e: engine::SolveError) -> CliError {
     CliError::from(model.solve_error(&e))
 }
 
@@ -163,7 +163,7 @@ pub struct Analysis {
 /// Fields, region peaks, probes and the results record (timings left empty for the
 /// caller) of one solution.
 pub fn analyse(
-    model: &Model,
+    model: &Plan,
     mesh: &mesher::Mesh,
     mesh_report: MeshReport,
     problem: &Problem,

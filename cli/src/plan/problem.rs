@@ -2,12 +2,12 @@
 //! model's materials, the conductors' potentials and charges, the outer boundary and the
 //! memory budget.
 
-use crate::model::{ConductorKind, Model};
+use crate::plan::{ConductorKind, Plan};
 use engine::{ConductorSpec, Problem};
 use mesher::OuterBoundary;
 
 /// The engine's problem from the model.
-pub fn problem_of(model: &Model) -> Problem {
+pub fn problem_of(model: &Plan) -> Problem {
     // Every material property from the model's [[material]] table, through each shape's
     // material (conductor shapes have none: their entries are not read).
     let material = |m: &Option<usize>| m.map(|m| &model.materials[m]);

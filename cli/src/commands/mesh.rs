@@ -1,9 +1,9 @@
 //! `fieldgrade mesh`: mesh a model and report what was built.
 
-use crate::mesh_report::{render_text, report};
-use crate::model;
-use crate::output::write_atomic;
-use crate::svg::write_mesh_svg;
+use crate::plan;
+use crate::results::mesh::{render_text, report};
+use crate::results::svg::write_mesh_svg;
+use crate::results::write::write_atomic;
 use crate::CliError;
 use crate::Result;
 use mesher::generate;
@@ -31,8 +31,8 @@ pub struct MeshRun {
 /// # Errors
 /// Model errors (as [`CliError::Model`]), meshing errors and I/O errors.
 pub fn run(run: &MeshRun) -> Result<()> {
-    let mut model = model::load(&run.model).map_err(CliError::from)?;
-    crate::budget::prepare(&mut model, run.order, run.memory_limit, false);
+    let mut model = plan::load(&run.model).map_err(CliError::from)?;
+    crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, false);
     let out = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
     let rep = report(&model, &out);
     if let Some(p) = &run.out {

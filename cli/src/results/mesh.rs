@@ -2,7 +2,7 @@
 //! model's unit, with their terminal text (JSON is their serde form). Shared by every
 //! command, which all mesh first.
 
-use crate::model::{ConductorKind, Model};
+use crate::plan::{ConductorKind, Plan};
 use mesher::{GradingStatus, MeshOutcome, Symmetry};
 use serde::Serialize;
 
@@ -150,12 +150,12 @@ fn grading_warning(label: &str, s: &mesher::SingularPoint, k: f64, unit: &str, m
 }
 
 /// Builds the report for a mesh of a model.
-pub fn report(model: &Model, out: &MeshOutcome) -> MeshReport {
+pub fn report(model: &Plan, out: &MeshOutcome) -> MeshReport {
     report_of(model, &out.mesh, out.complete, out.reason.clone())
 }
 
 /// The mesh report of any mesh of the model (`complete` and `note` as the mesher gave them).
-pub fn report_of(model: &Model, mesh: &mesher::Mesh, complete: bool, note: Option<String>) -> MeshReport {
+pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option<String>) -> MeshReport {
     let st = mesh.stats();
     let k = model.unit_m;
     let regions = st

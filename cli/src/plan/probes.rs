@@ -1,0 +1,113 @@
+//! `[[probe]]`: field probes along a path, along an interface between two shapes, or on a
+//! conductor's surface.
+
+use super::diag::ModelError;
+use super::raw::RawModel;
+use super::{Conductor, Ctx, Probe, ProbeKind};
+use mesher::{Fill, Shape};
+
+/// `[[probe]]`: names usable in file names and unique, one kind each (path, interface or
+/// conductor surface) naming shapes and conductors that exist.
+pub(super) fn probes(
+    cx: &Ctx<'_>,
+    raw: &RawModel,
+    shapes: &[Shape],
+    conductors: &[Conductor],
+) -> Result<Vec<Probe>, ModelError> {
+    let mut probes: Vec<Probe> = Vec::new();
+    for (i, p) in raw.probe.iter().enumerate() {
+        let whole = p.span();
+        let p = p.get_ref();
+        let key = |k: &str| format!("probe[{i}].{k}");
+        let name = p.name.get_ref().clone();
+        if name.is_empty() || !name.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_') {
+            return Err(cx
+                .err(p.name.span(), format!("probe name '{name}' is not usable in a file name"))
+                .key(key("name"))
+                .help("use letters, digits, '-' and '_' only"));
+        }
+        if probes.iter().any(|q| q.name == name) {
+            return Err(cx
+                .err(p.name.span(), format!("probe '{name}' is defined twice"))
+                .key(key("name"))
+                .help("give each probe its own name"));
+        }
+        let kinds =
+            [p.path.is_some(), p.interface.is_some(), p.conductor_surface.is_some()].iter().filter(|b| **b).count();
+        if kinds != 1 {
+            return Err(cx
+                .err(
+                    whole,
+                    format!(
+                        "probe '{name}' needs exactly one of path, interface or conductor_surface (it has {kinds})"
+                    ),
+                )
+                .key(format!("probe[{i}]")));
+        }
+        if let (Some(n), None) = (&p.samples, &p.path) {
+            return Err(cx
+                .err(
+                    n.span(),
+                    "samples applies to path probes only; interface and surface probes sample every mesh edge".into(),
+                )
+                .key(key("samples")));
+        }
+        let kind = if let Some(path) = &p.path {
+            let mut pts = Vec::new();
+            for (k, q) in path.get_ref().iter().enumerate() {
+                pts.push(cx.finite_xy(q, key(&format!("path[{k}]")))?);
+            }
+            if pts.len() < 2 {
+                return Err(cx.err(path.span(), "a probe path needs at least two points".into()).key(key("path")));
+            }
+            let samples = match &p.samples {
+                Some(n) => {
+                    let v = *n.get_ref();
+                    if !(2..=1_000_000).contains(&v) {
+                        return Err(cx
+                            .err(n.span(), format!("samples = {v} is out of range"))
+                            .key(key("samples"))
+                            .help("use 2 to 1000000"));
+                    }
+                    v as usize
+                }
+                None => 200,
+            };
+            ProbeKind::Line { path: pts, samples }
+        } else if let Some(pair) = &p.interface {
+            let [a, b] = pair.get_ref();
+            let mut idx = [0u32; 2];
+            for (k, n) in [a, b].iter().enumerate() {
+                let s = shapes.iter().position(|s| &s.name == *n).ok_or_else(|| {
+                    cx.err(pair.span(), format!("probe '{name}' refers to shape '{n}', which does not exist"))
+                        .key(key("interface"))
+                })?;
+                if let Fill::Conductor { .. } = shapes[s].fill {
+                    return Err(cx
+                        .err(
+                            pair.span(),
+                            format!("shape '{n}' is a conductor; an interface probe is between two dielectric shapes"),
+                        )
+                        .key(key("interface"))
+                        .help("use conductor_surface = \"<conductor>\" for an electrode surface"));
+                }
+                idx[k] = s as u32;
+            }
+            if idx[0] == idx[1] {
+                return Err(cx
+                    .err(pair.span(), "an interface probe needs two different shapes".into())
+                    .key(key("interface")));
+            }
+            ProbeKind::Interface(idx[0], idx[1])
+        } else {
+            let c = p.conductor_surface.as_ref().unwrap();
+            let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
+                cx.err(c.span(), format!("probe '{name}' refers to conductor '{}', which does not exist", c.get_ref()))
+                    .key(key("conductor_surface"))
+            })?;
+            ProbeKind::ConductorSurface(k as u32)
+        };
+        probes.push(Probe { name, kind });
+    }
+    Ok(probes)
+}

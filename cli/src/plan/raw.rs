@@ -1,0 +1,142 @@
+//! The model file as TOML gives it: one struct per table, every value with its byte span
+//! (for diagnostics). Nothing here is checked; the table modules beside it check.
+
+use serde::Deserialize;
+use toml::Spanned;
+
+type S<T> = Spanned<T>;
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawModel {
+    pub(super) model: Option<S<RawHeader>>,
+    #[serde(default)]
+    pub(super) material: Vec<S<RawMaterial>>,
+    #[serde(default)]
+    pub(super) conductor: Vec<S<RawConductor>>,
+    #[serde(default)]
+    pub(super) shape: Vec<S<RawShape>>,
+    pub(super) boundary: Option<S<RawBoundary>>,
+    pub(super) mesh: Option<S<RawMesh>>,
+    pub(super) check: Option<S<RawCheck>>,
+    #[serde(default)]
+    pub(super) probe: Vec<S<RawProbe>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawCheck {
+    pub(super) singular_exclusion_radius: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawProbe {
+    pub(super) name: S<String>,
+    pub(super) path: Option<S<Vec<S<[f64; 2]>>>>,
+    pub(super) samples: Option<S<i64>>,
+    pub(super) interface: Option<S<[String; 2]>>,
+    pub(super) conductor_surface: Option<S<String>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawHeader {
+    pub(super) name: Option<String>,
+    pub(super) symmetry: Option<S<String>>,
+    pub(super) length_unit: Option<S<String>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawMaterial {
+    pub(super) name: S<String>,
+    pub(super) permittivity: S<f64>,
+    pub(super) permittivity_tensor: Option<S<[[f64; 2]; 2]>>,
+    pub(super) allowable_stress_kv_per_mm: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawConductor {
+    pub(super) name: S<String>,
+    pub(super) potential_v: Option<S<f64>>,
+    pub(super) floating: Option<S<bool>>,
+    pub(super) charge_c: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawShape {
+    pub(super) name: S<String>,
+    pub(super) material: Option<S<String>>,
+    pub(super) conductor: Option<S<String>>,
+    pub(super) max_size: Option<S<f64>>,
+    pub(super) charge_density_c_per_m3: Option<S<f64>>,
+    pub(super) rectangle: Option<S<RawRect>>,
+    pub(super) circle: Option<S<RawCircle>>,
+    pub(super) polygon: Option<S<Vec<S<[f64; 2]>>>>,
+    pub(super) path: Option<S<RawPath>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawRect {
+    pub(super) corner: S<[f64; 2]>,
+    pub(super) size: S<[f64; 2]>,
+    pub(super) fillet: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawCircle {
+    pub(super) center: S<[f64; 2]>,
+    pub(super) radius: S<f64>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawPath {
+    pub(super) start: S<[f64; 2]>,
+    pub(super) steps: Vec<S<RawStep>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawStep {
+    pub(super) line_to: Option<S<[f64; 2]>>,
+    pub(super) arc_to: Option<S<[f64; 2]>>,
+    pub(super) radius: Option<S<f64>>,
+    pub(super) turn: Option<S<String>>,
+    pub(super) large: Option<bool>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawBoundary {
+    pub(super) outer: Option<S<String>>,
+    pub(super) potential_v: Option<S<f64>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawMesh {
+    pub(super) max_size: Option<S<f64>>,
+    pub(super) min_size: Option<S<f64>>,
+    pub(super) order: Option<S<i64>>,
+    pub(super) min_angle_deg: Option<S<f64>>,
+    pub(super) gradation: Option<S<f64>>,
+    pub(super) chord_tolerance: Option<S<f64>>,
+    pub(super) grading_fraction: Option<S<f64>>,
+    pub(super) grade_corners: Option<bool>,
+    pub(super) max_nodes: Option<S<i64>>,
+    #[serde(default)]
+    pub(super) point: Vec<S<RawPoint>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawPoint {
+    pub(super) at: S<[f64; 2]>,
+    pub(super) size: S<f64>,
+}

@@ -1,0 +1,250 @@
+//! `[[shape]]`: each shape's outline (rectangle with its fillets, circle, polygon, or a path
+//! of lines and arcs), its material or conductor, its size and its charge density, checked
+//! and converted to metres.
+
+use super::diag::ModelError;
+use super::raw::RawModel;
+use super::{Conductor, Ctx, Material, LIMIT_HELP, MAX_CHARGE_DENSITY};
+use mesher::{Curve, Fill, MeshError, Outline, Shape};
+use std::ops::Range;
+
+/// `[[shape]]`: names unique, one outline each (rectangle, circle, polygon or path) inside
+/// the coordinate range, a material or a conductor that exists, sizes and charge densities
+/// in range. Returns the shapes, each one's material, charge density and span.
+#[allow(clippy::type_complexity)]
+pub(super) fn shapes(
+    cx: &Ctx<'_>,
+    raw: &RawModel,
+    materials: &[Material],
+    conductors: &[Conductor],
+    unit: &'static str,
+) -> Result<(Vec<Shape>, Vec<Option<usize>>, Vec<f64>, Vec<Range<usize>>), ModelError> {
+    let (source, unit_m) = (cx.source, cx.unit_m);
+    if source.lines().all(|l| l.trim().is_empty() || l.trim_start().starts_with('#')) {
+        return Err(ModelError::new(cx.path, cx.source, None, "the model file is empty (it has no table, only blank lines or comments)")
+            .help("start from a demo in fixtures/models/ or from docs/model-format.md: a model needs [[material]], [[conductor]] and [[shape]] tables"));
+    }
+    if raw.shape.is_empty() {
+        return Err(ModelError::new(cx.path, cx.source, None, "the model has no shape")
+            .key("shape")
+            .help("add a first [[shape]]: it is the domain, e.g. a rectangle filled with the surrounding dielectric"));
+    }
+    let mut shapes: Vec<Shape> = Vec::new();
+    let mut shape_material = Vec::new();
+    let mut shape_charge_density = Vec::new();
+    let mut shape_spans = Vec::new();
+    for (i, sh) in raw.shape.iter().enumerate() {
+        let whole = sh.span();
+        let sh = sh.get_ref();
+        let sname = sh.name.get_ref().clone();
+        let key = |k: &str| format!("shape[{i}].{k}");
+        if shapes.iter().any(|o| o.name == sname) {
+            return Err(cx
+                .err(sh.name.span(), format!("shape '{sname}' is defined twice"))
+                .key(key("name"))
+                .help("give each shape its own name"));
+        }
+        let (fill, mat) = match (&sh.material, &sh.conductor) {
+            (Some(m), None) => {
+                let k = materials.iter().position(|x| &x.name == m.get_ref()).ok_or_else(|| {
+                    let known: Vec<&str> = materials.iter().map(|x| x.name.as_str()).collect();
+                    cx.err(m.span(), format!("unknown material '{}' in shape '{sname}'", m.get_ref()))
+                        .key(key("material"))
+                        .help(if known.is_empty() {
+                            "define it in a [[material]] table".to_string()
+                        } else {
+                            format!("known materials: {}", known.join(", "))
+                        })
+                })?;
+                (Fill::Dielectric { permittivity: materials[k].permittivity }, Some(k))
+            }
+            (None, Some(c)) => {
+                let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
+                    let known: Vec<&str> = conductors.iter().map(|x| x.name.as_str()).collect();
+                    cx.err(c.span(), format!("unknown conductor '{}' in shape '{sname}'", c.get_ref()))
+                        .key(key("conductor"))
+                        .help(if known.is_empty() {
+                            "define it in a [[conductor]] table".to_string()
+                        } else {
+                            format!("known conductors: {}", known.join(", "))
+                        })
+                })?;
+                (Fill::Conductor { conductor: k as u32 }, None)
+            }
+            (Some(m), Some(_)) => {
+                return Err(cx
+                    .err(m.span(), format!("shape '{sname}' has both a material and a conductor"))
+                    .key(key("material"))
+                    .help("a shape is either a dielectric (material = ...) or a conductor (conductor = ...)"))
+            }
+            (None, None) => {
+                return Err(cx
+                    .err(sh.name.span(), format!("shape '{sname}' has neither a material nor a conductor"))
+                    .key(key("material"))
+                    .help("add material = \"<name>\" or conductor = \"<name>\""))
+            }
+        };
+        if i == 0 && mat.is_none() {
+            return Err(cx
+                .err(
+                    sh.name.span(),
+                    format!("the first shape '{sname}' is the domain and must be a dielectric, not a conductor"),
+                )
+                .key(key("conductor"))
+                .help("put the surrounding dielectric (e.g. a rectangle of air or oil) first"));
+        }
+        let kinds = [sh.rectangle.is_some(), sh.circle.is_some(), sh.polygon.is_some(), sh.path.is_some()]
+            .iter()
+            .filter(|b| **b)
+            .count();
+        if kinds != 1 {
+            return Err(cx
+                .err(
+                    whole,
+                    format!(
+                        "shape '{sname}' must have exactly one of rectangle, circle, polygon or path (it has {kinds})"
+                    ),
+                )
+                .key(format!("shape[{i}]")));
+        }
+        let me = |e: MeshError, span: Range<usize>| cx.err(span, e.message_in(unit_m, unit));
+        let outline = if let Some(r) = &sh.rectangle {
+            let r = r.get_ref();
+            let c = cx.finite_xy(&r.corner, key("rectangle.corner"))?;
+            let s = *r.size.get_ref();
+            for (k, v) in s.iter().enumerate() {
+                if !(v.is_finite() && *v > 0.0) {
+                    return Err(cx
+                        .err(
+                            r.size.span(),
+                            format!(
+                                "the rectangle's {} must be a finite number greater than zero, not {v}",
+                                ["width", "height"][k]
+                            ),
+                        )
+                        .key(key("rectangle.size")));
+                }
+            }
+            let fillet = match &r.fillet {
+                Some(f) => {
+                    let v = *f.get_ref();
+                    if !(v.is_finite() && v >= 0.0 && v <= 0.5 * s[0].min(s[1])) {
+                        return Err(cx
+                            .err(
+                                f.span(),
+                                format!(
+                                    "the fillet radius {v} must be between 0 and half the shorter side ({})",
+                                    0.5 * s[0].min(s[1])
+                                ),
+                            )
+                            .key(key("rectangle.fillet")));
+                    }
+                    v * unit_m
+                }
+                None => 0.0,
+            };
+            Outline::rectangle(&sname, c, [s[0] * unit_m, s[1] * unit_m], fillet).map_err(|e| me(e, r.size.span()))?
+        } else if let Some(c) = &sh.circle {
+            let c = c.get_ref();
+            let center = cx.finite_xy(&c.center, key("circle.center"))?;
+            let rad = cx.positive(&c.radius, key("circle.radius"), "the radius")?;
+            Outline::circle(&sname, center, rad * unit_m).map_err(|e| me(e, c.radius.span()))?
+        } else if let Some(p) = &sh.polygon {
+            let mut pts = Vec::new();
+            for (k, q) in p.get_ref().iter().enumerate() {
+                pts.push(cx.finite_xy(q, key(&format!("polygon[{k}]")))?);
+            }
+            for k in 0..pts.len() {
+                if pts.len() >= 2 && pts[k] == pts[(k + 1) % pts.len()] {
+                    let q = &p.get_ref()[(k + 1) % pts.len()];
+                    return Err(cx
+                        .err(q.span(), format!("polygon point {} repeats the point before it", (k + 1) % pts.len()))
+                        .key(key("polygon"))
+                        .help("remove the repeated point; the outline closes by itself"));
+                }
+            }
+            Outline::polygon(&sname, &pts).map_err(|e| me(e, p.span()))?
+        } else {
+            let pth = sh.path.as_ref().unwrap();
+            let pr = pth.get_ref();
+            let mut at = cx.finite_xy(&pr.start, key("path.start"))?;
+            let mut curves = Vec::new();
+            for (k, st) in pr.steps.iter().enumerate() {
+                let sspan = st.span();
+                let st = st.get_ref();
+                let kk = key(&format!("path.steps[{k}]"));
+                match (&st.line_to, &st.arc_to) {
+                    (Some(to), None) => {
+                        if st.radius.is_some() || st.turn.is_some() || st.large.is_some() {
+                            return Err(cx
+                                .err(sspan, "a line_to step takes no radius, turn or large".into())
+                                .key(kk)
+                                .help("use arc_to for an arc"));
+                        }
+                        let to = cx.finite_xy(to, kk.clone())?;
+                        if to == at {
+                            return Err(cx
+                                .err(sspan, "this step does not move: it ends where it starts".into())
+                                .key(kk));
+                        }
+                        curves.push(Curve::Line { from: at, to });
+                        at = to;
+                    }
+                    (None, Some(to_s)) => {
+                        let to = cx.finite_xy(to_s, kk.clone())?;
+                        let Some(r) = &st.radius else {
+                            return Err(cx
+                                .err(sspan, "an arc_to step needs a radius".into())
+                                .key(kk)
+                                .help("add radius = <length>, and turn = \"ccw\" or \"cw\""));
+                        };
+                        let rad = cx.positive(r, format!("{kk}.radius"), "the arc radius")?;
+                        let ccw = match st.turn.as_ref().map(|t| t.get_ref().as_str()) {
+                            None | Some("ccw") => true,
+                            Some("cw") => false,
+                            Some(o) => {
+                                return Err(cx
+                                    .err(st.turn.as_ref().unwrap().span(), format!("unknown turn '{o}'"))
+                                    .key(format!("{kk}.turn"))
+                                    .help("use \"ccw\" (counter-clockwise, the default) or \"cw\""))
+                            }
+                        };
+                        let c = Curve::arc_through(&sname, at, to, rad * unit_m, ccw, st.large.unwrap_or(false))
+                            .map_err(|e| me(e, r.span()))?;
+                        curves.push(c);
+                        at = to;
+                    }
+                    _ => return Err(cx.err(sspan, "each step needs exactly one of line_to or arc_to".into()).key(kk)),
+                }
+            }
+            Outline::new(&sname, curves).map_err(|e| me(e, pth.span()))?
+        };
+        let max_size_m = match &sh.max_size {
+            Some(h) => Some(cx.positive(h, key("max_size"), "max_size")? * unit_m),
+            None => None,
+        };
+        let rho = match &sh.charge_density_c_per_m3 {
+            Some(r) => {
+                let v = *r.get_ref();
+                if !(v.is_finite() && v.abs() <= MAX_CHARGE_DENSITY) {
+                    return Err(cx.err(r.span(), format!("the charge density must be a finite number of C/m³ within ±{MAX_CHARGE_DENSITY:e}, not {v:e}"))
+                        .key(key("charge_density_c_per_m3"))
+                        .help(LIMIT_HELP));
+                }
+                if mat.is_none() {
+                    return Err(cx
+                        .err(r.span(), "a conductor shape cannot carry a volume charge density".into())
+                        .key(key("charge_density_c_per_m3")));
+                }
+                v
+            }
+            None => 0.0,
+        };
+        shapes.push(Shape { name: sname, outline, fill, max_size_m });
+        shape_material.push(mat);
+        shape_charge_density.push(rho);
+        shape_spans.push(sh.name.span());
+    }
+
+    Ok((shapes, shape_material, shape_charge_density, shape_spans))
+}

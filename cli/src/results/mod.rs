@@ -1,0 +1,9 @@
+//! Stage 3: one results type per command and its renderers — terminal text, JSON, CSV and
+//! VTU in each command's module, the mesh picture in [`svg`], and [`write`], through which
+//! every file is written whole or not at all.
+
+pub mod check;
+pub mod mesh;
+pub mod solve;
+pub mod svg;
+pub mod write;
