@@ -6,26 +6,10 @@ use std::fmt;
 #[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum SolveError {
-    /// A region has no usable permittivity.
-    BadPermittivity {
+    /// A region with triangles has no entry in the problem's permittivities.
+    NoPermittivity {
         /// Region (shape) name.
         region: String,
-        /// The value found.
-        value: f64,
-    },
-    /// An anisotropic permittivity that is not symmetric positive definite.
-    BadTensor {
-        /// Region (shape) name.
-        region: String,
-        /// The tensor given.
-        tensor: [[f64; 2]; 2],
-    },
-    /// A volume charge density that is not a finite number.
-    BadChargeDensity {
-        /// Region (shape) name.
-        region: String,
-        /// The value given.
-        value: f64,
     },
     /// The problem describes a different number of conductors than the mesh has.
     ConductorMismatch {
@@ -33,11 +17,6 @@ pub enum SolveError {
         mesh: usize,
         /// Conductors in the problem.
         problem: usize,
-    },
-    /// A conductor's potential or charge is not a finite number.
-    BadConductor {
-        /// Conductor name.
-        conductor: String,
     },
     /// Nothing holds the potential: no conductor at a fixed potential and no outer
     /// boundary potential, so the potential is defined only up to a constant.
@@ -92,11 +71,8 @@ pub enum SolveError {
 impl fmt::Display for SolveError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            SolveError::BadPermittivity { region, value } => write!(f, "region '{region}' has relative permittivity {value}; give its material a finite permittivity greater than zero"),
-            SolveError::BadTensor { region, tensor } => write!(f, "region '{region}' has the permittivity tensor {tensor:?}, which is not symmetric positive definite; use [[εxx, εxy], [εxy, εyy]] with εxx > 0 and εxx·εyy > εxy²"),
-            SolveError::BadChargeDensity { region, value } => write!(f, "region '{region}' has volume charge density {value}; give a finite number of C/m³"),
+            SolveError::NoPermittivity { region } => write!(f, "region '{region}' has no permittivity in the problem; give one for every dielectric shape"),
             SolveError::ConductorMismatch { mesh, problem } => write!(f, "the mesh has {mesh} conductors but the problem describes {problem}"),
-            SolveError::BadConductor { conductor } => write!(f, "conductor '{conductor}' has a potential or charge that is not a finite number"),
             SolveError::NonFinite { quantity } => write!(f, "the computed {quantity} is not a finite number; the inputs' scale overflows double precision: check the potentials, charges, charge densities and permittivities for values far outside any real part"),
             SolveError::FactorOverBudget { unknowns, bytes, budget } => write!(f, "the factorisation of the {unknowns} unknowns would need {:.2} GB for its values alone, over the memory budget of {:.2} GB; coarsen the sizes in [mesh] or raise --memory-limit if the machine has the memory", bytes / 1e9, budget / 1e9),
             SolveError::FirstMeshOverBudget { nodes, max_unknowns } => write!(f, "the first mesh already has {nodes} nodes, more than the budget of {max_unknowns} unknowns for the adaptive loop; raise --max-unknowns (or --memory-limit) or coarsen the sizes in [mesh]"),

@@ -49,10 +49,20 @@ pub struct Problem {
 }
 
 impl Problem {
-    /// Checks the problem against the mesh.
+    /// Checks that the problem fits the mesh: one conductor entry per conductor of the mesh
+    /// and a permittivity for every region that has triangles.
+    ///
+    /// The values themselves — permittivities finite and above zero, tensors symmetric
+    /// positive definite, charge densities, potentials and charges finite and in range — are
+    /// the caller's to check where they enter (the command line's validated plan,
+    /// `cli/src/plan/`); here they are debug assertions. A value that slips through anyway
+    /// cannot pass silently: a non-positive permittivity fails the Cholesky factorisation
+    /// ([`SolveError::NotPositiveDefinite`]) and a non-finite one the results
+    /// ([`SolveError::NonFinite`]).
     ///
     /// # Errors
-    /// A region without a valid permittivity, or a conductor count mismatch.
+    /// [`SolveError::ConductorMismatch`], or [`SolveError::NoPermittivity`] for a region with
+    /// triangles and no entry in [`Problem::permittivity`].
     pub fn check(&self, mesh: &Mesh) -> Result<(), SolveError> {
         if self.conductors.len() != mesh.conductor_names.len() {
             return Err(SolveError::ConductorMismatch {
@@ -62,40 +72,31 @@ impl Problem {
         }
         let mut seen = vec![false; mesh.shape_names.len()];
         for &r in &mesh.regions {
-            if seen[r as usize] {
+            if std::mem::replace(&mut seen[r as usize], true) {
                 continue;
             }
-            seen[r as usize] = true;
-            let eps = self.permittivity.get(r as usize).copied().unwrap_or(f64::NAN);
-            if !(eps.is_finite() && eps > 0.0) {
-                return Err(SolveError::BadPermittivity { region: mesh.shape_names[r as usize].clone(), value: eps });
-            }
-        }
-        for (r, t) in self.tensor.iter().enumerate() {
-            if let Some(e) = t {
-                let ok = e.iter().flatten().all(|v| v.is_finite())
-                    && (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs())
-                    && e[0][0] > 0.0
-                    && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0;
-                if !ok {
-                    let region = mesh.shape_names.get(r).cloned().unwrap_or_default();
-                    return Err(SolveError::BadTensor { region, tensor: *e });
-                }
-            }
-        }
-        if let Some((r, &value)) = self.charge_density.iter().enumerate().find(|(_, v)| !v.is_finite()) {
-            let region = mesh.shape_names.get(r).cloned().unwrap_or_default();
-            return Err(SolveError::BadChargeDensity { region, value });
-        }
-        for (c, spec) in self.conductors.iter().enumerate() {
-            let v = match *spec {
-                ConductorSpec::Fixed { potential_v } => potential_v,
-                ConductorSpec::Floating { charge_c } => charge_c,
+            let Some(&eps) = self.permittivity.get(r as usize) else {
+                return Err(SolveError::NoPermittivity { region: mesh.shape_names[r as usize].clone() });
             };
-            if !v.is_finite() {
-                return Err(SolveError::BadConductor { conductor: mesh.conductor_names[c].clone() });
-            }
+            debug_assert!(eps.is_finite() && eps > 0.0, "region {r}: permittivity {eps}");
         }
+        debug_assert!(
+            self.tensor.iter().flatten().all(|e| e.iter().flatten().all(|v| v.is_finite())
+                && (e[0][1] - e[1][0]).abs() <= 1e-12 * (e[0][0].abs() + e[1][1].abs())
+                && e[0][0] > 0.0
+                && e[0][0] * e[1][1] - e[0][1] * e[1][0] > 0.0),
+            "a permittivity tensor is not symmetric positive definite: {:?}",
+            self.tensor
+        );
+        debug_assert!(self.charge_density.iter().all(|v| v.is_finite()), "{:?}", self.charge_density);
+        debug_assert!(
+            self.conductors.iter().all(|c| match *c {
+                ConductorSpec::Fixed { potential_v } => potential_v.is_finite(),
+                ConductorSpec::Floating { charge_c } => charge_c.is_finite(),
+            }),
+            "{:?}",
+            self.conductors
+        );
         Ok(())
     }
 }

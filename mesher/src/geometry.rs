@@ -509,7 +509,8 @@ pub enum Fill {
     /// A dielectric region of the mesh.
     Dielectric {
         /// Relative permittivity, used by the mesher only to compute the singular exponents
-        /// of corners where several dielectrics meet.
+        /// of corners where several dielectrics meet. Finite and above zero: the caller
+        /// checks it (debug assertion in [`Geometry::validate`]).
         permittivity: f64,
     },
     /// A conductor (electrode or floating conductor): its interior is not meshed.
@@ -604,12 +605,10 @@ impl Geometry {
                 Fill::Conductor { conductor } if conductor as usize >= self.conductors.len() => {
                     return Err(MeshError::UnknownConductor { shape: s.name.clone(), index: conductor });
                 }
-                Fill::Dielectric { permittivity } if !(permittivity.is_finite() && permittivity > 0.0) => {
-                    return Err(MeshError::BadNumber {
-                        shape: s.name.clone(),
-                        what: "relative permittivity".into(),
-                        value: permittivity,
-                    });
+                // The permittivity is the caller's to check where it enters (the command
+                // line's plan, `cli/src/plan/materials.rs`): the mesher trusts it.
+                Fill::Dielectric { permittivity } => {
+                    debug_assert!(permittivity.is_finite() && permittivity > 0.0, "shape '{}': {permittivity}", s.name);
                 }
                 _ => {}
             }

@@ -205,10 +205,7 @@ impl Plan {
     pub fn solve_error(&self, e: &engine::SolveError) -> ModelError {
         use engine::SolveError as E;
         let region = match e {
-            E::BadPermittivity { region, .. }
-            | E::BadTensor { region, .. }
-            | E::BadChargeDensity { region, .. }
-            | E::FloatingPart { region, .. } => Some(region.as_str()),
+            E::NoPermittivity { region } | E::FloatingPart { region, .. } => Some(region.as_str()),
             _ => None,
         };
         if let E::Mesh(m) = e {
@@ -219,9 +216,7 @@ impl Plan {
         let mut err = ModelError::new(&self.path, &self.source, span, e.to_string());
         let look_at = match e {
             _ if shape.is_some() => format!("in shape '{}'", region.unwrap_or_default()),
-            E::BadConductor { .. } | E::NoPotentialReference | E::ConductorMismatch { .. } => {
-                "[[conductor]] and [boundary]".into()
-            }
+            E::NoPotentialReference | E::ConductorMismatch { .. } => "[[conductor]] and [boundary]".into(),
             E::NonFinite { .. } => {
                 "[[conductor]] potentials and charges, [[material]] permittivities, shape charge densities".into()
             }

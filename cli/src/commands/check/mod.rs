@@ -12,8 +12,8 @@
 //! like r^(λ−1)); the singular-point section describes it instead by the coefficient of
 //! the singular term.
 
-use crate::plan::problem::problem_of;
 use crate::plan;
+use crate::plan::problem::problem_of;
 use crate::results::check::{
     convergence_csv, render_check, Adaptivity, CheckResults, MeshStep, MeshStepTimings, QuantityStudy,
 };
