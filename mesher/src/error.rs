@@ -172,7 +172,12 @@ fn fmt_num(v: f64) -> String {
         let s = s.trim_end_matches('0').trim_end_matches('.');
         s.to_string()
     } else {
-        format!("{v:.6e}")
+        // Mantissa without trailing zeros: 1e-15, 2.5e7.
+        let s = format!("{v:.6e}");
+        match s.split_once('e') {
+            Some((m, e)) => format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.')),
+            None => s,
+        }
     }
 }
 
@@ -212,7 +217,8 @@ impl MeshError {
             BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
             Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
             OverBudget { vertices, at_least, max_nodes, cause, size_m } => {
-                let count = if *at_least { format!("more than {vertices:.2e}") } else { format!("about {vertices:.2e}") };
+                let n = if *vertices < 1e6 { format!("{vertices:.0}") } else { format!("{vertices:.2e}") };
+                let count = if *at_least { format!("more than {n}") } else { format!("about {n}") };
                 let share = format!("{:.0} %", 100.0 * cause.1);
                 let what = match cause.0 {
                     SizeSource::MaxSize => format!("the global element size (max_size = {}); raise max_size in [mesh]", l(*size_m)),

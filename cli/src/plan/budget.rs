@@ -24,7 +24,7 @@ impl MemoryBudget {
     /// The budget given on the command line, or the machine's default.
     pub fn new(given: Option<f64>) -> MemoryBudget {
         if let Some(bytes) = given {
-            return MemoryBudget { bytes, origin: format!("--memory-limit {}", gib(bytes)) };
+            return MemoryBudget { bytes, origin: "--memory-limit".into() };
         }
         let total = physical_memory_bytes();
         let mut budget = match total {
@@ -87,8 +87,12 @@ pub fn prepare(model: &mut Plan, order: Option<u8>, memory_limit: Option<f64>, a
 
 const GIB: f64 = 1024.0 * 1024.0 * 1024.0;
 
-fn gib(bytes: f64) -> String {
-    if bytes >= GIB {
+/// A memory size for messages: GiB with one decimal (powers of ten when absurd), MiB below
+/// one GiB.
+pub fn gib(bytes: f64) -> String {
+    if bytes >= 1e4 * GIB {
+        format!("{:.2e} GiB", bytes / GIB)
+    } else if bytes >= GIB {
         format!("{:.1} GiB", bytes / GIB)
     } else {
         format!("{:.0} MiB", bytes / (1024.0 * 1024.0))

@@ -159,18 +159,29 @@ impl Plan {
             // about four unknowns per vertex with quadratic elements).
             let unknowns = vertices * engine::unknowns_per_vertex(self.params.order);
             let bytes = engine::predicted_memory_bytes(unknowns, self.params.order, false);
-            let mut help = format!(
-                "solving that mesh would take {}{:.1} GB of memory (the run's memory budget is {:.1} GB)",
+            let need = format!(
+                "solving that mesh would take {}{} of memory",
                 if *at_least { "more than " } else { "about " },
-                bytes / 1e9,
-                self.memory_budget_bytes / 1e9
+                budget::gib(bytes)
             );
-            if let Some(note) = &self.budget_note {
-                help = format!("{help}; {note}");
-            }
+            // The note (when the memory set the node budget) names the budget itself.
+            let help = match &self.budget_note {
+                Some(note) => format!("{need}; {note}"),
+                None => format!("{need} (the run's memory budget is {})", budget::gib(self.memory_budget_bytes)),
+            };
             err = err.help(help);
         }
         err
+    }
+}
+
+/// A number as a message shows the value given: plainly in the usual range (50, 0.25),
+/// in powers of ten outside it (1e300, inf).
+fn num(x: f64) -> String {
+    if x == 0.0 || (1e-4..1e7).contains(&x.abs()) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
     }
 }
 
@@ -314,8 +325,9 @@ impl Ctx<'_> {
                 .err(
                     v.span(),
                     format!(
-                        "coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{:e}, {:e}]",
-                        p[0], p[1]
+                        "coordinates must be finite numbers within ±{MAX_COORDINATE_M:e} m, not [{}, {}]",
+                        num(p[0]),
+                        num(p[1])
                     ),
                 )
                 .key(key)

@@ -74,7 +74,7 @@ fn memory_limit_option_sets_the_budget() {
     let o = run(&["mesh", model.to_str().unwrap(), "--memory-limit", "20MB"]);
     let e = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{e}");
-    assert!(e.contains("--memory-limit 19 MiB"), "{e}");
+    assert!(e.contains("memory budget of 19 MiB (--memory-limit)"), "{e}");
     let o = run(&["mesh", model.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
     // A bad size is an argument error.

@@ -3,7 +3,8 @@
 //! `# expect: fragment` lines, the fragments the message must contain — and `solve` on it
 //! must give exactly that, never panic, and, when it fails, leave its output folder
 //! unwritten. A case with `# expect-exit: 0` is accepted with a warning (the fragments
-//! are then looked for in the printed summary).
+//! are then looked for in the printed summary). Each failing case's whole message is pinned
+//! by an insta snapshot (`snapshots/it__corpus__bad_<case>.snap`).
 
 use crate::common::{run, stderr, stdout};
 use std::path::Path;
@@ -32,7 +33,8 @@ fn every_bad_input_gives_its_message_and_exit_code() {
             .unwrap();
         let fragments: Vec<&str> = head.lines().filter_map(|l| l.strip_prefix("# expect: ")).collect();
         let out = tmp.path().join(case.file_stem().unwrap());
-        let o = run(&["solve", case.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+        // A fixed memory budget, so the messages that quote it are the same on every machine.
+        let o = run(&["solve", case.to_str().unwrap(), "--out", out.to_str().unwrap(), "--memory-limit", "4GB"]);
         let text = if exit == 0 { format!("{}{}", stdout(&o), stderr(&o)) } else { stderr(&o) };
         let name = case.file_name().unwrap().to_string_lossy();
         if o.status.code() != Some(exit) {
@@ -49,6 +51,13 @@ fn every_bad_input_gives_its_message_and_exit_code() {
         }
         if exit != 0 && out.exists() {
             failures.push(format!("{name}: wrote {}", out.display()));
+        }
+        if exit != 0 {
+            let shown = text
+                .replace(&dir.display().to_string(), "fixtures/bad")
+                .replace(&tmp.path().display().to_string(), "[dir]");
+            let stem = case.file_stem().unwrap().to_string_lossy().replace('-', "_");
+            insta::assert_snapshot!(format!("bad_{stem}"), shown);
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n\n"));

@@ -1,5 +1,8 @@
 //! Each bad input returns a clear message naming file, line, column and key, exit code 2,
 //! no panic, and no output file (issue: "every bad input below returns a clear error").
+//! The whole rendered message (marker, line, column, key, help) is pinned by an insta
+//! snapshot per case (`snapshots/it__errors__*.snap`), the temporary folder's path replaced
+//! by `[dir]`.
 
 use crate::common::{run, stderr};
 use std::path::Path;
@@ -46,6 +49,24 @@ fn fails(text: &str, expect: &[&str]) {
     let left: Vec<_> = std::fs::read_dir(dir.path()).unwrap().map(|e| e.unwrap().file_name()).collect();
     assert_eq!(left.len(), 1, "files left behind: {left:?}");
     assert!(!Path::new(&vtu).exists() && !Path::new(&svg).exists());
+    let shown = err.replace(&dir.path().display().to_string(), "[dir]");
+    insta::assert_snapshot!(snapshot_name(), shown);
+}
+
+/// The snapshot's name: the test's name, with a count when a test checks several inputs.
+fn snapshot_name() -> String {
+    thread_local!(static CALLS: std::cell::Cell<usize> = const { std::cell::Cell::new(0) });
+    let k = CALLS.with(|c| {
+        c.set(c.get() + 1);
+        c.get()
+    });
+    let thread = std::thread::current();
+    let test = thread.name().unwrap_or("main").rsplit("::").next().unwrap_or("main").to_string();
+    if k == 1 {
+        test
+    } else {
+        format!("{test}-{k}")
+    }
 }
 
 /// Line of the first occurrence of `needle` in `text` (1-based), to check located messages.
