@@ -11,6 +11,14 @@
 //! largely cancel. Values are never averaged across an interface, so each side of an
 //! interface keeps its own field. At a singular point (λ < 1) the largest one-sided value
 //! is kept instead of the average, so that the unbounded peak is not hidden.
+//!
+//! # References
+//! - E. Hinton, J. S. Campbell, "Local and global smoothing of discontinuous finite element
+//!   functions using a least squares method", Int. J. Numer. Methods Eng. 8 (1974) 461–480,
+//!   doi:10.1002/nme.1620080303 (nodal averaging of element gradients).
+//! - O. C. Zienkiewicz, J. Z. Zhu, "The superconvergent patch recovery and a posteriori
+//!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364,
+//!   doi:10.1002/nme.1620330702 (why averaged gradients at vertices beat single-element ones).
 
 use crate::estimate::PrimalRecovery;
 use crate::problem::Problem;

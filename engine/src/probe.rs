@@ -12,6 +12,14 @@
 //! the first region into the second) and the tangential component Eₜ = E·t (t along the
 //! chain). Across a charge-free dielectric interface Eₜ is continuous and εEₙ is
 //! continuous; the tool reports both sides as computed, without averaging.
+//!
+//! # References
+//! - M. de Berg, O. Cheong, M. van Kreveld, M. Overmars, *Computational Geometry: Algorithms
+//!   and Applications*, 3rd ed., Springer 2008, doi:10.1007/978-3-540-77974-2, ch. 6 (point
+//!   location; the bucket grid used here is the simplest structure for it).
+//! - O. C. Zienkiewicz, R. L. Taylor, J. Z. Zhu, *The Finite Element Method: Its Basis and
+//!   Fundamentals*, 7th ed., Butterworth-Heinemann 2013, ch. 5 (the isoparametric map
+//!   inverted by Newton's method).
 
 use crate::fields::eval_point;
 use crate::solve::Solution;

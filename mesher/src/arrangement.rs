@@ -13,6 +13,11 @@
 //! # Complexity
 //! O(c²) in the number of input curves c (tens to a few hundred for a cross-section), which
 //! is negligible next to meshing.
+//!
+//! # References
+//! - M. de Berg, O. Cheong, M. van Kreveld, M. Overmars, *Computational Geometry: Algorithms
+//!   and Applications*, 3rd ed., Springer 2008, doi:10.1007/978-3-540-77974-2, ch. 2 (the
+//!   overlay of planar subdivisions; here by all-pairs intersection, c being small).
 
 use crate::error::MeshError;
 use crate::geometry::{cross, dot, norm, sub, Curve, Fill, Geometry, Xy};

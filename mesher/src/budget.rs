@@ -37,6 +37,14 @@
 //!
 //! Each leaf also records which source of the size field asked for its size
 //! ([`SizeSource`]), so a refusal can name the setting to change.
+//!
+//! # References
+//! - J. Peraire, M. Vahdati, K. Morgan, O. C. Zienkiewicz, "Adaptive remeshing for
+//!   compressible flow computations", J. Comput. Phys. 72 (1987) 449–466,
+//!   doi:10.1016/0021-9991(87)90093-3 (meshes that follow a spacing function; the element
+//!   count as the integral of the spacing's inverse square).
+//! - H. Samet, "The quadtree and related hierarchical data structures", ACM Comput. Surv.
+//!   16 (1984) 187–260, doi:10.1145/356924.356930.
 
 use crate::arrangement::{side_at, Side};
 use crate::geometry::{Geometry, Xy};

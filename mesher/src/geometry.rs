@@ -9,6 +9,11 @@
 //!
 //! Coordinates are in metres. Exact curves are kept so that arc discretisation, corner
 //! angles (true tangents, not chords) and curved P2 edges can all be derived from them.
+//!
+//! # References
+//! - K. Hormann, A. Agathos, "The point in polygon problem for arbitrary polygons",
+//!   Comput. Geom. 20 (2001) 131–144, doi:10.1016/S0925-7721(01)00012-8 (the crossing
+//!   count, here on exact lines and arcs).
 
 use crate::error::MeshError;
 use std::f64::consts::{PI, TAU};

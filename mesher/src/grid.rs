@@ -1,5 +1,11 @@
 //! A uniform bucket grid over axis-aligned boxes, for nearest-item and point-location
 //! queries (boundary segments in the mesher, triangles in the engine's probes).
+//!
+//! # References
+//! - M. de Berg, O. Cheong, M. van Kreveld, M. Overmars, *Computational Geometry: Algorithms
+//!   and Applications*, 3rd ed., Springer 2008, doi:10.1007/978-3-540-77974-2, ch. 5 and 14
+//!   (range searching and spatial subdivisions; a uniform grid suits items of similar size,
+//!   as a graded mesh's are within a few cells).
 
 use crate::geometry::{dot, norm, sub, Xy};
 

@@ -2,7 +2,7 @@
 //! meshing parameters (SI units), the materials, conductors, boundary, probes and `check`
 //! settings, with diagnostics that point into the file.
 //!
-//! Each table is checked in one place, where it enters — [`raw`] holds the file as TOML
+//! Each table is checked in one place, where it enters — `raw` holds the file as TOML
 //! gives it, and one module per table checks it (`materials`, `conductors`, `shapes`,
 //! `boundary`, `mesh_controls`, `probes`); [`parse`] reads `[model]` and `[check]` and calls
 //! them in order. The stages below (mesher, engine) trust the plan: their own checks are

@@ -1,5 +1,5 @@
 //! Stage 3: one results type per command and its renderers — terminal text, JSON, CSV and
-//! VTU in each command's module, the mesh picture in [`svg`], and [`write`], through which
+//! VTU in each command's module, the mesh picture in [`svg`], and [`write`](mod@write), through which
 //! every file is written whole or not at all.
 
 pub mod check;

@@ -1,5 +1,16 @@
 //! Assembly: the reduced system of a mesh (unknowns, held nodes, floating conductors), the
 //! element matrices, the open-boundary term, and the right-hand side of a load case.
+//!
+//! # References
+//! - P. P. Silvester, R. L. Ferrari, *Finite Elements for Electrical Engineers*, 3rd ed.,
+//!   Cambridge University Press 1996, ch. 2–4 (element matrices, assembly, elimination of
+//!   prescribed potentials).
+//! - O. C. Zienkiewicz, R. L. Taylor, J. Z. Zhu, *The Finite Element Method: Its Basis and
+//!   Fundamentals*, 7th ed., Butterworth-Heinemann 2013, ch. 5–6 (isoparametric elements and
+//!   their quadrature).
+//! - E. M. Freeman, D. A. Lowther, "A novel mapping technique for open boundary finite
+//!   element solutions to Poisson's equation", IEEE Trans. Magn. 24 (1988) 2934–2936 (the
+//!   mapped exterior disc of the open boundary; see `mesher/src/exterior.rs`).
 
 use super::*;
 

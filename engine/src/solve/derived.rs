@@ -1,5 +1,14 @@
 //! Derived quantities: nodal potentials, reaction charges and energy of a solved case, and
 //! the check that none of them is non-finite.
+//!
+//! # References
+//! - I. Babuška, A. Miller, "The post-processing approach in the finite element method —
+//!   Part 1: Calculation of displacements, stresses and other higher derivatives of the
+//!   displacements", Int. J. Numer. Methods Eng. 20 (1984) 1085–1109,
+//!   doi:10.1002/nme.1620200610 (a boundary flux extracted as the reaction of the stiffness
+//!   matrix is of the energy's order of accuracy, not of the gradient's).
+//! - P. P. Silvester, R. L. Ferrari, *Finite Elements for Electrical Engineers*, 3rd ed.,
+//!   Cambridge University Press 1996, ch. 2 (the stored energy ½·VᵀKV).
 
 use super::*;
 
