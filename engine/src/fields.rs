@@ -344,6 +344,45 @@ pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f6
     peaks_away_from_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), discs)
 }
 
+/// The disc (centre, radius in metres) around every point whose field is singular
+/// (λ < 1), which the peaks "away from singular points" leave out: radius `given` (the
+/// model's `[check] singular_exclusion_radius`), or 2 % of the model's size, or a quarter of
+/// the distance to the nearest other singular point if that is smaller. The discs are the
+/// geometry's, the same on every mesh of a sequence, so the peaks outside them have a limit.
+pub fn exclusion_discs(mesh: &Mesh, given: Option<f64>) -> Vec<(Xy, f64)> {
+    let scale = mesh.scale();
+    let pts = &mesh.singular_points;
+    pts.iter()
+        .filter(|s| s.is_field_singular())
+        .map(|s| {
+            let nearest = pts
+                .iter()
+                .map(|o| (o.at[0] - s.at[0]).hypot(o.at[1] - s.at[1]))
+                .filter(|&d| d > 1e-9 * scale)
+                .fold(f64::INFINITY, f64::min);
+            (s.at, given.unwrap_or((0.02 * scale).min(0.25 * nearest)))
+        })
+        .collect()
+}
+
+/// The region-wise vertex values behind the peaks: per (vertex, region) the recovered
+/// field (the largest one-sided element value at a singular vertex), sorted by (vertex,
+/// region), with the |E| a peak takes from it.
+pub(crate) fn region_vertex_values(
+    mesh: &Mesh,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+) -> Vec<(VertexMean, f64)> {
+    let rec = primal.field(&solution.potential);
+    recovered_means(&primal.quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential)))
+        .into_iter()
+        .map(|g| {
+            let m = if primal.quad.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
+            (g, m)
+        })
+        .collect()
+}
+
 /// [`region_peaks_away_from`] with the solution's recovery already made.
 pub(crate) fn peaks_away_from_with(
     mesh: &Mesh,

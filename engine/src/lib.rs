@@ -26,6 +26,10 @@
 //! - [`estimate_error`]: recovery-based error estimate (P1 and P2); [`adapt()`],
 //!   [`adapt_watching`]: the adaptive loop; [`singular_coefficient_dual`],
 //!   [`singular_coefficient`]: the coefficient of the singular term at a conductor corner.
+//! - breakdown checks: [`stress_check`] (utilisation, margin, verdict with the error bar),
+//!   [`local_peaks`], [`electrode_distance`] and [`field_utilisation`], [`stressed_volume`]
+//!   (and the Weibull effective volume), [`creepage_path`]; [`exclusion_discs`] around
+//!   singular points.
 //! - [`space`]: reference elements and quadrature rules.
 //!
 //! Status: the solve, fields, capacitance matrix, probes, open boundary, error estimate,
@@ -63,6 +67,7 @@
 mod adapt;
 mod budget;
 mod certify;
+mod checks;
 mod convergence;
 mod error;
 mod estimate;
@@ -78,13 +83,17 @@ pub mod space;
 pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
 pub use budget::{predicted_memory_bytes, unknowns_per_vertex, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
+pub use checks::{
+    creepage_path, electrode_distance, field_utilisation, local_peaks, stress_check, stressed_volume, CreepagePath,
+    CreepageRow, Electrode, GapDistance, LocalPeak, PeakSite, StressCheck, StressedVolume, Verdict, WeibullVolume,
+};
 pub use convergence::{
     grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict,
     GCI_SAFETY_FACTOR,
 };
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
-pub use fields::{element_fields, energy_error, region_peaks_away_from, ElementFields, RegionPeak};
+pub use fields::{element_fields, energy_error, exclusion_discs, region_peaks_away_from, ElementFields, RegionPeak};
 pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
 pub use problem::{ConductorSpec, Problem};

@@ -66,6 +66,10 @@ pub struct InterfaceSample {
     pub first: SideField,
     /// Field on the second side (None on a conductor surface or the outer boundary).
     pub second: Option<SideField>,
+    /// The sampled edge's length, metres.
+    pub edge_length: f64,
+    /// The potentials at the edge's start and end vertices (nodal values), V.
+    pub ends: [f64; 2],
 }
 
 /// Which interface to sample.
@@ -260,7 +264,8 @@ pub fn probe_interface(mesh: &Mesh, solution: &Solution, which: InterfaceSelecto
             (None, Some((f, v))) => (f, v, None),
             (None, None) => continue,
         };
-        out.push(InterfaceSample { s: s + len / 2.0, at: mid, potential: v, first, second });
+        let ends = [solution.potential[a as usize], solution.potential[b as usize]];
+        out.push(InterfaceSample { s: s + len / 2.0, at: mid, potential: v, first, second, edge_length: len, ends });
         s += len;
         prev_end = Some(pb);
     }

@@ -1,5 +1,7 @@
 //! Integration tests of the electrostatic solve against closed forms, by topic.
 
+/// Breakdown checks (utilisation factor, stressed volume, peaks, creepage) against closed forms.
+mod checks;
 /// Capacitance of coaxial cylinders and concentric spheres (closed forms).
 mod closed_forms;
 /// Geometry helpers.

@@ -1,0 +1,179 @@
+//! Breakdown checks against closed forms: the field utilisation factor of coaxial cylinders
+//! and of a sphere above a plane, the stressed volume and Weibull effective volume of coaxial
+//! cylinders, the side of an interface a peak is on, and the creepage figures of a uniform
+//! field.
+
+use crate::common::{cond, diel, permittivities, run, shape};
+use engine::{
+    creepage_path, electrode_distance, field_utilisation, local_peaks, probe_interface, region_peaks_away_from, solve,
+    stressed_volume, ConductorSpec, Electrode, InterfaceSelector, PeakSite, Problem,
+};
+use mesher::{generate, Curve, Geometry, OuterBoundary, Outline, RefineParams, SizePoint, Symmetry};
+use std::f64::consts::PI;
+
+const V: ConductorSpec = ConductorSpec::Fixed { potential_v: 1.0 };
+
+/// Coaxial cylinders a = 1 cm (at 1 V) and b = 3 cm (earthed outer boundary), one
+/// dielectric, P2.
+fn coax(h: f64) -> (mesher::Mesh, engine::Solution) {
+    let shapes = vec![
+        shape("gap", Outline::circle("gap", [0.0, 0.0], 0.03).unwrap(), diel(2.2)),
+        shape("core", Outline::circle("core", [0.0, 0.0], 0.01).unwrap(), cond(0)),
+    ];
+    run(Symmetry::Planar, shapes, &[("core", V)], Some(0.0), h, 2)
+}
+
+#[test]
+fn utilisation_factor_of_coaxial_cylinders() {
+    // η = r·ln(R/r)/(R − r) (Schwaiger's factor for coaxial cylinders; Kuffel, Zaengl &
+    // Kuffel 2000, recalled from memory; the coaxial field E = U/(r·ln(R/r)) of any
+    // electrostatics text, e.g. Griffiths 2017 §2.3).
+    let (a, b) = (0.01f64, 0.03f64);
+    let exact = a * (b / a).ln() / (b - a);
+    let (mesh, sol) = coax(0.002);
+    let d = electrode_distance(&mesh, Electrode::Conductor(0), Electrode::Outer).unwrap();
+    assert!((d.distance - (b - a)).abs() < 1e-4 * (b - a), "d = {}", d.distance);
+    let e_max = region_peaks_away_from(&mesh, &sol, &[])[0].e_max_v_per_m;
+    let eta = field_utilisation(1.0, d.distance, e_max);
+    assert!((eta - exact).abs() < 1e-3 * exact, "η = {eta} against {exact}");
+}
+
+#[test]
+fn stressed_and_weibull_volumes_of_coaxial_cylinders() {
+    // E(r) = U/(r·ln(b/a)), so |E| ≥ x·E_max for r ≤ a/x: V(x) = π((a/x)² − a²) per metre;
+    // V_eff = ∫(a/r)^m 2πr dr = 2πa²(1 − (a/b)^(m−2))/(m − 2) (closed forms of the coaxial
+    // field, Griffiths 2017 §2.3).
+    let (a, b) = (0.01f64, 0.03f64);
+    // The indicator |E| ≥ x·E_max amplifies field errors near its level curve (dV/V ≈ 10·dE/E
+    // at x = 0.9): measured errors at h = 1.5 mm up to 1.5e-2, at 0.7 mm up to 7.7e-3.
+    let (mesh, sol) = coax(0.0007);
+    let e_ref = region_peaks_away_from(&mesh, &sol, &[])[0].e_max_v_per_m;
+    let e_exact = 1.0 / (a * (b / a).ln());
+    assert!((e_ref - e_exact).abs() < 1e-3 * e_exact);
+    let m = 10.0;
+    let sv = stressed_volume(&mesh, &sol, 0, e_ref, &[0.8, 0.9, 0.95], Some(m));
+    let total = PI * (b * b - a * a);
+    assert!((sv.volume_m3 - total).abs() < 1e-4 * total, "{} vs {total}", sv.volume_m3);
+    for &(x, v) in &sv.above {
+        let exact = PI * ((a / x).powi(2) - a * a);
+        assert!((v - exact).abs() < 1e-2 * exact, "V({x}) = {v:e} against {exact:e}");
+    }
+    let w = sv.weibull.unwrap();
+    let exact = 2.0 * PI * a * a * (1.0 - (a / b).powf(m - 2.0)) / (m - 2.0);
+    let v_eff = w.effective_volume.unwrap();
+    assert!((v_eff - exact).abs() < 1e-2 * exact, "V_eff = {v_eff:e} against {exact:e}");
+}
+
+#[test]
+fn utilisation_factor_of_a_sphere_above_a_plane() {
+    // The peak field of a sphere (radius a, centre d above an earthed plane, at U) by the
+    // image series of Smythe 1968 §5.08 (as in honesty.rs), η = U/((d − a)·E_max). a = 5 mm,
+    // d = 10 mm; the model reaches 1 m, where the truncation is of order (d/L)³ ≈ 1e-6.
+    let (a, d, l): (f64, f64, f64) = (0.005, 0.01, 1.0);
+    let p = d - a;
+    let (mut q, mut z, mut e) = (a, d, 0.0); // q in units of 4πε₀U
+    for _ in 0..200 {
+        e += q * (1.0 / (z - p).powi(2) + 1.0 / (z + p).powi(2));
+        let next = d - a * a / (d + z);
+        q *= a / (d + z);
+        z = next;
+    }
+    let exact = 1.0 / ((d - a) * e);
+    let ball = {
+        let arc = Curve::Arc { center: [0.0, d], radius: a, start: -PI / 2.0, sweep: PI };
+        Outline::new("ball", vec![arc, Curve::Line { from: arc.to(), to: arc.from() }]).unwrap()
+    };
+    let shapes = vec![
+        shape("air", Outline::rectangle("air", [0.0, -0.005], [l, l + 0.005], 0.0).unwrap(), diel(1.0)),
+        shape("plane", Outline::rectangle("plane", [0.0, -0.005], [l, 0.005], 0.0).unwrap(), cond(1)),
+        shape("ball", ball, cond(0)),
+    ];
+    let problem = Problem {
+        permittivity: permittivities(&shapes),
+        conductors: vec![V, ConductorSpec::Fixed { potential_v: 0.0 }],
+        ..Default::default()
+    };
+    let geo = Geometry {
+        symmetry: Symmetry::Axisymmetric,
+        shapes,
+        conductors: vec!["ball".into(), "plane".into()],
+        outer: OuterBoundary::ZeroFlux,
+        size_points: vec![SizePoint { at: [0.0, 0.5 * p], size_m: 1.5e-4 }],
+    };
+    let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;
+    let sol = solve(&mesh, &problem).unwrap();
+    let gap = electrode_distance(&mesh, Electrode::Conductor(0), Electrode::Conductor(1)).unwrap();
+    assert!((gap.distance - p).abs() < 1e-6, "gap {}", gap.distance);
+    assert!(gap.from[0].abs() < 1e-6 && gap.to[0].abs() < 1e-6, "on the axis: {:?}", gap);
+    let e_max = region_peaks_away_from(&mesh, &sol, &[])[0].e_max_v_per_m;
+    let eta = field_utilisation(1.0, gap.distance, e_max);
+    assert!((eta - exact).abs() < 2e-3 * exact, "η = {eta} against {exact}");
+}
+
+#[test]
+fn peaks_of_a_two_layer_coax_are_on_the_right_sides() {
+    // Core a = 1 cm at 1 V, layer boundary c = 2 cm, earthed b = 3 cm; ε₁ = 4 inside,
+    // ε₂ = 2.2 outside. D = q/(2πr) is continuous, so each layer's largest field is at its
+    // inner radius: E₁(a) = q/(2πε₀ε₁a) on the core, E₂(c) = q/(2πε₀ε₂c) on the outer
+    // layer's side of the interface, with q/(2πε₀) = 1/(ln(c/a)/ε₁ + ln(b/c)/ε₂) (capacitors
+    // in series, Griffiths 2017 §4.4).
+    let (a, c, b, e1, e2) = (0.01f64, 0.02f64, 0.03f64, 4.0, 2.2);
+    let shapes = vec![
+        shape("outer-layer", Outline::circle("outer-layer", [0.0, 0.0], b).unwrap(), diel(e2)),
+        shape("inner-layer", Outline::circle("inner-layer", [0.0, 0.0], c).unwrap(), diel(e1)),
+        shape("core", Outline::circle("core", [0.0, 0.0], a).unwrap(), cond(0)),
+    ];
+    let (mesh, sol) = run(Symmetry::Planar, shapes, &[("core", V)], Some(0.0), 0.0015, 2);
+    let k = 1.0 / ((c / a).ln() / e1 + (b / c).ln() / e2);
+    let separation = 0.01;
+    let peaks = local_peaks(&mesh, &sol, &[], 3, separation);
+    let inner: Vec<_> = peaks.iter().filter(|p| p.region == 1).collect();
+    let outer: Vec<_> = peaks.iter().filter(|p| p.region == 0).collect();
+    assert!(!inner.is_empty() && inner.len() <= 3 && !outer.is_empty() && outer.len() <= 3);
+    let top_inner = inner[0];
+    assert_eq!(top_inner.site, PeakSite::Conductor { conductor: 0 });
+    let exact = k / (e1 * a);
+    assert!((top_inner.e_v_per_m - exact).abs() < 2e-3 * exact, "{} vs {exact}", top_inner.e_v_per_m);
+    let top_outer = outer[0];
+    assert_eq!(top_outer.site, PeakSite::Interface { other: 1 });
+    let exact = k / (e2 * c);
+    assert!((top_outer.e_v_per_m - exact).abs() < 2e-3 * exact, "{} vs {exact}", top_outer.e_v_per_m);
+    // Separate peaks: highest first and at least the separation apart within a region.
+    for list in [&inner, &outer] {
+        for (i, p) in list.iter().enumerate() {
+            for q in &list[..i] {
+                assert!(q.e_v_per_m >= p.e_v_per_m);
+                assert!((p.at[0] - q.at[0]).hypot(p.at[1] - q.at[1]) >= separation);
+            }
+        }
+    }
+}
+
+#[test]
+fn creepage_along_an_interface_across_a_uniform_gap() {
+    // Two dielectrics side by side between parallel plates 10 mm apart (plates at 1000 V and
+    // 0 V, zero flux at the sides): the field is uniform, E = U/d in both (the interface is
+    // along the field lines), so along the interface E_t = U/d = 10⁵ V/m, the drop is the full
+    // 1000 V and the running mean is U/d everywhere (parallel-plate closed form).
+    let (w, d, u) = (0.04f64, 0.01f64, 1000.0);
+    // The domain holds the plates, which paint over its top and bottom strips.
+    let shapes = vec![
+        shape("left", Outline::rectangle("left", [0.0, -0.002], [w, d + 0.004], 0.0).unwrap(), diel(2.2)),
+        shape("right", Outline::rectangle("right", [0.5 * w, 0.0], [0.5 * w, d], 0.0).unwrap(), diel(5.0)),
+        shape("hv", Outline::rectangle("hv", [0.0, d], [w, 0.002], 0.0).unwrap(), cond(0)),
+        shape("earth", Outline::rectangle("earth", [0.0, -0.002], [w, 0.002], 0.0).unwrap(), cond(1)),
+    ];
+    let conductors =
+        [("hv", ConductorSpec::Fixed { potential_v: u }), ("earth", ConductorSpec::Fixed { potential_v: 0.0 })];
+    let (mesh, sol) = run(Symmetry::Planar, shapes, &conductors, None, 0.001, 2);
+    let rows = probe_interface(&mesh, &sol, InterfaceSelector::Regions(0, 1));
+    let path = creepage_path(&rows, |_| true);
+    let e = u / d;
+    assert!((path.e_t_max.0 - e).abs() < 1e-6 * e, "E_t max {} vs {e}", path.e_t_max.0);
+    assert!((path.potential_drop_v.abs() - u).abs() < 1e-9 * u, "drop {}", path.potential_drop_v);
+    assert!((path.length_m - d).abs() < 1e-9 * d, "length {}", path.length_m);
+    for r in &path.rows {
+        assert!((r.e_t.abs() - e).abs() < 1e-6 * e);
+        assert!((r.running_mean - e).abs() < 1e-6 * e, "running mean {} at s = {}", r.running_mean, r.s);
+    }
+}
