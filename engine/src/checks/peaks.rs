@@ -98,7 +98,7 @@ pub fn local_peaks(
         .filter(|&(r, v, n)| {
             v.is_finite()
                 && v > 0.0
-                && !mesh.exterior.is_some_and(|e| e.region == r)
+                && mesh.exterior.is_none_or(|e| e.region != r)
                 && !inside_disc(mesh.nodes[n as usize])
         })
         .collect();
