@@ -3,6 +3,7 @@
 
 use crate::plan;
 use crate::plan::problem::problem_of;
+use crate::results::checks::breakdown_checks;
 use crate::results::mesh::report;
 use crate::results::solve::{analyse, finite_or_error, render_text, solve_error, write_outputs};
 use crate::CliError;
@@ -44,12 +45,21 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let mesh_report = report(&model, &meshed);
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
-    finite_or_error(&model, &results)?;
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
-    results.timings_s =
-        vec![("mesh".into(), t_mesh), ("solve".into(), t_solve), ("fields and capacitance".into(), t_post)];
+    let discs = engine::exclusion_discs(mesh, model.singular_exclusion_radius_m);
+    let (checks, mut files) = breakdown_checks(&model, mesh, &analysis.sol, &discs, &|_| None);
+    results.checks = Some(checks);
+    finite_or_error(&model, &results)?;
+    let t_checks = t0.elapsed().as_secs_f64() - t_mesh - t_solve - t_post;
+    results.timings_s = vec![
+        ("mesh".into(), t_mesh),
+        ("solve".into(), t_solve),
+        ("fields and capacitance".into(), t_post),
+        ("breakdown checks".into(), t_checks),
+    ];
     let json = serde_json::to_string_pretty(&results)?;
-    write_outputs(&run.out, mesh, &problem, &analysis, &[("results.json".into(), json.clone())])?;
+    files.push(("results.json".into(), json.clone()));
+    write_outputs(&run.out, mesh, &problem, &analysis, &files)?;
     if run.json {
         // The summary carries the warnings; with JSON on stdout they go to stderr too.
         for w in &results.mesh.warnings {

@@ -5,8 +5,8 @@ use super::diag::ModelError;
 use super::raw::RawModel;
 use super::{Ctx, Material, LIMIT_HELP, MAX_PERMITTIVITY};
 
-/// `[[material]]`: names unique, permittivity (scalar and tensor) and allowable stress in
-/// range.
+/// `[[material]]`: names unique, permittivity (scalar and tensor), allowable stress and
+/// Weibull shape in range (the allowables by load case are read with the load cases).
 pub(super) fn materials(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Material>, ModelError> {
     let mut materials: Vec<Material> = Vec::new();
     for (i, m) in raw.material.iter().enumerate() {
@@ -49,11 +49,27 @@ pub(super) fn materials(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Material>, M
             }
             None => None,
         };
+        let weibull_shape = match &m.weibull_shape {
+            Some(w) => {
+                let v = cx.positive(w, format!("material[{i}].weibull_shape"), "the Weibull shape parameter")?;
+                if v > 1000.0 {
+                    return Err(cx
+                        .err(w.span(), format!("the Weibull shape parameter {v} is above 1000"))
+                        .key(format!("material[{i}].weibull_shape"))
+                        .help("typical values in field are 5–40 (oil 5–15, epoxy 10–20, compressed SF6 20–40)"));
+                }
+                Some(v)
+            }
+            None => None,
+        };
         materials.push(Material {
             name: n.clone(),
             permittivity: eps,
             permittivity_tensor: tensor,
             allowable_stress_kv_per_mm: allow,
+            // Checked against the load cases' names once those are read (`load_cases`).
+            allowable_by_case: Vec::new(),
+            weibull_shape,
         });
     }
 

@@ -17,6 +17,7 @@ pub mod problem;
 
 mod boundary;
 mod conductors;
+mod load_cases;
 mod materials;
 mod mesh_controls;
 mod probes;
@@ -45,8 +46,21 @@ pub struct Material {
     pub permittivity: f64,
     /// Anisotropic relative permittivity [[εxx, εxy], [εxy, εyy]], if given.
     pub permittivity_tensor: Option<[[f64; 2]; 2]>,
-    /// Allowable design stress, kV/mm (user or company data).
+    /// Allowable design stress, kV/mm (user or company data): the value of every load case
+    /// without its own, in that case's basis.
     pub allowable_stress_kv_per_mm: Option<f64>,
+    /// Allowable stresses of named load cases, kV/mm in each case's basis.
+    pub allowable_by_case: Vec<(String, f64)>,
+    /// Weibull shape parameter m (in field) for the effective volume, if given.
+    pub weibull_shape: Option<f64>,
+}
+
+impl Material {
+    /// The allowable stress of load case `case` (its own value, else the material's
+    /// default), kV/mm.
+    pub fn allowable_in(&self, case: &str) -> Option<f64> {
+        self.allowable_by_case.iter().find(|(n, _)| n == case).map(|v| v.1).or(self.allowable_stress_kv_per_mm)
+    }
 }
 
 /// How a conductor's potential is set.
@@ -96,7 +110,25 @@ pub struct Probe {
     pub name: String,
     /// What to sample.
     pub kind: ProbeKind,
+    /// Allowable |E_t| along an interface or surface probe, kV/mm: the value of every load
+    /// case without its own.
+    pub allowable_tangential_kv_per_mm: Option<f64>,
+    /// Allowable |E_t| of named load cases, kV/mm in each case's basis.
+    pub allowable_tangential_by_case: Vec<(String, f64)>,
 }
+
+impl Probe {
+    /// The allowable tangential stress of load case `case`, kV/mm.
+    pub fn allowable_tangential_in(&self, case: &str) -> Option<f64> {
+        self.allowable_tangential_by_case
+            .iter()
+            .find(|(n, _)| n == case)
+            .map(|v| v.1)
+            .or(self.allowable_tangential_kv_per_mm)
+    }
+}
+
+pub use load_cases::{largest_potential, Basis, BreakdownSettings, ElectrodeRef, FieldFactorSpec, LoadCase, LoadKind};
 
 /// A checked model, ready to mesh.
 #[derive(Clone, Debug)]
@@ -124,6 +156,11 @@ pub struct Plan {
     pub outer_potential_v: Option<f64>,
     /// Field probes.
     pub probes: Vec<Probe>,
+    /// The load cases (`[[load_case]]`); empty: the model's potentials as given are the one
+    /// case.
+    pub load_cases: Vec<LoadCase>,
+    /// `[breakdown]`: settings of the breakdown checks.
+    pub breakdown: BreakdownSettings,
     /// `[check] singular_exclusion_radius`: the radius of the disc around every
     /// field-singular point that `check` leaves out of the watched peaks, metres (None: the
     /// default from the geometry).
@@ -396,7 +433,18 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
     let (outer, outer_potential_v) = boundary(&cx, &raw, &conductors)?;
 
     let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
-    let probes = probes(&cx, &raw, &shapes, &conductors)?;
+    let mut probes = probes(&cx, &raw, &shapes, &conductors)?;
+    let mut materials = materials;
+    let load_cases = load_cases::load_cases(
+        &cx,
+        &raw,
+        &conductors,
+        outer_potential_v,
+        &shape_charge_density,
+        &mut materials,
+        &mut probes,
+    )?;
+    let breakdown = load_cases::breakdown(&cx, &raw, &conductors, outer_potential_v)?;
     let geometry = Geometry {
         symmetry,
         shapes,
@@ -427,6 +475,8 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         conductors,
         outer_potential_v,
         probes,
+        load_cases,
+        breakdown,
         unit_m,
         unit,
         shape_spans,

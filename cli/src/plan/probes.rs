@@ -107,7 +107,28 @@ pub(super) fn probes(
             })?;
             ProbeKind::ConductorSurface(k as u32)
         };
-        probes.push(Probe { name, kind });
+        let allowable_tangential_kv_per_mm = match &p.allowable_tangential_kv_per_mm {
+            Some(a) => {
+                if let ProbeKind::Line { .. } = kind {
+                    return Err(cx
+                        .err(
+                            a.span(),
+                            "allowable_tangential_kv_per_mm applies to interface and surface probes only".into(),
+                        )
+                        .key(key("allowable_tangential_kv_per_mm"))
+                        .help("a path probe has no tangent of its own: use an interface or conductor_surface probe"));
+                }
+                Some(cx.positive(a, key("allowable_tangential_kv_per_mm"), "the allowable tangential stress")?)
+            }
+            None => None,
+        };
+        probes.push(Probe {
+            name,
+            kind,
+            allowable_tangential_kv_per_mm,
+            // Checked against the load cases' names once those are read (`load_cases`).
+            allowable_tangential_by_case: Vec::new(),
+        });
     }
     Ok(probes)
 }

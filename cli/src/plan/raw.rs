@@ -2,6 +2,7 @@
 //! (for diagnostics). Nothing here is checked; the table modules beside it check.
 
 use serde::Deserialize;
+use std::collections::BTreeMap;
 use toml::Spanned;
 
 type S<T> = Spanned<T>;
@@ -21,7 +22,40 @@ pub(super) struct RawModel {
     pub(super) check: Option<S<RawCheck>>,
     #[serde(default)]
     pub(super) probe: Vec<S<RawProbe>>,
+    #[serde(default)]
+    pub(super) load_case: Vec<S<RawLoadCase>>,
+    pub(super) breakdown: Option<S<RawBreakdown>>,
 }
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawLoadCase {
+    pub(super) name: S<String>,
+    pub(super) kind: S<String>,
+    pub(super) voltage_kv: S<f64>,
+    pub(super) basis: Option<S<String>>,
+    pub(super) conductor: Option<S<String>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawBreakdown {
+    pub(super) stressed_fractions: Option<S<Vec<S<f64>>>>,
+    pub(super) local_peaks: Option<S<i64>>,
+    pub(super) peak_separation: Option<S<f64>>,
+    #[serde(default)]
+    pub(super) field_factor: Vec<S<RawFieldFactor>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawFieldFactor {
+    pub(super) name: S<String>,
+    pub(super) between: S<Vec<S<String>>>,
+}
+
+/// Values by load-case name (`allowable_by_case = { service = 3.0 }`).
+pub(super) type ByCase = S<BTreeMap<String, S<f64>>>;
 
 #[derive(Deserialize, Debug)]
 #[serde(deny_unknown_fields)]
@@ -37,6 +71,8 @@ pub(super) struct RawProbe {
     pub(super) samples: Option<S<i64>>,
     pub(super) interface: Option<S<[String; 2]>>,
     pub(super) conductor_surface: Option<S<String>>,
+    pub(super) allowable_tangential_kv_per_mm: Option<S<f64>>,
+    pub(super) allowable_tangential_by_case: Option<ByCase>,
 }
 
 #[derive(Deserialize, Debug)]
@@ -54,6 +90,8 @@ pub(super) struct RawMaterial {
     pub(super) permittivity: S<f64>,
     pub(super) permittivity_tensor: Option<S<[[f64; 2]; 2]>>,
     pub(super) allowable_stress_kv_per_mm: Option<S<f64>>,
+    pub(super) allowable_by_case: Option<ByCase>,
+    pub(super) weibull_shape: Option<S<f64>>,
 }
 
 #[derive(Deserialize, Debug)]

@@ -1,8 +1,10 @@
-//! Stage 3: one results type per command and its renderers — terminal text, JSON, CSV and
+//! Stage 3: one results type per command and its renderers (the breakdown checks, shared
+//! by `solve` and `check`, in [`checks`]) — terminal text, JSON, CSV and
 //! VTU in each command's module, the mesh picture in [`svg`], and [`write`](mod@write), through which
 //! every file is written whole or not at all.
 
 pub mod check;
+pub mod checks;
 pub mod mesh;
 pub mod solve;
 pub mod svg;

@@ -34,7 +34,7 @@ impl Results {
                 return Some(format!("largest field along probe '{}'", p.name));
             }
         }
-        None
+        self.checks.as_ref().and_then(|c| c.first_non_finite())
     }
 }
 
@@ -67,6 +67,8 @@ pub struct Results {
     pub regions: Vec<RegionResult>,
     /// Field probes and their CSV files.
     pub probes: Vec<ProbeResult>,
+    /// The breakdown checks per load case (filled by the command after the analysis).
+    pub checks: Option<crate::results::checks::Checks>,
     /// Wall-clock seconds per stage.
     pub timings_s: Vec<(String, f64)>,
     /// Cautions that apply to every figure above.
@@ -294,6 +296,7 @@ pub fn analyse(
         },
         regions,
         probes,
+        checks: None,
         timings_s: Vec::new(),
         cautions: CAUTIONS.to_vec(),
         warnings: mesh_report.warnings.clone(),
@@ -470,6 +473,9 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
     }
     for w in &r.mesh.warnings {
         let _ = writeln!(s, "\nwarning: {w}");
+    }
+    if let Some(c) = &r.checks {
+        s.push_str(&crate::results::checks::render_checks(c, r.per_metre_depth, unit_m, unit));
     }
     let _ = writeln!(s, "\ncautions");
     for c in &r.cautions {

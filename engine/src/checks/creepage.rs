@@ -6,13 +6,16 @@ use mesher::Xy;
 /// One sample of a creepage path.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CreepageRow {
-    /// Arc length from the path's start (the first edge's start vertex), metres.
+    /// The chain the sample belongs to (an interface may be several separate chains of
+    /// edges: the two flanks of an insulator, say), numbered from 0.
+    pub chain: usize,
+    /// Arc length from its chain's start (the chain's first vertex), metres.
     pub s: f64,
     /// Position, metres.
     pub at: Xy,
     /// Potential, V.
     pub potential: f64,
-    /// ΔV(s) = V(s) − V(start), V (V(start) the nodal potential of the path's first vertex).
+    /// ΔV(s) = V(s) − V(start), V (V(start) the nodal potential of the chain's first vertex).
     pub drop: f64,
     /// Tangential field E_t (the mean of the two sides', which agree across a charge-free
     /// interface up to the discretisation), V/m.
@@ -26,19 +29,31 @@ pub struct CreepageRow {
     pub counted: bool,
 }
 
+/// One chain of an interface: its length and potential drop (last vertex minus first,
+/// nodal values).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CreepageChain {
+    /// Length, metres.
+    pub length_m: f64,
+    /// Potential drop from its first vertex to its last, V.
+    pub potential_drop_v: f64,
+}
+
 /// The creepage figures of one interface path.
 #[derive(Clone, Debug, PartialEq)]
 pub struct CreepagePath {
     /// The samples in path order.
     pub rows: Vec<CreepageRow>,
-    /// Path length (first to last vertex), metres.
+    /// The chains of edges, in order.
+    pub chains: Vec<CreepageChain>,
+    /// Total length of the chains, metres.
     pub length_m: f64,
-    /// Potential drop along the whole path (last vertex minus first, nodal values), V.
+    /// The largest |potential drop| of a chain, V.
     pub potential_drop_v: f64,
-    /// Largest |E_t| over the counted samples, V/m, with its arc length and position.
-    pub e_t_max: (f64, f64, Xy),
-    /// Largest running mean over the counted samples, V/m, with its arc length.
-    pub running_mean_max: (f64, f64),
+    /// Largest |E_t| over the counted samples, V/m, with its chain, arc length and position.
+    pub e_t_max: (f64, usize, f64, Xy),
+    /// Largest running mean over the counted samples, V/m, with its chain and arc length.
+    pub running_mean_max: (f64, usize, f64),
 }
 
 /// The creepage figures of an interface or surface path from its samples
@@ -50,30 +65,45 @@ pub struct CreepagePath {
 /// and the cumulative mean E_cum(s) = |ΔV(s)|/s, which creep-withstand curves of the form
 /// E_w = A·ℓ^(−n) are compared with (`../shared/TRADE.md` §1.2 and §1.8: Moser & Dahinden
 /// 1987 and Hekmati 2017, recalled from memory). ΔV is read from the potential itself, so
-/// it is exact where the potential is, whatever the tangential field's sampling; the path
-/// runs from the first edge's start vertex to the last edge's end vertex, so the whole drop
-/// between two electrodes it joins is counted.
+/// it is exact where the potential is, whatever the tangential field's sampling. An
+/// interface may consist of several chains of edges (the two flanks of an insulator); each
+/// runs from its first vertex to its last, so the whole drop between two electrodes it joins
+/// is counted, and the running mean starts afresh on each.
 pub fn creepage_path(samples: &[InterfaceSample], counted: impl Fn(Xy) -> bool) -> CreepagePath {
-    let v0 = samples.first().map_or(0.0, |r| r.ends[0]);
     let mut rows = Vec::with_capacity(samples.len());
-    let mut e_t_max = (0.0, 0.0, [0.0; 2]);
-    let mut running_mean_max = (0.0, 0.0);
+    let mut chains: Vec<CreepageChain> = Vec::new();
+    let mut e_t_max = (0.0, 0, 0.0, [0.0; 2]);
+    let mut running_mean_max = (0.0, 0, 0.0);
+    // Chain start: (arc length of its first vertex along the probe, its potential).
+    let mut start = (0.0, 0.0);
+    let mut prev_end = f64::NEG_INFINITY;
     for r in samples {
+        let begin = r.s - 0.5 * r.edge_length;
+        // A sample whose edge does not start where the previous one ended opens a chain
+        // (the probe counts the jump between chains in its arc length).
+        if chains.is_empty() || begin > prev_end + 1e-9 * r.edge_length.max(f64::MIN_POSITIVE) {
+            chains.push(CreepageChain { length_m: 0.0, potential_drop_v: 0.0 });
+            start = (begin, r.ends[0]);
+        }
+        prev_end = r.s + 0.5 * r.edge_length;
+        let chain = chains.len() - 1;
+        chains[chain] = CreepageChain { length_m: prev_end - start.0, potential_drop_v: r.ends[1] - start.1 };
         let e_t = match &r.second {
             Some(b) => 0.5 * (r.first.e_t + b.e_t),
             None => r.first.e_t,
         };
-        let s = r.s;
-        let drop = r.potential - v0;
+        let s = r.s - start.0;
+        let drop = r.potential - start.1;
         let running_mean = if s > 0.0 { drop.abs() / s } else { 0.0 };
         let ok = counted(r.at);
         if ok && e_t.abs() > e_t_max.0 {
-            e_t_max = (e_t.abs(), s, r.at);
+            e_t_max = (e_t.abs(), chain, s, r.at);
         }
         if ok && running_mean > running_mean_max.0 {
-            running_mean_max = (running_mean, s);
+            running_mean_max = (running_mean, chain, s);
         }
         rows.push(CreepageRow {
+            chain,
             s,
             at: r.at,
             potential: r.potential,
@@ -85,8 +115,9 @@ pub fn creepage_path(samples: &[InterfaceSample], counted: impl Fn(Xy) -> bool) 
         });
     }
     CreepagePath {
-        length_m: samples.last().map_or(0.0, |r| r.s + 0.5 * r.edge_length),
-        potential_drop_v: samples.last().map_or(0.0, |r| r.ends[1] - v0),
+        length_m: chains.iter().map(|c| c.length_m).sum(),
+        potential_drop_v: chains.iter().map(|c| c.potential_drop_v.abs()).fold(0.0, f64::max),
+        chains,
         rows,
         e_t_max,
         running_mean_max,

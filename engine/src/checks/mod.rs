@@ -41,7 +41,7 @@ mod peaks;
 mod verdict;
 mod volume;
 
-pub use creepage::{creepage_path, CreepagePath, CreepageRow};
+pub use creepage::{creepage_path, CreepageChain, CreepagePath, CreepageRow};
 pub use gap::{electrode_distance, field_utilisation, Electrode, GapDistance};
 pub use peaks::{local_peaks, LocalPeak, PeakSite};
 pub use verdict::{stress_check, StressCheck, Verdict};

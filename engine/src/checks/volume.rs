@@ -3,7 +3,7 @@
 use crate::fields::eval_point;
 use crate::solve::Solution;
 use crate::space::QUAD_DEG4;
-use mesher::{Mesh, Symmetry};
+use mesher::{Mesh, Symmetry, Xy};
 use rayon::prelude::*;
 
 /// The Weibull effective volume of a region.
@@ -17,6 +17,9 @@ pub struct WeibullVolume {
     /// The singular point (index into `Mesh::singular_points`) where it diverges:
     /// |E| ~ r^(λ−1) makes ∫(E/E_ref)^m dA diverge when m·(1 − λ) ≥ 2.
     pub diverges_at: Option<usize>,
+    /// The same integral outside the exclusion discs around singular points, m³ (finite
+    /// whatever λ; it leaves out what the discs hold).
+    pub outside_discs: f64,
 }
 
 /// The stressed volume of one region.
@@ -41,7 +44,8 @@ pub struct StressedVolume {
 const SUBDIVISION: usize = 12;
 
 /// The volume of `region` where |E| ≥ x·E_ref for each `fractions` x, and the Weibull
-/// effective volume V_eff = ∫(E/E_ref)^m dV when `weibull_shape` m is given.
+/// effective volume V_eff = ∫(E/E_ref)^m dV when `weibull_shape` m is given (also outside the
+/// `discs` around singular points, see [`crate::exclusion_discs`]).
 ///
 /// V(x) = ∫ 1[|E| ≥ x·E_ref] dV and V_eff = ∫ (|E|/E_ref)^m dV, with dV = 2πr dA in
 /// axisymmetry and dA (per metre of depth) planar. The stressed-volume definition (oil
@@ -67,24 +71,26 @@ pub fn stressed_volume(
     e_ref: f64,
     fractions: &[f64],
     weibull_shape: Option<f64>,
+    discs: &[(Xy, f64)],
 ) -> StressedVolume {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
     assert!(e_ref > 0.0 && e_ref.is_finite(), "reference field {e_ref}");
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let lowest = fractions.iter().copied().fold(f64::INFINITY, f64::min);
     let n = fractions.len();
-    // Per element: [volume, V(x₁) … V(xₙ), V_eff].
+    // Per element: [volume, V(x₁) … V(xₙ), V_eff, V_eff outside the discs].
     let sums = (0..mesh.triangles.len())
         .into_par_iter()
         .filter(|&t| mesh.regions[t] == region)
         .map(|t| {
-            let mut acc = vec![0.0; n + 2];
+            let mut acc = vec![0.0; n + 3];
             let field = |xi: f64, eta: f64| {
                 let p = eval_point(mesh, &solution.potential, t, xi, eta);
                 let w = p.det.abs() * if axisym { 2.0 * std::f64::consts::PI * p.at[0] } else { 1.0 };
-                (p.e[0].hypot(p.e[1]), w)
+                let out = discs.iter().all(|(c, r)| (p.at[0] - c[0]).hypot(p.at[1] - c[1]) >= *r);
+                (p.e[0].hypot(p.e[1]), w, out)
             };
-            let add = |e: f64, w: f64, acc: &mut Vec<f64>| {
+            let add = |(e, w, out): (f64, f64, bool), acc: &mut Vec<f64>| {
                 acc[0] += w;
                 for (k, &x) in fractions.iter().enumerate() {
                     if e >= x * e_ref {
@@ -92,15 +98,19 @@ pub fn stressed_volume(
                     }
                 }
                 if let Some(m) = weibull_shape {
-                    acc[n + 1] += w * (e / e_ref).powf(m);
+                    let v = w * (e / e_ref).powf(m);
+                    acc[n + 1] += v;
+                    if out {
+                        acc[n + 2] += v;
+                    }
                 }
             };
             let probe = [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0), (1.0 / 3.0, 1.0 / 3.0)];
             let high = probe.iter().map(|&(a, b)| field(a, b).0).fold(0.0, f64::max);
             if high < 0.7 * lowest * e_ref {
                 for &(xi, eta, w) in &QUAD_DEG4 {
-                    let (e, j) = field(xi, eta);
-                    add(e, w * j, &mut acc);
+                    let (e, j, out) = field(xi, eta);
+                    add((e, w * j, out), &mut acc);
                 }
             } else {
                 let s = SUBDIVISION as f64;
@@ -109,33 +119,38 @@ pub fn stressed_volume(
                     for j in 0..SUBDIVISION - i {
                         let (fi, fj) = (i as f64, j as f64);
                         // The upward sub-triangle (i, j), (i+1, j), (i, j+1) …
-                        let (e, jac) = field((fi + 1.0 / 3.0) / s, (fj + 1.0 / 3.0) / s);
-                        add(e, w * jac, &mut acc);
+                        let (e, jac, out) = field((fi + 1.0 / 3.0) / s, (fj + 1.0 / 3.0) / s);
+                        add((e, w * jac, out), &mut acc);
                         // … and the downward one (i+1, j), (i+1, j+1), (i, j+1).
                         if i + j + 1 < SUBDIVISION {
-                            let (e, jac) = field((fi + 2.0 / 3.0) / s, (fj + 2.0 / 3.0) / s);
-                            add(e, w * jac, &mut acc);
+                            let (e, jac, out) = field((fi + 2.0 / 3.0) / s, (fj + 2.0 / 3.0) / s);
+                            add((e, w * jac, out), &mut acc);
                         }
                     }
                 }
             }
             acc
         })
-        .reduce(
-            || vec![0.0; n + 2],
-            |mut a, b| {
-                for (x, y) in a.iter_mut().zip(&b) {
-                    *x += y;
-                }
-                a
-            },
-        );
+        .collect::<Vec<_>>()
+        // Summed in element order, so the figures do not depend on the thread count.
+        .into_iter()
+        .fold(vec![0.0; n + 3], |mut a, b| {
+            for (x, y) in a.iter_mut().zip(&b) {
+                *x += y;
+            }
+            a
+        });
     let weibull = weibull_shape.map(|m| {
         let diverges_at = mesh
             .singular_points
             .iter()
             .position(|s| s.is_field_singular() && s.regions.contains(&region) && m * (1.0 - s.lambda) >= 2.0);
-        WeibullVolume { shape: m, effective_volume: diverges_at.is_none().then_some(sums[n + 1]), diverges_at }
+        WeibullVolume {
+            shape: m,
+            effective_volume: diverges_at.is_none().then_some(sums[n + 1]),
+            diverges_at,
+            outside_discs: sums[n + 2],
+        }
     });
     StressedVolume {
         region,

@@ -51,7 +51,7 @@ fn stressed_and_weibull_volumes_of_coaxial_cylinders() {
     let e_exact = 1.0 / (a * (b / a).ln());
     assert!((e_ref - e_exact).abs() < 1e-3 * e_exact);
     let m = 10.0;
-    let sv = stressed_volume(&mesh, &sol, 0, e_ref, &[0.8, 0.9, 0.95], Some(m));
+    let sv = stressed_volume(&mesh, &sol, 0, e_ref, &[0.8, 0.9, 0.95], Some(m), &[]);
     let total = PI * (b * b - a * a);
     assert!((sv.volume_m3 - total).abs() < 1e-4 * total, "{} vs {total}", sv.volume_m3);
     for &(x, v) in &sv.above {
@@ -61,6 +61,7 @@ fn stressed_and_weibull_volumes_of_coaxial_cylinders() {
     let w = sv.weibull.unwrap();
     let exact = 2.0 * PI * a * a * (1.0 - (a / b).powf(m - 2.0)) / (m - 2.0);
     let v_eff = w.effective_volume.unwrap();
+    assert_eq!(w.outside_discs, v_eff, "no discs: the same integral");
     assert!((v_eff - exact).abs() < 1e-2 * exact, "V_eff = {v_eff:e} against {exact:e}");
 }
 
@@ -172,6 +173,7 @@ fn creepage_along_an_interface_across_a_uniform_gap() {
     assert!((path.e_t_max.0 - e).abs() < 1e-6 * e, "E_t max {} vs {e}", path.e_t_max.0);
     assert!((path.potential_drop_v.abs() - u).abs() < 1e-9 * u, "drop {}", path.potential_drop_v);
     assert!((path.length_m - d).abs() < 1e-9 * d, "length {}", path.length_m);
+    assert_eq!(path.chains.len(), 1);
     for r in &path.rows {
         assert!((r.e_t.abs() - e).abs() < 1e-6 * e);
         assert!((r.running_mean - e).abs() < 1e-6 * e, "running mean {} at s = {}", r.running_mean, r.s);

@@ -17,6 +17,7 @@ use crate::plan::problem::problem_of;
 use crate::results::check::{
     convergence_csv, render_check, Adaptivity, CheckResults, MeshStep, MeshStepTimings, QuantityStudy,
 };
+use crate::results::checks::breakdown_checks;
 use crate::results::mesh::report_of;
 use crate::results::solve::{analyse, render_text, solve_error, write_outputs};
 use crate::CliError;
@@ -30,7 +31,7 @@ mod sections;
 mod watch;
 
 use sections::{annotate_regions, singular_section, study};
-use watch::{exclusion_discs, quantity_list, watch, Watchlist};
+use watch::{quantity_list, watch, Watchlist};
 
 /// A validated `check` run.
 #[derive(Debug)]
@@ -97,7 +98,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         &ap,
         |mesh, solved, est| {
             let (discs, quantities) = setup.get_or_insert_with(|| {
-                (exclusion_discs(mesh, model.singular_exclusion_radius_m), quantity_list(&model, mesh))
+                (engine::exclusion_discs(mesh, model.singular_exclusion_radius_m), quantity_list(&model, mesh))
             });
             Ok(watch(&model, &problem, mesh, solved, est, quantities, discs))
         },
@@ -144,6 +145,19 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         }
     }
     annotate_regions(&mut solve.regions, &convergence);
+    // The breakdown checks on the final solution, with the certified value and bar of every
+    // watched peak (a bar that is not finite is no bar).
+    let bar_of = |name: &str| {
+        convergence
+            .iter()
+            .find(|q| q.quantity == name)
+            .and_then(|q| q.error_bar.absolute.filter(|b| b.is_finite()).map(|b| (q.error_bar.value, b)))
+    };
+    let (checks, mut files) = breakdown_checks(&model, &mesh, &analysis.sol, &discs, &bar_of);
+    solve.checks = Some(checks);
+    crate::results::solve::finite_or_error(&model, &solve)?;
+    let t_checks = t0.elapsed().as_secs_f64() - t_adapt - t_post;
+    solve.timings_s.push(("breakdown checks".into(), t_checks));
     let results = CheckResults {
         adaptivity: Adaptivity {
             tolerance: run.tolerance,
@@ -173,14 +187,9 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         solve,
     };
     let json = serde_json::to_string_pretty(&results)?;
-    let csv = convergence_csv(&results.convergence);
-    write_outputs(
-        &run.out,
-        &mesh,
-        &problem,
-        &analysis,
-        &[("convergence.csv".into(), csv), ("results.json".into(), json.clone())],
-    )?;
+    files.push(("convergence.csv".into(), convergence_csv(&results.convergence)));
+    files.push(("results.json".into(), json.clone()));
+    write_outputs(&run.out, &mesh, &problem, &analysis, &files)?;
     if run.json {
         for w in &results.solve.mesh.warnings {
             eprintln!("warning: {w}");

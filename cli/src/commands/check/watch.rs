@@ -1,6 +1,6 @@
 //! What `check` watches on every mesh of the adaptive loop: the list of quantities (from the
-//! first mesh), the discs around singular points that the peaks leave out, and each
-//! quantity's value, floor, class and own goal-oriented estimate on a mesh.
+//! first mesh) and each quantity's value, floor, class and own goal-oriented estimate on a
+//! mesh, outside the discs around singular points (`engine::exclusion_discs`).
 
 use crate::plan::{ConductorKind, Plan, ProbeKind};
 use crate::results::solve::{interface_peak, interface_selector, line_peak};
@@ -23,27 +23,6 @@ pub(super) enum Quantity {
     ProbeTangential(usize),
     /// The coefficient A of the singular term at singular point k (one a conductor bounds).
     Singular(usize),
-}
-
-/// A disc (centre, radius) around every point whose field is singular: the radius the
-/// model gives (`[check] singular_exclusion_radius`), or 2 % of the model's size, or a
-/// quarter of the distance to the nearest other singular point if that is smaller. It is
-/// set once, from the first mesh, so every mesh of the loop leaves out the same region and
-/// the watched peaks have a limit.
-pub(super) fn exclusion_discs(mesh: &Mesh, given: Option<f64>) -> Vec<(Xy, f64)> {
-    let scale = mesh.scale();
-    let pts = &mesh.singular_points;
-    pts.iter()
-        .filter(|s| s.is_field_singular())
-        .map(|s| {
-            let nearest = pts
-                .iter()
-                .map(|o| (o.at[0] - s.at[0]).hypot(o.at[1] - s.at[1]))
-                .filter(|&d| d > 1e-9 * scale)
-                .fold(f64::INFINITY, f64::min);
-            (s.at, given.unwrap_or((0.02 * scale).min(0.25 * nearest)))
-        })
-        .collect()
 }
 
 /// The watched quantities: (name, unit, what).

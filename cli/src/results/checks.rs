@@ -1,0 +1,661 @@
+//! The breakdown checks of one solution, per load case: the `checks` section of
+//! `results.json`, the creepage CSV files and the terminal table. The arithmetic of each
+//! check is the engine's (`engine::checks`, formulas and sources there); this module picks
+//! what to check from the plan, scales it per load case and says what each figure is.
+
+use crate::plan::{ElectrodeRef, LoadCase, Plan};
+use crate::results::solve::interface_selector;
+use engine::{
+    creepage_path, electrode_distance, field_utilisation, local_peaks, probe_interface, region_peaks_away_from,
+    singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check, stressed_volume, Electrode,
+    PeakSite, Solution, StressCheck,
+};
+use mesher::{Mesh, Xy};
+use serde::Serialize;
+
+/// The cautions of the breakdown checks (with the general ones of every result).
+pub const CHECK_CAUTIONS: [&str; 4] = [
+    "Verdicts compare computed stresses with the allowable values of the model file (your or your company's data, in each load case's basis); they are indicative: type tests under the applicable apparatus standards, local codes and licensed engineering practice decide.",
+    "Load cases scale one electrostatic solution (linear materials): valid for alternating and impulse voltages, not for the DC steady state, where conductivities govern the stress.",
+    "rms figures are the peak figures divided by √2 (a sinusoidal voltage); gas and impulse criteria are stated on peak values.",
+    "A verdict on a single solve has no error bar (marked 'uncertified'): run `fieldgrade check` for stresses whose error bars are certified.",
+];
+
+/// The `checks` section of `results.json`.
+#[derive(Serialize, Debug)]
+pub struct Checks {
+    /// One entry per load case (the model's potentials as given when it defines none).
+    pub load_cases: Vec<CaseChecks>,
+    /// Field utilisation factors between named electrodes (independent of the load case).
+    pub field_factors: Vec<FieldFactorResult>,
+    /// Stressed volume and Weibull effective volume per region (independent of the case).
+    pub stressed_volumes: Vec<StressedVolumeResult>,
+    /// Creepage figures along every interface and surface probe, at the model's potentials
+    /// (multiply by a case's `scale` for that case); the samples are in `file`.
+    pub creepage: Vec<CreepageResult>,
+    /// The cautions of these checks.
+    pub cautions: Vec<&'static str>,
+}
+
+/// The checks of one load case.
+#[derive(Serialize, Debug)]
+pub struct CaseChecks {
+    /// Case name.
+    pub name: String,
+    /// Kind ("service", "ac_withstand", …; "as modelled" without load cases).
+    pub kind: &'static str,
+    /// "rms", "peak" or "as given": the basis of every stress of this case.
+    pub basis: &'static str,
+    /// The reference voltage of the case, V (in its basis).
+    pub voltage_v: f64,
+    /// What the voltage is of.
+    pub reference: String,
+    /// Factor on the model's potentials and stresses.
+    pub scale: f64,
+    /// Peak value / value in this basis (√2 for rms).
+    pub peak_factor: f64,
+    /// Every dielectric region's stress check.
+    pub regions: Vec<RegionCheck>,
+    /// The tangential stress along every interface and surface probe.
+    pub interfaces: Vec<TangentialCheck>,
+}
+
+/// A stress, its bar, its allowable and the verdict, as written.
+#[derive(Serialize, Debug, Clone)]
+pub struct StressFigures {
+    /// Stress in the case's basis, V/m.
+    pub e_v_per_m: f64,
+    /// The same as a peak value, V/m.
+    pub e_peak_v_per_m: f64,
+    /// Absolute error bar, V/m (null for a single solve).
+    pub error_bar_v_per_m: Option<f64>,
+    /// Allowable stress in the case's basis, kV/mm.
+    pub allowable_kv_per_mm: Option<f64>,
+    /// E / E_allow.
+    pub utilisation: Option<f64>,
+    /// E_allow / E.
+    pub margin: Option<f64>,
+    /// "pass", "fail", "undecided" (the bar straddles the allowable) or "no allowable".
+    pub verdict: &'static str,
+    /// True when the error bar is certified (`check`); false for a single solve.
+    pub certified: bool,
+}
+
+impl StressFigures {
+    fn of(c: StressCheck, peak_factor: f64) -> StressFigures {
+        StressFigures {
+            e_v_per_m: c.stress,
+            e_peak_v_per_m: c.stress * peak_factor,
+            error_bar_v_per_m: c.error_bar,
+            allowable_kv_per_mm: c.allowable.map(|a| a / 1e6),
+            utilisation: c.utilisation,
+            margin: c.margin,
+            verdict: c.verdict.word(),
+            certified: c.error_bar.is_some(),
+        }
+    }
+}
+
+impl Checks {
+    /// The first figure of the checks that is not a finite number, named.
+    pub fn first_non_finite(&self) -> Option<String> {
+        let bad = |x: f64| !x.is_finite();
+        let bad_fig =
+            |f: &StressFigures| bad(f.e_v_per_m) || f.utilisation.is_some_and(bad) || f.margin.is_some_and(bad);
+        for c in &self.load_cases {
+            if let Some(r) =
+                c.regions.iter().find(|r| bad_fig(&r.peak) || r.local_peaks.iter().any(|p| bad(p.e_v_per_m)))
+            {
+                return Some(format!("the stress check of region '{}' in load case '{}'", r.region, c.name));
+            }
+            if let Some(t) = c.interfaces.iter().find(|t| bad_fig(&t.e_t) || bad(t.potential_drop_v)) {
+                return Some(format!("the tangential check of probe '{}' in load case '{}'", t.probe, c.name));
+            }
+        }
+        if let Some(f) = self.field_factors.iter().find(|f| bad(f.utilisation_factor) || bad(f.distance_m)) {
+            return Some(format!("field factor '{}'", f.name));
+        }
+        if let Some(v) = self.stressed_volumes.iter().find(|v| {
+            bad(v.volume_m3) || v.above.iter().any(|a| bad(a.1)) || v.weibull_effective_volume_m3.is_some_and(bad)
+        }) {
+            return Some(format!("the stressed volume of region '{}'", v.region));
+        }
+        None
+    }
+}
+
+/// One region's stress check in one load case.
+#[derive(Serialize, Debug)]
+pub struct RegionCheck {
+    /// Region (shape) name.
+    pub region: String,
+    /// Material.
+    pub material: String,
+    /// The peak away from singular points (the one that converges), checked.
+    pub peak: StressFigures,
+    /// Where, metres.
+    pub at_m: Xy,
+    /// The few highest separate local peaks (highest first), each checked on its value.
+    pub local_peaks: Vec<PeakResult>,
+    /// The field-singular points of the region: no peak value, their singular analysis.
+    pub singular_points: Vec<SingularCheck>,
+}
+
+/// One local peak.
+#[derive(Serialize, Debug)]
+pub struct PeakResult {
+    /// |E| in the case's basis, V/m.
+    pub e_v_per_m: f64,
+    /// E / E_allow.
+    pub utilisation: Option<f64>,
+    /// Where, metres.
+    pub at_m: Xy,
+    /// "inside", "interface with <region> (this region's side)", "on conductor <name>",
+    /// "on the outer boundary", "on the axis".
+    pub site: String,
+}
+
+/// A field-singular point of a region, checked by its singular analysis.
+#[derive(Serialize, Debug)]
+pub struct SingularCheck {
+    /// S1, S2 … as in the mesh report.
+    pub id: String,
+    /// Exponent λ (< 1).
+    pub lambda: f64,
+    /// Distance from the point within which |E| ≈ k·|A|·r^(λ−1) exceeds the allowable in
+    /// this case, metres (null without an allowable or a coefficient).
+    pub radius_above_allowable_m: Option<f64>,
+    /// What it means.
+    pub note: String,
+}
+
+/// The tangential stress along an interface or surface probe in one case.
+#[derive(Serialize, Debug)]
+pub struct TangentialCheck {
+    /// Probe name.
+    pub probe: String,
+    /// The largest |E_t| away from singular points, checked.
+    pub e_t: StressFigures,
+    /// Where, metres.
+    pub at_m: Xy,
+    /// The potential drop along the path in this case, V.
+    pub potential_drop_v: f64,
+    /// The largest running mean |ΔV(s)|/s in this case, V/m.
+    pub running_mean_max_v_per_m: f64,
+}
+
+/// A field utilisation factor.
+#[derive(Serialize, Debug)]
+pub struct FieldFactorResult {
+    /// Name.
+    pub name: String,
+    /// The two electrodes.
+    pub between: [String; 2],
+    /// The voltage between them, V (the model's potentials).
+    pub voltage_v: f64,
+    /// Their shortest distance d, metres, and its ends.
+    pub distance_m: f64,
+    /// Where d starts and ends, metres.
+    pub from_m: Xy,
+    /// See `from_m`.
+    pub to_m: Xy,
+    /// The mean field U/d, V/m.
+    pub e_mean_v_per_m: f64,
+    /// The largest field away from singular points over the dielectric regions, V/m.
+    pub e_max_v_per_m: f64,
+    /// The region where it is.
+    pub e_max_region: String,
+    /// η = U/(d·E_max).
+    pub utilisation_factor: f64,
+    /// 1/η.
+    pub enhancement_factor: f64,
+}
+
+/// Stressed volumes of one region.
+#[derive(Serialize, Debug)]
+pub struct StressedVolumeResult {
+    /// Region name.
+    pub region: String,
+    /// E_ref: the region's peak away from singular points, V/m (model potentials).
+    pub e_ref_v_per_m: f64,
+    /// The region's volume, m³ (m³ per metre of depth planar).
+    pub volume_m3: f64,
+    /// (x, volume where |E| ≥ x·E_ref, m³).
+    pub above: Vec<(f64, f64)>,
+    /// The Weibull shape m of the material, if given.
+    pub weibull_shape: Option<f64>,
+    /// V_eff = ∫(E/E_ref)^m dV, m³; null when it diverges or m is not given.
+    pub weibull_effective_volume_m3: Option<f64>,
+    /// The same integral outside the exclusion discs around singular points, m³ (finite
+    /// where the whole one diverges).
+    pub weibull_effective_volume_outside_discs_m3: Option<f64>,
+    /// Why V_eff is null when m is given.
+    pub note: Option<String>,
+}
+
+/// The creepage figures of one interface or surface probe at the model's potentials.
+#[derive(Serialize, Debug)]
+pub struct CreepageResult {
+    /// Probe name.
+    pub probe: String,
+    /// CSV of the samples in the output folder.
+    pub file: String,
+    /// Every chain of edges of the interface: (length m, potential drop V from its first
+    /// vertex to its last).
+    pub chains: Vec<(f64, f64)>,
+    /// Largest |E_t| away from singular points, V/m, its chain, arc length along that chain
+    /// and position.
+    pub e_t_max_v_per_m: f64,
+    /// See `e_t_max_v_per_m`.
+    pub e_t_max_chain: usize,
+    /// See `e_t_max_v_per_m`.
+    pub e_t_max_s_m: f64,
+    /// See `e_t_max_v_per_m`.
+    pub e_t_max_at_m: Xy,
+    /// Largest running mean |ΔV(s)|/s away from singular points, V/m, its chain and arc
+    /// length.
+    pub running_mean_max_v_per_m: f64,
+    /// See `running_mean_max_v_per_m`.
+    pub running_mean_max_chain: usize,
+    /// See `running_mean_max_v_per_m`.
+    pub running_mean_max_s_m: f64,
+}
+
+/// A certified value and its absolute error bar for a watched quantity, by the quantity's
+/// name (`check`), or nothing (`solve`).
+pub type BarLookup<'a> = &'a dyn Fn(&str) -> Option<(f64, f64)>;
+
+/// The breakdown checks of `sol` on `mesh`, for every load case of the plan, and the
+/// creepage CSV files (name, contents). `discs` are the exclusion discs around singular
+/// points; `bar_of` gives the certified peak values and bars where `check` has them.
+pub fn breakdown_checks(
+    plan: &Plan,
+    mesh: &Mesh,
+    sol: &Solution,
+    discs: &[(Xy, f64)],
+    bar_of: BarLookup<'_>,
+) -> (Checks, Vec<(String, String)>) {
+    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+    let region_name = |r: u32| mesh.shape_names[r as usize].clone();
+    let material = |r: u32| plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m]);
+    // The peak away from singular points of every region: certified value and bar where
+    // `check` has them, else this solution's value.
+    let peaks: Vec<(u32, f64, Option<f64>, Xy)> = region_peaks_away_from(mesh, sol, discs)
+        .into_iter()
+        .map(|p| {
+            let name = format!("peak field in {} away from singular points", region_name(p.region));
+            match bar_of(&name) {
+                Some((v, b)) => (p.region, v, Some(b), p.at),
+                None => (p.region, p.e_max_v_per_m, None, p.at),
+            }
+        })
+        .collect();
+    let separation = plan.breakdown.peak_separation_m.unwrap_or(0.02 * mesh.scale());
+    let locals = local_peaks(mesh, sol, discs, plan.breakdown.local_peaks, separation);
+    // Singular coefficients (A, k) of the field-singular points, where a conductor bounds them.
+    let singular: Vec<(usize, Option<(f64, f64)>)> = mesh
+        .singular_points
+        .iter()
+        .enumerate()
+        .filter(|(_, s)| s.is_field_singular())
+        .map(|(k, s)| {
+            let radius = discs.iter().find(|d| d.0 == s.at).map(|d| d.1);
+            let coef = match (radius, s.conductor) {
+                (Some(r), Some(c)) => singular_coefficient_dual(mesh, sol, s, sol.conductor_potentials[c as usize], r),
+                _ => None,
+            };
+            (k, coef.zip(singular_field_factor(s)))
+        })
+        .collect();
+    let cases = if plan.load_cases.is_empty() {
+        vec![LoadCase::as_modelled(crate::plan::largest_potential(&plan.conductors, plan.outer_potential_v))]
+    } else {
+        plan.load_cases.clone()
+    };
+    // The interface and surface probes' paths (model potentials).
+    let paths: Vec<(usize, engine::CreepagePath)> = plan
+        .probes
+        .iter()
+        .enumerate()
+        .filter_map(|(i, p)| {
+            // Interfaces between dielectrics only: a conductor's surface is an equipotential.
+            match interface_selector(&p.kind) {
+                Some((which @ engine::InterfaceSelector::Regions(..), _)) => {
+                    Some((i, creepage_path(&probe_interface(mesh, sol, which), outside)))
+                }
+                _ => None,
+            }
+        })
+        .collect();
+    let load_cases = cases
+        .iter()
+        .map(|case| {
+            let (k, pf) = (case.scale, case.basis.peak_factor());
+            let regions = peaks
+                .iter()
+                .map(|&(r, e, bar, at)| {
+                    let mat = material(r);
+                    let allow = mat.and_then(|m| m.allowable_in(&case.name)).map(|a| a * 1e6);
+                    let local_peaks = locals
+                        .iter()
+                        .filter(|p| p.region == r)
+                        .map(|p| PeakResult {
+                            e_v_per_m: k * p.e_v_per_m,
+                            utilisation: allow.map(|a| k * p.e_v_per_m / a),
+                            at_m: p.at,
+                            site: site_text(mesh, plan, p.site),
+                        })
+                        .collect();
+                    let singular_points = singular
+                        .iter()
+                        .filter(|(s, _)| mesh.singular_points[*s].regions.contains(&r))
+                        .map(|&(s, coef)| {
+                            let sp = &mesh.singular_points[s];
+                            let radius = match (coef, allow) {
+                                (Some((a, f)), Some(e)) if a != 0.0 => Some(singular_radius_above(sp.lambda, f, k * a, e)),
+                                _ => None,
+                            };
+                            let note = match radius {
+                                Some(r) => format!(
+                                    "singular (λ = {:.4}): |E| exceeds the allowable within {} of the point{}; the peak there is mesh-dependent: model the real edge radius",
+                                    sp.lambda,
+                                    crate::results::check::length_text(r, plan.unit_m, plan.unit),
+                                    if r < 1e-6 { " (below any real edge radius)" } else { "" }
+                                ),
+                                None => format!(
+                                    "singular (λ = {:.4}): the peak there is mesh-dependent and not checked as a number; model the real edge radius",
+                                    sp.lambda
+                                ),
+                            };
+                            SingularCheck { id: format!("S{}", s + 1), lambda: sp.lambda, radius_above_allowable_m: radius, note }
+                        })
+                        .collect();
+                    RegionCheck {
+                        region: region_name(r),
+                        material: mat.map(|m| m.name.clone()).unwrap_or_default(),
+                        peak: StressFigures::of(stress_check(k * e, bar.map(|b| k * b), allow), pf),
+                        at_m: at,
+                        local_peaks,
+                        singular_points,
+                    }
+                })
+                .collect();
+            let interfaces = paths
+                .iter()
+                .map(|(i, path)| {
+                    let probe = &plan.probes[*i];
+                    let name = format!("largest tangential field on probe {} away from singular points", probe.name);
+                    let (e_t, bar) = match bar_of(&name) {
+                        Some((v, b)) => (v, Some(b)),
+                        None => (path.e_t_max.0, None),
+                    };
+                    let allow = probe.allowable_tangential_in(&case.name).map(|a| a * 1e6);
+                    TangentialCheck {
+                        probe: probe.name.clone(),
+                        e_t: StressFigures::of(stress_check(k * e_t, bar.map(|b| k * b), allow), pf),
+                        at_m: path.e_t_max.3,
+                        potential_drop_v: k * path.potential_drop_v,
+                        running_mean_max_v_per_m: k * path.running_mean_max.0,
+                    }
+                })
+                .collect();
+            CaseChecks {
+                name: case.name.clone(),
+                kind: case.kind.map_or("as modelled", |k| k.word()),
+                basis: case.basis.word(),
+                voltage_v: case.voltage_v,
+                reference: case.reference.clone(),
+                scale: k,
+                peak_factor: pf,
+                regions,
+                interfaces,
+            }
+        })
+        .collect();
+    // The largest peak away from singular points over the dielectric (model potentials).
+    let top = peaks.iter().max_by(|a, b| a.1.total_cmp(&b.1)).copied();
+    let field_factors = plan
+        .breakdown
+        .field_factors
+        .iter()
+        .filter_map(|f| {
+            let (top_r, e_max, _, _) = top?;
+            let ends = f.between.map(|e| match e {
+                ElectrodeRef::Conductor(c) => {
+                    (Electrode::Conductor(c as u32), sol.conductor_potentials[c], plan.conductors[c].name.clone())
+                }
+                ElectrodeRef::Boundary => {
+                    (Electrode::Outer, plan.outer_potential_v.unwrap_or(0.0), "boundary".to_string())
+                }
+            });
+            let gap = electrode_distance(mesh, ends[0].0, ends[1].0)?;
+            let u = (ends[0].1 - ends[1].1).abs();
+            let eta = field_utilisation(u, gap.distance, e_max);
+            Some(FieldFactorResult {
+                name: f.name.clone(),
+                between: [ends[0].2.clone(), ends[1].2.clone()],
+                voltage_v: u,
+                distance_m: gap.distance,
+                from_m: gap.from,
+                to_m: gap.to,
+                e_mean_v_per_m: u / gap.distance,
+                e_max_v_per_m: e_max,
+                e_max_region: region_name(top_r),
+                utilisation_factor: eta,
+                enhancement_factor: 1.0 / eta,
+            })
+        })
+        .collect();
+    let stressed_volumes = peaks
+        .iter()
+        .filter(|p| p.1 > 0.0)
+        .map(|&(r, e, _, _)| {
+            let m = material(r).and_then(|m| m.weibull_shape);
+            let sv = stressed_volume(mesh, sol, r, e, &plan.breakdown.stressed_fractions, m, discs);
+            let w = sv.weibull;
+            StressedVolumeResult {
+                region: region_name(r),
+                e_ref_v_per_m: e,
+                volume_m3: sv.volume_m3,
+                above: sv.above,
+                weibull_shape: m,
+                weibull_effective_volume_m3: w.and_then(|w| w.effective_volume),
+                weibull_effective_volume_outside_discs_m3: w.map(|w| w.outside_discs),
+                note: w.and_then(|w| w.diverges_at).map(|s| {
+                    format!(
+                        "V_eff diverges at singular point S{} (m·(1 − λ) ≥ 2, λ = {:.4}): model the real edge radius; outside the discs around singular points it is finite",
+                        s + 1,
+                        mesh.singular_points[s].lambda
+                    )
+                }),
+            }
+        })
+        .collect();
+    let mut files = Vec::new();
+    let creepage = paths
+        .iter()
+        .map(|(i, path)| {
+            let probe = &plan.probes[*i];
+            let file = format!("creepage-{}.csv", probe.name);
+            let mut csv = String::from(
+                "chain,s_m,x_m,y_m,potential_v,drop_v,et_v_per_m,en_1_v_per_m,en_2_v_per_m,running_mean_v_per_m,counted\n",
+            );
+            for r in &path.rows {
+                csv.push_str(&format!(
+                    "{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{}\n",
+                    r.chain, r.s, r.at[0], r.at[1], r.potential, r.drop, r.e_t, r.e_n[0], r.e_n[1], r.running_mean, r.counted
+                ));
+            }
+            files.push((file.clone(), csv));
+            CreepageResult {
+                probe: probe.name.clone(),
+                file,
+                chains: path.chains.iter().map(|c| (c.length_m, c.potential_drop_v)).collect(),
+                e_t_max_v_per_m: path.e_t_max.0,
+                e_t_max_chain: path.e_t_max.1,
+                e_t_max_s_m: path.e_t_max.2,
+                e_t_max_at_m: path.e_t_max.3,
+                running_mean_max_v_per_m: path.running_mean_max.0,
+                running_mean_max_chain: path.running_mean_max.1,
+                running_mean_max_s_m: path.running_mean_max.2,
+            }
+        })
+        .collect();
+    (Checks { load_cases, field_factors, stressed_volumes, creepage, cautions: CHECK_CAUTIONS.to_vec() }, files)
+}
+
+/// What a peak's vertex lies on, in words.
+fn site_text(mesh: &Mesh, plan: &Plan, site: PeakSite) -> String {
+    match site {
+        PeakSite::Inside => "inside".into(),
+        PeakSite::Interface { other } => {
+            format!("on the interface with {} (this region's side)", mesh.shape_names[other as usize])
+        }
+        PeakSite::Conductor { conductor } => format!("on conductor {}", plan.conductors[conductor as usize].name),
+        PeakSite::OuterBoundary => "on the outer boundary".into(),
+        PeakSite::Axis => "on the axis".into(),
+    }
+}
+
+/// The checks table printed by `solve` and `check`.
+pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let depth = if per_metre_depth { "m³/m" } else { "m³" };
+    let at = |p: Xy| format!("({:.4}, {:.4})", p[0] / unit_m, p[1] / unit_m);
+    let kv = |v: f64| format!("{:.4}", v / 1e6);
+    let opt = |v: Option<f64>, f: &dyn Fn(f64) -> String| v.map(f).unwrap_or_else(|| "-".into());
+    let verdict = |f: &StressFigures| {
+        if f.certified || f.verdict == "no allowable" {
+            f.verdict.to_string()
+        } else {
+            format!("{} (uncertified)", f.verdict)
+        }
+    };
+    for case in &c.load_cases {
+        if case.kind == "as modelled" {
+            let _ = writeln!(s, "\nbreakdown checks — the model's potentials as given (no [[load_case]])");
+        } else {
+            let _ = writeln!(
+                s,
+                "\nbreakdown checks — load case '{}' ({}, {}): {:.4} kV on {}, stresses × {:.6e}",
+                case.name,
+                case.kind,
+                case.basis,
+                case.voltage_v / 1e3,
+                case.reference,
+                case.scale
+            );
+        }
+        let _ = writeln!(
+            s,
+            "  {:<20} {:>12} {:>10} {:>10} {:>7} {:>7}  verdict",
+            "region",
+            format!("E kV/mm {}", if case.basis == "as given" { "" } else { case.basis }),
+            "± kV/mm",
+            "allowable",
+            "util.",
+            "margin"
+        );
+        for r in &case.regions {
+            let f = &r.peak;
+            let _ = writeln!(
+                s,
+                "  {:<20} {:>12} {:>10} {:>10} {:>7} {:>7}  {}",
+                r.region,
+                kv(f.e_v_per_m),
+                opt(f.error_bar_v_per_m, &|b| format!("{:.2e}", b / 1e6)),
+                opt(f.allowable_kv_per_mm, &|a| format!("{a}")),
+                opt(f.utilisation, &|u| format!("{u:.3}")),
+                opt(f.margin, &|m| format!("{m:.3}")),
+                verdict(f)
+            );
+            for p in &r.local_peaks {
+                let _ = writeln!(
+                    s,
+                    "    peak {:>8} kV/mm at {} {}{}",
+                    kv(p.e_v_per_m),
+                    at(p.at_m),
+                    p.site,
+                    p.utilisation.map(|u| format!(", util. {u:.3}")).unwrap_or_default()
+                );
+            }
+            for sp in &r.singular_points {
+                let _ = writeln!(s, "    {}: {}", sp.id, sp.note);
+            }
+        }
+        for t in &case.interfaces {
+            let f = &t.e_t;
+            let _ = writeln!(
+                s,
+                "  tangential on {:<12} max |Et| {} kV/mm at {} ± {}, allowable {}, util. {}: {}; drop {:.4e} V, running mean max {} kV/mm",
+                t.probe,
+                kv(f.e_v_per_m),
+                at(t.at_m),
+                opt(f.error_bar_v_per_m, &|b| format!("{:.2e}", b / 1e6)),
+                opt(f.allowable_kv_per_mm, &|a| format!("{a}")),
+                opt(f.utilisation, &|u| format!("{u:.3}")),
+                verdict(f),
+                t.potential_drop_v,
+                kv(t.running_mean_max_v_per_m)
+            );
+        }
+    }
+    if !c.field_factors.is_empty() {
+        let _ = writeln!(s, "\nfield utilisation factors (η = U/(d·E_max), any load case)");
+        for f in &c.field_factors {
+            let _ = writeln!(
+                s,
+                "  {:<20} {} – {}: d = {:.4} {unit}, U/d = {} kV/mm, E_max = {} kV/mm in {}, η = {:.4} (f = {:.3})",
+                f.name,
+                f.between[0],
+                f.between[1],
+                f.distance_m / unit_m,
+                kv(f.e_mean_v_per_m),
+                kv(f.e_max_v_per_m),
+                f.e_max_region,
+                f.utilisation_factor,
+                f.enhancement_factor
+            );
+        }
+    }
+    if !c.stressed_volumes.is_empty() {
+        let _ = writeln!(s, "\nstressed volume (|E| ≥ x·E_max of the region; any load case)");
+        for v in &c.stressed_volumes {
+            let above: Vec<String> = v.above.iter().map(|(x, vol)| format!("{x}: {vol:.4e}")).collect();
+            let weibull =
+                match (v.weibull_shape, v.weibull_effective_volume_m3, v.weibull_effective_volume_outside_discs_m3) {
+                    (Some(m), Some(ve), _) => format!("; V_eff(m = {m}) {ve:.4e}"),
+                    (Some(m), None, Some(out)) => {
+                        format!("; V_eff(m = {m}) diverges at a singular point, outside the discs {out:.4e}")
+                    }
+                    _ => String::new(),
+                };
+            let _ = writeln!(s, "  {:<20} V(x) {depth}: {}{weibull}", v.region, above.join(", "));
+        }
+    }
+    if !c.creepage.is_empty() {
+        let _ = writeln!(s, "\ncreepage paths (model potentials; s from each chain's start) -> creepage-<probe>.csv");
+        for p in &c.creepage {
+            let chains: Vec<String> =
+                p.chains.iter().map(|(l, dv)| format!("{:.4} {unit} with drop {dv:.4e} V", l / unit_m)).collect();
+            let _ = writeln!(
+                s,
+                "  {:<20} {}; max |Et| {} kV/mm (chain {}, s = {:.4} {unit}), running mean max {} kV/mm (chain {}, s = {:.4} {unit})",
+                p.probe,
+                chains.join("; "),
+                kv(p.e_t_max_v_per_m),
+                p.e_t_max_chain + 1,
+                p.e_t_max_s_m / unit_m,
+                kv(p.running_mean_max_v_per_m),
+                p.running_mean_max_chain + 1,
+                p.running_mean_max_s_m / unit_m
+            );
+        }
+    }
+    let _ = writeln!(s, "\ncautions of the checks");
+    for w in &c.cautions {
+        let _ = writeln!(s, "  - {w}");
+    }
+    s
+}
