@@ -174,6 +174,7 @@ pub(super) fn load_cases(
     raw: &RawModel,
     conductors: &[Conductor],
     outer_potential_v: Option<f64>,
+    shapes: &[mesher::Shape],
     shape_charge_density: &[f64],
     materials: &mut [Material],
     probes: &mut [Probe],
@@ -198,8 +199,8 @@ pub(super) fn load_cases(
                     .err(
                         c.name.span(),
                         format!(
-                            "load cases scale one solution, which needs every source to scale with the voltage; shape #{} has a space charge density, which does not",
-                            k + 1
+                            "load cases scale one solution, which needs every source to scale with the voltage; shape '{}' has a space charge density, which does not",
+                            shapes[k].name
                         ),
                     )
                     .key(key("name"))
@@ -252,21 +253,21 @@ pub(super) fn load_cases(
                 .key(key("voltage_kv"))
                 .help(super::LIMIT_HELP));
         }
-        let (reference, reference_v) =
-            match &c.conductor {
-                Some(n) => {
-                    let k = conductors.iter().position(|x| &x.name == n.get_ref()).ok_or_else(|| {
-                        cx.err(
-                            n.span(),
-                            format!("load case '{name}' refers to conductor '{}', which does not exist", n.get_ref()),
-                        )
-                        .key(key("conductor"))
-                    })?;
-                    match conductors[k].kind {
-                        ConductorKind::Fixed { potential_v } if potential_v != 0.0 => {
-                            (n.get_ref().clone(), potential_v.abs())
-                        }
-                        _ => return Err(cx
+        let (reference, reference_v) = match &c.conductor {
+            Some(n) => {
+                let k = conductors.iter().position(|x| &x.name == n.get_ref()).ok_or_else(|| {
+                    cx.err(
+                        n.span(),
+                        format!("load case '{name}' refers to conductor '{}', which does not exist", n.get_ref()),
+                    )
+                    .key(key("conductor"))
+                })?;
+                match conductors[k].kind {
+                    ConductorKind::Fixed { potential_v } if potential_v != 0.0 => {
+                        (n.get_ref().clone(), potential_v.abs())
+                    }
+                    _ => {
+                        return Err(cx
                             .err(
                                 n.span(),
                                 format!(
@@ -275,23 +276,24 @@ pub(super) fn load_cases(
                                 ),
                             )
                             .key(key("conductor"))
-                            .help("name a conductor with potential_v ≠ 0 (the high-voltage electrode)")),
+                            .help("name a conductor with potential_v ≠ 0 (the high-voltage electrode)"))
                     }
                 }
-                None => {
-                    let u = largest_potential(conductors, outer_potential_v);
-                    if u == 0.0 {
-                        return Err(cx
-                            .err(
-                                c.voltage_kv.span(),
-                                "every potential of the model is 0 V, so no voltage can scale it".into(),
-                            )
-                            .key(key("voltage_kv"))
-                            .help("give the high-voltage electrode a potential (1 V or the service voltage)"));
-                    }
-                    ("the model's largest potential".to_string(), u)
+            }
+            None => {
+                let u = largest_potential(conductors, outer_potential_v);
+                if u == 0.0 {
+                    return Err(cx
+                        .err(
+                            c.voltage_kv.span(),
+                            "every potential of the model is 0 V, so no voltage can scale it".into(),
+                        )
+                        .key(key("voltage_kv"))
+                        .help("give the high-voltage electrode a potential (1 V or the service voltage)"));
                 }
-            };
+                ("the model's largest potential".to_string(), u)
+            }
+        };
         cases.push(LoadCase {
             name,
             kind: Some(kind),

@@ -440,6 +440,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         &raw,
         &conductors,
         outer_potential_v,
+        &shapes,
         &shape_charge_density,
         &mut materials,
         &mut probes,

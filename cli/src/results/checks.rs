@@ -150,7 +150,7 @@ pub struct PeakResult {
     pub utilisation: Option<f64>,
     /// Where, metres.
     pub at_m: Xy,
-    /// "inside", "interface with <region> (this region's side)", "on conductor <name>",
+    /// "inside", "on the interface with REGION (this region's side)", "on conductor NAME",
     /// "on the outer boundary", "on the axis".
     pub site: String,
 }
@@ -356,11 +356,15 @@ pub fn breakdown_checks(
                                 _ => None,
                             };
                             let note = match radius {
+                                Some(r) if r < 1e-9 => format!(
+                                    "singular (λ = {:.4}): |E| exceeds the allowable only within 1 nm of the point, below any real edge radius; the peak there is mesh-dependent",
+                                    sp.lambda
+                                ),
                                 Some(r) => format!(
                                     "singular (λ = {:.4}): |E| exceeds the allowable within {} of the point{}; the peak there is mesh-dependent: model the real edge radius",
                                     sp.lambda,
                                     crate::results::check::length_text(r, plan.unit_m, plan.unit),
-                                    if r < 1e-6 { " (below any real edge radius)" } else { "" }
+                                    if r < 1e-6 { " (below most real edge radii)" } else { "" }
                                 ),
                                 None => format!(
                                     "singular (λ = {:.4}): the peak there is mesh-dependent and not checked as a number; model the real edge radius",

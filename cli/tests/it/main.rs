@@ -1,5 +1,7 @@
 //! End-to-end tests of the `fieldgrade` binary, by topic.
 
+/// Load cases and breakdown checks: scaling, bases, verdicts, errors, the demos' tables.
+mod breakdown;
 /// Sizes the machine cannot hold are refused before meshing.
 mod budget;
 /// `fieldgrade check`: adaptivity, convergence and singular-point sections.
