@@ -139,9 +139,15 @@ impl TriangleGrid {
     }
 
     pub(crate) fn locate(&self, mesh: &Mesh, p: Xy) -> Option<(usize, f64, f64)> {
+        self.locate_where(mesh, p, |_| true)
+    }
+
+    /// The first triangle `keep` accepts that contains `p` (a point on an interface lies in
+    /// a triangle of each side: `keep` chooses the side).
+    pub(crate) fn locate_where(&self, mesh: &Mesh, p: Xy, keep: impl Fn(usize) -> bool) -> Option<(usize, f64, f64)> {
         let mut found = None;
         self.grid.for_each_near(p, 0.0, |t| {
-            if found.is_none() {
+            if found.is_none() && keep(t as usize) {
                 found = locate_in(mesh, t as usize, p).map(|(xi, eta)| (t as usize, xi, eta));
             }
         });

@@ -16,6 +16,9 @@
 //!   V_eff = ∫(E/E_max)^m dV (weight 2πr in axisymmetry, per metre of depth planar), by
 //!   quadrature of the elements' own fields (weakest-link volume effect: Weber & Endicott
 //!   1956; IEC 62539:2007 for the Weibull form).
+//! - [`trace_field_lines`] and [`Gas`]: in a gas region, field lines from the electrodes and
+//!   the streamer criterion ∫α_eff ds ≥ K along each, and the inception voltage (Raether;
+//!   Pedersen 1970 for SF6, Zaengl & Petcharaks 1994 for dry air; module `gas`).
 //! - [`creepage_path`]: along an interface, the tangential field E_t, the potential drop
 //!   ΔV(s) and its running mean ΔV(s)/s, the maximum |E_t| and where (TRADE §1.2: creepage
 //!   and surface-flashover checks are made on E_t and on the accumulated drop).
@@ -37,12 +40,14 @@
 
 mod creepage;
 mod gap;
+mod gas;
 mod peaks;
 mod verdict;
 mod volume;
 
 pub use creepage::{creepage_path, CreepageChain, CreepagePath, CreepageRow};
 pub use gap::{electrode_distance, field_utilisation, Electrode, GapDistance};
+pub use gas::{trace_field_lines, FieldLine, Gas, GasKind, LineEnd};
 pub use peaks::{local_peaks, LocalPeak, PeakSite};
 pub use verdict::{stress_check, StressCheck, Verdict};
 pub use volume::{stressed_volume, StressedVolume, WeibullVolume};
