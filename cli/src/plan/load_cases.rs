@@ -141,6 +141,8 @@ pub struct BreakdownSettings {
     pub peak_separation_m: Option<f64>,
     /// Utilisation factors asked for.
     pub field_factors: Vec<FieldFactorSpec>,
+    /// Field lines traced per gas region for the discharge-inception check.
+    pub field_lines: usize,
 }
 
 impl Default for BreakdownSettings {
@@ -150,6 +152,7 @@ impl Default for BreakdownSettings {
             local_peaks: 3,
             peak_separation_m: None,
             field_factors: Vec::new(),
+            field_lines: 16,
         }
     }
 }
@@ -391,6 +394,16 @@ pub(super) fn breakdown(
                 .help("use 1 to 20"));
         }
         out.local_peaks = v as usize;
+    }
+    if let Some(n) = &b.field_lines {
+        let v = *n.get_ref();
+        if !(1..=1000).contains(&v) {
+            return Err(cx
+                .err(n.span(), format!("field_lines = {v} is out of range"))
+                .key("breakdown.field_lines")
+                .help("use 1 to 1000"));
+        }
+        out.field_lines = v as usize;
     }
     if let Some(d) = &b.peak_separation {
         out.peak_separation_m =

@@ -1,9 +1,10 @@
-//! `[[material]]`: the dielectrics, their permittivities (scalar or tensor) and allowable
-//! stresses. The one place a permittivity is checked: the mesher and the engine trust it.
+//! `[[material]]`: the dielectrics, their permittivities (scalar or tensor), allowable
+//! stresses, Weibull shapes and, for gases, the gas and its state. The one place a permittivity is checked: the mesher and the engine trust it.
 
 use super::diag::ModelError;
-use super::raw::RawModel;
+use super::raw::{RawGas, RawModel};
 use super::{Ctx, Material, LIMIT_HELP, MAX_PERMITTIVITY};
+use toml::Spanned as S;
 
 /// `[[material]]`: names unique, permittivity (scalar and tensor), allowable stress and
 /// Weibull shape in range (the allowables by load case are read with the load cases).
@@ -62,6 +63,10 @@ pub(super) fn materials(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Material>, M
             }
             None => None,
         };
+        let gas = match &m.gas {
+            Some(g) => Some(gas(cx, g, i)?),
+            None => None,
+        };
         materials.push(Material {
             name: n.clone(),
             permittivity: eps,
@@ -70,8 +75,52 @@ pub(super) fn materials(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Material>, M
             // Checked against the load cases' names once those are read (`load_cases`).
             allowable_by_case: Vec::new(),
             weibull_shape,
+            gas,
         });
     }
 
     Ok(materials)
+}
+
+/// `gas = { kind, pressure_bar, temperature_c }`: a known gas, absolute pressure in (0, 100]
+/// bar (default 1), temperature in [−60, 200] °C (default 20).
+fn gas(cx: &Ctx<'_>, g: &S<RawGas>, i: usize) -> Result<engine::Gas, ModelError> {
+    let g = g.get_ref();
+    let key = |k: &str| format!("material[{i}].gas.{k}");
+    let kind = match g.kind.get_ref().as_str() {
+        "dry_air" => engine::GasKind::DryAir,
+        "sf6" => engine::GasKind::Sf6,
+        other => {
+            return Err(cx
+                .err(g.kind.span(), format!("unknown gas '{other}'"))
+                .key(key("kind"))
+                .help("use \"dry_air\" or \"sf6\" (the gases whose ionisation coefficients fieldgrade carries)"))
+        }
+    };
+    let pressure_bar = match &g.pressure_bar {
+        Some(p) => {
+            let v = cx.positive(p, key("pressure_bar"), "the absolute gas pressure")?;
+            if v > 100.0 {
+                return Err(cx
+                    .err(p.span(), format!("the gas pressure {v} bar is above 100 bar"))
+                    .key(key("pressure_bar"))
+                    .help("give the absolute pressure in bar (0.1 MPa = 1 bar)"));
+            }
+            v
+        }
+        None => 1.0,
+    };
+    let temperature_c = match &g.temperature_c {
+        Some(t) => {
+            let v = *t.get_ref();
+            if !(-60.0..=200.0).contains(&v) {
+                return Err(cx
+                    .err(t.span(), format!("the gas temperature {v} °C is outside −60 … 200 °C"))
+                    .key(key("temperature_c")));
+            }
+            v
+        }
+        None => 20.0,
+    };
+    Ok(engine::Gas { kind, pressure_bar, temperature_c })
 }

@@ -53,6 +53,8 @@ pub struct Material {
     pub allowable_by_case: Vec<(String, f64)>,
     /// Weibull shape parameter m (in field) for the effective volume, if given.
     pub weibull_shape: Option<f64>,
+    /// The gas and its state, for a gas: the discharge-inception checks then apply.
+    pub gas: Option<engine::Gas>,
 }
 
 impl Material {

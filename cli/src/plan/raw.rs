@@ -43,6 +43,7 @@ pub(super) struct RawBreakdown {
     pub(super) stressed_fractions: Option<S<Vec<S<f64>>>>,
     pub(super) local_peaks: Option<S<i64>>,
     pub(super) peak_separation: Option<S<f64>>,
+    pub(super) field_lines: Option<S<i64>>,
     #[serde(default)]
     pub(super) field_factor: Vec<S<RawFieldFactor>>,
 }
@@ -92,6 +93,15 @@ pub(super) struct RawMaterial {
     pub(super) allowable_stress_kv_per_mm: Option<S<f64>>,
     pub(super) allowable_by_case: Option<ByCase>,
     pub(super) weibull_shape: Option<S<f64>>,
+    pub(super) gas: Option<S<RawGas>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawGas {
+    pub(super) kind: S<String>,
+    pub(super) pressure_bar: Option<S<f64>>,
+    pub(super) temperature_c: Option<S<f64>>,
 }
 
 #[derive(Deserialize, Debug)]

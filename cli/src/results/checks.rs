@@ -6,9 +6,9 @@
 use crate::plan::{ElectrodeRef, LoadCase, Plan};
 use crate::results::solve::interface_selector;
 use engine::{
-    creepage_path, electrode_distance, field_utilisation, local_peaks, probe_interface, region_peaks_away_from,
-    singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check, stressed_volume, Electrode,
-    PeakSite, Solution, StressCheck,
+    creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks, probe_interface,
+    region_peaks_away_from, singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check,
+    stressed_volume, trace_field_lines, Electrode, GasKind, LineEnd, PeakSite, Solution, StressCheck,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -33,8 +33,78 @@ pub struct Checks {
     /// Creepage figures along every interface and surface probe, at the model's potentials
     /// (multiply by a case's `scale` for that case); the samples are in `file`.
     pub creepage: Vec<CreepageResult>,
+    /// Discharge inception in every gas region (the voltage scale is the case's below).
+    pub gas: Vec<GasResult>,
     /// The cautions of these checks.
     pub cautions: Vec<&'static str>,
+}
+
+/// The discharge-inception check of one gas region.
+#[derive(Serialize, Debug)]
+pub struct GasResult {
+    /// Region name.
+    pub region: String,
+    /// "dry air" or "SF6".
+    pub gas: &'static str,
+    /// Absolute pressure, bar, and temperature, °C.
+    pub pressure_bar: f64,
+    /// See `pressure_bar`.
+    pub temperature_c: f64,
+    /// The pressure at 20 °C of the same density, bar.
+    pub reduced_pressure_bar: f64,
+    /// The field above which α_eff > 0, V/m.
+    pub critical_field_v_per_m: f64,
+    /// The streamer constant K of the coefficient pair.
+    pub streamer_constant: f64,
+    /// Where the coefficient pair comes from.
+    pub coefficients: &'static str,
+    /// The field lines' CSV in the output folder.
+    pub file: String,
+    /// Every traced line.
+    pub lines: Vec<FieldLineResult>,
+    /// The inception voltage of the weakest line as a peak value of the model's largest
+    /// potential, V (null if no line reaches the criterion).
+    pub inception_voltage_v: Option<f64>,
+    /// The factor on the model's potentials at inception.
+    pub inception_scale: Option<f64>,
+    /// Index of the weakest line.
+    pub weakest_line: Option<usize>,
+    /// What the figure rests on.
+    pub note: &'static str,
+}
+
+/// One traced field line.
+#[derive(Serialize, Debug)]
+pub struct FieldLineResult {
+    /// Start, metres.
+    pub start_m: Xy,
+    /// End, metres.
+    pub end_m: Xy,
+    /// "left the region", "stagnation point", "length limit".
+    pub end: &'static str,
+    /// Length, metres.
+    pub length_m: f64,
+    /// |E| at the start, V/m (model potentials).
+    pub e_start_v_per_m: f64,
+    /// The factor on the model's potentials at which the criterion is met on this line.
+    pub inception_scale: Option<f64>,
+    /// The avalanche length x_c at inception, metres.
+    pub avalanche_length_m: Option<f64>,
+}
+
+/// The gas check of a region in one load case.
+#[derive(Serialize, Debug)]
+pub struct GasCaseCheck {
+    /// Region name.
+    pub region: String,
+    /// The case's peak voltage on its reference, V.
+    pub peak_voltage_v: f64,
+    /// The inception voltage on the same reference (peak), V.
+    pub inception_voltage_v: Option<f64>,
+    /// inception / case peak voltage.
+    pub margin: Option<f64>,
+    /// "pass" (no inception: margin ≥ 1), "fail", or "no inception found".
+    pub verdict: &'static str,
 }
 
 /// The checks of one load case.
@@ -58,6 +128,8 @@ pub struct CaseChecks {
     pub regions: Vec<RegionCheck>,
     /// The tangential stress along every interface and surface probe.
     pub interfaces: Vec<TangentialCheck>,
+    /// Discharge inception in every gas region, against this case's peak voltage.
+    pub gas: Vec<GasCaseCheck>,
 }
 
 /// A stress, its bar, its allowable and the verdict, as written.
@@ -119,6 +191,9 @@ impl Checks {
             bad(v.volume_m3) || v.above.iter().any(|a| bad(a.1)) || v.weibull_effective_volume_m3.is_some_and(bad)
         }) {
             return Some(format!("the stressed volume of region '{}'", v.region));
+        }
+        if let Some(g) = self.gas.iter().find(|g| g.inception_voltage_v.is_some_and(bad)) {
+            return Some(format!("the inception voltage of gas region '{}'", g.region));
         }
         None
     }
@@ -327,6 +402,8 @@ pub fn breakdown_checks(
             }
         })
         .collect();
+    let mut files = Vec::new();
+    let gas = gas_checks(plan, mesh, sol, &mut files);
     let load_cases = cases
         .iter()
         .map(|case| {
@@ -403,6 +480,26 @@ pub fn breakdown_checks(
                     }
                 })
                 .collect();
+            let reference_v = case.voltage_v / case.scale;
+            let gas = gas
+                .iter()
+                .map(|g| {
+                    let peak_voltage_v = case.voltage_v * pf;
+                    let inception_voltage_v = g.inception_scale.map(|ki| ki * reference_v);
+                    let margin = g.inception_scale.map(|ki| ki / (k * pf));
+                    GasCaseCheck {
+                        region: g.region.clone(),
+                        peak_voltage_v,
+                        inception_voltage_v,
+                        margin,
+                        verdict: match margin {
+                            Some(m) if m >= 1.0 => "pass",
+                            Some(_) => "fail",
+                            None => "no inception found",
+                        },
+                    }
+                })
+                .collect();
             CaseChecks {
                 name: case.name.clone(),
                 kind: case.kind.map_or("as modelled", |k| k.word()),
@@ -413,6 +510,7 @@ pub fn breakdown_checks(
                 peak_factor: pf,
                 regions,
                 interfaces,
+                gas,
             }
         })
         .collect();
@@ -475,7 +573,6 @@ pub fn breakdown_checks(
             }
         })
         .collect();
-    let mut files = Vec::new();
     let creepage = paths
         .iter()
         .map(|(i, path)| {
@@ -505,7 +602,84 @@ pub fn breakdown_checks(
             }
         })
         .collect();
-    (Checks { load_cases, field_factors, stressed_volumes, creepage, cautions: CHECK_CAUTIONS.to_vec() }, files)
+    (Checks { load_cases, field_factors, stressed_volumes, creepage, gas, cautions: CHECK_CAUTIONS.to_vec() }, files)
+}
+
+/// The discharge-inception check of every gas region: field lines from the most stressed
+/// conductor points, the streamer criterion along each, the weakest line; its CSV into `files`.
+fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String, String)>) -> Vec<GasResult> {
+    let u_ref = crate::plan::largest_potential(&plan.conductors, plan.outer_potential_v);
+    let mut regions: Vec<u32> = mesh.regions.clone();
+    regions.sort_unstable();
+    regions.dedup();
+    let separation = 0.5 * plan.breakdown.peak_separation_m.unwrap_or(0.02 * mesh.scale());
+    regions
+        .into_iter()
+        .filter(|&r| mesh.exterior.is_none_or(|e| e.region != r))
+        .filter_map(|r| {
+            let m = plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m])?;
+            let gas = m.gas?;
+            let starts = field_line_starts(mesh, sol, r, plan.breakdown.field_lines, separation);
+            let traced = trace_field_lines(mesh, sol, r, &starts);
+            let lines: Vec<FieldLineResult> = traced
+                .iter()
+                .map(|l| {
+                    let ki = l.inception_scale(&gas);
+                    FieldLineResult {
+                        start_m: l.at[0],
+                        end_m: *l.at.last().unwrap_or(&l.at[0]),
+                        end: match l.end {
+                            LineEnd::LeftRegion => "left the region",
+                            LineEnd::Stagnation => "stagnation point",
+                            LineEnd::LengthLimit => "length limit",
+                        },
+                        length_m: *l.s.last().unwrap_or(&0.0),
+                        e_start_v_per_m: l.e[0],
+                        inception_scale: ki,
+                        avalanche_length_m: ki.map(|k| l.ionisation_integral(&gas, k).1),
+                    }
+                })
+                .collect();
+            let weakest = lines
+                .iter()
+                .enumerate()
+                .filter_map(|(i, l)| l.inception_scale.map(|k| (i, k)))
+                .min_by(|a, b| a.1.total_cmp(&b.1));
+            let region = mesh.shape_names[r as usize].clone();
+            let file = format!("fieldlines-{}.csv", region.replace(|c: char| !c.is_ascii_alphanumeric() && c != '-', "_"));
+            let mut csv = String::from("line,s_m,x_m,y_m,e_v_per_m,alpha_eff_at_inception_per_m\n");
+            let k_min = weakest.map(|w| w.1);
+            for (i, l) in traced.iter().enumerate() {
+                for j in 0..l.s.len() {
+                    let alpha = k_min.map_or(f64::NAN, |k| gas.effective_ionisation(k * l.e[j]));
+                    csv.push_str(&format!("{i},{:e},{:e},{:e},{:e},{:e}\n", l.s[j], l.at[j][0], l.at[j][1], l.e[j], alpha));
+                }
+            }
+            files.push((file.clone(), csv));
+            Some(GasResult {
+                region,
+                gas: match gas.kind {
+                    GasKind::DryAir => "dry air",
+                    GasKind::Sf6 => "SF6",
+                },
+                pressure_bar: gas.pressure_bar,
+                temperature_c: gas.temperature_c,
+                reduced_pressure_bar: gas.reduced_pressure_bar(),
+                critical_field_v_per_m: gas.critical_field(),
+                streamer_constant: gas.streamer_constant(),
+                coefficients: match gas.kind {
+                    GasKind::DryAir => "α_eff/p = 1.6053·(E/p − 2.165)² − 0.2873 /(mm·bar), K = 9.15 (Zaengl & Petcharaks 1994; recalled from memory)",
+                    GasKind::Sf6 => "α_eff/p = 27.7·(E/p − 8.88) /(mm·bar), K = 10.5 (Pedersen 1970; recalled from memory)",
+                },
+                file,
+                inception_voltage_v: k_min.map(|k| k * u_ref),
+                inception_scale: k_min,
+                weakest_line: weakest.map(|w| w.0),
+                lines,
+                note: "streamer criterion along field lines from the most stressed conductor points, at peak values; ideal smooth electrodes (no roughness, particles or time lag); not error-barred: compare the figure on two meshes",
+            })
+        })
+        .collect()
 }
 
 /// What a peak's vertex lies on, in words.
@@ -588,6 +762,17 @@ pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str)
                 let _ = writeln!(s, "    {}: {}", sp.id, sp.note);
             }
         }
+        for g in &case.gas {
+            let _ = writeln!(
+                s,
+                "  discharge inception in {:<12} at {} kV peak: inception {} kV peak, margin {}: {}",
+                g.region,
+                format!("{:.4}", g.peak_voltage_v / 1e3),
+                opt(g.inception_voltage_v, &|v| format!("{:.4}", v / 1e3)),
+                opt(g.margin, &|m| format!("{m:.3}")),
+                g.verdict
+            );
+        }
         for t in &case.interfaces {
             let f = &t.e_t;
             let _ = writeln!(
@@ -637,6 +822,36 @@ pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str)
                 };
             let _ = writeln!(s, "  {:<20} V(x) {depth}: {}{weibull}", v.region, above.join(", "));
         }
+    }
+    for g in &c.gas {
+        let _ = writeln!(
+            s,
+            "\ndischarge inception in {} ({}, {} bar, {} °C; E_crit {} kV/mm; {}) -> {}",
+            g.region,
+            g.gas,
+            g.pressure_bar,
+            g.temperature_c,
+            kv(g.critical_field_v_per_m),
+            g.coefficients,
+            g.file
+        );
+        match (g.weakest_line, g.inception_voltage_v) {
+            (Some(w), Some(u)) => {
+                let l = &g.lines[w];
+                let _ = writeln!(
+                    s,
+                    "  {} lines; weakest from {}: inception at {:.4} kV peak on the model's largest potential, avalanche length {}",
+                    g.lines.len(),
+                    at(l.start_m),
+                    u / 1e3,
+                    opt(l.avalanche_length_m, &|x| format!("{:.4} {unit}", x / unit_m))
+                );
+            }
+            _ => {
+                let _ = writeln!(s, "  {} lines; none reaches the criterion", g.lines.len());
+            }
+        }
+        let _ = writeln!(s, "  ({})", g.note);
     }
     if !c.creepage.is_empty() {
         let _ = writeln!(s, "\ncreepage paths (model potentials; s from each chain's start) -> creepage-<probe>.csv");

@@ -237,6 +237,42 @@ const A: [[f64; 6]; 6] = [
 const ERR: [f64; 7] =
     [71.0 / 57600.0, 0.0, -71.0 / 16695.0, 71.0 / 1920.0, -17253.0 / 339200.0, 22.0 / 525.0, -1.0 / 40.0];
 
+/// Up to `count` starting points for field lines in `region`: the vertices of conductor
+/// surfaces bordering the region with the highest |E| (the region's recovered field), each
+/// at least `separation` metres from the higher ones.
+///
+/// # Panics
+/// If the solution does not belong to the mesh.
+#[track_caller]
+pub fn field_line_starts(mesh: &Mesh, solution: &Solution, region: u32, count: usize, separation: f64) -> Vec<Xy> {
+    assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
+    let primal = PrimalRecovery::new(mesh, &solution.potential);
+    let values = crate::fields::region_vertex_values(mesh, solution, &primal);
+    let mut on_conductor = vec![false; mesh.nodes.len()];
+    for e in &mesh.edges {
+        if let mesher::EdgeTag::Conductor(_) = e.tag {
+            on_conductor[e.nodes[0] as usize] = true;
+            on_conductor[e.nodes[1] as usize] = true;
+        }
+    }
+    let mut candidates: Vec<(f64, Xy)> = values
+        .iter()
+        .filter(|(g, v)| g.region == region && on_conductor[g.node as usize] && v.is_finite() && *v > 0.0)
+        .map(|(g, v)| (*v, mesh.nodes[g.node as usize]))
+        .collect();
+    candidates.sort_by(|a, b| b.0.total_cmp(&a.0));
+    let mut out: Vec<Xy> = Vec::new();
+    for (_, p) in candidates {
+        if out.len() >= count {
+            break;
+        }
+        if out.iter().all(|q| (p[0] - q[0]).hypot(p[1] - q[1]) >= separation) {
+            out.push(p);
+        }
+    }
+    out
+}
+
 /// Traces a field line in `region` from each of `starts` (points of an electrode surface or
 /// inside the region), in the direction along ±E that enters the region.
 ///

@@ -47,7 +47,7 @@ mod volume;
 
 pub use creepage::{creepage_path, CreepageChain, CreepagePath, CreepageRow};
 pub use gap::{electrode_distance, field_utilisation, Electrode, GapDistance};
-pub use gas::{trace_field_lines, FieldLine, Gas, GasKind, LineEnd};
+pub use gas::{field_line_starts, trace_field_lines, FieldLine, Gas, GasKind, LineEnd};
 pub use peaks::{local_peaks, LocalPeak, PeakSite};
 pub use verdict::{stress_check, StressCheck, Verdict};
 pub use volume::{stressed_volume, StressedVolume, WeibullVolume};
