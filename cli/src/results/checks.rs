@@ -765,9 +765,9 @@ pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str)
         for g in &case.gas {
             let _ = writeln!(
                 s,
-                "  discharge inception in {:<12} at {} kV peak: inception {} kV peak, margin {}: {}",
+                "  discharge inception in {:<12} at {:.4} kV peak: inception {} kV peak, margin {}: {}",
                 g.region,
-                format!("{:.4}", g.peak_voltage_v / 1e3),
+                g.peak_voltage_v / 1e3,
                 opt(g.inception_voltage_v, &|v| format!("{:.4}", v / 1e3)),
                 opt(g.margin, &|m| format!("{m:.3}")),
                 g.verdict
