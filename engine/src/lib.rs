@@ -84,9 +84,10 @@ pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, Ada
 pub use budget::{predicted_memory_bytes, unknowns_per_vertex, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use checks::{
-    creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks, stress_check,
-    stressed_volume, trace_field_lines, CreepageChain, CreepagePath, CreepageRow, Electrode, FieldLine, GapDistance,
-    Gas, GasKind, LineEnd, LocalPeak, PeakSite, StressCheck, StressedVolume, Verdict, WeibullVolume,
+    condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks,
+    stress_check, stressed_volume, trace_field_lines, CreepageChain, CreepagePath, CreepageRow, Electrode, FieldLine,
+    GapDistance, Gas, GasKind, GradingLayer, GradingStack, LineEnd, LocalPeak, PeakSite, StressCheck, StressedVolume,
+    Verdict, WeibullVolume,
 };
 pub use convergence::{
     grid_convergence, sequence_verdict, Behaviour, ConvergenceKind, ConvergenceStudy, SequenceVerdict,

@@ -47,7 +47,8 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
     let discs = engine::exclusion_discs(mesh, model.singular_exclusion_radius_m);
-    let (checks, mut files) = breakdown_checks(&model, mesh, &analysis.sol, &discs, &|_| None);
+    let (checks, mut files) = breakdown_checks(&model, mesh, &problem, &analysis.sol, &discs, &|_| None)
+        .map_err(|e| solve_error(&model, e))?;
     results.checks = Some(checks);
     finite_or_error(&model, &results)?;
     let t_checks = t0.elapsed().as_secs_f64() - t_mesh - t_solve - t_post;

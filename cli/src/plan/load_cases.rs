@@ -129,6 +129,15 @@ pub struct FieldFactorSpec {
     pub between: [ElectrodeRef; 2],
 }
 
+/// `[[breakdown.grading]]`: a stack of grading foils, from the high-voltage side.
+#[derive(Clone, Debug, PartialEq)]
+pub struct GradingSpec {
+    /// Name.
+    pub name: String,
+    /// Conductor indices in stack order.
+    pub foils: Vec<usize>,
+}
+
 /// `[breakdown]`.
 #[derive(Clone, Debug, PartialEq)]
 pub struct BreakdownSettings {
@@ -143,6 +152,8 @@ pub struct BreakdownSettings {
     pub field_factors: Vec<FieldFactorSpec>,
     /// Field lines traced per gas region for the discharge-inception check.
     pub field_lines: usize,
+    /// Condenser-grading stacks.
+    pub grading: Vec<GradingSpec>,
 }
 
 impl Default for BreakdownSettings {
@@ -153,6 +164,7 @@ impl Default for BreakdownSettings {
             peak_separation_m: None,
             field_factors: Vec::new(),
             field_lines: 16,
+            grading: Vec::new(),
         }
     }
 }
@@ -433,6 +445,37 @@ pub(super) fn breakdown(
             return Err(cx.err(f.between.span(), "between names the same electrode twice".into()).key(key("between")));
         }
         out.field_factors.push(FieldFactorSpec { name, between: ends });
+    }
+    for (i, g) in b.grading.iter().enumerate() {
+        let g = g.get_ref();
+        let key = |k: &str| format!("breakdown.grading[{i}].{k}");
+        let name = g.name.get_ref().trim().to_string();
+        if name.is_empty() || out.grading.iter().any(|o| o.name == name) {
+            return Err(cx
+                .err(g.name.span(), format!("grading stack name '{name}' is empty or used twice"))
+                .key(key("name")));
+        }
+        let list = g.foils.get_ref();
+        if list.len() < 2 {
+            return Err(cx
+                .err(g.foils.span(), format!("foils names {} conductor(s); a stack needs at least two", list.len()))
+                .key(key("foils"))
+                .help("list the conductors from the high-voltage one to the earthed (tap) foil: [\"rod\", \"foil1\", …, \"earth\"]"));
+        }
+        let mut foils = Vec::new();
+        for n in list {
+            let k = conductors.iter().position(|c| &c.name == n.get_ref()).ok_or_else(|| {
+                let known: Vec<&str> = conductors.iter().map(|c| c.name.as_str()).collect();
+                cx.err(n.span(), format!("'{}' is not a conductor", n.get_ref()))
+                    .key(key("foils"))
+                    .help(format!("the conductors are: {}", known.join(", ")))
+            })?;
+            if foils.contains(&k) {
+                return Err(cx.err(n.span(), format!("'{}' is listed twice", n.get_ref())).key(key("foils")));
+            }
+            foils.push(k);
+        }
+        out.grading.push(GradingSpec { name, foils });
     }
     Ok(out)
 }

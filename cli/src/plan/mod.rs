@@ -130,7 +130,9 @@ impl Probe {
     }
 }
 
-pub use load_cases::{largest_potential, Basis, BreakdownSettings, ElectrodeRef, FieldFactorSpec, LoadCase, LoadKind};
+pub use load_cases::{
+    largest_potential, Basis, BreakdownSettings, ElectrodeRef, FieldFactorSpec, GradingSpec, LoadCase, LoadKind,
+};
 
 /// A checked model, ready to mesh.
 #[derive(Clone, Debug)]

@@ -46,6 +46,15 @@ pub(super) struct RawBreakdown {
     pub(super) field_lines: Option<S<i64>>,
     #[serde(default)]
     pub(super) field_factor: Vec<S<RawFieldFactor>>,
+    #[serde(default)]
+    pub(super) grading: Vec<S<RawGrading>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawGrading {
+    pub(super) name: S<String>,
+    pub(super) foils: S<Vec<S<String>>>,
 }
 
 #[derive(Deserialize, Debug)]

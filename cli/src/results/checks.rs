@@ -6,9 +6,10 @@
 use crate::plan::{ElectrodeRef, LoadCase, Plan};
 use crate::results::solve::interface_selector;
 use engine::{
-    creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks, probe_interface,
-    region_peaks_away_from, singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check,
-    stressed_volume, trace_field_lines, Electrode, GasKind, LineEnd, PeakSite, Solution, StressCheck,
+    condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks,
+    probe_interface, region_peaks_away_from, singular_coefficient_dual, singular_field_factor, singular_radius_above,
+    stress_check, stressed_volume, trace_field_lines, Electrode, GasKind, LineEnd, PeakSite, Problem, Solution,
+    StressCheck,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -35,6 +36,8 @@ pub struct Checks {
     pub creepage: Vec<CreepageResult>,
     /// Discharge inception in every gas region (the voltage scale is the case's below).
     pub gas: Vec<GasResult>,
+    /// Condenser-grading stacks at the model's potentials (their stresses per case below).
+    pub grading: Vec<GradingResult>,
     /// The cautions of these checks.
     pub cautions: Vec<&'static str>,
 }
@@ -92,6 +95,82 @@ pub struct FieldLineResult {
     pub avalanche_length_m: Option<f64>,
 }
 
+/// A condenser-grading stack at the model's potentials.
+#[derive(Serialize, Debug)]
+pub struct GradingResult {
+    /// Name.
+    pub name: String,
+    /// The foils, from the high-voltage side.
+    pub foils: Vec<String>,
+    /// Each foil's potential, V, and as a percentage of the stack's voltage (first − last).
+    pub potentials_v: Vec<f64>,
+    /// See `potentials_v`.
+    pub potentials_percent: Vec<f64>,
+    /// The layers between neighbouring foils.
+    pub layers: Vec<GradingLayerResult>,
+    /// The capacitance from the first to the last foil with the foils between floating
+    /// (C1 of a bushing), F (F/m planar).
+    pub series_capacitance_f: f64,
+}
+
+/// One layer of a grading stack at the model's potentials.
+#[derive(Serialize, Debug)]
+pub struct GradingLayerResult {
+    /// The two foils.
+    pub between: [String; 2],
+    /// Voltage step, V, as a percentage of the stack's voltage, and the ideal 100/n %.
+    pub step_v: f64,
+    /// See `step_v`.
+    pub step_percent: f64,
+    /// See `step_v`.
+    pub ideal_step_percent: f64,
+    /// Partial capacitance between the foils, F (F/m planar).
+    pub partial_capacitance_f: f64,
+    /// Shortest distance between the foils, metres, and its ends.
+    pub distance_m: f64,
+    /// See `distance_m`.
+    pub from_m: Xy,
+    /// See `distance_m`.
+    pub to_m: Xy,
+    /// Mean radial stress |ΔU|/d and the largest |E| along that shortest path, V/m.
+    pub mean_radial_stress_v_per_m: f64,
+    /// See `mean_radial_stress_v_per_m`.
+    pub max_radial_stress_v_per_m: f64,
+    /// Axial step between the foils' upper ends and its mean axial stress |ΔU|/a (null where
+    /// the inner foil does not reach beyond the outer one).
+    pub axial_step_top_m: Option<f64>,
+    /// See `axial_step_top_m`.
+    pub axial_stress_top_v_per_m: Option<f64>,
+    /// The same at the lower ends.
+    pub axial_step_bottom_m: Option<f64>,
+    /// See `axial_step_bottom_m`.
+    pub axial_stress_bottom_v_per_m: Option<f64>,
+}
+
+/// A grading stack's stresses in one load case (case basis).
+#[derive(Serialize, Debug)]
+pub struct GradingCaseCheck {
+    /// Stack name.
+    pub name: String,
+    /// Per layer: (mean radial, largest radial, axial at the top, axial at the bottom), V/m.
+    pub layers: Vec<GradingCaseLayer>,
+}
+
+/// One layer's stresses in one load case.
+#[derive(Serialize, Debug)]
+pub struct GradingCaseLayer {
+    /// The two foils.
+    pub between: [String; 2],
+    /// Mean radial stress, V/m.
+    pub mean_radial_v_per_m: f64,
+    /// Largest radial stress along the layer's shortest path, V/m.
+    pub max_radial_v_per_m: f64,
+    /// Mean axial stress at the upper foil-end step, V/m.
+    pub axial_top_v_per_m: Option<f64>,
+    /// Mean axial stress at the lower foil-end step, V/m.
+    pub axial_bottom_v_per_m: Option<f64>,
+}
+
 /// The gas check of a region in one load case.
 #[derive(Serialize, Debug)]
 pub struct GasCaseCheck {
@@ -130,6 +209,8 @@ pub struct CaseChecks {
     pub interfaces: Vec<TangentialCheck>,
     /// Discharge inception in every gas region, against this case's peak voltage.
     pub gas: Vec<GasCaseCheck>,
+    /// Every grading stack's layer stresses in this case.
+    pub grading: Vec<GradingCaseCheck>,
 }
 
 /// A stress, its bar, its allowable and the verdict, as written.
@@ -343,13 +424,18 @@ pub type BarLookup<'a> = &'a dyn Fn(&str) -> Option<(f64, f64)>;
 /// The breakdown checks of `sol` on `mesh`, for every load case of the plan, and the
 /// creepage CSV files (name, contents). `discs` are the exclusion discs around singular
 /// points; `bar_of` gives the certified peak values and bars where `check` has them.
+///
+/// # Errors
+/// A solve error of the grading stacks' capacitance solve (one more factorisation of the
+/// same mesh with the foils as terminals).
 pub fn breakdown_checks(
     plan: &Plan,
     mesh: &Mesh,
+    problem: &Problem,
     sol: &Solution,
     discs: &[(Xy, f64)],
     bar_of: BarLookup<'_>,
-) -> (Checks, Vec<(String, String)>) {
+) -> Result<(Checks, Vec<(String, String)>), engine::SolveError> {
     let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
     let region_name = |r: u32| mesh.shape_names[r as usize].clone();
     let material = |r: u32| plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m]);
@@ -404,6 +490,7 @@ pub fn breakdown_checks(
         .collect();
     let mut files = Vec::new();
     let gas = gas_checks(plan, mesh, sol, &mut files);
+    let grading = grading_checks(plan, mesh, problem, sol)?;
     let load_cases = cases
         .iter()
         .map(|case| {
@@ -500,6 +587,23 @@ pub fn breakdown_checks(
                     }
                 })
                 .collect();
+            let grading_case = grading
+                .iter()
+                .map(|g| GradingCaseCheck {
+                    name: g.name.clone(),
+                    layers: g
+                        .layers
+                        .iter()
+                        .map(|l| GradingCaseLayer {
+                            between: l.between.clone(),
+                            mean_radial_v_per_m: k * l.mean_radial_stress_v_per_m,
+                            max_radial_v_per_m: k * l.max_radial_stress_v_per_m,
+                            axial_top_v_per_m: l.axial_stress_top_v_per_m.map(|a| k * a),
+                            axial_bottom_v_per_m: l.axial_stress_bottom_v_per_m.map(|a| k * a),
+                        })
+                        .collect(),
+                })
+                .collect();
             CaseChecks {
                 name: case.name.clone(),
                 kind: case.kind.map_or("as modelled", |k| k.word()),
@@ -511,6 +615,7 @@ pub fn breakdown_checks(
                 regions,
                 interfaces,
                 gas,
+                grading: grading_case,
             }
         })
         .collect();
@@ -602,7 +707,18 @@ pub fn breakdown_checks(
             }
         })
         .collect();
-    (Checks { load_cases, field_factors, stressed_volumes, creepage, gas, cautions: CHECK_CAUTIONS.to_vec() }, files)
+    Ok((
+        Checks {
+            load_cases,
+            field_factors,
+            stressed_volumes,
+            creepage,
+            gas,
+            grading,
+            cautions: CHECK_CAUTIONS.to_vec(),
+        },
+        files,
+    ))
 }
 
 /// The discharge-inception check of every gas region: field lines from the most stressed
@@ -677,6 +793,58 @@ fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String,
                 weakest_line: weakest.map(|w| w.0),
                 lines,
                 note: "streamer criterion along field lines from the most stressed conductor points, at peak values; ideal smooth electrodes (no roughness, particles or time lag); not error-barred: compare the figure on two meshes",
+            })
+        })
+        .collect()
+}
+
+/// Every `[[breakdown.grading]]` stack at the model's potentials.
+fn grading_checks(
+    plan: &Plan,
+    mesh: &Mesh,
+    problem: &Problem,
+    sol: &Solution,
+) -> Result<Vec<GradingResult>, engine::SolveError> {
+    plan.breakdown
+        .grading
+        .iter()
+        .map(|g| {
+            let st = condenser_grading(mesh, problem, sol, &g.foils)?;
+            let names: Vec<String> = g.foils.iter().map(|&f| plan.conductors[f].name.clone()).collect();
+            let u = st.potentials[0] - st.potentials[st.potentials.len() - 1];
+            let pct = |v: f64| if u != 0.0 { 100.0 * v / u } else { f64::NAN };
+            let n = st.layers.len() as f64;
+            Ok(GradingResult {
+                name: g.name.clone(),
+                potentials_percent: st
+                    .potentials
+                    .iter()
+                    .map(|&v| pct(v - st.potentials[st.potentials.len() - 1]))
+                    .collect(),
+                potentials_v: st.potentials.clone(),
+                layers: st
+                    .layers
+                    .iter()
+                    .enumerate()
+                    .map(|(k, l)| GradingLayerResult {
+                        between: [names[k].clone(), names[k + 1].clone()],
+                        step_v: l.step_v,
+                        step_percent: pct(l.step_v),
+                        ideal_step_percent: 100.0 / n,
+                        partial_capacitance_f: l.partial_capacitance_f,
+                        distance_m: l.distance_m,
+                        from_m: l.from,
+                        to_m: l.to,
+                        mean_radial_stress_v_per_m: l.mean_stress_v_per_m,
+                        max_radial_stress_v_per_m: l.max_stress_v_per_m,
+                        axial_step_top_m: l.end_steps[0].map(|s| s.0),
+                        axial_stress_top_v_per_m: l.end_steps[0].map(|s| s.1),
+                        axial_step_bottom_m: l.end_steps[1].map(|s| s.0),
+                        axial_stress_bottom_v_per_m: l.end_steps[1].map(|s| s.1),
+                    })
+                    .collect(),
+                foils: names,
+                series_capacitance_f: st.series_capacitance_f,
             })
         })
         .collect()
@@ -773,6 +941,21 @@ pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str)
                 g.verdict
             );
         }
+        for g in &case.grading {
+            for l in &g.layers {
+                let _ = writeln!(
+                    s,
+                    "  grading {} {}–{}: radial mean {} max {} kV/mm, axial top {} bottom {} kV/mm",
+                    g.name,
+                    l.between[0],
+                    l.between[1],
+                    kv(l.mean_radial_v_per_m),
+                    kv(l.max_radial_v_per_m),
+                    opt(l.axial_top_v_per_m, &|a| kv(a)),
+                    opt(l.axial_bottom_v_per_m, &|a| kv(a))
+                );
+            }
+        }
         for t in &case.interfaces {
             let f = &t.e_t;
             let _ = writeln!(
@@ -821,6 +1004,31 @@ pub fn render_checks(c: &Checks, per_metre_depth: bool, unit_m: f64, unit: &str)
                     _ => String::new(),
                 };
             let _ = writeln!(s, "  {:<20} V(x) {depth}: {}{weibull}", v.region, above.join(", "));
+        }
+    }
+    for g in &c.grading {
+        let _ = writeln!(
+            s,
+            "\ncondenser grading '{}' (model potentials): C series {:.4e} F{}",
+            g.name,
+            g.series_capacitance_f,
+            if per_metre_depth { "/m" } else { "" }
+        );
+        for l in &g.layers {
+            let _ = writeln!(
+                s,
+                "  {:<10} – {:<10} step {:>7.3} % (ideal {:.3} %), C {:.4e} F, d = {:.4} {unit}, radial mean {} max {} kV/mm, axial steps {} / {} {unit}",
+                l.between[0],
+                l.between[1],
+                l.step_percent,
+                l.ideal_step_percent,
+                l.partial_capacitance_f,
+                l.distance_m / unit_m,
+                kv(l.mean_radial_stress_v_per_m),
+                kv(l.max_radial_stress_v_per_m),
+                opt(l.axial_step_top_m, &|a| format!("{:.4}", a / unit_m)),
+                opt(l.axial_step_bottom_m, &|a| format!("{:.4}", a / unit_m))
+            );
         }
     }
     for g in &c.gas {

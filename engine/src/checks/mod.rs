@@ -19,6 +19,9 @@
 //! - [`trace_field_lines`] and [`Gas`]: in a gas region, field lines from the electrodes and
 //!   the streamer criterion ∫α_eff ds ≥ K along each, and the inception voltage (Raether;
 //!   Pedersen 1970 for SF6, Zaengl & Petcharaks 1994 for dry air; module `gas`).
+//! - [`condenser_grading`]: a stack of grading foils — potentials, voltage steps, partial
+//!   capacitances, series (C1) capacitance, radial stress per layer and axial stress per
+//!   foil-end step (module `grading`).
 //! - [`creepage_path`]: along an interface, the tangential field E_t, the potential drop
 //!   ΔV(s) and its running mean ΔV(s)/s, the maximum |E_t| and where (TRADE §1.2: creepage
 //!   and surface-flashover checks are made on E_t and on the accumulated drop).
@@ -41,6 +44,7 @@
 mod creepage;
 mod gap;
 mod gas;
+mod grading;
 mod peaks;
 mod verdict;
 mod volume;
@@ -48,6 +52,7 @@ mod volume;
 pub use creepage::{creepage_path, CreepageChain, CreepagePath, CreepageRow};
 pub use gap::{electrode_distance, field_utilisation, Electrode, GapDistance};
 pub use gas::{field_line_starts, trace_field_lines, FieldLine, Gas, GasKind, LineEnd};
+pub use grading::{condenser_grading, GradingLayer, GradingStack};
 pub use peaks::{local_peaks, LocalPeak, PeakSite};
 pub use verdict::{stress_check, StressCheck, Verdict};
 pub use volume::{stressed_volume, StressedVolume, WeibullVolume};

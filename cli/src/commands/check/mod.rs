@@ -153,7 +153,8 @@ pub fn run(run: &CheckRun) -> Result<bool> {
             .find(|q| q.quantity == name)
             .and_then(|q| q.error_bar.absolute.filter(|b| b.is_finite()).map(|b| (q.error_bar.value, b)))
     };
-    let (checks, mut files) = breakdown_checks(&model, &mesh, &analysis.sol, &discs, &bar_of);
+    let (checks, mut files) = breakdown_checks(&model, &mesh, &problem, &analysis.sol, &discs, &bar_of)
+        .map_err(|e| solve_error(&model, e))?;
     solve.checks = Some(checks);
     crate::results::solve::finite_or_error(&model, &solve)?;
     let t_checks = t0.elapsed().as_secs_f64() - t_adapt - t_post;
