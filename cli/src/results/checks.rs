@@ -684,12 +684,24 @@ pub fn breakdown_checks(
             let probe = &plan.probes[*i];
             let file = format!("creepage-{}.csv", probe.name);
             let mut csv = String::from(
-                "chain,s_m,x_m,y_m,potential_v,drop_v,et_v_per_m,en_1_v_per_m,en_2_v_per_m,running_mean_v_per_m,counted\n",
+                "chain,s_m,x_m,y_m,potential_v,drop_v,et_v_per_m,en_1_v_per_m,en_2_v_per_m,e_1_v_per_m,e_2_v_per_m,running_mean_v_per_m,counted\n",
             );
             for r in &path.rows {
                 csv.push_str(&format!(
-                    "{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{}\n",
-                    r.chain, r.s, r.at[0], r.at[1], r.potential, r.drop, r.e_t, r.e_n[0], r.e_n[1], r.running_mean, r.counted
+                    "{},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{:e},{}\n",
+                    r.chain,
+                    r.s,
+                    r.at[0],
+                    r.at[1],
+                    r.potential,
+                    r.drop,
+                    r.e_t,
+                    r.e_n[0],
+                    r.e_n[1],
+                    r.e_n[0].hypot(r.e_t),
+                    r.e_n[1].hypot(r.e_t),
+                    r.running_mean,
+                    r.counted
                 ));
             }
             files.push((file.clone(), csv));
@@ -763,12 +775,15 @@ fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String,
                 .min_by(|a, b| a.1.total_cmp(&b.1));
             let region = mesh.shape_names[r as usize].clone();
             let file = format!("fieldlines-{}.csv", region.replace(|c: char| !c.is_ascii_alphanumeric() && c != '-', "_"));
-            let mut csv = String::from("line,s_m,x_m,y_m,e_v_per_m,alpha_eff_at_inception_per_m\n");
+            let mut csv = String::from("line,s_m,x_m,y_m,potential_v,e_v_per_m,alpha_eff_at_inception_per_m\n");
             let k_min = weakest.map(|w| w.1);
             for (i, l) in traced.iter().enumerate() {
                 for j in 0..l.s.len() {
                     let alpha = k_min.map_or(f64::NAN, |k| gas.effective_ionisation(k * l.e[j]));
-                    csv.push_str(&format!("{i},{:e},{:e},{:e},{:e},{:e}\n", l.s[j], l.at[j][0], l.at[j][1], l.e[j], alpha));
+                    csv.push_str(&format!(
+                        "{i},{:e},{:e},{:e},{:e},{:e},{:e}\n",
+                        l.s[j], l.at[j][0], l.at[j][1], l.v[j], l.e[j], alpha
+                    ));
                 }
             }
             files.push((file.clone(), csv));

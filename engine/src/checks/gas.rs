@@ -148,6 +148,8 @@ pub struct FieldLine {
     pub at: Vec<Xy>,
     /// |E| at each point, V/m (the recovered field).
     pub e: Vec<f64>,
+    /// The potential at each point, V.
+    pub v: Vec<f64>,
     /// How it ends.
     pub end: LineEnd,
 }
@@ -222,6 +224,13 @@ impl RegionField<'_> {
         let (e, _) = rec.fields_at(self.mesh, &self.primal.quad, t, xi, eta);
         Some((e, (2.0 * self.mesh.triangle_area(t).abs()).sqrt()))
     }
+
+    /// The potential at `p` (NaN outside the region).
+    fn potential_at(&self, p: Xy) -> f64 {
+        self.grid
+            .locate_where(self.mesh, p, |t| self.mesh.regions[t] == self.region)
+            .map_or(f64::NAN, |(t, xi, eta)| crate::fields::eval_point(self.mesh, self.potential, t, xi, eta).v)
+    }
 }
 
 /// Dormand–Prince 5(4) coefficients.
@@ -289,7 +298,14 @@ pub fn trace_field_lines(mesh: &Mesh, solution: &Solution, region: u32, starts: 
         potential: &solution.potential,
     };
     let max_len = 4.0 * mesh.scale();
-    starts.iter().filter_map(|&p| trace_one(&field, p, max_len)).collect()
+    starts
+        .iter()
+        .filter_map(|&p| trace_one(&field, p, max_len))
+        .map(|mut l| {
+            l.v = l.at.iter().map(|&p| field.potential_at(p)).collect();
+            l
+        })
+        .collect()
 }
 
 /// One line from `p0`; None if `p0` is not in the region or the field vanishes there.
@@ -316,7 +332,7 @@ fn trace_one(field: &RegionField<'_>, p0: Xy, max_len: f64) -> Option<FieldLine>
         let n = e[0].hypot(e[1]);
         (n > 0.0).then(|| ([sign * e[0] / n, sign * e[1] / n], n, h))
     };
-    let mut line = FieldLine { s: vec![0.0], at: vec![p0], e: vec![n0], end: LineEnd::LengthLimit };
+    let mut line = FieldLine { s: vec![0.0], at: vec![p0], e: vec![n0], v: Vec::new(), end: LineEnd::LengthLimit };
     let (mut p, mut s) = (p0, 0.0);
     let mut step = 0.1 * h0;
     let (mut f0, _, mut h) = dir(p)?;
