@@ -58,7 +58,7 @@ use crate::certify::{certify, BarStatus, ErrorBar, QuantityClass};
 use crate::error::SolveError;
 use crate::estimate::{estimate_error_with, ErrorEstimate};
 use crate::problem::Problem;
-use crate::solve::{solve_factored, CapacitanceMatrix, FactoredSolution, Solution};
+use crate::solve::{solve_factored, FactoredSolution};
 use mesher::{generate_with, BackgroundSize, Geometry, Mesh, RefineParams};
 
 /// Settings of the adaptive loop, with documented defaults.
@@ -219,7 +219,7 @@ pub struct StepTimings {
 }
 
 /// The result of the loop.
-#[derive(Clone, Debug)]
+#[derive(Debug)]
 pub struct AdaptOutcome {
     /// The estimate and the watched quantities reached the tolerance.
     pub converged: bool,
@@ -229,11 +229,9 @@ pub struct AdaptOutcome {
     pub history: Vec<AdaptStep>,
     /// The last mesh.
     pub mesh: Mesh,
-    /// The last solution.
-    pub solution: Solution,
-    /// The Maxwell capacitance matrix on the last mesh (as [`crate::solve_with_capacitance`]
-    /// gives it).
-    pub capacitance: CapacitanceMatrix,
+    /// The last solution with its capacitance matrix and its factorised system (further
+    /// right-hand sides on the last mesh cost a substitution each).
+    pub solved: FactoredSolution,
     /// The estimate on the last mesh.
     pub estimate: ErrorEstimate,
     /// The error bar and verdict of every watched quantity on the whole sequence.
@@ -322,7 +320,7 @@ pub fn adapt_watching(
         let estimate_s = lap();
         let watched = watch(&mesh, &solved, &est)?;
         let watch_s = lap();
-        let FactoredSolution { solution, capacitance, .. } = solved;
+        let solution = &solved.solution;
         let max_change = match history.last() {
             Some(prev) => prev
                 .watched
@@ -390,7 +388,7 @@ pub fn adapt_watching(
         };
         if let Some((converged, reason)) = stop {
             let bars = history.last().map(|s| s.bars.clone()).unwrap_or_default();
-            return Ok(AdaptOutcome { converged, reason, history, mesh, solution, capacitance, estimate: est, bars });
+            return Ok(AdaptOutcome { converged, reason, history, mesh, solved, estimate: est, bars });
         }
         // Unknowns per triangle of this mesh, to turn triangle counts into unknowns.
         let per = solution.num_unknowns as f64 / mesh.triangles.len() as f64;
@@ -417,16 +415,7 @@ pub fn adapt_watching(
                 open_reason(energy_open, ap.tolerance, &open)
             );
             let bars = step.bars.clone();
-            return Ok(AdaptOutcome {
-                converged: false,
-                reason,
-                history,
-                mesh,
-                solution,
-                capacitance,
-                estimate: est,
-                bars,
-            });
+            return Ok(AdaptOutcome { converged: false, reason, history, mesh, solved, estimate: est, bars });
         }
         let indicators = combined_indicators(&est, step, ap.tolerance);
         let plan = SizePlan::new(&mesh, &indicators, ap, p);

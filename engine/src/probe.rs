@@ -89,6 +89,11 @@ fn locate_in(mesh: &Mesh, t: usize, p: Xy) -> Option<(f64, f64)> {
     let det = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
     let mut xi = ((p[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (p[1] - a[1])) / det;
     let mut eta = ((b[0] - a[0]) * (p[1] - a[1]) - (p[0] - a[0]) * (b[1] - a[1])) / det;
+    // Far outside the straight triangle: a curved edge bulges by a few per cent of the
+    // element at most, so no Newton iteration can bring the point in.
+    if xi < -0.25 || eta < -0.25 || xi + eta > 1.25 {
+        return None;
+    }
     if !mesh.mid_nodes.is_empty() {
         // Newton on the isoparametric map x(ξ, η) = p (curved edges move points a little).
         let m = mesh.mid_nodes[t];

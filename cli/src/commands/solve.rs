@@ -8,7 +8,7 @@ use crate::results::mesh::report;
 use crate::results::solve::{analyse, finite_or_error, render_text, solve_error, write_outputs};
 use crate::CliError;
 use crate::Result;
-use engine::solve_with_capacitance;
+use engine::solve_factored;
 use mesher::generate;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -40,15 +40,17 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);
-    // One factorisation serves the load case and every capacitance column.
-    let (sol, (fixed, cmat)) = solve_with_capacitance(mesh, &problem).map_err(|e| solve_error(&model, e))?;
+    // One factorisation serves the load case, every capacitance column and the checks'
+    // further right-hand sides.
+    let solved = solve_factored(mesh, &problem).map_err(|e| solve_error(&model, e))?;
+    let (fixed, cmat) = solved.capacitance.clone();
+    let sol = solved.solution.clone();
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
     let mesh_report = report(&model, &meshed);
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
     let discs = engine::exclusion_discs(mesh, model.singular_exclusion_radius_m);
-    let (checks, mut files) = breakdown_checks(&model, mesh, &problem, &analysis.sol, &discs, &|_| None)
-        .map_err(|e| solve_error(&model, e))?;
+    let (checks, mut files) = breakdown_checks(&model, mesh, &problem, &solved, &discs, &|_| None);
     results.checks = Some(checks);
     finite_or_error(&model, &results)?;
     let t_checks = t0.elapsed().as_secs_f64() - t_mesh - t_solve - t_post;

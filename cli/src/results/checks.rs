@@ -6,10 +6,9 @@
 use crate::plan::{ElectrodeRef, LoadCase, Plan};
 use crate::results::solve::interface_selector;
 use engine::{
-    condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks,
-    probe_interface, region_peaks_away_from, singular_coefficient_dual, singular_field_factor, singular_radius_above,
-    stress_check, stressed_volume, trace_field_lines, Electrode, GasKind, LineEnd, PeakSite, Problem, Solution,
-    StressCheck,
+    condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, probe_interface,
+    singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check, stressed_volume,
+    trace_field_lines, Electrode, FactoredSolution, GasKind, LineEnd, PeakSite, Problem, Solution, StressCheck,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -424,24 +423,25 @@ pub type BarLookup<'a> = &'a dyn Fn(&str) -> Option<(f64, f64)>;
 /// The breakdown checks of `sol` on `mesh`, for every load case of the plan, and the
 /// creepage CSV files (name, contents). `discs` are the exclusion discs around singular
 /// points; `bar_of` gives the certified peak values and bars where `check` has them.
-///
-/// # Errors
-/// A solve error of the grading stacks' capacitance solve (one more factorisation of the
-/// same mesh with the foils as terminals).
+/// `solved` is the factorised solution (the grading stacks' partial capacitances take a
+/// substitution per floating conductor from it).
 pub fn breakdown_checks(
     plan: &Plan,
     mesh: &Mesh,
     problem: &Problem,
-    sol: &Solution,
+    solved: &FactoredSolution,
     discs: &[(Xy, f64)],
     bar_of: BarLookup<'_>,
-) -> Result<(Checks, Vec<(String, String)>), engine::SolveError> {
+) -> (Checks, Vec<(String, String)>) {
+    let sol = &solved.solution;
     let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
     let region_name = |r: u32| mesh.shape_names[r as usize].clone();
     let material = |r: u32| plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m]);
     // The peak away from singular points of every region: certified value and bar where
     // `check` has them, else this solution's value.
-    let peaks: Vec<(u32, f64, Option<f64>, Xy)> = region_peaks_away_from(mesh, sol, discs)
+    let lap = Lap::new();
+    let peaks: Vec<(u32, f64, Option<f64>, Xy)> = solved
+        .region_peaks_away_from(mesh, discs)
         .into_iter()
         .map(|p| {
             let name = format!("peak field in {} away from singular points", region_name(p.region));
@@ -452,8 +452,10 @@ pub fn breakdown_checks(
         })
         .collect();
     let separation = plan.breakdown.peak_separation_m.unwrap_or(0.02 * mesh.scale());
-    let locals = local_peaks(mesh, sol, discs, plan.breakdown.local_peaks, separation);
+    lap.mark("peaks away");
+    let locals = solved.local_peaks(mesh, discs, plan.breakdown.local_peaks, separation);
     // Singular coefficients (A, k) of the field-singular points, where a conductor bounds them.
+    lap.mark("local peaks");
     let singular: Vec<(usize, Option<(f64, f64)>)> = mesh
         .singular_points
         .iter()
@@ -474,6 +476,7 @@ pub fn breakdown_checks(
         plan.load_cases.clone()
     };
     // The interface and surface probes' paths (model potentials).
+    lap.mark("singular coefficients");
     let paths: Vec<(usize, engine::CreepagePath)> = plan
         .probes
         .iter()
@@ -489,8 +492,11 @@ pub fn breakdown_checks(
         })
         .collect();
     let mut files = Vec::new();
+    lap.mark("creepage paths");
     let gas = gas_checks(plan, mesh, sol, &mut files);
-    let grading = grading_checks(plan, mesh, problem, sol)?;
+    lap.mark("gas");
+    let grading = grading_checks(plan, mesh, problem, solved);
+    lap.mark("grading");
     let load_cases = cases
         .iter()
         .map(|case| {
@@ -653,6 +659,7 @@ pub fn breakdown_checks(
             })
         })
         .collect();
+    lap.mark("cases and field factors");
     let stressed_volumes = peaks
         .iter()
         .filter(|p| p.1 > 0.0)
@@ -678,6 +685,7 @@ pub fn breakdown_checks(
             }
         })
         .collect();
+    lap.mark("stressed volumes");
     let creepage = paths
         .iter()
         .map(|(i, path)| {
@@ -719,18 +727,16 @@ pub fn breakdown_checks(
             }
         })
         .collect();
-    Ok((
-        Checks {
-            load_cases,
-            field_factors,
-            stressed_volumes,
-            creepage,
-            gas,
-            grading,
-            cautions: CHECK_CAUTIONS.to_vec(),
-        },
-        files,
-    ))
+    let checks = Checks {
+        load_cases,
+        field_factors,
+        stressed_volumes,
+        creepage,
+        gas,
+        grading,
+        cautions: CHECK_CAUTIONS.to_vec(),
+    };
+    (checks, files)
 }
 
 /// The discharge-inception check of every gas region: field lines from the most stressed
@@ -813,23 +819,38 @@ fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String,
         .collect()
 }
 
+/// Wall-clock laps of the checks, printed to stderr when `FIELDGRADE_TIMINGS` is set.
+struct Lap {
+    on: bool,
+    t: std::cell::Cell<std::time::Instant>,
+}
+
+impl Lap {
+    fn new() -> Lap {
+        Lap { on: std::env::var_os("FIELDGRADE_TIMINGS").is_some(), t: std::cell::Cell::new(std::time::Instant::now()) }
+    }
+
+    fn mark(&self, what: &str) {
+        if self.on {
+            let now = std::time::Instant::now();
+            eprintln!("checks: {what} {:.3} s", (now - self.t.get()).as_secs_f64());
+            self.t.set(now);
+        }
+    }
+}
+
 /// Every `[[breakdown.grading]]` stack at the model's potentials.
-fn grading_checks(
-    plan: &Plan,
-    mesh: &Mesh,
-    problem: &Problem,
-    sol: &Solution,
-) -> Result<Vec<GradingResult>, engine::SolveError> {
+fn grading_checks(plan: &Plan, mesh: &Mesh, problem: &Problem, solved: &FactoredSolution) -> Vec<GradingResult> {
     plan.breakdown
         .grading
         .iter()
         .map(|g| {
-            let st = condenser_grading(mesh, problem, sol, &g.foils)?;
+            let st = condenser_grading(mesh, problem, solved, &g.foils);
             let names: Vec<String> = g.foils.iter().map(|&f| plan.conductors[f].name.clone()).collect();
             let u = st.potentials[0] - st.potentials[st.potentials.len() - 1];
             let pct = |v: f64| if u != 0.0 { 100.0 * v / u } else { f64::NAN };
             let n = st.layers.len() as f64;
-            Ok(GradingResult {
+            GradingResult {
                 name: g.name.clone(),
                 potentials_percent: st
                     .potentials
@@ -860,7 +881,7 @@ fn grading_checks(
                     .collect(),
                 foils: names,
                 series_capacitance_f: st.series_capacitance_f,
-            })
+            }
         })
         .collect()
 }

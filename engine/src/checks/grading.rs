@@ -10,10 +10,9 @@
 //! step a_k short of foil k−1 the core surface carries the mean axial stress ΔU_k/a_k.
 
 use super::gap::{electrode_distance, Electrode};
-use crate::error::SolveError;
 use crate::probe::probe_line;
-use crate::problem::{ConductorSpec, Problem};
-use crate::solve::{capacitance_matrix, Solution};
+use crate::problem::Problem;
+use crate::solve::FactoredSolution;
 use mesher::{EdgeTag, Mesh, Xy};
 
 /// One layer of the stack: between foils k−1 and k.
@@ -53,43 +52,24 @@ pub struct GradingStack {
 }
 
 /// The grading of the stack `foils` (conductor indices, from the high-voltage side to the
-/// earthed side, at least two) in the solution `sol` of `problem` on `mesh`.
+/// earthed side, at least two) in the factorised solution `solved` of `problem` on `mesh`.
 ///
-/// The partial capacitances come from one more solve: the Maxwell matrix with every foil of
-/// the stack held as a terminal (the other conductors as they are, no space charge), one
-/// factorisation and one right-hand side per terminal; the series capacitance is its Schur
-/// complement on the first and last foil (the foils between them carry no net charge).
-///
-/// # Errors
-/// As [`crate::solve()`], for the capacitance solve.
+/// The partial capacitances come from the Maxwell matrix among all conductors, each a
+/// terminal ([`FactoredSolution::maxwell_matrix_all`]: a substitution per floating conductor
+/// with the kept factorisation); the series capacitance is its Schur complement on the first
+/// and last foil (the foils between them carry no net charge, the other conductors at 0 V).
 ///
 /// # Panics
 /// If fewer than two foils are given or an index is out of range.
 #[track_caller]
-pub fn condenser_grading(
-    mesh: &Mesh,
-    problem: &Problem,
-    sol: &Solution,
-    foils: &[usize],
-) -> Result<GradingStack, SolveError> {
+pub fn condenser_grading(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution, foils: &[usize]) -> GradingStack {
     assert!(
         foils.len() >= 2 && foils.iter().all(|&f| f < problem.conductors.len()),
         "a stack of two or more conductors"
     );
-    let mut terminals = problem.clone();
-    for &f in foils {
-        terminals.conductors[f] = ConductorSpec::Fixed { potential_v: 0.0 };
-    }
-    for c in terminals.conductors.iter_mut() {
-        if let ConductorSpec::Floating { charge_c } = c {
-            *charge_c = 0.0;
-        }
-    }
-    terminals.charge_density.clear();
-    let (fixed, cmat) = capacitance_matrix(mesh, &terminals)?;
-    let slot = |c: usize| fixed.iter().position(|&f| f == c).expect("every foil is a terminal");
-    let idx: Vec<usize> = foils.iter().map(|&f| slot(f)).collect();
-    let sub = |i: usize, j: usize| cmat[idx[i]][idx[j]];
+    let sol = &solved.solution;
+    let cmat = solved.maxwell_matrix_all(mesh, problem);
+    let sub = |i: usize, j: usize| cmat[foils[i]][foils[j]];
     // Schur complement on the ends: C_ee − C_ei·C_ii⁻¹·C_ie, the inner foils floating.
     let n = foils.len();
     let inner: Vec<usize> = (1..n - 1).collect();
@@ -171,5 +151,5 @@ pub fn condenser_grading(
             end_steps: [step(inner_top - outer_top), step(outer_bottom - inner_bottom)],
         });
     }
-    Ok(GradingStack { potentials, layers, series_capacitance_f })
+    GradingStack { potentials, layers, series_capacitance_f }
 }

@@ -45,7 +45,7 @@ mod creepage;
 mod gap;
 mod gas;
 mod grading;
-mod peaks;
+pub(crate) mod peaks;
 mod verdict;
 mod volume;
 

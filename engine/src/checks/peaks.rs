@@ -65,8 +65,19 @@ pub fn local_peaks(
     separation: f64,
 ) -> Vec<LocalPeak> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let primal = PrimalRecovery::new(mesh, &solution.potential);
-    let values = region_vertex_values(mesh, solution, &primal);
+    local_peaks_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), discs, per_region, separation)
+}
+
+/// [`local_peaks`] with the solution's recovery already made.
+pub(crate) fn local_peaks_with(
+    mesh: &Mesh,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+    discs: &[(Xy, f64)],
+    per_region: usize,
+    separation: f64,
+) -> Vec<LocalPeak> {
+    let values = region_vertex_values(mesh, solution, primal);
     let value_of = |node: u32, region: u32| {
         values.binary_search_by_key(&(node, region), |(g, _)| (g.node, g.region)).ok().map(|k| values[k].1)
     };

@@ -221,6 +221,82 @@ impl FactoredSolution {
         crate::fields::peaks_away_from_with(mesh, &self.solution, self.recovery(mesh), discs)
     }
 
+    /// The local peaks of every region, as [`crate::local_peaks`] finds them, with the
+    /// recovery shared by the mesh's other estimates.
+    pub fn local_peaks(
+        &self,
+        mesh: &Mesh,
+        discs: &[(Xy, f64)],
+        per_region: usize,
+        separation: f64,
+    ) -> Vec<crate::LocalPeak> {
+        crate::checks::peaks::local_peaks_with(mesh, &self.solution, self.recovery(mesh), discs, per_region, separation)
+    }
+
+    /// The Maxwell capacitance matrix among all conductors, fixed and floating, each held as
+    /// a terminal (a held outer boundary at 0 V), indexed by conductor: entry (i, j) is the
+    /// charge on conductor i with conductor j at 1 V and every other at 0 V, F (F/m planar).
+    ///
+    /// From the kept factorisation, without a second one: with the floating conductors f
+    /// uncharged the solve gave the reduced matrix C_red = C_xx − C_xf·C_ff⁻¹·C_fx of the
+    /// fixed conductors x and, in each capacitance column, the floating potentials
+    /// V_f = −C_ff⁻¹·C_fx·e_j; a unit charge on each floating conductor (one substitution
+    /// each, the fixed ones at 0 V) gives the potential coefficients P_ff = C_ff⁻¹. Hence
+    /// C_ff = P_ff⁻¹, C_fx = −C_ff·V_f and C_xx = C_red + C_xf·P_ff·C_fx (block elimination of
+    /// the charge–potential relation Q = C·V).
+    pub fn maxwell_matrix_all(&self, mesh: &Mesh, problem: &Problem) -> Vec<Vec<f64>> {
+        let nc = problem.conductors.len();
+        let (fixed, c_red) = &self.capacitance;
+        let floats: Vec<usize> =
+            (0..nc).filter(|&c| matches!(problem.conductors[c], ConductorSpec::Floating { .. })).collect();
+        // A node on each conductor, to read its potential in a nodal field.
+        let mut node_of = vec![None; nc];
+        for e in &mesh.edges {
+            if let mesher::EdgeTag::Conductor(c) = e.tag {
+                node_of[c as usize].get_or_insert(e.nodes[0] as usize);
+            }
+        }
+        let at = |field: &[f64], c: usize| node_of[c].map_or(f64::NAN, |v| field[v]);
+        let mut full = vec![vec![0.0; nc]; nc];
+        let nf = floats.len();
+        if nf == 0 {
+            for (r, &i) in fixed.iter().enumerate() {
+                for (k, &j) in fixed.iter().enumerate() {
+                    full[i][j] = c_red[r][k];
+                }
+            }
+            return full;
+        }
+        let cases: Vec<DualCase> = floats.iter().map(|&k| DualCase { unit_charge: Some(k), node_load: None }).collect();
+        let unit = self.solve_duals(problem, &cases);
+        // P_ff[i][j]: potential of floating conductor i for a unit charge on j.
+        let p: Vec<Vec<f64>> = floats.iter().map(|&i| (0..nf).map(|j| at(&unit[j], i)).collect()).collect();
+        let c_ff = invert(&p);
+        // C_fx (floats × fixed) = −C_ff·V_f, V_f the floating potentials of each column.
+        let v_f: Vec<Vec<f64>> =
+            (0..fixed.len()).map(|k| floats.iter().map(|&i| at(&self.columns[k], i)).collect()).collect();
+        let c_fx: Vec<Vec<f64>> = (0..nf)
+            .map(|i| (0..fixed.len()).map(|k| -(0..nf).map(|l| c_ff[i][l] * v_f[k][l]).sum::<f64>()).collect())
+            .collect();
+        for (r, &i) in fixed.iter().enumerate() {
+            for (k, &j) in fixed.iter().enumerate() {
+                // C_xf·P_ff·C_fx, C_xf = C_fxᵀ.
+                let extra: f64 = (0..nf).map(|a| (0..nf).map(|b| c_fx[a][r] * p[a][b] * c_fx[b][k]).sum::<f64>()).sum();
+                full[i][j] = c_red[r][k] + extra;
+            }
+        }
+        for (a, &i) in floats.iter().enumerate() {
+            for (b, &j) in floats.iter().enumerate() {
+                full[i][j] = c_ff[a][b];
+            }
+            for (k, &j) in fixed.iter().enumerate() {
+                full[i][j] = c_fx[a][k];
+                full[j][i] = c_fx[a][k];
+            }
+        }
+        full
+    }
+
     /// Nodal potentials of each dual case, by the kept factorisation.
     pub(crate) fn solve_duals(&self, problem: &Problem, cases: &[DualCase]) -> Vec<Vec<f64>> {
         let m = self.system.num_unknowns();
@@ -271,6 +347,34 @@ impl FactoredSolution {
             })
             .collect()
     }
+}
+
+/// The inverse of a small dense matrix by Gauss–Jordan elimination with partial pivoting.
+fn invert(a: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    let n = a.len();
+    let mut m: Vec<Vec<f64>> = a
+        .iter()
+        .enumerate()
+        .map(|(i, row)| row.iter().copied().chain((0..n).map(|j| if i == j { 1.0 } else { 0.0 })).collect())
+        .collect();
+    for col in 0..n {
+        let piv = (col..n).max_by(|&x, &y| m[x][col].abs().total_cmp(&m[y][col].abs())).unwrap_or(col);
+        m.swap(col, piv);
+        let d = m[col][col];
+        for v in m[col].iter_mut() {
+            *v /= d;
+        }
+        let pivot_row = m[col].clone();
+        for (r, row) in m.iter_mut().enumerate() {
+            if r != col {
+                let f = row[col];
+                for (v, w) in row.iter_mut().zip(&pivot_row) {
+                    *v -= f * w;
+                }
+            }
+        }
+    }
+    m.into_iter().map(|row| row[n..].to_vec()).collect()
 }
 
 /// Indices of the fixed conductors (row and column order) and the Maxwell capacitance

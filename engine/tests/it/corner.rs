@@ -90,7 +90,7 @@ fn adaptive_slope(order: u8, tolerances: &[f64]) -> f64 {
             engine::AdaptParams { tolerance: tol, max_iterations: 30, max_unknowns: 400_000, ..Default::default() };
         let out = engine::adapt(&geo, &params, &problem, &ap).unwrap();
         assert!(out.converged, "{}", out.reason);
-        let (e, u) = energy_error(&out.mesh, &problem, &out.solution, exact_gradient);
+        let (e, u) = energy_error(&out.mesh, &problem, &out.solved.solution, exact_gradient);
         let last = out.history.last().unwrap();
         eprintln!(
             "P{order} tolerance {tol}: {} meshes, {} unknowns, estimate {:.3e}, true {:.3e}",

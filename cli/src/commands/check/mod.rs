@@ -120,8 +120,8 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     })?;
     let (discs, quantities) = setup.expect("the adaptive loop watches every mesh it solves");
     let t_adapt = t0.elapsed().as_secs_f64();
-    let engine::AdaptOutcome { converged, reason, history, mesh, solution, capacitance: (fixed, cmat), estimate, bars } =
-        outcome;
+    let engine::AdaptOutcome { converged, reason, history, mesh, solved, estimate, bars } = outcome;
+    let (solution, (fixed, cmat)) = (solved.solution.clone(), solved.capacitance.clone());
     let mesh_report = report_of(&model, &mesh, true, None);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
     crate::results::solve::finite_or_error(&model, &solve)?;
@@ -153,8 +153,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
             .find(|q| q.quantity == name)
             .and_then(|q| q.error_bar.absolute.filter(|b| b.is_finite()).map(|b| (q.error_bar.value, b)))
     };
-    let (checks, mut files) = breakdown_checks(&model, &mesh, &problem, &analysis.sol, &discs, &bar_of)
-        .map_err(|e| solve_error(&model, e))?;
+    let (checks, mut files) = breakdown_checks(&model, &mesh, &problem, &solved, &discs, &bar_of);
     solve.checks = Some(checks);
     crate::results::solve::finite_or_error(&model, &solve)?;
     let t_checks = t0.elapsed().as_secs_f64() - t_adapt - t_post;
