@@ -179,7 +179,17 @@ pub(crate) fn sample_potential(mesh: &Mesh, solution: &Solution, points: &[Xy]) 
 pub fn probe_line(mesh: &Mesh, solution: &Solution, path: &[Xy], samples: usize) -> Vec<LineSample> {
     assert!(path.len() >= 2 && samples >= 2, "a probe line needs two points and two samples");
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let grid = TriangleGrid::new(mesh);
+    probe_line_with(&TriangleGrid::new(mesh), mesh, solution, path, samples)
+}
+
+/// [`probe_line`] with the point-location grid already built.
+pub(crate) fn probe_line_with(
+    grid: &TriangleGrid,
+    mesh: &Mesh,
+    solution: &Solution,
+    path: &[Xy],
+    samples: usize,
+) -> Vec<LineSample> {
     let seg: Vec<f64> = path.windows(2).map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1])).collect();
     let total: f64 = seg.iter().sum();
     let mut out = Vec::with_capacity(samples);

@@ -34,31 +34,36 @@ struct Piece {
 /// has one. Points of the surface: the edges' ends (and the mid-edge nodes for P2, which lie
 /// on the true arc).
 fn surface(mesh: &Mesh, e: Electrode) -> (Vec<Piece>, Vec<Xy>) {
-    let mut mid = std::collections::HashMap::new();
+    let on = |tag: EdgeTag| match (tag, e) {
+        (EdgeTag::Conductor(c), Electrode::Conductor(k)) => c == k,
+        (EdgeTag::Outer, Electrode::Outer) => true,
+        _ => false,
+    };
+    // Mid-edge nodes of the surface's edges only (one scan of the triangles, a lookup each).
+    let mut mid: std::collections::HashMap<(u32, u32), u32> = mesh
+        .edges
+        .iter()
+        .filter(|edge| on(edge.tag))
+        .map(|edge| ((edge.nodes[0].min(edge.nodes[1]), edge.nodes[0].max(edge.nodes[1])), u32::MAX))
+        .collect();
     if !mesh.mid_nodes.is_empty() {
         for (t, tri) in mesh.triangles.iter().enumerate() {
             for k in 0..3 {
                 let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                mid.insert((a.min(b), a.max(b)), mesh.mid_nodes[t][k]);
+                if let Some(m) = mid.get_mut(&(a.min(b), a.max(b))) {
+                    *m = mesh.mid_nodes[t][k];
+                }
             }
         }
     }
     let (mut pieces, mut points) = (Vec::new(), Vec::new());
-    for edge in &mesh.edges {
-        let on = match (edge.tag, e) {
-            (EdgeTag::Conductor(c), Electrode::Conductor(k)) => c == k,
-            (EdgeTag::Outer, Electrode::Outer) => true,
-            _ => false,
-        };
-        if !on {
-            continue;
-        }
+    for edge in mesh.edges.iter().filter(|edge| on(edge.tag)) {
         let [a, b] = edge.nodes;
         let ends = [mesh.nodes[a as usize], mesh.nodes[b as usize]];
         let arc = edge.arc.map(|k| (mesh.arcs[k as usize].center, mesh.arcs[k as usize].radius));
         pieces.push(Piece { ends, arc });
         points.extend(ends);
-        if let Some(&m) = mid.get(&(a.min(b), a.max(b))) {
+        if let Some(&m) = mid.get(&(a.min(b), a.max(b))).filter(|&&m| m != u32::MAX) {
             points.push(mesh.nodes[m as usize]);
         }
     }

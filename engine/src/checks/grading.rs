@@ -10,7 +10,7 @@
 //! step a_k short of foil k−1 the core surface carries the mean axial stress ΔU_k/a_k.
 
 use super::gap::{electrode_distance, Electrode};
-use crate::probe::probe_line;
+use crate::probe::{probe_line_with, TriangleGrid};
 use crate::problem::Problem;
 use crate::solve::FactoredSolution;
 use mesher::{EdgeTag, Mesh, Xy};
@@ -121,6 +121,7 @@ pub fn condenser_grading(mesh: &Mesh, problem: &Problem, solved: &FactoredSoluti
             .map(|v| mesh.nodes[v as usize][1])
             .fold((f64::NEG_INFINITY, f64::INFINITY), |(hi, lo), y| (hi.max(y), lo.min(y)))
     };
+    let grid = TriangleGrid::new(mesh);
     let mut layers = Vec::with_capacity(n - 1);
     for k in 1..n {
         let step_v = potentials[k - 1] - potentials[k];
@@ -128,7 +129,7 @@ pub fn condenser_grading(mesh: &Mesh, problem: &Problem, solved: &FactoredSoluti
             electrode_distance(mesh, Electrode::Conductor(foils[k - 1] as u32), Electrode::Conductor(foils[k] as u32));
         let (distance_m, from, to) = gap.map_or((f64::NAN, [0.0; 2], [0.0; 2]), |g| (g.distance, g.from, g.to));
         let max_stress_v_per_m = if distance_m.is_finite() {
-            probe_line(mesh, sol, &[from, to], 41)
+            probe_line_with(&grid, mesh, sol, &[from, to], 41)
                 .iter()
                 .filter(|r| r.region.is_some())
                 .map(|r| r.e[0].hypot(r.e[1]))
