@@ -41,13 +41,16 @@ enum Command {
         /// Element order, overriding the model's `[mesh] order`.
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
-        /// Print the statistics as JSON instead of a table.
         /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
         /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
         #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
         memory_limit: Option<f64>,
+        /// Print the statistics as JSON instead of a table.
         #[arg(long)]
         json: bool,
+        /// Write the VTU file's arrays as decimal text instead of zlib-compressed binary.
+        #[arg(long)]
+        ascii_vtu: bool,
     },
     /// Mesh and solve a model: conductor potentials and charges, capacitance matrix,
     /// stored energy and the peak field in every region; writes results.json and
@@ -61,13 +64,16 @@ enum Command {
         /// Element order, overriding the model's `[mesh] order`.
         #[arg(long, value_parser = clap::value_parser!(u8).range(1..=2))]
         order: Option<u8>,
-        /// Print results.json on stdout instead of the summary.
         /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
         /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
         #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
         memory_limit: Option<f64>,
+        /// Print results.json on stdout instead of the summary.
         #[arg(long)]
         json: bool,
+        /// Write the VTU file's arrays as decimal text instead of zlib-compressed binary.
+        #[arg(long)]
+        ascii_vtu: bool,
     },
     /// The whole job: mesh, solve, estimate the error, refine adaptively until the energy,
     /// charges, floating potentials and peak fields away from singular points settle within
@@ -92,13 +98,16 @@ enum Command {
         /// Most unknowns a mesh may have (at least 1000; the memory budget may lower it).
         #[arg(long, default_value_t = 2_000_000, value_parser = clap::value_parser!(u64).range(1000..))]
         max_unknowns: u64,
-        /// Print results.json on stdout instead of the summary.
         /// Memory the run may plan to use ("8GiB", "500MB"); the node budget is lowered to
         /// fit it. Default: half of the machine's memory (at most 80 % of `ulimit -v`).
         #[arg(long, value_name = "SIZE", value_parser = budget::parse_memory)]
         memory_limit: Option<f64>,
+        /// Print results.json on stdout instead of the summary.
         #[arg(long)]
         json: bool,
+        /// Write the VTU file's arrays as decimal text instead of zlib-compressed binary.
+        #[arg(long)]
+        ascii_vtu: bool,
     },
     /// Dump an intermediate stage for inspection.
     Debug {
@@ -131,16 +140,25 @@ enum DebugCommand {
 /// Exit code of a `check` whose quantities did not all converge within the budget.
 const NOT_CONVERGED: u8 = 3;
 
+/// The VTU encoding the flags ask for.
+fn vtu_encoding(ascii: bool) -> mesher::VtuEncoding {
+    if ascii {
+        mesher::VtuEncoding::Ascii
+    } else {
+        mesher::VtuEncoding::Compressed
+    }
+}
+
 fn main() -> ExitCode {
     let args = Args::parse();
     let result = match args.command {
-        Command::Mesh { model, out, svg, order, memory_limit, json } => {
-            mesh::run(&mesh::MeshRun { model, out, svg, order, json, memory_limit })
+        Command::Mesh { model, out, svg, order, memory_limit, json, ascii_vtu } => {
+            mesh::run(&mesh::MeshRun { model, out, svg, order, json, memory_limit, vtu: vtu_encoding(ascii_vtu) })
         }
-        Command::Solve { model, out, order, memory_limit, json } => {
-            solve::run(&solve::SolveRun { model, out, order, json, memory_limit })
+        Command::Solve { model, out, order, memory_limit, json, ascii_vtu } => {
+            solve::run(&solve::SolveRun { model, out, order, json, memory_limit, vtu: vtu_encoding(ascii_vtu) })
         }
-        Command::Check { model, out, tol, order, max_meshes, max_unknowns, memory_limit, json } => {
+        Command::Check { model, out, tol, order, max_meshes, max_unknowns, memory_limit, json, ascii_vtu } => {
             let converged = check::run(&check::CheckRun {
                 model,
                 out,
@@ -150,6 +168,7 @@ fn main() -> ExitCode {
                 max_unknowns: max_unknowns as usize,
                 json,
                 memory_limit,
+                vtu: vtu_encoding(ascii_vtu),
             });
             match converged {
                 Ok(false) => return ExitCode::from(NOT_CONVERGED),

@@ -76,4 +76,4 @@ pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams, DEFAULT_MAX_SIZE_FRACTION};
 pub use size_field::{BackgroundSize, SizeField, SizeSource};
 pub use triangulate::{generate, generate_with};
-pub use vtu::{write_vtu, CellArray, NodeArray};
+pub use vtu::{read_vtu_array, write_vtu, CellArray, NodeArray, VtuEncoding};

@@ -24,6 +24,8 @@ pub struct MeshRun {
     pub json: bool,
     /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
     pub memory_limit: Option<f64>,
+    /// How `fields.vtu` (or the mesh VTU) is encoded.
+    pub vtu: mesher::VtuEncoding,
 }
 
 /// Runs `fieldgrade mesh`.
@@ -38,7 +40,7 @@ pub fn run(run: &MeshRun) -> Result<()> {
     if let Some(p) = &run.out {
         write_atomic(p, |w| {
             let mut w = w;
-            mesher::write_vtu(&out.mesh, &[], &[], &mut w)
+            mesher::write_vtu(&out.mesh, &[], &[], run.vtu, &mut w)
         })?;
     }
     if let Some(p) = &run.svg {

@@ -26,6 +26,8 @@ pub struct SolveRun {
     pub json: bool,
     /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
     pub memory_limit: Option<f64>,
+    /// How `fields.vtu` (or the mesh VTU) is encoded.
+    pub vtu: mesher::VtuEncoding,
 }
 
 /// Runs `fieldgrade solve`.
@@ -62,7 +64,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     ];
     let json = serde_json::to_string_pretty(&results)?;
     files.push(("results.json".into(), json.clone()));
-    write_outputs(&run.out, mesh, &problem, &analysis, &files)?;
+    write_outputs(&run.out, mesh, &problem, &analysis, &files, run.vtu)?;
     if run.json {
         // The summary carries the warnings; with JSON on stdout they go to stderr too.
         for w in &results.mesh.warnings {

@@ -342,6 +342,7 @@ pub fn write_outputs(
     problem: &Problem,
     analysis: &Analysis,
     extra: &[(String, String)],
+    encoding: mesher::VtuEncoding,
 ) -> Result<()> {
     let (sol, fields) = (&analysis.sol, &analysis.fields);
     std::fs::create_dir_all(out)
@@ -364,6 +365,16 @@ pub fn write_outputs(
         })
         .collect();
     let e_nodal: Vec<f64> = fields.nodal.iter().flat_map(|e| [e[0], e[1], 0.0]).collect();
+    let mut cells = vec![
+        CellArray { name: "E_centroid_V_per_m", components: 3, values: &e_vec },
+        CellArray { name: "E_max_V_per_m", components: 1, values: &e_mag },
+        CellArray { name: "relative_permittivity", components: 1, values: &eps },
+    ];
+    // With scalar permittivities D = ε₀·εᵣ·E_centroid holds exactly and both factors are in
+    // the file: D is written only where a tensor makes it more than their product.
+    if problem.tensor.iter().any(Option::is_some) {
+        cells.insert(2, CellArray { name: "D_centroid_C_per_m2", components: 3, values: &d_vec });
+    }
     write_atomic(&out.join("fields.vtu"), |w| {
         let mut w = w;
         mesher::write_vtu(
@@ -372,12 +383,8 @@ pub fn write_outputs(
                 NodeArray { name: "potential_V", components: 1, values: potential },
                 NodeArray { name: "E_recovered_V_per_m", components: 3, values: &e_nodal },
             ],
-            &[
-                CellArray { name: "E_centroid_V_per_m", components: 3, values: &e_vec },
-                CellArray { name: "E_max_V_per_m", components: 1, values: &e_mag },
-                CellArray { name: "D_centroid_C_per_m2", components: 3, values: &d_vec },
-                CellArray { name: "relative_permittivity", components: 1, values: &eps },
-            ],
+            &cells,
+            encoding,
             &mut w,
         )
     })?;

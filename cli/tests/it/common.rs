@@ -21,7 +21,7 @@ pub fn stdout(o: &Output) -> String {
     String::from_utf8_lossy(&o.stdout).into_owned()
 }
 
-/// A mesh read back from a VTU file written by fieldgrade (ASCII data arrays).
+/// A mesh read back from a VTU file written by fieldgrade (either encoding).
 pub struct VtuMesh {
     /// Point coordinates, metres.
     pub points: Vec<[f64; 2]>,
@@ -29,29 +29,21 @@ pub struct VtuMesh {
     pub triangles: Vec<([usize; 3], i64)>,
 }
 
-/// The whitespace-separated values of the data array named `name` (the unnamed point
-/// coordinates for `None`).
-fn data_array<'a>(text: &'a str, name: Option<&str>) -> Vec<&'a str> {
-    let start = match name {
-        Some(n) => text.find(&format!("Name=\"{n}\"")).unwrap_or_else(|| panic!("no data array {n}")),
-        None => text.find("<Points>").expect("a Points section"),
-    };
-    let body = &text[start..];
-    let open = body.find('>').expect("data array start") + 1;
-    let open = if name.is_none() { open + body[open..].find('>').expect("points data array") + 1 } else { open };
-    let close = body.find("</DataArray>").expect("data array end");
-    body[open..close].split_whitespace().collect()
+/// The values of the data array named `name` (the point coordinates for `None`), through the
+/// project's reader (either encoding).
+pub fn data_array(file: &[u8], name: Option<&str>) -> Vec<f64> {
+    mesher::read_vtu_array(file, name).unwrap_or_else(|e| panic!("{name:?}: {e}"))
 }
 
 /// Reads the triangles of a VTU file fieldgrade wrote (VTK cell types 5 and 22).
 pub fn read_vtu(path: &Path) -> VtuMesh {
-    let text = std::fs::read_to_string(path).unwrap();
-    let xyz: Vec<f64> = data_array(&text, None).iter().map(|v| v.parse().unwrap()).collect();
+    let text = std::fs::read(path).unwrap();
+    let xyz = data_array(&text, None);
     let points = xyz.chunks(3).map(|c| [c[0], c[1]]).collect();
-    let conn: Vec<usize> = data_array(&text, Some("connectivity")).iter().map(|v| v.parse().unwrap()).collect();
-    let offsets: Vec<usize> = data_array(&text, Some("offsets")).iter().map(|v| v.parse().unwrap()).collect();
-    let types: Vec<u8> = data_array(&text, Some("types")).iter().map(|v| v.parse().unwrap()).collect();
-    let region: Vec<i64> = data_array(&text, Some("region")).iter().map(|v| v.parse().unwrap()).collect();
+    let conn: Vec<usize> = data_array(&text, Some("connectivity")).iter().map(|&v| v as usize).collect();
+    let offsets: Vec<usize> = data_array(&text, Some("offsets")).iter().map(|&v| v as usize).collect();
+    let types: Vec<u8> = data_array(&text, Some("types")).iter().map(|&v| v as u8).collect();
+    let region: Vec<i64> = data_array(&text, Some("region")).iter().map(|&v| v as i64).collect();
     let mut triangles = Vec::new();
     let mut start = 0;
     for (k, (&end, &ty)) in offsets.iter().zip(&types).enumerate() {

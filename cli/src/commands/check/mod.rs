@@ -52,6 +52,8 @@ pub struct CheckRun {
     pub json: bool,
     /// Memory budget, bytes (`--memory-limit`; default: see `budget`).
     pub memory_limit: Option<f64>,
+    /// How `fields.vtu` (or the mesh VTU) is encoded.
+    pub vtu: mesher::VtuEncoding,
 }
 
 /// Runs `fieldgrade check`.
@@ -189,7 +191,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let json = serde_json::to_string_pretty(&results)?;
     files.push(("convergence.csv".into(), convergence_csv(&results.convergence)));
     files.push(("results.json".into(), json.clone()));
-    write_outputs(&run.out, &mesh, &problem, &analysis, &files)?;
+    write_outputs(&run.out, &mesh, &problem, &analysis, &files, run.vtu)?;
     if run.json {
         for w in &results.solve.mesh.warnings {
             eprintln!("warning: {w}");
