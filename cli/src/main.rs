@@ -109,6 +109,12 @@ enum Command {
         #[arg(long)]
         ascii_vtu: bool,
     },
+    /// Build the report (report.html and its SVG plots) of a results folder that `solve` or
+    /// `check` wrote, without solving (`check` writes it itself).
+    Report {
+        /// The results folder.
+        dir: PathBuf,
+    },
     /// Dump an intermediate stage for inspection.
     Debug {
         #[command(subcommand)]
@@ -175,6 +181,7 @@ fn main() -> ExitCode {
                 other => other.map(|_| ()),
             }
         }
+        Command::Report { dir } => fieldgrade::results::report::write_report(&dir),
         Command::Debug { what: DebugCommand::Matrix { model, out, order, memory_limit } } => {
             debug::dump_matrix(&model, &out, order, memory_limit)
         }

@@ -6,6 +6,7 @@
 pub mod check;
 pub mod checks;
 pub mod mesh;
+pub mod report;
 pub mod solve;
 pub mod svg;
 pub mod write;

@@ -20,5 +20,7 @@ mod grading;
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.
 mod outputs;
+/// The HTML report and its plots.
+mod report;
 /// `fieldgrade solve`: results, closed-form check, errors.
 mod solve;

@@ -192,6 +192,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     files.push(("convergence.csv".into(), convergence_csv(&results.convergence)));
     files.push(("results.json".into(), json.clone()));
     write_outputs(&run.out, &mesh, &problem, &analysis, &files, run.vtu)?;
+    crate::results::report::write_report(&run.out)?;
     if run.json {
         for w in &results.solve.mesh.warnings {
             eprintln!("warning: {w}");

@@ -1,0 +1,401 @@
+//! The engineer's report: one self-contained HTML page (`report.html`) built from a results
+//! folder — `results.json` and the CSV files beside it — with its plots as SVG files beside
+//! it (`plot-*.svg`, drawn by the plotters crate) and inline. It reads only what `solve` or
+//! `check` wrote, so `fieldgrade report DIR` rebuilds it without solving.
+//!
+//! First part of the report: model summary, the breakdown checks per load case with their
+//! verdicts, the convergence table and plot, the singular points, the stress along each
+//! creepage path and line probe, the cautions. (The stress map and zoomed views are to come.)
+
+use crate::results::write::write_atomic;
+use crate::{CliError, Result};
+use plotters::prelude::*;
+use serde_json::Value;
+use std::fmt::Write as _;
+use std::path::Path;
+
+/// HTML-escapes text.
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+}
+
+/// A number of a JSON value in a short form, "-" when absent.
+fn num(v: &Value, digits: usize) -> String {
+    match v.as_f64() {
+        Some(x) if x != 0.0 && (x.abs() < 1e-3 || x.abs() >= 1e5) => format!("{x:.digits$e}"),
+        Some(x) => format!("{x:.digits$}"),
+        None => "-".into(),
+    }
+}
+
+/// A table from a header row and body rows (already escaped).
+fn table(html: &mut String, head: &[&str], rows: &[Vec<String>]) {
+    html.push_str("<table>\n<tr>");
+    for h in head {
+        let _ = write!(html, "<th>{}</th>", esc(h));
+    }
+    html.push_str("</tr>\n");
+    for r in rows {
+        html.push_str("<tr>");
+        for c in r {
+            let _ = write!(html, "<td>{c}</td>");
+        }
+        html.push_str("</tr>\n");
+    }
+    html.push_str("</table>\n");
+}
+
+/// Reads a CSV file the run wrote: header names and numeric columns (non-numbers as NaN).
+fn read_csv(path: &Path) -> Option<(Vec<String>, Vec<Vec<f64>>)> {
+    let text = std::fs::read_to_string(path).ok()?;
+    let mut lines = text.lines();
+    let head: Vec<String> = lines.next()?.split(',').map(str::to_string).collect();
+    let mut cols = vec![Vec::new(); head.len()];
+    for l in lines {
+        for (k, v) in l.split(',').enumerate().take(head.len()) {
+            cols[k].push(v.parse::<f64>().unwrap_or(f64::NAN));
+        }
+    }
+    Some((head, cols))
+}
+
+/// A line plot of series (name, points) into an SVG string.
+fn line_plot(title: &str, x_label: &str, y_label: &str, series: &[(String, Vec<(f64, f64)>)], log: bool) -> String {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (760, 420)).into_drawing_area();
+        let _ = root.fill(&WHITE);
+        let pts = series.iter().flat_map(|s| s.1.iter()).filter(|p| p.0.is_finite() && p.1.is_finite());
+        let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+        for &(x, y) in pts.filter(|p| !log || (p.0 > 0.0 && p.1 > 0.0)) {
+            (x0, x1, y0, y1) = (x0.min(x), x1.max(x), y0.min(y), y1.max(y));
+        }
+        if !x0.is_finite() {
+            (x0, x1, y0, y1) = (1.0, 10.0, 1.0, 10.0);
+        }
+        if x1 <= x0 {
+            x1 = x0 * 1.1 + 1.0;
+        }
+        if y1 <= y0 {
+            y1 = y0.abs() * 1.1 + 1e-30;
+        }
+        // Colour-blind-safe qualitative palette (Okabe & Ito 2008).
+        let palette = [
+            RGBColor(0, 114, 178),
+            RGBColor(213, 94, 0),
+            RGBColor(0, 158, 115),
+            RGBColor(204, 121, 167),
+            RGBColor(230, 159, 0),
+            RGBColor(86, 180, 233),
+            RGBColor(0, 0, 0),
+            RGBColor(240, 228, 66),
+        ];
+        // The same drawing on a linear or a logarithmic chart (a macro: the two charts'
+        // coordinate types differ).
+        macro_rules! draw {
+            ($chart:expr) => {
+                for (k, (name, p)) in series.iter().enumerate() {
+                    let c = palette[k % palette.len()];
+                    let p: Vec<(f64, f64)> = p
+                        .iter()
+                        .copied()
+                        .filter(|q| q.0.is_finite() && q.1.is_finite() && (!log || q.1 > 0.0))
+                        .collect();
+                    if let Ok(s) = $chart.draw_series(LineSeries::new(p.clone(), c.stroke_width(2))) {
+                        s.label(name.clone()).legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], c));
+                    }
+                    if log {
+                        let _ = $chart.draw_series(p.iter().map(|q| Circle::new(*q, 3, c.filled())));
+                    }
+                }
+            };
+        }
+        let caption = (title, ("sans-serif", 18));
+        if log {
+            if let Ok(mut chart) = ChartBuilder::on(&root)
+                .caption(caption.0, caption.1)
+                .margin(10)
+                .x_label_area_size(40)
+                .y_label_area_size(70)
+                .build_cartesian_2d((x0 * 0.9..x1 * 1.1).log_scale(), (y0 * 0.5..y1 * 2.0).log_scale())
+            {
+                let _ = chart
+                    .configure_mesh()
+                    .x_desc(x_label)
+                    .y_desc(y_label)
+                    .x_label_formatter(&|v| format!("{v:.0e}"))
+                    .y_label_formatter(&|v| format!("{v:.0e}"))
+                    .draw();
+                draw!(chart);
+                let _ = chart
+                    .configure_series_labels()
+                    .position(SeriesLabelPosition::LowerLeft)
+                    .label_font(("sans-serif", 11))
+                    .background_style(WHITE.mix(0.85))
+                    .border_style(BLACK)
+                    .draw();
+            }
+        } else if let Ok(mut chart) = ChartBuilder::on(&root)
+            .caption(caption.0, caption.1)
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, y0.min(0.0)..y1 * 1.05)
+        {
+            let _ = chart.configure_mesh().x_desc(x_label).y_desc(y_label).draw();
+            draw!(chart);
+            let _ = chart.configure_series_labels().background_style(WHITE.mix(0.8)).border_style(BLACK).draw();
+        }
+        let _ = root.present();
+    }
+    svg
+}
+
+/// Builds `DIR/report.html` and its `plot-*.svg` files from the results in `dir`.
+///
+/// # Errors
+/// A missing or unreadable `results.json`, or a file that cannot be written.
+pub fn write_report(dir: &Path) -> Result<()> {
+    let path = dir.join("results.json");
+    let text = std::fs::read_to_string(&path)
+        .map_err(|e| CliError::io(format!("cannot read '{}' (run `fieldgrade check` first)", path.display()), e))?;
+    let r: Value = serde_json::from_str(&text)?;
+    let mut plots: Vec<(String, String)> = Vec::new();
+    let mut h = String::new();
+    let model = r["mesh"]["model"].as_str().unwrap_or("model");
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n<title>fieldgrade report: {}</title>\n<style>\nbody {{ font-family: sans-serif; max-width: 1100px; margin: 2em auto; color: #222; }}\ntable {{ border-collapse: collapse; margin: 0.5em 0 1.5em; }}\nth, td {{ border: 1px solid #bbb; padding: 0.2em 0.5em; text-align: right; }}\nth {{ background: #eee; }}\ntd.fail {{ background: #f4c7b8; }} td.pass {{ background: #cfe8d5; }} td.undecided {{ background: #fbe6a2; }}\nfigure {{ margin: 1em 0; }}\n</style>\n</head>\n<body>\n<h1>{}</h1>\n",
+        esc(model),
+        esc(model)
+    );
+    // Summary.
+    h.push_str("<h2>Model</h2>\n");
+    let m = &r["mesh"];
+    let _ = writeln!(
+        h,
+        "<p>{} model, length unit {}; mesh of {} nodes and {} triangles (order {}), {} unknowns.</p>",
+        esc(m["symmetry"].as_str().unwrap_or("")),
+        esc(m["length_unit"].as_str().unwrap_or("")),
+        m["nodes"],
+        m["triangles"],
+        m["order"],
+        r["unknowns"]
+    );
+    let regions: Vec<Vec<String>> = m["regions"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|g| {
+            vec![
+                esc(g["name"].as_str().unwrap_or("")),
+                esc(g["material"].as_str().unwrap_or("")),
+                num(&g["permittivity"], 3),
+                num(&g["allowable_kv_per_mm"], 2),
+            ]
+        })
+        .collect();
+    table(&mut h, &["region", "material", "relative permittivity", "allowable kV/mm"], &regions);
+    let conductors: Vec<Vec<String>> = r["conductors"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|c| {
+            vec![
+                esc(c["name"].as_str().unwrap_or("")),
+                if c["floating"].as_bool() == Some(true) { "floating".into() } else { "fixed".into() },
+                num(&c["potential_v"], 4),
+                num(&c["charge_c"], 4),
+            ]
+        })
+        .collect();
+    table(&mut h, &["conductor", "held", "potential V", "charge C"], &conductors);
+    // Checks per load case.
+    let checks = &r["checks"];
+    h.push_str("<h2>Breakdown checks</h2>\n");
+    for case in checks["load_cases"].as_array().into_iter().flatten() {
+        let _ = writeln!(
+            h,
+            "<h3>Load case {} ({}, {})</h3>\n<p>{} kV on {}; stresses × {}.</p>",
+            esc(case["name"].as_str().unwrap_or("")),
+            esc(case["kind"].as_str().unwrap_or("")),
+            esc(case["basis"].as_str().unwrap_or("")),
+            num(&(case["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
+            esc(case["reference"].as_str().unwrap_or("")),
+            num(&case["scale"], 4)
+        );
+        let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
+        let verdict = |p: &Value| {
+            let v = p["verdict"].as_str().unwrap_or("");
+            let cert =
+                if p["certified"].as_bool() == Some(true) || v == "no allowable" { "" } else { " (uncertified)" };
+            format!("{v}{cert}")
+        };
+        let mut rows: Vec<Vec<String>> = Vec::new();
+        for g in case["regions"].as_array().into_iter().flatten() {
+            let p = &g["peak"];
+            rows.push(vec![
+                esc(g["region"].as_str().unwrap_or("")),
+                kv(&p["e_v_per_m"]),
+                kv(&p["error_bar_v_per_m"]),
+                num(&p["allowable_kv_per_mm"], 2),
+                num(&p["utilisation"], 3),
+                num(&p["margin"], 3),
+                verdict(p),
+            ]);
+        }
+        for t in case["interfaces"].as_array().into_iter().flatten() {
+            let p = &t["e_t"];
+            rows.push(vec![
+                format!("tangential on {}", esc(t["probe"].as_str().unwrap_or(""))),
+                kv(&p["e_v_per_m"]),
+                kv(&p["error_bar_v_per_m"]),
+                num(&p["allowable_kv_per_mm"], 2),
+                num(&p["utilisation"], 3),
+                num(&p["margin"], 3),
+                verdict(p),
+            ]);
+        }
+        for g in case["gas"].as_array().into_iter().flatten() {
+            rows.push(vec![
+                format!("discharge inception in {}", esc(g["region"].as_str().unwrap_or(""))),
+                format!("{} kV peak", num(&(g["peak_voltage_v"].as_f64().map(|v| v / 1e3).into()), 3)),
+                "-".into(),
+                format!("{} kV", num(&(g["inception_voltage_v"].as_f64().map(|v| v / 1e3).into()), 3)),
+                "-".into(),
+                num(&g["margin"], 3),
+                esc(g["verdict"].as_str().unwrap_or("")),
+            ]);
+        }
+        for row in &mut rows {
+            let v = row[6].split(' ').next().unwrap_or("").to_string();
+            row[6] = format!("<span class=\"{v}\">{}</span>", row[6]);
+        }
+        table(&mut h, &["check", "E kV/mm", "± kV/mm", "allowable", "utilisation", "margin", "verdict"], &rows);
+    }
+    // Convergence.
+    if let Some(conv) = r["convergence"].as_array() {
+        h.push_str("<h2>Convergence</h2>\n");
+        let rows: Vec<Vec<String>> = conv
+            .iter()
+            .map(|q| {
+                let b = &q["error_bar"];
+                vec![
+                    esc(q["quantity"].as_str().unwrap_or("")),
+                    esc(q["unit"].as_str().unwrap_or("")),
+                    num(&b["value"], 6),
+                    num(&b["absolute"], 2),
+                    num(&b["relative"], 2),
+                    num(&q["observed_order"], 2),
+                    esc(b["status"].as_str().unwrap_or("")),
+                ]
+            })
+            .collect();
+        table(&mut h, &["quantity", "unit", "value", "± bar", "relative bar", "order", "verdict"], &rows);
+        // Relative bar of every quantity against the unknowns.
+        let series: Vec<(String, Vec<(f64, f64)>)> = conv
+            .iter()
+            .map(|q| {
+                let pts = q["sequence"]
+                    .as_array()
+                    .into_iter()
+                    .flatten()
+                    .filter_map(|s| {
+                        let n = s["unknowns"].as_f64()?;
+                        let v = s["value"].as_f64()?.abs();
+                        Some((n, s["error_bar"].as_f64()? / v.max(f64::MIN_POSITIVE)))
+                    })
+                    .collect();
+                (q["quantity"].as_str().unwrap_or("").to_string(), pts)
+            })
+            .collect();
+        let svg =
+            line_plot("relative error bar of every watched quantity", "unknowns", "relative error bar", &series, true);
+        plots.push(("plot-convergence.svg".into(), svg));
+    }
+    // Singular points.
+    if let Some(sp) = r["singular_points"].as_array() {
+        h.push_str("<h2>Singular points</h2>\n");
+        let rows: Vec<Vec<String>> = sp
+            .iter()
+            .map(|s| {
+                vec![
+                    esc(s["id"].as_str().unwrap_or("")),
+                    esc(s["kind"].as_str().unwrap_or("")),
+                    num(&s["lambda"], 4),
+                    num(&s["coefficient"], 4),
+                    esc(s["note"].as_str().unwrap_or("")),
+                ]
+            })
+            .collect();
+        table(&mut h, &["point", "kind", "λ", "coefficient A", "note"], &rows);
+    }
+    // Paths: creepage files and line probes.
+    for c in checks["creepage"].as_array().into_iter().flatten() {
+        let file = c["file"].as_str().unwrap_or("");
+        if let Some((head, cols)) = read_csv(&dir.join(file)) {
+            let col = |n: &str| head.iter().position(|h| h == n).map(|k| &cols[k]);
+            if let (Some(ch), Some(s), Some(et), Some(en)) =
+                (col("chain"), col("s_m"), col("et_v_per_m"), col("en_1_v_per_m"))
+            {
+                // One curve per chain of the interface (its flanks), each from its own start.
+                let chains = ch.iter().fold(0.0f64, |m, &c| m.max(c)) as usize + 1;
+                let mut series = Vec::new();
+                for k in 0..chains {
+                    let pts = |y: &Vec<f64>| {
+                        (0..s.len())
+                            .filter(|&i| ch[i] as usize == k)
+                            .map(|i| (s[i] * 1e3, y[i].abs() / 1e6))
+                            .collect::<Vec<_>>()
+                    };
+                    series.push((format!("|E_t|, chain {}", k + 1), pts(et)));
+                    series.push((format!("|E_n| side 1, chain {}", k + 1), pts(en)));
+                }
+                let svg = line_plot(
+                    &format!("field along {} (model potentials)", c["probe"].as_str().unwrap_or("")),
+                    "s along each chain, mm",
+                    "kV/mm",
+                    &series,
+                    false,
+                );
+                plots.push((format!("plot-{}.svg", file.trim_end_matches(".csv")), svg));
+            }
+        }
+    }
+    for p in r["probes"].as_array().into_iter().flatten().filter(|p| p["kind"] == "line") {
+        let file = p["file"].as_str().unwrap_or("");
+        if let Some((head, cols)) = read_csv(&dir.join(file)) {
+            let col = |n: &str| head.iter().position(|h| h == n).map(|k| &cols[k]);
+            if let (Some(s), Some(e)) = (col("s_m"), col("e_v_per_m")) {
+                let pts: Vec<(f64, f64)> = s.iter().zip(e).map(|(a, b)| (a * 1e3, b / 1e6)).collect();
+                let svg = line_plot(
+                    &format!("|E| along {} (model potentials)", p["name"].as_str().unwrap_or("")),
+                    "s, mm",
+                    "kV/mm",
+                    &[("|E|".into(), pts)],
+                    false,
+                );
+                plots.push((format!("plot-{}.svg", file.trim_end_matches(".csv")), svg));
+            }
+        }
+    }
+    if !plots.is_empty() {
+        h.push_str("<h2>Plots</h2>\n");
+        for (name, svg) in &plots {
+            // Inline (the page is self-contained) and beside it as a file.
+            let body = svg.find("<svg").map_or(svg.as_str(), |k| &svg[k..]);
+            let _ =
+                writeln!(h, "<figure id=\"{}\">\n{body}\n<figcaption>{}</figcaption>\n</figure>", esc(name), esc(name));
+        }
+    }
+    h.push_str("<h2>Cautions</h2>\n<ul>\n");
+    for c in r["cautions"].as_array().into_iter().flatten().chain(checks["cautions"].as_array().into_iter().flatten()) {
+        let _ = writeln!(h, "<li>{}</li>", esc(c.as_str().unwrap_or("")));
+    }
+    h.push_str("<li>A 2-D model: planar results are per metre of depth, axisymmetric ones assume rotational symmetry; three-dimensional features are not represented.</li>\n");
+    h.push_str("</ul>\n</body>\n</html>\n");
+    for (name, svg) in &plots {
+        write_atomic(&dir.join(name), |w| w.write_all(svg.as_bytes()))?;
+    }
+    write_atomic(&dir.join("report.html"), |w| w.write_all(h.as_bytes()))
+}
