@@ -3,7 +3,7 @@
 
 use super::diag::ModelError;
 use super::raw::RawModel;
-use super::{Conductor, ConductorKind, Ctx, LIMIT_HELP, MAX_POTENTIAL_V};
+use super::{Conductor, ConductorKind, Ctx};
 use mesher::OuterBoundary;
 
 /// `[boundary]` and the potential reference: the outer boundary's kind and potential, and
@@ -34,18 +34,7 @@ pub(super) fn boundary(
                         .key("boundary.potential_v")
                         .help("add potential_v = 0.0 for an earthed enclosure")
                 })?;
-                let x = *v.get_ref();
-                if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                    return Err(cx
-                        .err(
-                            v.span(),
-                            format!(
-                                "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
-                            ),
-                        )
-                        .key("boundary.potential_v")
-                        .help(LIMIT_HELP));
-                }
+                let x = cx.potential(v, "boundary.potential_v".into())?;
                 outer = OuterBoundary::FixedPotential;
                 outer_potential_v = Some(x);
             }

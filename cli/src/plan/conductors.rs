@@ -2,7 +2,7 @@
 
 use super::diag::ModelError;
 use super::raw::RawModel;
-use super::{Conductor, ConductorKind, Ctx, LIMIT_HELP, MAX_CHARGE_C, MAX_POTENTIAL_V};
+use super::{Conductor, ConductorKind, Ctx, LIMIT_HELP, MAX_CHARGE_C};
 
 /// `[[conductor]]`: names unique, a fixed potential or floating (with its charge), in range.
 pub(super) fn conductors(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Conductor>, ModelError> {
@@ -21,18 +21,7 @@ pub(super) fn conductors(cx: &Ctx<'_>, raw: &RawModel) -> Result<Vec<Conductor>,
         let kind =
             match (&c.potential_v, floating) {
                 (Some(v), false) => {
-                    let x = *v.get_ref();
-                    if !(x.is_finite() && x.abs() <= MAX_POTENTIAL_V) {
-                        return Err(cx
-                            .err(
-                                v.span(),
-                                format!(
-                            "the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"
-                        ),
-                            )
-                            .key(format!("conductor[{i}].potential_v"))
-                            .help(LIMIT_HELP));
-                    }
+                    let x = cx.potential(v, format!("conductor[{i}].potential_v"))?;
                     if let Some(q) = &c.charge_c {
                         return Err(cx
                             .err(q.span(), "a conductor at a fixed potential cannot also have a given charge".into())

@@ -355,6 +355,22 @@ impl Ctx<'_> {
         }
     }
 
+    /// A potential within the accepted range, volts.
+    fn potential(&self, v: &S<f64>, key: String) -> Result<f64, ModelError> {
+        let x = *v.get_ref();
+        if x.is_finite() && x.abs() <= MAX_POTENTIAL_V {
+            Ok(x)
+        } else {
+            Err(self
+                .err(
+                    v.span(),
+                    format!("the potential must be a finite number of volts within ±{MAX_POTENTIAL_V:e}, not {x:e}"),
+                )
+                .key(key)
+                .help(LIMIT_HELP))
+        }
+    }
+
     /// A point in the model unit, within the coordinate range, in metres.
     fn finite_xy(&self, v: &S<[f64; 2]>, key: String) -> Result<Xy, ModelError> {
         let unit_m = self.unit_m;

@@ -231,30 +231,24 @@ pub fn write_report(dir: &Path) -> Result<()> {
                 if p["certified"].as_bool() == Some(true) || v == "no allowable" { "" } else { " (uncertified)" };
             format!("{v}{cert}")
         };
+        // A checked stress: label, value, bar, allowable, utilisation, margin, verdict.
+        let row = |label: String, p: &Value| {
+            vec![
+                label,
+                kv(&p["e_v_per_m"]),
+                kv(&p["error_bar_v_per_m"]),
+                num(&p["allowable_kv_per_mm"], 2),
+                num(&p["utilisation"], 3),
+                num(&p["margin"], 3),
+                verdict(p),
+            ]
+        };
         let mut rows: Vec<Vec<String>> = Vec::new();
         for g in case["regions"].as_array().into_iter().flatten() {
-            let p = &g["peak"];
-            rows.push(vec![
-                esc(g["region"].as_str().unwrap_or("")),
-                kv(&p["e_v_per_m"]),
-                kv(&p["error_bar_v_per_m"]),
-                num(&p["allowable_kv_per_mm"], 2),
-                num(&p["utilisation"], 3),
-                num(&p["margin"], 3),
-                verdict(p),
-            ]);
+            rows.push(row(esc(g["region"].as_str().unwrap_or("")), &g["peak"]));
         }
         for t in case["interfaces"].as_array().into_iter().flatten() {
-            let p = &t["e_t"];
-            rows.push(vec![
-                format!("tangential on {}", esc(t["probe"].as_str().unwrap_or(""))),
-                kv(&p["e_v_per_m"]),
-                kv(&p["error_bar_v_per_m"]),
-                num(&p["allowable_kv_per_mm"], 2),
-                num(&p["utilisation"], 3),
-                num(&p["margin"], 3),
-                verdict(p),
-            ]);
+            rows.push(row(format!("tangential on {}", esc(t["probe"].as_str().unwrap_or(""))), &t["e_t"]));
         }
         for g in case["gas"].as_array().into_iter().flatten() {
             rows.push(vec![
