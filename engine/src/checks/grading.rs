@@ -74,42 +74,15 @@ pub fn condenser_grading(mesh: &Mesh, problem: &Problem, solved: &FactoredSoluti
     let n = foils.len();
     let inner: Vec<usize> = (1..n - 1).collect();
     let series_capacitance_f = {
-        let m = inner.len();
-        let ends = [0, n - 1];
-        let mut a = vec![vec![0.0; m]; m];
-        for (r, &i) in inner.iter().enumerate() {
-            for (c, &j) in inner.iter().enumerate() {
-                a[r][c] = sub(i, j);
-            }
-        }
-        // Solve A·X = C_ie for the two end columns (Gaussian elimination; m is small and A
-        // is symmetric positive definite).
-        let mut x: Vec<[f64; 2]> = inner.iter().map(|&i| [sub(i, ends[0]), sub(i, ends[1])]).collect();
-        for k in 0..m {
-            let p = a[k][k];
-            let row_k = a[k].clone();
-            for r in k + 1..m {
-                let f = a[r][k] / p;
-                for (v, w) in a[r].iter_mut().zip(&row_k).skip(k) {
-                    *v -= f * w;
-                }
-                let xk = x[k];
-                x[r][0] -= f * xk[0];
-                x[r][1] -= f * xk[1];
-            }
-        }
-        for k in (0..m).rev() {
-            for c in k + 1..m {
-                let xc = x[c];
-                x[k][0] -= a[k][c] * xc[0];
-                x[k][1] -= a[k][c] * xc[1];
-            }
-            x[k][0] /= a[k][k];
-            x[k][1] /= a[k][k];
-        }
-        let c01 =
-            sub(ends[0], ends[1]) - inner.iter().enumerate().map(|(r, &i)| sub(ends[0], i) * x[r][1]).sum::<f64>();
-        -c01
+        let a: Vec<Vec<f64>> = inner.iter().map(|&i| inner.iter().map(|&j| sub(i, j)).collect()).collect();
+        let a_inv = crate::solve::invert(&a);
+        // C_01 − Σ C_0i·(C_ii⁻¹)_ij·C_j1.
+        let correction: f64 = inner
+            .iter()
+            .enumerate()
+            .map(|(r, &i)| inner.iter().enumerate().map(|(c, &j)| sub(0, i) * a_inv[r][c] * sub(j, n - 1)).sum::<f64>())
+            .sum();
+        -(sub(0, n - 1) - correction)
     };
     let potentials: Vec<f64> = foils.iter().map(|&f| sol.conductor_potentials[f]).collect();
     // The upper and lower ends (largest and smallest y) of each foil's surface.

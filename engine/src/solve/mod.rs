@@ -349,8 +349,9 @@ impl FactoredSolution {
     }
 }
 
-/// The inverse of a small dense matrix by Gauss–Jordan elimination with partial pivoting.
-fn invert(a: &[Vec<f64>]) -> Vec<Vec<f64>> {
+/// The inverse of a small dense matrix by Gauss–Jordan elimination with partial pivoting
+/// (the capacitance blocks of a few conductors; an empty matrix gives an empty inverse).
+pub(crate) fn invert(a: &[Vec<f64>]) -> Vec<Vec<f64>> {
     let n = a.len();
     let mut m: Vec<Vec<f64>> = a
         .iter()
