@@ -6,9 +6,9 @@
 use crate::plan::{ElectrodeRef, LoadCase, Plan};
 use crate::results::solve::interface_selector;
 use engine::{
-    condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, probe_interface,
-    singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check, stressed_volume,
-    trace_field_lines, Electrode, FactoredSolution, GasKind, LineEnd, PeakSite, Problem, Solution, StressCheck,
+    condenser_grading, creepage_path, electrode_distance, field_utilisation, probe_interface,
+    singular_coefficient_dual, singular_field_factor, singular_radius_above, stress_check, stressed_volume, Electrode,
+    FactoredSolution, GasKind, LineEnd, PeakSite, Problem, StressCheck,
 };
 use mesher::{Mesh, Xy};
 use serde::Serialize;
@@ -493,7 +493,7 @@ pub fn breakdown_checks(
         .collect();
     let mut files = Vec::new();
     lap.mark("creepage paths");
-    let gas = gas_checks(plan, mesh, sol, &mut files);
+    let gas = gas_checks(plan, mesh, solved, &mut files);
     lap.mark("gas");
     let grading = grading_checks(plan, mesh, problem, solved);
     lap.mark("grading");
@@ -741,7 +741,12 @@ pub fn breakdown_checks(
 
 /// The discharge-inception check of every gas region: field lines from the most stressed
 /// conductor points, the streamer criterion along each, the weakest line; its CSV into `files`.
-fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String, String)>) -> Vec<GasResult> {
+fn gas_checks(
+    plan: &Plan,
+    mesh: &Mesh,
+    solved: &FactoredSolution,
+    files: &mut Vec<(String, String)>,
+) -> Vec<GasResult> {
     let u_ref = crate::plan::largest_potential(&plan.conductors, plan.outer_potential_v);
     let mut regions: Vec<u32> = mesh.regions.clone();
     regions.sort_unstable();
@@ -753,8 +758,8 @@ fn gas_checks(plan: &Plan, mesh: &Mesh, sol: &Solution, files: &mut Vec<(String,
         .filter_map(|r| {
             let m = plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m])?;
             let gas = m.gas?;
-            let starts = field_line_starts(mesh, sol, r, plan.breakdown.field_lines, separation);
-            let traced = trace_field_lines(mesh, sol, r, &starts);
+            let starts = solved.field_line_starts(mesh, r, plan.breakdown.field_lines, separation);
+            let traced = solved.trace_field_lines(mesh, r, &starts);
             let lines: Vec<FieldLineResult> = traced
                 .iter()
                 .map(|l| {

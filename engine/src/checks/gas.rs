@@ -212,7 +212,7 @@ struct RegionField<'a> {
     mesh: &'a Mesh,
     region: u32,
     grid: TriangleGrid,
-    primal: PrimalRecovery,
+    primal: &'a PrimalRecovery,
     potential: &'a [f64],
 }
 
@@ -255,8 +255,19 @@ const ERR: [f64; 7] =
 #[track_caller]
 pub fn field_line_starts(mesh: &Mesh, solution: &Solution, region: u32, count: usize, separation: f64) -> Vec<Xy> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let primal = PrimalRecovery::new(mesh, &solution.potential);
-    let values = crate::fields::region_vertex_values(mesh, solution, &primal);
+    field_line_starts_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), region, count, separation)
+}
+
+/// [`field_line_starts`] with the solution's recovery already made.
+pub(crate) fn field_line_starts_with(
+    mesh: &Mesh,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+    region: u32,
+    count: usize,
+    separation: f64,
+) -> Vec<Xy> {
+    let values = crate::fields::region_vertex_values(mesh, solution, primal);
     let mut on_conductor = vec![false; mesh.nodes.len()];
     for e in &mesh.edges {
         if let mesher::EdgeTag::Conductor(_) = e.tag {
@@ -290,13 +301,18 @@ pub fn field_line_starts(mesh: &Mesh, solution: &Solution, region: u32, count: u
 #[track_caller]
 pub fn trace_field_lines(mesh: &Mesh, solution: &Solution, region: u32, starts: &[Xy]) -> Vec<FieldLine> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
-    let field = RegionField {
-        mesh,
-        region,
-        grid: TriangleGrid::new(mesh),
-        primal: PrimalRecovery::new(mesh, &solution.potential),
-        potential: &solution.potential,
-    };
+    trace_field_lines_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), region, starts)
+}
+
+/// [`trace_field_lines`] with the solution's recovery already made.
+pub(crate) fn trace_field_lines_with(
+    mesh: &Mesh,
+    solution: &Solution,
+    primal: &PrimalRecovery,
+    region: u32,
+    starts: &[Xy],
+) -> Vec<FieldLine> {
+    let field = RegionField { mesh, region, grid: TriangleGrid::new(mesh), primal, potential: &solution.potential };
     let max_len = 4.0 * mesh.scale();
     starts
         .iter()

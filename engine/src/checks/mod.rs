@@ -43,7 +43,7 @@
 
 mod creepage;
 mod gap;
-mod gas;
+pub(crate) mod gas;
 mod grading;
 pub(crate) mod peaks;
 mod verdict;

@@ -233,6 +233,18 @@ impl FactoredSolution {
         crate::checks::peaks::local_peaks_with(mesh, &self.solution, self.recovery(mesh), discs, per_region, separation)
     }
 
+    /// Starting points of field lines in `region`, as [`crate::field_line_starts`] finds them,
+    /// with the recovery shared by the mesh's other estimates.
+    pub fn field_line_starts(&self, mesh: &Mesh, region: u32, count: usize, separation: f64) -> Vec<Xy> {
+        crate::checks::gas::field_line_starts_with(mesh, &self.solution, self.recovery(mesh), region, count, separation)
+    }
+
+    /// Field lines in `region`, as [`crate::trace_field_lines`] traces them, on the shared
+    /// recovery.
+    pub fn trace_field_lines(&self, mesh: &Mesh, region: u32, starts: &[Xy]) -> Vec<crate::FieldLine> {
+        crate::checks::gas::trace_field_lines_with(mesh, &self.solution, self.recovery(mesh), region, starts)
+    }
+
     /// The Maxwell capacitance matrix among all conductors, fixed and floating, each held as
     /// a terminal (a held outer boundary at 0 V), indexed by conductor: entry (i, j) is the
     /// charge on conductor i with conductor j at 1 V and every other at 0 V, F (F/m planar).
