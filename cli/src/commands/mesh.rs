@@ -2,7 +2,7 @@
 
 use crate::plan;
 use crate::results::mesh::{render_text, report};
-use crate::results::svg::write_mesh_svg;
+use crate::results::picture::{mesh_picture, Mark, Part};
 use crate::results::write::write_atomic;
 use crate::CliError;
 use crate::Result;
@@ -44,7 +44,13 @@ pub fn run(run: &MeshRun) -> Result<()> {
         })?;
     }
     if let Some(p) = &run.svg {
-        write_atomic(p, |w| write_mesh_svg(&out.mesh, &model.name, model.unit_m, model.unit, w))?;
+        let part = Part::from_mesh(&out.mesh, &rep.regions, model.unit_m, model.unit);
+        let marks: Vec<Mark> = (out.mesh.singular_points.iter().enumerate())
+            .map(|(i, s)| Mark { label: format!("S{}", i + 1), at: s.at, singular: true })
+            .collect();
+        let title = format!("{}: {} triangles", model.name, out.mesh.num_triangles());
+        let pic = mesh_picture(&part, &title, part.extent(), "mesh", &marks);
+        write_atomic(p, |w| w.write_all(pic.svg.as_bytes()))?;
     }
     if std::env::var_os("FIELDGRADE_TIMINGS").is_some() {
         for (k, t) in &out.timings {

@@ -59,6 +59,10 @@ pub struct ConductorReport {
 /// One region's figures.
 #[derive(Serialize, Debug)]
 pub struct RegionReport {
+    /// Region id: the `region` cell array of the VTU files.
+    pub id: u32,
+    /// The mapped open-boundary exterior (its coordinates are not physical; pictures skip it).
+    pub exterior: bool,
     /// Shape name.
     pub name: String,
     /// Material name.
@@ -171,6 +175,8 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
                 .unwrap_or(model.shape_material[0])
                 .map(|m| &model.materials[m]);
             RegionReport {
+                id: r,
+                exterior: mesh.exterior.is_some_and(|e| e.region == r),
                 name: mesh.shape_names[r as usize].clone(),
                 material: m.map(|m| m.name.clone()).unwrap_or_default(),
                 permittivity: m.map(|m| m.permittivity).unwrap_or(f64::NAN),

@@ -1,12 +1,12 @@
 //! Stage 3: one results type per command and its renderers (the breakdown checks, shared
 //! by `solve` and `check`, in [`checks`]) — terminal text, JSON, CSV and
-//! VTU in each command's module, the mesh picture in [`svg`], and [`write`](mod@write), through which
+//! VTU in each command's module, the pictures of the part in [`picture`], and [`write`](mod@write), through which
 //! every file is written whole or not at all.
 
 pub mod check;
 pub mod checks;
 pub mod mesh;
+pub mod picture;
 pub mod report;
 pub mod solve;
-pub mod svg;
 pub mod write;

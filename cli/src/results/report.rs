@@ -3,10 +3,13 @@
 //! it (`plot-*.svg`, drawn by the plotters crate) and inline. It reads only what `solve` or
 //! `check` wrote, so `fieldgrade report DIR` rebuilds it without solving.
 //!
-//! First part of the report: model summary, the breakdown checks per load case with their
-//! verdicts, the convergence table and plot, the singular points, the stress along each
-//! creepage path and line probe, the cautions. (The stress map and zoomed views are to come.)
+//! Contents: model summary; the mesh picture with every singular point labelled and their
+//! table; the field-strength map with equipotentials, the peaks marked, and zoomed views
+//! around the singular points and the top peaks (pictures in [`picture`], drawn from
+//! `fields.vtu`); the breakdown checks per load case with their verdicts; the convergence
+//! table and plot; the stress along each creepage path and line probe; the cautions.
 
+use crate::results::picture::{self, Mark, Part};
 use crate::results::write::write_atomic;
 use crate::{CliError, Result};
 use plotters::prelude::*;
@@ -210,6 +213,9 @@ pub fn write_report(dir: &Path) -> Result<()> {
         })
         .collect();
     table(&mut h, &["conductor", "held", "potential V", "charge C"], &conductors);
+    // Pictures: the mesh, the field-strength map, zoomed views.
+    let mut picture_files: Vec<(String, String)> = Vec::new();
+    h.push_str(&pictures(dir, &r, &mut picture_files));
     // Checks per load case.
     let checks = &r["checks"];
     h.push_str("<h2>Breakdown checks</h2>\n");
@@ -307,23 +313,6 @@ pub fn write_report(dir: &Path) -> Result<()> {
             line_plot("relative error bar of every watched quantity", "unknowns", "relative error bar", &series, true);
         plots.push(("plot-convergence.svg".into(), svg));
     }
-    // Singular points.
-    if let Some(sp) = r["singular_points"].as_array() {
-        h.push_str("<h2>Singular points</h2>\n");
-        let rows: Vec<Vec<String>> = sp
-            .iter()
-            .map(|s| {
-                vec![
-                    esc(s["id"].as_str().unwrap_or("")),
-                    esc(s["kind"].as_str().unwrap_or("")),
-                    num(&s["lambda"], 4),
-                    num(&s["coefficient"], 4),
-                    esc(s["note"].as_str().unwrap_or("")),
-                ]
-            })
-            .collect();
-        table(&mut h, &["point", "kind", "λ", "coefficient A", "note"], &rows);
-    }
     // Paths: creepage files and line probes.
     for c in checks["creepage"].as_array().into_iter().flatten() {
         let file = c["file"].as_str().unwrap_or("");
@@ -388,8 +377,184 @@ pub fn write_report(dir: &Path) -> Result<()> {
     }
     h.push_str("<li>A 2-D model: planar results are per metre of depth, axisymmetric ones assume rotational symmetry; three-dimensional features are not represented.</li>\n");
     h.push_str("</ul>\n</body>\n</html>\n");
-    for (name, svg) in &plots {
+    for (name, svg) in plots.iter().chain(&picture_files) {
         write_atomic(&dir.join(name), |w| w.write_all(svg.as_bytes()))?;
     }
     write_atomic(&dir.join("report.html"), |w| w.write_all(h.as_bytes()))
+}
+
+/// The marks of the results: every singular point the mesher lists (S1…, in its order) and
+/// the peak away from singular points of each region (P1…, in the regions' order).
+fn result_marks(r: &Value, unit_m: f64) -> (Vec<Mark>, Vec<Mark>) {
+    let singular = r["mesh"]["singular_points"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .enumerate()
+        .filter_map(|(i, s)| {
+            Some(Mark {
+                label: format!("S{}", i + 1),
+                at: [s["x"].as_f64()? * unit_m, s["y"].as_f64()? * unit_m],
+                singular: true,
+            })
+        })
+        .collect();
+    let peaks = r["regions"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .enumerate()
+        .filter_map(|(i, g)| {
+            let at = g["at_m"].as_array()?;
+            Some(Mark {
+                label: format!("P{}", i + 1),
+                at: [at.first()?.as_f64()?, at.get(1)?.as_f64()?],
+                singular: false,
+            })
+        })
+        .collect();
+    (singular, peaks)
+}
+
+/// The pictures section (HTML) and its SVG files (pushed onto `files`): the mesh with the
+/// singular points and their table, the field-strength map with the peaks and their table,
+/// zoomed views around the field-singular points and the top peaks.
+fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String {
+    let mut h = String::new();
+    let part = std::fs::read(dir.join("fields.vtu"))
+        .map_err(|e| e.to_string())
+        .and_then(|bytes| Part::from_results(&bytes, r));
+    let part = match part {
+        Ok(p) => p,
+        Err(e) => {
+            let _ = writeln!(h, "<p>No pictures: fields.vtu could not be read ({}).</p>", esc(&e));
+            return h;
+        }
+    };
+    let unit = part.unit.clone();
+    let k = part.unit_m;
+    let (singular, peaks) = result_marks(r, k);
+    let extent = part.extent();
+    let mut figure = |h: &mut String, name: &str, pic: picture::Picture, caption: &str| {
+        let _ =
+            writeln!(h, "<figure id=\"{}\">\n{}<figcaption>{}</figcaption>\n</figure>", esc(name), pic.svg, caption);
+        files.push((name.to_string(), pic.svg));
+    };
+    h.push_str("<h2>Mesh and singular points</h2>\n");
+    let pic = picture::mesh_picture(&part, "mesh", extent, "picture-mesh", &singular);
+    let caption = format!(
+        "The final mesh ({} triangles), coloured by region; every singular point the mesher lists is labelled \
+         (S1–S{}).",
+        part.tris.len(),
+        singular.len()
+    );
+    figure(&mut h, "picture-mesh.svg", pic, &esc(&caption));
+    // The singular points: the mesher's list joined with the analysis of each.
+    let analysed: Vec<&Value> = r["singular_points"].as_array().into_iter().flatten().collect();
+    let rows: Vec<Vec<String>> = r["mesh"]["singular_points"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .enumerate()
+        .map(|(i, s)| {
+            let id = format!("S{}", i + 1);
+            let a = analysed.iter().find(|a| a["id"].as_str() == Some(id.as_str()));
+            vec![
+                id.clone(),
+                esc(s["kind"].as_str().unwrap_or("")),
+                format!("({}, {})", num(&s["x"], 4), num(&s["y"], 4)),
+                num(&s["opening_deg"], 1),
+                num(&s["lambda"], 4),
+                a.map_or("-".into(), |a| num(&a["coefficient"], 4)),
+                esc(a.and_then(|a| a["note"].as_str()).unwrap_or("not analysed (field not singular)")),
+            ]
+        })
+        .collect();
+    let at = format!("at, {unit}");
+    table(&mut h, &["point", "kind", &at, "opening °", "λ", "coefficient A", "note"], &rows);
+    // The field map: 0 to the largest peak away from singular points.
+    if part.potential.is_empty() {
+        return h;
+    }
+    let cap = r["regions"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter_map(|g| g["e_max_v_per_m"].as_f64())
+        .filter(|e| e.is_finite())
+        .fold(0.0f64, f64::max);
+    let cap = if cap > 0.0 {
+        cap
+    } else {
+        part.recovered.iter().map(|e| e[0].hypot(e[1])).filter(|e| e.is_finite()).fold(0.0, f64::max)
+    };
+    h.push_str("<h2>Field strength</h2>\n");
+    let all: Vec<Mark> = singular.iter().chain(&peaks).cloned().collect();
+    let pic =
+        picture::stress_map(&part, "|E| at the model potentials", extent, "picture-field", cap, &all, (700.0, 820.0));
+    let caption = "|E| at the model's own potentials (load cases scale it), from 0 to the largest peak away from \
+                   singular points; larger values, near singular points, show in the top colour. Lines: \
+                   equipotentials. S: singular points; P: the peak away from singular points of each region.";
+    figure(&mut h, "picture-field.svg", pic, caption);
+    let rows: Vec<Vec<String>> = r["regions"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .enumerate()
+        .map(|(i, g)| {
+            let at = g["at_m"].as_array();
+            let c = |j: usize| num(&(at.and_then(|a| a.get(j)).and_then(Value::as_f64).map(|x| x / k).into()), 4);
+            vec![
+                format!("P{}", i + 1),
+                esc(g["name"].as_str().unwrap_or("")),
+                num(&g["e_max_kv_per_mm"], 4),
+                format!("({}, {})", c(0), c(1)),
+            ]
+        })
+        .collect();
+    table(&mut h, &["peak", "region", "|E| kV/mm", &at], &rows);
+    // Zoomed views: field-singular points first, then the peaks from the largest; a
+    // candidate inside a view already chosen is shown by that view.
+    let half = 0.02 * extent.width().max(extent.height());
+    let mut centres: Vec<(String, [f64; 2])> = Vec::new();
+    let singular_ids: Vec<&str> = analysed
+        .iter()
+        .filter(|a| a["field_singular"].as_bool() == Some(true))
+        .filter_map(|a| a["id"].as_str())
+        .collect();
+    let mut candidates: Vec<(String, [f64; 2])> =
+        singular.iter().filter(|m| singular_ids.contains(&m.label.as_str())).map(|m| (m.label.clone(), m.at)).collect();
+    let mut by_size: Vec<(f64, &Mark)> = peaks
+        .iter()
+        .zip(r["regions"].as_array().into_iter().flatten())
+        .map(|(m, g)| (g["e_max_v_per_m"].as_f64().unwrap_or(0.0), m))
+        .collect();
+    by_size.sort_by(|a, b| b.0.total_cmp(&a.0));
+    candidates.extend(by_size.into_iter().map(|(_, m)| (m.label.clone(), m.at)));
+    for (label, at) in candidates {
+        if centres.len() >= 4 {
+            break;
+        }
+        if centres.iter().all(|(_, c)| (c[0] - at[0]).abs() > 0.8 * half || (c[1] - at[1]).abs() > 0.8 * half) {
+            centres.push((label, at));
+        }
+    }
+    if !centres.is_empty() {
+        let _ = writeln!(
+            h,
+            "<h3>Zoomed views</h3>\n<p>Squares of {} {unit} around the field-singular points and the largest peaks, on the \
+             same colour scale.</p>\n<div style=\"display:flex;flex-wrap:wrap;gap:1em\">",
+            num(&(2.0 * half / k).into(), 3)
+        );
+        for (i, (label, at)) in centres.iter().enumerate() {
+            let name = format!("picture-zoom-{}.svg", i + 1);
+            let win = part.zoom(*at, half);
+            let id = name.trim_end_matches(".svg").to_string();
+            let pic = picture::stress_map(&part, &format!("around {label}"), win, &id, cap, &all, (420.0, 420.0));
+            let shown = pic.labels.join(", ");
+            figure(&mut h, &name, pic, &esc(&format!("Around {label}; marks in view: {shown}.")));
+        }
+        h.push_str("</div>\n");
+    }
+    h
 }
