@@ -24,6 +24,9 @@ pub const CHECK_CAUTIONS: [&str; 4] = [
 /// The `checks` section of `results.json`.
 #[derive(Serialize, Debug)]
 pub struct Checks {
+    /// The peak away from singular points of every region at the model's potentials (each
+    /// case's peaks are these × its `scale`): the report's colour scale and peak marks.
+    pub peaks_away: Vec<PeakAway>,
     /// One entry per load case (the model's potentials as given when it defines none).
     pub load_cases: Vec<CaseChecks>,
     /// Field utilisation factors between named electrodes (independent of the load case).
@@ -39,6 +42,19 @@ pub struct Checks {
     pub grading: Vec<GradingResult>,
     /// The cautions of these checks.
     pub cautions: Vec<&'static str>,
+}
+
+/// One region's peak away from singular points, at the model's potentials.
+#[derive(Serialize, Debug)]
+pub struct PeakAway {
+    /// Region name.
+    pub region: String,
+    /// |E|, V/m (the certified value where `check` has one).
+    pub e_v_per_m: f64,
+    /// Its error bar, V/m (`check` only).
+    pub error_bar_v_per_m: Option<f64>,
+    /// Where, m.
+    pub at_m: Xy,
 }
 
 /// The discharge-inception check of one gas region.
@@ -727,7 +743,12 @@ pub fn breakdown_checks(
             }
         })
         .collect();
+    let peaks_away = peaks
+        .iter()
+        .map(|&(r, e, bar, at)| PeakAway { region: region_name(r), e_v_per_m: e, error_bar_v_per_m: bar, at_m: at })
+        .collect();
     let checks = Checks {
+        peaks_away,
         load_cases,
         field_factors,
         stressed_volumes,

@@ -765,37 +765,48 @@ fn nice_step(span: f64, n: f64) -> f64 {
     [1.0, 2.0, 5.0, 10.0].into_iter().map(|m| m * p).find(|&s| s >= raw).unwrap_or(10.0 * p)
 }
 
-/// The field-strength map of window `win`: |E| coloured from 0 to `cap` V/m (larger values,
-/// at singular points, in the top colour), equipotential lines every tenth of the potential
+/// The field-strength map of window `win`: |E| coloured from 0 to `cap` V/m (None: the 99th
+/// percentile of |E| over the window's pixels; larger values in the top colour), equipotential lines every tenth of the potential
 /// range, the outlines and the marks, with a colour bar in kV/mm.
-pub fn stress_map(part: &Part, title: &str, win: Window, id: &str, cap: f64, all: &[Mark], max: (f64, f64)) -> Picture {
+pub fn stress_map(
+    part: &Part,
+    title: &str,
+    win: Window,
+    id: &str,
+    cap: Option<f64>,
+    all: &[Mark],
+    max: (f64, f64),
+) -> Picture {
     let key_w = 150;
     let (mut svg, f) = frame(part, title, win, key_w, max.0, max.1);
-    let mut rgba = vec![0u8; f.w * f.h * 4];
-    // Outside the mesh (conductors, beyond the outer boundary): light grey.
-    for px in rgba.chunks_exact_mut(4) {
-        px.copy_from_slice(&[225, 225, 225, 255]);
-    }
-    let cap = if cap.is_finite() && cap > 0.0 { cap } else { 1.0 };
-    let mut saturated = false;
+    // |E| per pixel (NaN outside the mesh: conductors, beyond the outer boundary).
+    let mut field = vec![f64::NAN; f.w * f.h];
     if !part.potential.is_empty() {
-        for t in 0..part.tris.len() {
-            if !part.drawn(t) {
-                continue;
-            }
-            f.pixels_of(part, t, |k, l| {
-                let e = part.field_at(t, l);
-                let c = if e.is_finite() {
-                    saturated |= e > cap;
-                    let c: RGBColor = ViridisRGB::get_color((e / cap).clamp(0.0, 1.0));
-                    [c.0, c.1, c.2]
-                } else {
-                    [255, 0, 255]
-                };
-                rgba[4 * k..4 * k + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
-            });
+        for t in (0..part.tris.len()).filter(|&t| part.drawn(t)) {
+            f.pixels_of(part, t, |k, l| field[k] = part.field_at(t, l));
         }
     }
+    let cap = match cap {
+        Some(c) => c,
+        None => {
+            let mut v: Vec<f64> = field.iter().copied().filter(|e| e.is_finite()).collect();
+            v.sort_unstable_by(f64::total_cmp);
+            v.get((v.len() as f64 * 0.99) as usize).copied().unwrap_or(1.0)
+        }
+    };
+    let cap = if cap.is_finite() && cap > 0.0 { cap } else { 1.0 };
+    let saturated = field.iter().any(|&e| e > cap);
+    let rgba: Vec<u8> = field
+        .iter()
+        .flat_map(|&e| {
+            if e.is_finite() {
+                let c: RGBColor = ViridisRGB::get_color((e / cap).clamp(0.0, 1.0));
+                [c.0, c.1, c.2, 255]
+            } else {
+                [225, 225, 225, 255]
+            }
+        })
+        .collect();
     raster(&mut svg, &f, id, &rgba);
     let step = equipotentials(&mut svg, part, &f, id);
     outlines(

@@ -383,6 +383,12 @@ pub fn write_report(dir: &Path) -> Result<()> {
     write_atomic(&dir.join("report.html"), |w| w.write_all(h.as_bytes()))
 }
 
+/// The peak away from singular points of each region at the model's potentials
+/// (`checks.peaks_away`: region, e_v_per_m, error_bar_v_per_m, at_m).
+fn peak_rows(r: &Value) -> Vec<&Value> {
+    r["checks"]["peaks_away"].as_array().into_iter().flatten().collect()
+}
+
 /// The marks of the results: every singular point the mesher lists (S1…, in its order) and
 /// the peak away from singular points of each region (P1…, in the regions' order).
 fn result_marks(r: &Value, unit_m: f64) -> (Vec<Mark>, Vec<Mark>) {
@@ -399,10 +405,8 @@ fn result_marks(r: &Value, unit_m: f64) -> (Vec<Mark>, Vec<Mark>) {
             })
         })
         .collect();
-    let peaks = r["regions"]
-        .as_array()
-        .into_iter()
-        .flatten()
+    let peaks = peak_rows(r)
+        .iter()
         .enumerate()
         .filter_map(|(i, g)| {
             let at = g["at_m"].as_array()?;
@@ -476,13 +480,8 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
     if part.potential.is_empty() {
         return h;
     }
-    let cap = r["regions"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .filter_map(|g| g["e_max_v_per_m"].as_f64())
-        .filter(|e| e.is_finite())
-        .fold(0.0f64, f64::max);
+    let cap =
+        peak_rows(r).iter().filter_map(|g| g["e_v_per_m"].as_f64()).filter(|e| e.is_finite()).fold(0.0f64, f64::max);
     let cap = if cap > 0.0 {
         cap
     } else {
@@ -490,67 +489,79 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
     };
     h.push_str("<h2>Field strength</h2>\n");
     let all: Vec<Mark> = singular.iter().chain(&peaks).cloned().collect();
-    let pic =
-        picture::stress_map(&part, "|E| at the model potentials", extent, "picture-field", cap, &all, (700.0, 820.0));
-    let caption = "|E| at the model's own potentials (load cases scale it), from 0 to the largest peak away from \
-                   singular points; larger values, near singular points, show in the top colour. Lines: \
-                   equipotentials. S: singular points; P: the peak away from singular points of each region.";
+    let pic = picture::stress_map(
+        &part,
+        "|E| at the model potentials",
+        extent,
+        "picture-field",
+        Some(cap),
+        &all,
+        (700.0, 820.0),
+    );
+    let caption = "|E| at the model's own potentials (each load case scales it), from 0 to the largest peak away \
+                   from singular points; larger values, near singular points, show in the top colour. Lines: \
+                   equipotentials. S: singular points; P: the peak away from singular points of each region (table \
+                   below).";
     figure(&mut h, "picture-field.svg", pic, caption);
-    let rows: Vec<Vec<String>> = r["regions"]
-        .as_array()
-        .into_iter()
-        .flatten()
+    let rows: Vec<Vec<String>> = peak_rows(r)
+        .iter()
         .enumerate()
         .map(|(i, g)| {
             let at = g["at_m"].as_array();
             let c = |j: usize| num(&(at.and_then(|a| a.get(j)).and_then(Value::as_f64).map(|x| x / k).into()), 4);
+            let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
             vec![
                 format!("P{}", i + 1),
-                esc(g["name"].as_str().unwrap_or("")),
-                num(&g["e_max_kv_per_mm"], 4),
+                esc(g["region"].as_str().unwrap_or("")),
+                kv(&g["e_v_per_m"]),
+                kv(&g["error_bar_v_per_m"]),
                 format!("({}, {})", c(0), c(1)),
             ]
         })
         .collect();
-    table(&mut h, &["peak", "region", "|E| kV/mm", &at], &rows);
+    table(&mut h, &["peak", "region", "|E| kV/mm", "± kV/mm", &at], &rows);
     // Zoomed views: field-singular points first, then the peaks from the largest; a
     // candidate inside a view already chosen is shown by that view.
     let half = 0.02 * extent.width().max(extent.height());
-    let mut centres: Vec<(String, [f64; 2])> = Vec::new();
+    let mut centres: Vec<(String, [f64; 2], f64)> = Vec::new();
     let singular_ids: Vec<&str> = analysed
         .iter()
         .filter(|a| a["field_singular"].as_bool() == Some(true))
         .filter_map(|a| a["id"].as_str())
         .collect();
-    let mut candidates: Vec<(String, [f64; 2])> =
-        singular.iter().filter(|m| singular_ids.contains(&m.label.as_str())).map(|m| (m.label.clone(), m.at)).collect();
-    let mut by_size: Vec<(f64, &Mark)> = peaks
+    let disc = |id: &str| {
+        analysed.iter().find(|a| a["id"].as_str() == Some(id)).and_then(|a| a["extraction_radius_m"].as_f64())
+    };
+    let mut candidates: Vec<(String, [f64; 2], f64)> = singular
         .iter()
-        .zip(r["regions"].as_array().into_iter().flatten())
-        .map(|(m, g)| (g["e_max_v_per_m"].as_f64().unwrap_or(0.0), m))
+        .filter(|m| singular_ids.contains(&m.label.as_str()))
+        .map(|m| (m.label.clone(), m.at, half.max(1.5 * disc(&m.label).unwrap_or(0.0))))
         .collect();
+    let mut by_size: Vec<(f64, &Mark)> =
+        peaks.iter().zip(peak_rows(r)).map(|(m, g)| (g["e_v_per_m"].as_f64().unwrap_or(0.0), m)).collect();
     by_size.sort_by(|a, b| b.0.total_cmp(&a.0));
-    candidates.extend(by_size.into_iter().map(|(_, m)| (m.label.clone(), m.at)));
-    for (label, at) in candidates {
+    candidates.extend(by_size.into_iter().map(|(_, m)| (m.label.clone(), m.at, half)));
+    for (label, at, h) in candidates {
         if centres.len() >= 4 {
             break;
         }
-        if centres.iter().all(|(_, c)| (c[0] - at[0]).abs() > 0.8 * half || (c[1] - at[1]).abs() > 0.8 * half) {
-            centres.push((label, at));
+        if centres.iter().all(|(_, c, hc)| (c[0] - at[0]).abs() > 0.8 * hc || (c[1] - at[1]).abs() > 0.8 * hc) {
+            centres.push((label, at, h));
         }
     }
     if !centres.is_empty() {
         let _ = writeln!(
             h,
-            "<h3>Zoomed views</h3>\n<p>Squares of {} {unit} around the field-singular points and the largest peaks, on the \
-             same colour scale.</p>\n<div style=\"display:flex;flex-wrap:wrap;gap:1em\">",
+            "<h3>Zoomed views</h3>\n<p>Squares around the field-singular points (at least three times the \
+             radius within which their peak is left out) and the largest peaks (side {} {unit}); each on its own \
+             colour scale, 0 to the 99th percentile of |E| in view.</p>\n<div style=\"display:flex;flex-wrap:wrap;gap:1em\">",
             num(&(2.0 * half / k).into(), 3)
         );
-        for (i, (label, at)) in centres.iter().enumerate() {
+        for (i, (label, at, side)) in centres.iter().enumerate() {
             let name = format!("picture-zoom-{}.svg", i + 1);
-            let win = part.zoom(*at, half);
+            let win = part.zoom(*at, *side);
             let id = name.trim_end_matches(".svg").to_string();
-            let pic = picture::stress_map(&part, &format!("around {label}"), win, &id, cap, &all, (420.0, 420.0));
+            let pic = picture::stress_map(&part, &format!("around {label}"), win, &id, None, &all, (420.0, 420.0));
             let shown = pic.labels.join(", ");
             figure(&mut h, &name, pic, &esc(&format!("Around {label}; marks in view: {shown}.")));
         }
