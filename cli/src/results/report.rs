@@ -25,7 +25,7 @@ fn esc(s: &str) -> String {
 /// A number of a JSON value in a short form, "-" when absent.
 fn num(v: &Value, digits: usize) -> String {
     match v.as_f64() {
-        Some(x) if x != 0.0 && (x.abs() < 1e-3 || x.abs() >= 1e5) => format!("{x:.digits$e}"),
+        Some(x) if x != 0.0 && (x.abs() < 1e-2 || x.abs() >= 1e5) => format!("{x:.digits$e}"),
         Some(x) => format!("{x:.digits$}"),
         None => "-".into(),
     }
@@ -213,6 +213,22 @@ pub fn write_report(dir: &Path) -> Result<()> {
         })
         .collect();
     table(&mut h, &["conductor", "held", "potential V", "charge C"], &conductors);
+    let cases: Vec<Vec<String>> = r["checks"]["load_cases"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|c| {
+            vec![
+                esc(c["name"].as_str().unwrap_or("")),
+                esc(c["kind"].as_str().unwrap_or("")),
+                esc(c["basis"].as_str().unwrap_or("")),
+                num(&(c["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
+                esc(c["reference"].as_str().unwrap_or("")),
+                num(&c["scale"], 4),
+            ]
+        })
+        .collect();
+    table(&mut h, &["load case", "kind", "basis", "voltage kV", "on", "scale of the model's stresses"], &cases);
     // Pictures: the mesh, the field-strength map, zoomed views.
     let mut picture_files: Vec<(String, String)> = Vec::new();
     h.push_str(&pictures(dir, &r, &mut picture_files));
@@ -367,8 +383,12 @@ pub fn write_report(dir: &Path) -> Result<()> {
         for (name, svg) in &plots {
             // Inline (the page is self-contained) and beside it as a file.
             let body = svg.find("<svg").map_or(svg.as_str(), |k| &svg[k..]);
-            let _ =
-                writeln!(h, "<figure id=\"{}\">\n{body}\n<figcaption>{}</figcaption>\n</figure>", esc(name), esc(name));
+            let _ = writeln!(
+                h,
+                "<figure id=\"{}\">\n{body}\n<figcaption>{}</figcaption>\n</figure>",
+                esc(name),
+                esc(&plot_caption(name))
+            );
         }
     }
     h.push_str("<h2>Cautions</h2>\n<ul>\n");
@@ -568,4 +588,23 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
         h.push_str("</div>\n");
     }
     h
+}
+
+/// The caption of a plot file.
+fn plot_caption(name: &str) -> String {
+    let stem = name.trim_start_matches("plot-").trim_end_matches(".svg");
+    if stem == "convergence" {
+        "The relative error bar of every watched quantity against the number of unknowns, one point per mesh \
+         (log-log); the loop stops when every bar is inside the tolerance."
+            .into()
+    } else if let Some(p) = stem.strip_prefix("creepage-") {
+        format!(
+            "|E_t| and |E_n| along {p}, per chain of the interface, at the model's potentials (each load case scales \
+             them) ({name})."
+        )
+    } else if let Some(p) = stem.strip_prefix("probe-") {
+        format!("|E| along the line probe {p} at the model's potentials ({name}).")
+    } else {
+        name.to_string()
+    }
 }

@@ -140,11 +140,14 @@ pub(super) fn singular_section(model: &Plan, mesh: &Mesh, sol: &Solution, discs:
                     s.lambda - 1.0
                 );
                 if let Some(r) = radius_above {
-                    n.push_str(&format!(
-                        "; |E| exceeds the allowable {} kV/mm within {} of the point",
-                        allowable.unwrap_or(0.0),
-                        length_text(r * k, model.unit_m, model.unit)
-                    ));
+                    // Below a nanometre a length means nothing physical: say so, as the
+                    // breakdown checks do.
+                    let within = if r * k < 1e-9 {
+                        "less than 1 nm of the point, below any real edge radius".to_string()
+                    } else {
+                        format!("{} of the point", length_text(r * k, model.unit_m, model.unit))
+                    };
+                    n.push_str(&format!("; |E| exceeds the allowable {} kV/mm within {within}", allowable.unwrap_or(0.0)));
                 }
                 if dual.is_none() {
                     n.push_str("; coefficient not extracted (it is, where a conductor bounds the field: corners, triple junctions, conical tips on the axis with one dielectric)");
