@@ -65,6 +65,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let json = serde_json::to_string_pretty(&results)?;
     files.push(("results.json".into(), json.clone()));
     write_outputs(&run.out, mesh, &problem, &analysis, &files, run.vtu)?;
+    crate::results::report::write_report(&run.out)?;
     if run.json {
         // The summary carries the warnings; with JSON on stdout they go to stderr too.
         for w in &results.mesh.warnings {

@@ -3,11 +3,12 @@
 //! it (`plot-*.svg`, drawn by the plotters crate) and inline. It reads only what `solve` or
 //! `check` wrote, so `fieldgrade report DIR` rebuilds it without solving.
 //!
-//! Contents: model summary; the mesh picture with every singular point labelled and their
-//! table; the field-strength map with equipotentials, the peaks marked, and zoomed views
-//! around the singular points and the top peaks (pictures in [`picture`], drawn from
-//! `fields.vtu`); the breakdown checks per load case with their verdicts; the convergence
-//! table and plot; the stress along each creepage path and line probe; the cautions.
+//! Contents, in this order: model summary (regions, conductors, load cases); the breakdown
+//! checks per load case with their verdicts; the field-strength map with equipotentials and
+//! the peaks marked, and zoomed views around the singular points and the top peaks; the mesh
+//! picture with every singular point labelled, and their table (pictures in [`picture`],
+//! drawn from `fields.vtu`); the convergence table and plot; the stress along each creepage
+//! path and line probe; the cautions.
 
 use crate::results::picture::{self, Mark, Part};
 use crate::results::write::write_atomic;
@@ -168,10 +169,11 @@ pub fn write_report(dir: &Path) -> Result<()> {
     let model = r["mesh"]["model"].as_str().unwrap_or("model");
     let _ = write!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n<title>fieldgrade report: {}</title>\n<style>\nbody {{ font-family: sans-serif; max-width: 1100px; margin: 2em auto; color: #222; }}\ntable {{ border-collapse: collapse; margin: 0.5em 0 1.5em; }}\nth, td {{ border: 1px solid #bbb; padding: 0.2em 0.5em; text-align: right; }}\nth {{ background: #eee; }}\ntd.fail {{ background: #f4c7b8; }} td.pass {{ background: #cfe8d5; }} td.undecided {{ background: #fbe6a2; }}\nfigure {{ margin: 1em 0; }}\n</style>\n</head>\n<body>\n<h1>{}</h1>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n<title>fieldgrade report: {}</title>\n<style>\nbody {{ font-family: sans-serif; max-width: 1100px; margin: 2em auto; color: #222; }}\ntable {{ border-collapse: collapse; margin: 0.5em 0 1.5em; }}\nth, td {{ border: 1px solid #bbb; padding: 0.2em 0.5em; text-align: right; }}\nth {{ background: #eee; }}\nth:first-child, td:first-child {{ text-align: left; }}\n.fail {{ background: #f4c7b8; font-weight: bold; }} .pass {{ background: #cfe8d5; }} .undecided {{ background: #fbe6a2; }}\np.verdict {{ font-size: 1.15em; padding: 0.4em 0.6em; }}\nfigure {{ margin: 1em 0; }}\n</style>\n</head>\n<body>\n<h1>{}</h1>\n",
         esc(model),
         esc(model)
     );
+    h.push_str(&overall_verdict(&r["checks"]));
     // Summary.
     h.push_str("<h2>Model</h2>\n");
     let m = &r["mesh"];
@@ -231,7 +233,7 @@ pub fn write_report(dir: &Path) -> Result<()> {
     table(&mut h, &["load case", "kind", "basis", "voltage kV", "on", "scale of the model's stresses"], &cases);
     // Pictures: the mesh, the field-strength map, zoomed views.
     let mut picture_files: Vec<(String, String)> = Vec::new();
-    h.push_str(&pictures(dir, &r, &mut picture_files));
+    let (mesh_html, field_html) = pictures(dir, &r, &mut picture_files);
     // Checks per load case.
     let checks = &r["checks"];
     h.push_str("<h2>Breakdown checks</h2>\n");
@@ -289,6 +291,9 @@ pub fn write_report(dir: &Path) -> Result<()> {
         }
         table(&mut h, &["check", "E kV/mm", "± kV/mm", "allowable", "utilisation", "margin", "verdict"], &rows);
     }
+    // The pictures after the verdicts: the stress map, then the mesh and its singular points.
+    h.push_str(&field_html);
+    h.push_str(&mesh_html);
     // Convergence.
     if let Some(conv) = r["convergence"].as_array() {
         h.push_str("<h2>Convergence</h2>\n");
@@ -443,7 +448,7 @@ fn result_marks(r: &Value, unit_m: f64) -> (Vec<Mark>, Vec<Mark>) {
 /// The pictures section (HTML) and its SVG files (pushed onto `files`): the mesh with the
 /// singular points and their table, the field-strength map with the peaks and their table,
 /// zoomed views around the field-singular points and the top peaks.
-fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String {
+fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> (String, String) {
     let mut h = String::new();
     let part = std::fs::read(dir.join("fields.vtu"))
         .map_err(|e| e.to_string())
@@ -452,7 +457,7 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
         Ok(p) => p,
         Err(e) => {
             let _ = writeln!(h, "<p>No pictures: fields.vtu could not be read ({}).</p>", esc(&e));
-            return h;
+            return (h, String::new());
         }
     };
     let unit = part.unit.clone();
@@ -497,8 +502,9 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
     let at = format!("at, {unit}");
     table(&mut h, &["point", "kind", &at, "opening °", "λ", "coefficient A", "note"], &rows);
     // The field map: 0 to the largest peak away from singular points.
+    let mesh_html = std::mem::take(&mut h);
     if part.potential.is_empty() {
-        return h;
+        return (mesh_html, h);
     }
     let cap =
         peak_rows(r).iter().filter_map(|g| g["e_v_per_m"].as_f64()).filter(|e| e.is_finite()).fold(0.0f64, f64::max);
@@ -587,7 +593,7 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> String 
         }
         h.push_str("</div>\n");
     }
-    h
+    (mesh_html, h)
 }
 
 /// The caption of a plot file.
@@ -607,4 +613,49 @@ fn plot_caption(name: &str) -> String {
     } else {
         name.to_string()
     }
+}
+
+/// One line that answers the question first: does every check pass in every load case?
+/// Names the failing and undecided checks; uncertified verdicts (a single solve) are said so.
+fn overall_verdict(checks: &Value) -> String {
+    let (mut n, mut fails, mut open, mut uncertified) = (0, Vec::new(), Vec::new(), false);
+    for case in checks["load_cases"].as_array().into_iter().flatten() {
+        let cname = case["name"].as_str().unwrap_or("");
+        let mut note = |what: String, p: &Value| {
+            let v = p["verdict"].as_str().unwrap_or("");
+            if v == "no allowable" || v.is_empty() {
+                return;
+            }
+            n += 1;
+            uncertified |= p["certified"].as_bool() == Some(false);
+            match v {
+                "fail" => fails.push(format!("{what} ({cname})")),
+                "pass" => {}
+                _ => open.push(format!("{what} ({cname}): {v}")),
+            }
+        };
+        for g in case["regions"].as_array().into_iter().flatten() {
+            note(g["region"].as_str().unwrap_or("").to_string(), &g["peak"]);
+        }
+        for t in case["interfaces"].as_array().into_iter().flatten() {
+            note(format!("tangential on {}", t["probe"].as_str().unwrap_or("")), &t["e_t"]);
+        }
+        for g in case["gas"].as_array().into_iter().flatten() {
+            note(format!("discharge inception in {}", g["region"].as_str().unwrap_or("")), g);
+        }
+    }
+    let cert = if uncertified { " Some verdicts are uncertified (one solve, no error bar)." } else { "" };
+    let (class, text) = if n == 0 {
+        ("undecided", "No check has an allowable to compare with: give allowables in the model file.".to_string())
+    } else if !fails.is_empty() {
+        ("fail", format!("{} of {n} checks fail: {}.{cert}", fails.len(), fails.join("; ")))
+    } else if !open.is_empty() {
+        ("undecided", format!("No check fails; {} of {n} are not decided: {}.{cert}", open.len(), open.join("; ")))
+    } else {
+        ("pass", format!("All {n} checks pass in every load case.{cert}"))
+    };
+    format!(
+        "<p class=\"verdict {class}\">{} Indicative: type tests, local codes and licensed practice decide.</p>\n",
+        esc(&text)
+    )
 }
