@@ -291,6 +291,7 @@ pub fn write_report(dir: &Path) -> Result<()> {
         }
         table(&mut h, &["check", "E kV/mm", "± kV/mm", "allowable", "utilisation", "margin", "verdict"], &rows);
     }
+    h.push_str(&other_checks(checks, unit_metres_of(&r)));
     // The pictures after the verdicts: the stress map, then the mesh and its singular points.
     h.push_str(&field_html);
     h.push_str(&mesh_html);
@@ -342,27 +343,45 @@ pub fn write_report(dir: &Path) -> Result<()> {
             if let (Some(ch), Some(s), Some(et), Some(en)) =
                 (col("chain"), col("s_m"), col("et_v_per_m"), col("en_1_v_per_m"))
             {
-                // One curve per chain of the interface (its flanks), each from its own start.
+                // One plot per chain of the interface (its flanks), each from its own start:
+                // |E| and |E_n| on side 1, |E_n| on side 2 (where the path has one), |E_t|.
                 let chains = ch.iter().fold(0.0f64, |m, &c| m.max(c)) as usize + 1;
-                let mut series = Vec::new();
+                let (e1, en2) = (col("e_1_v_per_m"), col("en_2_v_per_m"));
                 for k in 0..chains {
                     let pts = |y: &Vec<f64>| {
                         (0..s.len())
-                            .filter(|&i| ch[i] as usize == k)
+                            .filter(|&i| ch[i] as usize == k && y[i].is_finite())
                             .map(|i| (s[i] * 1e3, y[i].abs() / 1e6))
                             .collect::<Vec<_>>()
                     };
-                    series.push((format!("|E_t|, chain {}", k + 1), pts(et)));
-                    series.push((format!("|E_n| side 1, chain {}", k + 1), pts(en)));
+                    let mut series = Vec::new();
+                    if let Some(e1) = e1 {
+                        series.push(("|E| side 1".to_string(), pts(e1)));
+                    }
+                    series.push(("|E_n| side 1".to_string(), pts(en)));
+                    if let Some(en2) = en2.map(pts).filter(|p| !p.is_empty()) {
+                        series.push(("|E_n| side 2".to_string(), en2));
+                    }
+                    series.push(("|E_t|".to_string(), pts(et)));
+                    let svg = line_plot(
+                        &format!(
+                            "field along {}, chain {} (model potentials)",
+                            c["probe"].as_str().unwrap_or(""),
+                            k + 1
+                        ),
+                        "s along the chain, mm",
+                        "kV/mm",
+                        &series,
+                        false,
+                    );
+                    let stem = file.trim_end_matches(".csv");
+                    let name = if chains == 1 {
+                        format!("plot-{stem}.svg")
+                    } else {
+                        format!("plot-{stem}-chain{}.svg", k + 1)
+                    };
+                    plots.push((name, svg));
                 }
-                let svg = line_plot(
-                    &format!("field along {} (model potentials)", c["probe"].as_str().unwrap_or("")),
-                    "s along each chain, mm",
-                    "kV/mm",
-                    &series,
-                    false,
-                );
-                plots.push((format!("plot-{}.svg", file.trim_end_matches(".csv")), svg));
             }
         }
     }
@@ -402,6 +421,15 @@ pub fn write_report(dir: &Path) -> Result<()> {
     }
     h.push_str("<li>A 2-D model: planar results are per metre of depth, axisymmetric ones assume rotational symmetry; three-dimensional features are not represented.</li>\n");
     h.push_str("</ul>\n</body>\n</html>\n");
+    // A rebuilt report leaves no picture of an earlier run beside it.
+    let written: Vec<&str> = plots.iter().chain(&picture_files).map(|(n, _)| n.as_str()).collect();
+    for e in std::fs::read_dir(dir).into_iter().flatten().flatten() {
+        let name = e.file_name().to_string_lossy().into_owned();
+        let ours = (name.starts_with("plot-") || name.starts_with("picture-")) && name.ends_with(".svg");
+        if ours && !written.contains(&name.as_str()) {
+            let _ = std::fs::remove_file(e.path());
+        }
+    }
     for (name, svg) in plots.iter().chain(&picture_files) {
         write_atomic(&dir.join(name), |w| w.write_all(svg.as_bytes()))?;
     }
@@ -604,9 +632,13 @@ fn plot_caption(name: &str) -> String {
          (log-log); the loop stops when every bar is inside the tolerance."
             .into()
     } else if let Some(p) = stem.strip_prefix("creepage-") {
+        let p = match p.rsplit_once("-chain") {
+            Some((path, k)) if k.parse::<usize>().is_ok() => format!("{path}, chain {k}"),
+            _ => p.to_string(),
+        };
         format!(
-            "|E_t| and |E_n| along {p}, per chain of the interface, at the model's potentials (each load case scales \
-             them) ({name})."
+            "|E|, |E_n| on both sides and |E_t| along {p}, at the model's potentials (each load case scales them); \
+             sides 1 and 2 as in the probe's CSV (its region_1 and region_2 columns) ({name})."
         )
     } else if let Some(p) = stem.strip_prefix("probe-") {
         format!("|E| along the line probe {p} at the model's potentials ({name}).")
@@ -658,4 +690,175 @@ fn overall_verdict(checks: &Value) -> String {
         "<p class=\"verdict {class}\">{} Indicative: type tests, local codes and licensed practice decide.</p>\n",
         esc(&text)
     )
+}
+
+/// Metres per model unit of a results file (1 when unknown).
+fn unit_metres_of(r: &Value) -> (f64, String) {
+    let unit = r["mesh"]["length_unit"].as_str().unwrap_or("m").to_string();
+    (picture::unit_metres(&unit).unwrap_or(1.0), unit)
+}
+
+/// The checks that do not depend on the load case, at the model's potentials: field
+/// utilisation factors, creepage paths, stressed volumes, condenser grading, discharge
+/// inception in gas.
+fn other_checks(c: &Value, (k, unit): (f64, String)) -> String {
+    let mut h = String::new();
+    let list = |key: &str| c[key].as_array().cloned().unwrap_or_default();
+    let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
+    let len = |v: &Value| num(&(v.as_f64().map(|x| x / k).into()), 4);
+    let at = |v: &Value| {
+        let a = v.as_array();
+        let c = |j: usize| num(&(a.and_then(|a| a.get(j)).and_then(Value::as_f64).map(|x| x / k).into()), 4);
+        format!("({}, {})", c(0), c(1))
+    };
+    let s = |v: &Value| esc(v.as_str().unwrap_or(""));
+    let ff = list("field_factors");
+    if !ff.is_empty() {
+        h.push_str("<h3>Field utilisation factors (model potentials)</h3>\n");
+        let rows: Vec<Vec<String>> = ff
+            .iter()
+            .map(|f| {
+                vec![
+                    s(&f["name"]),
+                    format!("{} → {}", s(&f["between"][0]), s(&f["between"][1])),
+                    len(&f["distance_m"]),
+                    kv(&f["e_mean_v_per_m"]),
+                    format!("{} in {}", kv(&f["e_max_v_per_m"]), s(&f["e_max_region"])),
+                    num(&f["utilisation_factor"], 4),
+                    num(&f["enhancement_factor"], 4),
+                ]
+            })
+            .collect();
+        let d = format!("gap, {unit}");
+        table(
+            &mut h,
+            &["pair", "between", &d, "E mean kV/mm", "E max kV/mm", "η = E mean / E max", "E max / E mean"],
+            &rows,
+        );
+    }
+    let cr = list("creepage");
+    if !cr.is_empty() {
+        h.push_str("<h3>Creepage paths (model potentials)</h3>\n");
+        let rows: Vec<Vec<String>> = cr
+            .iter()
+            .map(|p| {
+                let chains: Vec<String> = p["chains"]
+                    .as_array()
+                    .into_iter()
+                    .flatten()
+                    .map(|ch| {
+                        format!("{} {unit}, {} kV", len(&ch[0]), num(&(ch[1].as_f64().map(|v| v / 1e3).into()), 4))
+                    })
+                    .collect();
+                vec![
+                    s(&p["probe"]),
+                    esc(&chains.join("; ")),
+                    format!("{} at {}", kv(&p["e_t_max_v_per_m"]), at(&p["e_t_max_at_m"])),
+                    kv(&p["running_mean_max_v_per_m"]),
+                ]
+            })
+            .collect();
+        let a = format!("largest |E_t| kV/mm at ({unit})");
+        table(&mut h, &["path", "chains: length, potential drop", &a, "largest running mean kV/mm"], &rows);
+    }
+    let sv = list("stressed_volumes");
+    if !sv.is_empty() {
+        h.push_str("<h3>Stressed volumes (model potentials)</h3>\n");
+        let rows: Vec<Vec<String>> = sv
+            .iter()
+            .map(|v| {
+                let above = |q: f64| {
+                    v["above"]
+                        .as_array()
+                        .into_iter()
+                        .flatten()
+                        .find(|a| a[0].as_f64().is_some_and(|x| (x - q).abs() < 1e-9))
+                        .map_or("-".into(), |a| num(&a[1], 3))
+                };
+                vec![
+                    s(&v["region"]),
+                    kv(&v["e_ref_v_per_m"]),
+                    num(&v["volume_m3"], 3),
+                    above(0.8),
+                    above(0.9),
+                    above(0.95),
+                    num(&v["weibull_shape"], 2),
+                    num(&v["weibull_effective_volume_m3"], 3),
+                    num(&v["weibull_effective_volume_outside_discs_m3"], 3),
+                    s(&v["note"]),
+                ]
+            })
+            .collect();
+        table(
+            &mut h,
+            &[
+                "region",
+                "E ref kV/mm",
+                "volume m³",
+                "> 80 % m³",
+                "> 90 % m³",
+                "> 95 % m³",
+                "Weibull shape",
+                "effective volume m³",
+                "outside singular discs m³",
+                "note",
+            ],
+            &rows,
+        );
+    }
+    for g in list("grading") {
+        let _ = writeln!(h, "<h3>Condenser grading {} (model potentials)</h3>", s(&g["name"]));
+        let rows: Vec<Vec<String>> = g["layers"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .map(|l| {
+                vec![
+                    format!("{} → {}", s(&l["between"][0]), s(&l["between"][1])),
+                    num(&(l["step_v"].as_f64().map(|v| v / 1e3).into()), 4),
+                    num(&l["step_percent"], 2),
+                    num(&l["ideal_step_percent"], 2),
+                    num(&l["partial_capacitance_f"], 4),
+                    kv(&l["mean_radial_stress_v_per_m"]),
+                    kv(&l["max_radial_stress_v_per_m"]),
+                    kv(&l["axial_stress_top_v_per_m"]),
+                    kv(&l["axial_stress_bottom_v_per_m"]),
+                ]
+            })
+            .collect();
+        table(
+            &mut h,
+            &[
+                "layer",
+                "step kV",
+                "step %",
+                "equal steps %",
+                "partial capacitance F",
+                "radial mean kV/mm",
+                "radial max kV/mm",
+                "axial, top end kV/mm",
+                "axial, bottom end kV/mm",
+            ],
+            &rows,
+        );
+    }
+    for g in list("gas") {
+        let _ = writeln!(
+            h,
+            "<h3>Discharge inception in {} ({}, {} bar at {} °C)</h3>\n<p>Inception at {} kV peak ({} × the model's \
+             potentials); the weakest field line starts at {} {unit}; {}.</p>",
+            s(&g["region"]),
+            s(&g["gas"]),
+            num(&g["pressure_bar"], 3),
+            num(&g["temperature_c"], 1),
+            num(&(g["inception_voltage_v"].as_f64().map(|v| v / 1e3).into()), 4),
+            num(&g["inception_scale"], 4),
+            at(&g["lines"][g["weakest_line"].as_u64().unwrap_or(0) as usize]["start_m"]),
+            s(&g["coefficients"])
+        );
+        if let Some(n) = g["note"].as_str() {
+            let _ = writeln!(h, "<p>{}</p>", esc(n));
+        }
+    }
+    h
 }
