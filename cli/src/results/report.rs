@@ -66,9 +66,12 @@ fn read_csv(path: &Path) -> Option<(Vec<String>, Vec<Vec<f64>>)> {
 /// A line plot of series (name, points) into an SVG string.
 fn line_plot(title: &str, x_label: &str, y_label: &str, series: &[(String, Vec<(f64, f64)>)], log: bool) -> String {
     let mut svg = String::new();
+    let names: Vec<String> = series.iter().map(|s| s.0.clone()).collect();
+    let extra = if log { legend_height(names.len()) } else { 0 };
     {
-        let root = SVGBackend::with_string(&mut svg, (760, 420)).into_drawing_area();
+        let root = SVGBackend::with_string(&mut svg, (760, 420 + extra)).into_drawing_area();
         let _ = root.fill(&WHITE);
+        let (root, below) = root.split_vertically(420);
         let pts = series.iter().flat_map(|s| s.1.iter()).filter(|p| p.0.is_finite() && p.1.is_finite());
         let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
         for &(x, y) in pts.filter(|p| !log || (p.0 > 0.0 && p.1 > 0.0)) {
@@ -83,17 +86,7 @@ fn line_plot(title: &str, x_label: &str, y_label: &str, series: &[(String, Vec<(
         if y1 <= y0 {
             y1 = y0.abs() * 1.1 + 1e-30;
         }
-        // Colour-blind-safe qualitative palette (Okabe & Ito 2008).
-        let palette = [
-            RGBColor(0, 114, 178),
-            RGBColor(213, 94, 0),
-            RGBColor(0, 158, 115),
-            RGBColor(204, 121, 167),
-            RGBColor(230, 159, 0),
-            RGBColor(86, 180, 233),
-            RGBColor(0, 0, 0),
-            RGBColor(240, 228, 66),
-        ];
+        let palette = okabe_ito();
         // The same drawing on a linear or a logarithmic chart (a macro: the two charts'
         // coordinate types differ).
         macro_rules! draw {
@@ -108,8 +101,10 @@ fn line_plot(title: &str, x_label: &str, y_label: &str, series: &[(String, Vec<(
                     if let Ok(s) = $chart.draw_series(LineSeries::new(p.clone(), c.stroke_width(2))) {
                         s.label(name.clone()).legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], c));
                     }
-                    if log {
+                    if log && k < palette.len() {
                         let _ = $chart.draw_series(p.iter().map(|q| Circle::new(*q, 3, c.filled())));
+                    } else if log {
+                        let _ = $chart.draw_series(p.iter().map(|q| TriangleMarker::new(*q, 5, c.filled())));
                     }
                 }
             };
@@ -131,13 +126,7 @@ fn line_plot(title: &str, x_label: &str, y_label: &str, series: &[(String, Vec<(
                     .y_label_formatter(&|v| format!("{v:.0e}"))
                     .draw();
                 draw!(chart);
-                let _ = chart
-                    .configure_series_labels()
-                    .position(SeriesLabelPosition::LowerLeft)
-                    .label_font(("sans-serif", 11))
-                    .background_style(WHITE.mix(0.85))
-                    .border_style(BLACK)
-                    .draw();
+                legend_below(&below, &names);
             }
         } else if let Ok(mut chart) = ChartBuilder::on(&root)
             .caption(caption.0, caption.1)
@@ -334,6 +323,7 @@ pub fn write_report(dir: &Path) -> Result<()> {
         let svg =
             line_plot("relative error bar of every watched quantity", "unknowns", "relative error bar", &series, true);
         plots.push(("plot-convergence.svg".into(), svg));
+        plots.push(("plot-convergence-values.svg".into(), values_plot(conv)));
     }
     // Paths: creepage files and line probes.
     for c in checks["creepage"].as_array().into_iter().flatten() {
@@ -624,10 +614,120 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> (String
     (mesh_html, h)
 }
 
+/// Every watched quantity's value on each mesh with its error bar, as a deviation from its
+/// final value in percent (so quantities of any unit share one axis), against the unknowns.
+fn values_plot(conv: &[Value]) -> String {
+    let palette = okabe_ito();
+    let series: Vec<(String, Vec<(f64, f64, f64)>)> = conv
+        .iter()
+        .filter_map(|q| {
+            let seq = q["sequence"].as_array()?;
+            let last = seq.last()?["value"].as_f64().filter(|v| *v != 0.0 && v.is_finite())?;
+            let pts = seq
+                .iter()
+                .filter_map(|s| {
+                    let n = s["unknowns"].as_f64()?;
+                    let d = (s["value"].as_f64()? / last - 1.0) * 100.0;
+                    let b = s["error_bar"].as_f64().unwrap_or(0.0) / last.abs() * 100.0;
+                    (d.is_finite() && b.is_finite()).then_some((n, d, b))
+                })
+                .collect();
+            Some((q["quantity"].as_str().unwrap_or("").to_string(), pts))
+        })
+        .collect();
+    let all = || series.iter().flat_map(|s| s.1.iter());
+    let (x0, x1) = all().fold((f64::INFINITY, f64::NEG_INFINITY), |m, p| (m.0.min(p.0), m.1.max(p.0)));
+    let lim = all().fold(0.0f64, |m, p| m.max(p.1.abs() + p.2)).max(1e-6) * 1.1;
+    let (x0, x1) = if x0.is_finite() && x1 > x0 { (x0, x1) } else { (1.0, 10.0) };
+    let mut svg = String::new();
+    let names: Vec<String> = series.iter().map(|s| s.0.clone()).collect();
+    {
+        let root = SVGBackend::with_string(&mut svg, (760, 420 + legend_height(names.len()))).into_drawing_area();
+        let _ = root.fill(&WHITE);
+        let (root, below) = root.split_vertically(420);
+        if let Ok(mut chart) = ChartBuilder::on(&root)
+            .caption("every watched value on each mesh, with its error bar", ("sans-serif", 18))
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(70)
+            .build_cartesian_2d((x0 * 0.8..x1 * 1.25).log_scale(), -lim..lim)
+        {
+            let _ = chart
+                .configure_mesh()
+                .x_desc("unknowns")
+                .y_desc("deviation from the final value, %")
+                .x_label_formatter(&|v| format!("{v:.0e}"))
+                .draw();
+            for (k, (name, p)) in series.iter().enumerate() {
+                let c = palette[k % palette.len()];
+                // A small offset per quantity keeps the bars of one mesh apart.
+                let dx = 1.0 + 0.02 * (k as f64 - series.len() as f64 / 2.0) / series.len().max(1) as f64;
+                let line: Vec<(f64, f64)> = p.iter().map(|q| (q.0 * dx, q.1)).collect();
+                if let Ok(s) = chart.draw_series(LineSeries::new(line, c.stroke_width(2))) {
+                    s.label(name.clone()).legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], c));
+                }
+                let _ =
+                    chart
+                        .draw_series(p.iter().map(|q| {
+                            ErrorBar::new_vertical(q.0 * dx, q.1 - q.2, q.1, q.1 + q.2, c.stroke_width(1), 6)
+                        }));
+                if k < palette.len() {
+                    let _ = chart.draw_series(p.iter().map(|q| Circle::new((q.0 * dx, q.1), 3, c.filled())));
+                } else {
+                    let _ = chart.draw_series(p.iter().map(|q| TriangleMarker::new((q.0 * dx, q.1), 5, c.filled())));
+                }
+            }
+        }
+        legend_below(&below, &names);
+        let _ = root.present();
+    }
+    svg
+}
+
+/// Height of a legend of `n` entries in two columns below a chart, px.
+fn legend_height(n: usize) -> u32 {
+    n.div_ceil(2) as u32 * 16 + 12
+}
+
+/// The legend of a chart's series in two columns below it, in the series' colours and
+/// markers (circles for the first eight, triangles after), so it hides no data.
+fn legend_below<DB: DrawingBackend>(area: &DrawingArea<DB, plotters::coord::Shift>, names: &[String]) {
+    let palette = okabe_ito();
+    for (k, name) in names.iter().enumerate() {
+        let c = palette[k % palette.len()];
+        let (x, y) = (80 + 340 * (k % 2) as i32, 8 + 16 * (k / 2) as i32);
+        let _ = area.draw(&PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2)));
+        if k < palette.len() {
+            let _ = area.draw(&Circle::new((x + 9, y), 3, c.filled()));
+        } else {
+            let _ = area.draw(&TriangleMarker::new((x + 9, y), 5, c.filled()));
+        }
+        let _ = area.draw(&Text::new(name.clone(), (x + 24, y - 6), ("sans-serif", 11)));
+    }
+}
+
+/// Colour-blind-safe qualitative palette (Okabe & Ito 2008).
+fn okabe_ito() -> [RGBColor; 8] {
+    [
+        RGBColor(0, 114, 178),
+        RGBColor(213, 94, 0),
+        RGBColor(0, 158, 115),
+        RGBColor(204, 121, 167),
+        RGBColor(230, 159, 0),
+        RGBColor(86, 180, 233),
+        RGBColor(0, 0, 0),
+        RGBColor(240, 228, 66),
+    ]
+}
+
 /// The caption of a plot file.
 fn plot_caption(name: &str) -> String {
     let stem = name.trim_start_matches("plot-").trim_end_matches(".svg");
-    if stem == "convergence" {
+    if stem == "convergence-values" {
+        "Every watched quantity's value on each mesh with its error bar, as the deviation from its final value in \
+         percent, against the number of unknowns (bars of one mesh drawn slightly apart)."
+            .into()
+    } else if stem == "convergence" {
         "The relative error bar of every watched quantity against the number of unknowns, one point per mesh \
          (log-log); the loop stops when every bar is inside the tolerance."
             .into()
