@@ -614,11 +614,14 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> (String
     (mesh_html, h)
 }
 
+/// One mesh's point of a values plot: unknowns, deviation %, bar %.
+type ValueWithBar = (f64, f64, f64);
+
 /// Every watched quantity's value on each mesh with its error bar, as a deviation from its
 /// final value in percent (so quantities of any unit share one axis), against the unknowns.
 fn values_plot(conv: &[Value]) -> String {
     let palette = okabe_ito();
-    let series: Vec<(String, Vec<(f64, f64, f64)>)> = conv
+    let series: Vec<(String, Vec<ValueWithBar>)> = conv
         .iter()
         .filter_map(|q| {
             let seq = q["sequence"].as_array()?;
