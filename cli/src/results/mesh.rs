@@ -256,9 +256,10 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
         edge_length_max: st.edge_length_range_m[1] / k,
         refinement_complete: complete,
         note,
-        outer_boundary: match model.outer_potential_v {
-            Some(v) => format!("fixed potential {v} V"),
-            None => "zero normal flux".into(),
+        outer_boundary: match (model.outer_potential_v, mesh.exterior) {
+            (_, Some(_)) => "open (Kelvin-mapped exterior: the field decays at infinity)".into(),
+            (Some(v), None) => format!("fixed potential {v} V"),
+            (None, None) => "zero normal flux".into(),
         },
         conductors: model
             .conductors
