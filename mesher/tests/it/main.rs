@@ -14,6 +14,8 @@ mod errors;
 mod exterior;
 /// Grading towards singular corners follows h₀·(r/R)^(1−μ).
 mod grading;
+/// Reading grid files made elsewhere (VTU in every encoding, legacy VTK).
+mod import;
 /// The modules form no import cycle.
 mod layers;
 /// Random simple polygons with holes: termination, validity, coverage, areas.
