@@ -114,3 +114,155 @@ fn damaged_files_are_refused_with_the_array_named() {
     let e = read_grid(edited.as_bytes()).unwrap_err().0;
     assert!(e.contains("points array") && e.contains("337"), "{e}");
 }
+
+fn coax_spec() -> mesher::ImportSpec {
+    use mesher::{BoundaryUse, RegionUse};
+    mesher::ImportSpec {
+        symmetry: mesher::Symmetry::Planar,
+        unit_m: 1e-3,
+        id_array: "region".into(),
+        regions: vec![(1, RegionUse::Dielectric(0))],
+        boundaries: vec![(10, BoundaryUse::Conductor(0)), (20, BoundaryUse::Conductor(1))],
+        region_names: vec!["oil".into()],
+        conductor_names: vec!["inner".into(), "outer".into()],
+    }
+}
+
+#[test]
+fn the_meshio_annulus_imports_with_its_circles_as_arcs() {
+    for order in [1, 2] {
+        let g = read_grid(&fixture(&format!("coax-p{order}-zlib.vtu"))).unwrap();
+        let imp = mesher::import_mesh(&g, &coax_spec()).unwrap();
+        let m = &imp.mesh;
+        assert_eq!(m.triangles.len(), 576);
+        assert_eq!(m.order(), order);
+        let on = |c: u32| m.edges.iter().filter(|e| e.tag == mesher::EdgeTag::Conductor(c)).count();
+        assert_eq!((on(0), on(1)), (48, 48));
+        if order == 2 {
+            // Every boundary edge follows its circle: r = 10 mm and 30 mm about the origin.
+            for e in &m.edges {
+                let a = m.arcs[e.arc.expect("a curved boundary edge has its arc") as usize];
+                let r = if e.tag == mesher::EdgeTag::Conductor(0) { 0.010 } else { 0.030 };
+                assert!((a.radius - r).abs() < 1e-12 && a.center[0].hypot(a.center[1]) < 1e-12, "{a:?}");
+            }
+            assert!(imp.warnings.iter().any(|w| w.contains("interior edges")), "{:?}", imp.warnings);
+        }
+        // Area of the annulus π(b² − a²), to the polygonal (P1) or exact-corner (P2) area.
+        let area: f64 = (0..m.num_triangles()).map(|t| m.triangle_area(t)).sum();
+        let exact = std::f64::consts::PI * (0.03f64.powi(2) - 0.01f64.powi(2));
+        assert!((area / exact - 1.0).abs() < 0.01, "{area} vs {exact}");
+    }
+}
+
+/// A 2 × 1 grid of unit squares split into four triangles, region 1, lines tagged 7 on the
+/// left side; `edit` changes it before import.
+fn squares(edit: impl FnOnce(&mut GridFile)) -> Result<mesher::Imported, String> {
+    let points = vec![[0., 0., 0.], [1., 0., 0.], [2., 0., 0.], [0., 1., 0.], [1., 1., 0.], [2., 1., 0.]];
+    let cells: Vec<(u8, Vec<u32>, f64)> = vec![
+        (5, vec![0, 1, 4], 1.0),
+        (5, vec![0, 4, 3], 1.0),
+        (5, vec![1, 2, 5], 1.0),
+        (5, vec![1, 5, 4], 1.0),
+        (3, vec![0, 3], 7.0),
+    ];
+    let mut g = GridFile { points, ..GridFile::default() };
+    for (t, n, id) in cells {
+        g.types.push(t);
+        g.connectivity.extend(n);
+        g.offsets.push(g.connectivity.len());
+        if g.cell_arrays.is_empty() {
+            g.cell_arrays.push(("region".into(), Vec::new()));
+        }
+        g.cell_arrays[0].1.push(id);
+    }
+    edit(&mut g);
+    let spec = mesher::ImportSpec {
+        regions: vec![(1, mesher::RegionUse::Dielectric(0))],
+        boundaries: vec![(7, mesher::BoundaryUse::Conductor(0))],
+        region_names: vec!["a".into()],
+        conductor_names: vec!["hv".into()],
+        ..coax_spec()
+    };
+    mesher::import_mesh(&g, &spec).map_err(|e| e.0)
+}
+
+/// Replaces cell `c`'s nodes (same count).
+fn set_cell(g: &mut GridFile, c: usize, nodes: &[u32]) {
+    let start = if c == 0 { 0 } else { g.offsets[c - 1] };
+    g.connectivity[start..start + nodes.len()].copy_from_slice(nodes);
+}
+
+#[test]
+fn each_import_error_names_the_cell_or_node() {
+    assert!(squares(|_| {}).is_ok());
+    let e = squares(|g| g.cell_arrays[0].1[2] = 9.0).unwrap_err();
+    assert!(e.contains("cell 2") && e.contains("region id 9"), "{e}");
+    let e = squares(|g| g.cell_arrays[0].0 = "material".into()).unwrap_err();
+    assert!(e.contains("no cell array 'region'") && e.contains("material"), "{e}");
+    let e = squares(|g| g.cell_arrays[0].1[1] = f64::NAN).unwrap_err();
+    assert!(e.contains("cell 1") && e.contains("no integer id"), "{e}");
+    let e = squares(|g| g.points[4] = [0.5, 0.0, 0.0]).unwrap_err();
+    assert!(e.contains("cell 0") && e.contains("degenerate"), "{e}");
+    let e = squares(|g| {
+        g.points.push([1.0, 1.0, 0.0]);
+        set_cell(g, 3, &[1, 5, 6]);
+    })
+    .unwrap_err();
+    assert!(e.contains("nodes 4 and 6 coincide") && e.contains("(1, 1)"), "{e}");
+    let e = squares(|g| g.types[4] = 9).unwrap_err();
+    assert!(e.contains("cell 4") && e.contains("type 9"), "{e}");
+    let e = squares(|g| g.points[0][2] = 0.5).unwrap_err();
+    assert!(e.contains("node 0") && e.contains("z = 0.5"), "{e}");
+    let e = squares(|g| set_cell(g, 4, &[0, 5])).unwrap_err();
+    assert!(e.contains("line cell 4") && e.contains("not an edge"), "{e}");
+    let e = squares(|g| g.cell_arrays[0].1[4] = 8.0).unwrap_err();
+    assert!(e.contains("line cell 4") && e.contains("tag 8"), "{e}");
+    // Clockwise cells are turned round, with a warning.
+    let ok = squares(|g| set_cell(g, 0, &[0, 4, 1])).unwrap();
+    assert!(ok.warnings.iter().any(|w| w.contains("1 clockwise")), "{:?}", ok.warnings);
+    // A third cell on edge 1–4.
+    let e = squares(|g| {
+        g.points.push([0.4, 0.6, 0.0]);
+        g.types.insert(4, 5);
+        let n = g.connectivity.len() - 2;
+        g.connectivity.splice(n..n, [1, 4, 6]);
+        let last = g.offsets[3];
+        g.offsets.insert(4, last + 3);
+        g.offsets[5] += 3;
+        g.cell_arrays[0].1.insert(4, 1.0);
+    })
+    .unwrap_err();
+    assert!(e.contains("edge 1–4") && e.contains("shared by 3 cells"), "{e}");
+    // Hanging node: the right square split by a node 6 on its left edge 1–4.
+    let e = squares(|g| {
+        g.points.push([1.0, 0.5, 0.0]);
+        set_cell(g, 2, &[1, 2, 6]);
+        set_cell(g, 3, &[6, 2, 5]);
+        g.types.insert(4, 5);
+        let n = g.connectivity.len() - 2;
+        g.connectivity.splice(n..n, [6, 5, 4]);
+        let last = g.offsets[3];
+        g.offsets.insert(4, last + 3);
+        g.offsets[5] += 3;
+        g.cell_arrays[0].1.insert(4, 1.0);
+    })
+    .unwrap_err();
+    assert!(e.contains("node 6") && e.contains("hanging"), "{e}");
+    // r < 0 in an axisymmetric model.
+    let g = read_grid(&fixture("coax-p1-ascii.vtu")).unwrap();
+    let spec = mesher::ImportSpec { symmetry: mesher::Symmetry::Axisymmetric, ..coax_spec() };
+    let e = mesher::import_mesh(&g, &spec).unwrap_err().0;
+    assert!(e.contains("r < 0") && e.contains("node"), "{e}");
+}
+
+#[test]
+fn mixed_orders_are_refused() {
+    let mut g = read_grid(&fixture("coax-p1-ascii.vtu")).unwrap();
+    // Append one quadratic line cell (ids within range).
+    g.types.push(21);
+    g.connectivity.extend_from_slice(&[0, 1, 2]);
+    g.offsets.push(g.connectivity.len());
+    g.cell_arrays[0].1.push(10.0);
+    let e = mesher::import_mesh(&g, &coax_spec()).unwrap_err().0;
+    assert!(e.contains("mixed element orders") && e.contains(&format!("cell {}", g.types.len() - 1)), "{e}");
+}

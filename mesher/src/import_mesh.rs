@@ -1,0 +1,521 @@
+//! An imported grid ([`GridFile`]) made into a [`Mesh`]: regions mapped to dielectrics or
+//! conductors (conductor cells are dropped, their boundary becomes the conductor's surface),
+//! boundary line cells mapped to conductors, the outer boundary or the axis, and everything
+//! checked before anything is solved, each error naming the cell or node id as the file
+//! numbers it, its coordinates and the fix.
+//!
+//! Checks: cell types (linear or quadratic triangles and lines only, one order), region ids
+//! present and mapped, degenerate cells (clockwise ones are reoriented, with a warning),
+//! z = 0, r ≥ 0 in axisymmetric models, duplicate nodes, edges shared by more than two cells,
+//! hanging nodes (a vertex inside another cell's edge: a non-conforming mesh), P2 mid-side
+//! nodes shared by both cells of an edge, boundary tags on triangle edges; then
+//! [`Mesh::validate`] for the invariants every mesh has.
+//!
+//! Curved P2 edges: a boundary or interface edge whose mid-side node is off its chord gets the
+//! circle through its three nodes as its arc (the quadratic curve's osculating circle at the
+//! mid node, to second order), so refinement can place new nodes on it; an interior edge's
+//! mid-side node is moved to its chord midpoint (interior edges are straight here), counted
+//! in a warning.
+
+use crate::geometry::{Symmetry, Xy};
+use crate::import::GridFile;
+use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
+
+/// What an imported region id becomes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum RegionUse {
+    /// A dielectric region: index into [`ImportSpec::region_names`].
+    Dielectric(u32),
+    /// A conductor (its cells are dropped): index into [`ImportSpec::conductor_names`].
+    Conductor(u32),
+}
+
+/// What an imported boundary tag (on line cells) becomes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum BoundaryUse {
+    /// The surface of a conductor (held at its potential or floating).
+    Conductor(u32),
+    /// The outer boundary (the model's outer condition).
+    Outer,
+}
+
+/// How to read an imported grid.
+#[derive(Clone, Debug)]
+pub struct ImportSpec {
+    /// Planar or axisymmetric (x is the radius).
+    pub symmetry: Symmetry,
+    /// Metres per file unit.
+    pub unit_m: f64,
+    /// Name of the integer cell array holding region ids and boundary tags.
+    pub id_array: String,
+    /// Region ids of triangles.
+    pub regions: Vec<(i64, RegionUse)>,
+    /// Tags of boundary line cells.
+    pub boundaries: Vec<(i64, BoundaryUse)>,
+    /// Dielectric region names.
+    pub region_names: Vec<String>,
+    /// Conductor names.
+    pub conductor_names: Vec<String>,
+}
+
+/// A located import error.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ImportError(pub String);
+
+impl std::fmt::Display for ImportError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for ImportError {}
+
+/// The mesh of an imported grid and the warnings of what was repaired.
+#[derive(Clone, Debug)]
+pub struct Imported {
+    /// The mesh, validated.
+    pub mesh: Mesh,
+    /// What was accepted with a change (reoriented cells, straightened interior edges).
+    pub warnings: Vec<String>,
+}
+
+fn fail<T>(msg: String) -> Result<T, ImportError> {
+    Err(ImportError(msg))
+}
+
+/// A triangle of the file: cell id, corners, mid-side nodes (P2), what its region is.
+type FileTriangle = (usize, [u32; 3], Option<[u32; 3]>, RegionUse);
+
+/// Makes the mesh of an imported grid.
+///
+/// # Errors
+/// An [`ImportError`] naming the first cell, edge or node (file ids) that fails, with its
+/// coordinates in the file's unit and what to change.
+pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, ImportError> {
+    let ids = grid.cell_array(&spec.id_array).ok_or_else(|| {
+        let have: Vec<&str> = grid.cell_arrays.iter().map(|(n, _)| n.as_str()).collect();
+        ImportError(format!(
+            "the file has no cell array '{}' with region ids (it has: {}): name the array holding them",
+            spec.id_array,
+            if have.is_empty() { "none".to_string() } else { have.join(", ") }
+        ))
+    })?;
+    let at = |v: u32| {
+        let p = grid.points[v as usize];
+        format!("({}, {})", p[0], p[1])
+    };
+    let centre = |c: usize| {
+        let n = grid.cell(c);
+        let (x, y) =
+            n.iter().fold((0.0, 0.0), |s, &v| (s.0 + grid.points[v as usize][0], s.1 + grid.points[v as usize][1]));
+        format!("({}, {})", x / n.len() as f64, y / n.len() as f64)
+    };
+    // Sizes for tolerances: the bounding box of all points.
+    let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
+    for p in &grid.points {
+        for k in 0..2 {
+            lo[k] = lo[k].min(p[k]);
+            hi[k] = hi[k].max(p[k]);
+        }
+    }
+    let scale = (hi[0] - lo[0]).hypot(hi[1] - lo[1]).max(f64::MIN_POSITIVE);
+    if let Some(v) = grid.points.iter().position(|p| p[2].abs() > 1e-9 * scale) {
+        return fail(format!(
+            "node {v} has z = {}: a 2-D mesh lies in the plane z = 0 (x, y; x is the radius r when axisymmetric)",
+            grid.points[v][2]
+        ));
+    }
+    // Cells: triangles with their use, lines with their tag.
+    let mut order = None;
+    let mut tris: Vec<FileTriangle> = Vec::new();
+    let mut lines: Vec<(usize, [u32; 2], BoundaryUse)> = Vec::new();
+    for (c, (&ty, &id)) in grid.types.iter().zip(ids).enumerate() {
+        let n = grid.cell(c);
+        let o = match (ty, n.len()) {
+            (5, 3) | (3, 2) => 1,
+            (22, 6) | (21, 3) => 2,
+            (1, _) => continue, // vertex cells carry nothing for the field
+            _ => {
+                return fail(format!(
+                    "cell {c} at {} is of VTK type {ty} with {} nodes: only triangles (5, 22) and lines (3, 21) \
+                     are read; split other cells into triangles",
+                    centre(c),
+                    n.len()
+                ))
+            }
+        };
+        if *order.get_or_insert(o) != o {
+            return fail(format!(
+                "cell {c} at {} is of order {o} but earlier cells are of order {}: mixed element orders; \
+                 write every cell linear or every cell quadratic",
+                centre(c),
+                3 - o
+            ));
+        }
+        if !id.is_finite() || id.fract() != 0.0 {
+            return fail(format!(
+                "cell {c} at {} has no integer id in '{}' ({id}): give every cell a region id or boundary tag",
+                centre(c),
+                spec.id_array
+            ));
+        }
+        let id = id as i64;
+        if ty == 5 || ty == 22 {
+            let Some(&(_, u)) = spec.regions.iter().find(|r| r.0 == id) else {
+                let known: Vec<String> = spec.regions.iter().map(|r| r.0.to_string()).collect();
+                return fail(format!(
+                    "cell {c} at {} has region id {id}, which the model does not map (mapped: {}): map it to a \
+                     material or a conductor",
+                    centre(c),
+                    if known.is_empty() { "none".to_string() } else { known.join(", ") }
+                ));
+            };
+            let mids = (n.len() == 6).then(|| [n[3], n[4], n[5]]);
+            tris.push((c, [n[0], n[1], n[2]], mids, u));
+        } else {
+            let Some(&(_, u)) = spec.boundaries.iter().find(|b| b.0 == id) else {
+                return fail(format!(
+                    "line cell {c} at {} has boundary tag {id}, which the model does not map: map it to a \
+                     conductor or to the outer boundary",
+                    centre(c)
+                ));
+            };
+            lines.push((c, [n[0], n[1]], u));
+        }
+    }
+    if !tris.iter().any(|t| matches!(t.3, RegionUse::Dielectric(_))) {
+        return fail("the file has no triangle of a dielectric region: there is nothing to solve".into());
+    }
+    let p2 = order == Some(2);
+    // Geometry checks on every triangle (conductor ones included: they define surfaces).
+    let mut flipped = 0usize;
+    let h2 = |t: &[u32; 3]| {
+        let p = t.map(|v| grid.points[v as usize]);
+        let l = |a: [f64; 3], b: [f64; 3]| (a[0] - b[0]).hypot(a[1] - b[1]);
+        l(p[0], p[1]).max(l(p[1], p[2])).max(l(p[2], p[0])).powi(2)
+    };
+    for (c, t, m, _) in &mut tris {
+        let p = t.map(|v| grid.points[v as usize]);
+        let a2 = (p[1][0] - p[0][0]) * (p[2][1] - p[0][1]) - (p[2][0] - p[0][0]) * (p[1][1] - p[0][1]);
+        if a2.abs() <= 1e-12 * h2(t) || t[0] == t[1] || t[1] == t[2] || t[2] == t[0] {
+            return fail(format!(
+                "cell {c} with corners {} {} {} (nodes {}, {}, {}) is degenerate (zero area): remove it or fix its nodes",
+                at(t[0]),
+                at(t[1]),
+                at(t[2]),
+                t[0],
+                t[1],
+                t[2]
+            ));
+        }
+        if a2 < 0.0 {
+            flipped += 1;
+            t.swap(1, 2);
+            if let Some(m) = m {
+                *m = [m[2], m[1], m[0]];
+            }
+        }
+    }
+    if spec.symmetry == Symmetry::Axisymmetric {
+        for (_, t, m, _) in &tris {
+            for &v in t.iter().chain(m.iter().flatten()) {
+                if grid.points[v as usize][0] < -1e-12 * scale {
+                    return fail(format!(
+                        "node {v} at {} has r < 0 in an axisymmetric model: the mesh must lie at r ≥ 0 (x is the radius)",
+                        at(v)
+                    ));
+                }
+            }
+        }
+    }
+    // Edges of all triangles, sorted: runs are the cells sharing an edge.
+    let key = |a: u32, b: u32| ((a.min(b) as u64) << 32) | a.max(b) as u64;
+    let mut adj: Vec<(u64, u32, u8)> = Vec::with_capacity(3 * tris.len());
+    for (i, (_, t, _, _)) in tris.iter().enumerate() {
+        for k in 0..3 {
+            adj.push((key(t[k], t[(k + 1) % 3]), i as u32, k as u8));
+        }
+    }
+    adj.sort_unstable();
+    let mut runs: Vec<(usize, usize)> = Vec::new();
+    let mut i = 0;
+    while i < adj.len() {
+        let mut j = i + 1;
+        while j < adj.len() && adj[j].0 == adj[i].0 {
+            j += 1;
+        }
+        if j - i > 2 {
+            let (a, b) = ((adj[i].0 >> 32) as u32, adj[i].0 as u32);
+            let cells: Vec<String> = adj[i..j].iter().map(|e| tris[e.1 as usize].0.to_string()).collect();
+            return fail(format!(
+                "edge {a}–{b} from {} to {} is shared by {} cells ({}): overlapping or folded cells; each edge \
+                 may belong to two cells at most",
+                at(a),
+                at(b),
+                j - i,
+                cells.join(", ")
+            ));
+        }
+        runs.push((i, j));
+        i = j;
+    }
+    // Duplicate vertices: sort by coordinates, compare neighbours.
+    let mut verts: Vec<u32> = tris.iter().flat_map(|t| t.1).collect();
+    verts.sort_unstable();
+    verts.dedup();
+    let mut by_xy = verts.clone();
+    by_xy.sort_by(|&a, &b| {
+        let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
+        p[0].total_cmp(&q[0]).then(p[1].total_cmp(&q[1]))
+    });
+    for w in by_xy.windows(2) {
+        let (p, q) = (grid.points[w[0] as usize], grid.points[w[1] as usize]);
+        if (p[0] - q[0]).hypot(p[1] - q[1]) <= 1e-13 * scale {
+            return fail(format!(
+                "nodes {} and {} coincide at {}: merge duplicate nodes (the cells on either side are not joined)",
+                w[0],
+                w[1],
+                at(w[0])
+            ));
+        }
+    }
+    // Hanging nodes: a vertex inside an edge that only one cell has (the other side of a
+    // non-conforming edge was split). Boundary edges are few; a uniform bucket grid of their
+    // vertices finds candidates.
+    let boundary: Vec<(u32, u32)> =
+        runs.iter().filter(|r| r.1 - r.0 == 1).map(|r| ((adj[r.0].0 >> 32) as u32, adj[r.0].0 as u32)).collect();
+    {
+        let mut bverts: Vec<u32> = boundary.iter().flat_map(|e| [e.0, e.1]).collect();
+        bverts.sort_unstable();
+        bverts.dedup();
+        let mean = boundary
+            .iter()
+            .map(|&(a, b)| {
+                let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
+                (p[0] - q[0]).hypot(p[1] - q[1])
+            })
+            .sum::<f64>()
+            / boundary.len().max(1) as f64;
+        let cell = mean.max(1e-12 * scale);
+        let key = |p: [f64; 3]| (((p[0] - lo[0]) / cell).floor() as i64, ((p[1] - lo[1]) / cell).floor() as i64);
+        let mut grid_of: std::collections::HashMap<(i64, i64), Vec<u32>> = std::collections::HashMap::new();
+        for &v in &bverts {
+            grid_of.entry(key(grid.points[v as usize])).or_default().push(v);
+        }
+        for &(a, b) in &boundary {
+            let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
+            let (ka, kb) = (key(p), key(q));
+            let len2 = (q[0] - p[0]).powi(2) + (q[1] - p[1]).powi(2);
+            for gx in ka.0.min(kb.0)..=ka.0.max(kb.0) {
+                for gy in ka.1.min(kb.1)..=ka.1.max(kb.1) {
+                    for &v in grid_of.get(&(gx, gy)).into_iter().flatten() {
+                        if v == a || v == b {
+                            continue;
+                        }
+                        let r = grid.points[v as usize];
+                        let s = ((r[0] - p[0]) * (q[0] - p[0]) + (r[1] - p[1]) * (q[1] - p[1])) / len2;
+                        let cross = (r[0] - p[0]) * (q[1] - p[1]) - (r[1] - p[1]) * (q[0] - p[0]);
+                        if s > 1e-9 && s < 1.0 - 1e-9 && cross.abs() <= 1e-9 * len2 {
+                            return fail(format!(
+                                "node {v} at {} lies inside edge {a}–{b} from {} to {} of another cell: a hanging \
+                                 node (non-conforming mesh); split the neighbouring cell at it",
+                                at(v),
+                                at(a),
+                                at(b)
+                            ));
+                        }
+                    }
+                }
+            }
+        }
+    }
+    // P2: both cells of an edge share its mid node.
+    if p2 {
+        for &(s, e) in &runs {
+            if e - s == 2 {
+                let m = |x: (u64, u32, u8)| tris[x.1 as usize].2.map(|m| m[x.2 as usize]);
+                let (m0, m1) = (m(adj[s]), m(adj[s + 1]));
+                if m0 != m1 {
+                    let (a, b) = ((adj[s].0 >> 32) as u32, adj[s].0 as u32);
+                    return fail(format!(
+                        "edge {a}–{b} from {} to {} has different mid-side nodes in cells {} and {} ({:?} and {:?}): \
+                         a non-conforming quadratic mesh; share one mid-side node",
+                        at(a),
+                        at(b),
+                        tris[adj[s].1 as usize].0,
+                        tris[adj[s + 1].1 as usize].0,
+                        m0.unwrap_or(0),
+                        m1.unwrap_or(0)
+                    ));
+                }
+            }
+        }
+    }
+    // Renumber: dielectric triangles' vertices first, then their mid nodes.
+    let kept: Vec<usize> = (0..tris.len()).filter(|&i| matches!(tris[i].3, RegionUse::Dielectric(_))).collect();
+    let mut new_id = vec![u32::MAX; grid.points.len()];
+    let mut nodes: Vec<Xy> = Vec::new();
+    let k = spec.unit_m;
+    for &i in &kept {
+        for &v in &tris[i].1 {
+            if new_id[v as usize] == u32::MAX {
+                new_id[v as usize] = nodes.len() as u32;
+                let p = grid.points[v as usize];
+                nodes.push([p[0] * k, p[1] * k]);
+            }
+        }
+    }
+    let num_vertices = nodes.len() as u32;
+    let mut mid_nodes = Vec::new();
+    if p2 {
+        for &i in &kept {
+            let mut ms = [0u32; 3];
+            for (j, &v) in tris[i].2.iter().flatten().enumerate() {
+                if new_id[v as usize] == u32::MAX {
+                    new_id[v as usize] = nodes.len() as u32;
+                    let p = grid.points[v as usize];
+                    nodes.push([p[0] * k, p[1] * k]);
+                } else if new_id[v as usize] < num_vertices {
+                    return fail(format!(
+                        "node {v} at {} is a corner of one cell and the mid-side node of cell {}: fix the cell's node order",
+                        at(v),
+                        tris[i].0
+                    ));
+                }
+                ms[j] = new_id[v as usize];
+            }
+            mid_nodes.push(ms);
+        }
+    }
+    let triangles: Vec<[u32; 3]> = kept.iter().map(|&i| tris[i].1.map(|v| new_id[v as usize])).collect();
+    let regions: Vec<u32> = kept
+        .iter()
+        .map(|&i| match tris[i].3 {
+            RegionUse::Dielectric(r) => r,
+            RegionUse::Conductor(_) => unreachable!("only dielectric triangles are kept"),
+        })
+        .collect();
+    // Tags from the line cells, by edge.
+    let mut line_tag: std::collections::HashMap<u64, (usize, BoundaryUse)> = std::collections::HashMap::new();
+    for &(c, [a, b], u) in &lines {
+        let pos = adj.partition_point(|e| e.0 < key(a, b));
+        if pos >= adj.len() || adj[pos].0 != key(a, b) {
+            return fail(format!(
+                "line cell {c} from {} to {} (nodes {a}, {b}) is not an edge of any triangle: boundary lines must \
+                 follow cell edges",
+                at(a),
+                at(b)
+            ));
+        }
+        line_tag.insert(key(a, b), (c, u));
+    }
+    // Tagged edges of the dielectric mesh.
+    let mut edges: Vec<TaggedEdge> = Vec::new();
+    let mut arcs: Vec<ArcGeom> = Vec::new();
+    let mut straightened = 0usize;
+    for &(s, e) in &runs {
+        let cells: Vec<(u32, u8)> = adj[s..e].iter().map(|x| (x.1, x.2)).collect();
+        let dielectric: Vec<(u32, u8)> =
+            cells.iter().copied().filter(|&(t, _)| matches!(tris[t as usize].3, RegionUse::Dielectric(_))).collect();
+        if dielectric.is_empty() {
+            continue;
+        }
+        let region_of = |t: u32| match tris[t as usize].3 {
+            RegionUse::Dielectric(r) => r,
+            RegionUse::Conductor(_) => u32::MAX,
+        };
+        // The first dielectric cell's edge runs counter-clockwise: its region is on the left.
+        let (t0, k0) = dielectric[0];
+        let tri = tris[t0 as usize].1;
+        let (a, b) = (tri[k0 as usize], tri[(k0 as usize + 1) % 3]);
+        let other = cells.iter().find(|&&(t, _)| t != t0).map(|&(t, _)| t);
+        let tag = match other.map(|t| tris[t as usize].3) {
+            Some(RegionUse::Conductor(c)) => Some(EdgeTag::Conductor(c)),
+            Some(RegionUse::Dielectric(r)) => {
+                let r0 = region_of(t0);
+                (r != r0).then_some(EdgeTag::Interface(r0.min(r), r0.max(r)))
+            }
+            None => Some(match line_tag.get(&key(a, b)).map(|x| x.1) {
+                Some(BoundaryUse::Conductor(c)) => EdgeTag::Conductor(c),
+                Some(BoundaryUse::Outer) => EdgeTag::Outer,
+                None if spec.symmetry == Symmetry::Axisymmetric
+                    && grid.points[a as usize][0].abs() <= 1e-9 * scale
+                    && grid.points[b as usize][0].abs() <= 1e-9 * scale =>
+                {
+                    EdgeTag::Axis
+                }
+                None => EdgeTag::Outer,
+            }),
+        };
+        // An interface edge lists the smaller region on its left.
+        let (na, nb) = match tag {
+            Some(EdgeTag::Interface(r1, _)) if region_of(t0) != r1 => (new_id[b as usize], new_id[a as usize]),
+            _ => (new_id[a as usize], new_id[b as usize]),
+        };
+        let mut arc = None;
+        if p2 {
+            let m = mid_nodes[kept.binary_search(&(t0 as usize)).unwrap_or(0)][k0 as usize];
+            let (pa, pb, pm) = (nodes[na as usize], nodes[nb as usize], nodes[m as usize]);
+            let mid = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
+            let off = (pm[0] - mid[0]).hypot(pm[1] - mid[1]);
+            let len = (pb[0] - pa[0]).hypot(pb[1] - pa[1]);
+            if off > 1e-9 * len {
+                if tag.is_some() && !matches!(tag, Some(EdgeTag::Axis)) {
+                    // The circle through the three nodes.
+                    match circle_through(pa, pm, pb) {
+                        Some((center, radius)) => {
+                            arcs.push(ArcGeom { center, radius });
+                            arc = Some(arcs.len() as u32 - 1);
+                        }
+                        None => nodes[m as usize] = mid,
+                    }
+                } else {
+                    nodes[m as usize] = mid;
+                    straightened += 1;
+                }
+            }
+        }
+        if let Some(tag) = tag {
+            edges.push(TaggedEdge { nodes: [na, nb], tag, arc });
+        }
+    }
+    let mut warnings = Vec::new();
+    if flipped > 0 {
+        warnings.push(format!("{flipped} clockwise cells were reoriented counter-clockwise"));
+    }
+    if straightened > 0 {
+        warnings.push(format!(
+            "{straightened} interior edges had curved mid-side nodes; they were moved to the edge midpoints \
+             (interior edges are straight here; boundary and interface edges keep their curve)"
+        ));
+    }
+    let mesh = Mesh {
+        symmetry: spec.symmetry,
+        nodes,
+        num_vertices,
+        triangles,
+        regions,
+        mid_nodes,
+        edges,
+        arcs,
+        shape_names: spec.region_names.clone(),
+        conductor_names: spec.conductor_names.clone(),
+        singular_points: Vec::new(),
+        exterior: None,
+    };
+    mesh.validate().map_err(|e| ImportError(format!("the imported mesh fails validation: {e}")))?;
+    Ok(Imported { mesh, warnings })
+}
+
+/// Centre and radius of the circle through three points (None when they are collinear).
+fn circle_through(a: Xy, b: Xy, c: Xy) -> Option<(Xy, f64)> {
+    let d = 2.0 * (a[0] * (b[1] - c[1]) + b[0] * (c[1] - a[1]) + c[0] * (a[1] - b[1]));
+    if d.abs() < f64::MIN_POSITIVE {
+        return None;
+    }
+    let s = |p: Xy| p[0] * p[0] + p[1] * p[1];
+    let x = (s(a) * (b[1] - c[1]) + s(b) * (c[1] - a[1]) + s(c) * (a[1] - b[1])) / d;
+    let y = (s(a) * (c[0] - b[0]) + s(b) * (a[0] - c[0]) + s(c) * (b[0] - a[0])) / d;
+    let r = (a[0] - x).hypot(a[1] - y);
+    r.is_finite().then_some(([x, y], r))
+}
