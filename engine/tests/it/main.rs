@@ -12,6 +12,8 @@ mod corner;
 mod goals;
 /// Error bars against true errors on closed forms (containment and sharpness).
 mod honesty;
+/// The coaxial closed form on meshes imported from files made elsewhere.
+mod import;
 /// The L-shaped corner benchmark's exact solution and problem.
 pub mod lshape;
 /// Linear potentials reproduced exactly; invariants of the solution.
