@@ -180,8 +180,18 @@ impl Layout {
         let sizes = self.header_ints(data.get(3 * h..(3 + blocks) * h).ok_or_else(short)?);
         let mut at = (3 + blocks) * h;
         let (block, last) = (first[1] as usize, first[2] as usize);
-        let expected = if blocks == 0 { 0 } else { block * (blocks - 1) + if last == 0 { block } else { last } };
-        let mut out = Vec::with_capacity(expected.min(1 << 31));
+        let expected = if blocks == 0 {
+            Some(0)
+        } else {
+            block.checked_mul(blocks - 1).and_then(|x| x.checked_add(if last == 0 { block } else { last }))
+        };
+        let Some(expected) = expected else {
+            return err(format!("data array '{name}': the compressed header's sizes overflow"));
+        };
+        // zlib expands at most about 1032-fold: a header claiming more is not trusted for the
+        // allocation (the length check below refuses it).
+        let packed: usize = sizes.iter().map(|&c| c as usize).sum();
+        let mut out = Vec::with_capacity(expected.min(packed.saturating_mul(1032)));
         for &c in &sizes {
             let c = c as usize;
             let chunk = data.get(at..at.checked_add(c).ok_or_else(short)?).ok_or_else(short)?;
@@ -214,7 +224,9 @@ impl Layout {
         let first_len = if self.zlib { 3 * h } else { h };
         let probe = b64.decode(text.get(..head_len(first_len)).unwrap_or(&text)).ok();
         let head_bytes = if self.zlib {
-            probe.and_then(|p| p.get(..h).map(|b| 3 + self.header_ints(b)[0] as usize)).map(|n| n * h)
+            probe
+                .and_then(|p| p.get(..h).map(|b| (self.header_ints(b)[0] as usize).saturating_add(3)))
+                .map(|n| n.saturating_mul(h))
         } else {
             Some(h)
         };
@@ -341,7 +353,7 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
         return err(format!("the points array has {comps} components; VTK points have 3"));
     }
     let xyz = array(*pts, "Points")?;
-    if xyz.len() != 3 * np {
+    if Some(xyz.len()) != np.checked_mul(3) {
         return err(format!("the points array holds {} values for {np} points (3 each)", xyz.len()));
     }
     let cells = arrays_of("Cells");
@@ -353,7 +365,7 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
         let name = a.attribute("Name").unwrap_or("").to_string();
         let comps = a.attribute("NumberOfComponents").and_then(|c| c.parse::<usize>().ok()).unwrap_or(1).max(1);
         let v = array(a, &name)?;
-        if v.len() != comps * nc {
+        if Some(v.len()) != comps.checked_mul(nc) {
             return err(format!("cell array '{name}' holds {} values for {nc} cells × {comps}", v.len()));
         }
         cell_arrays.push((name, v.into_iter().step_by(comps).collect()));
@@ -441,6 +453,9 @@ fn read_legacy(bytes: &[u8]) -> Result<GridFile, ReadError> {
         f => return err(format!("line 3 should say ASCII, it says '{}'", f.unwrap_or(""))),
     }
     let rest: Vec<&str> = lines.collect::<Vec<_>>();
+    // No section can hold more values than the text has pairs of bytes: allocations follow
+    // the file's size, not the counts it claims.
+    let cap = bytes.len() / 2 + 1;
     let mut tok = rest.iter().flat_map(|l| l.split_ascii_whitespace()).peekable();
     macro_rules! next {
         ($what:expr) => {
@@ -468,8 +483,8 @@ fn read_legacy(bytes: &[u8]) -> Result<GridFile, ReadError> {
             "POINTS" => {
                 let n = count(next!("the point count")?, "POINTS")?;
                 next!("the point type")?;
-                xyz.reserve(3 * n.min(1 << 28));
-                for _ in 0..3 * n {
+                xyz.reserve(n.saturating_mul(3).min(cap));
+                for _ in 0..n.saturating_mul(3) {
                     xyz.push(num(next!("a point coordinate")?, "POINTS")?);
                 }
             }
@@ -481,7 +496,7 @@ fn read_legacy(bytes: &[u8]) -> Result<GridFile, ReadError> {
                 let peek = next!("the cell list")?;
                 if peek.eq_ignore_ascii_case("OFFSETS") {
                     next!("the offsets type")?;
-                    let mut o = Vec::with_capacity(a.min(1 << 28));
+                    let mut o = Vec::with_capacity(a.min(cap));
                     for _ in 0..a {
                         o.push(num(next!("an offset")?, "OFFSETS")?);
                     }
@@ -558,8 +573,8 @@ fn read_legacy(bytes: &[u8]) -> Result<GridFile, ReadError> {
                 } else {
                     return err(format!("SCALARS {name}: LOOKUP_TABLE expected, found '{w}'"));
                 }
-                let mut v = Vec::with_capacity(n.min(1 << 28));
-                for _ in 0..n * comps {
+                let mut v = Vec::with_capacity(n.saturating_mul(comps).min(cap));
+                for _ in 0..n.saturating_mul(comps) {
                     v.push(num(next!("a cell value")?, &name)?);
                 }
                 cell_arrays.push((name, v.into_iter().step_by(comps).collect()));
@@ -572,8 +587,8 @@ fn read_legacy(bytes: &[u8]) -> Result<GridFile, ReadError> {
                     let comps = count(next!("the component count")?, &name)?.max(1);
                     let tuples = count(next!("the tuple count")?, &name)?;
                     next!("the array type")?;
-                    let mut v = Vec::with_capacity((tuples * comps).min(1 << 28));
-                    for _ in 0..tuples * comps {
+                    let mut v = Vec::with_capacity(tuples.saturating_mul(comps).min(cap));
+                    for _ in 0..tuples.saturating_mul(comps) {
                         v.push(num(next!("a value")?, &name)?);
                     }
                     if nc == Some(tuples) {

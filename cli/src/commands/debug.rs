@@ -6,7 +6,6 @@ use crate::plan::problem::problem_of;
 use crate::results::write::write_atomic;
 use crate::CliError;
 use crate::Result;
-use mesher::generate;
 
 /// `fieldgrade debug matrix`: the reduced system in Matrix Market format.
 ///
@@ -20,7 +19,7 @@ pub fn dump_matrix(
 ) -> Result<()> {
     let mut model = plan::load(model_path).map_err(CliError::from)?;
     crate::plan::budget::prepare(&mut model, order, memory_limit, false);
-    let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
+    let meshed = crate::commands::first_mesh(&model)?;
     let problem = problem_of(&model);
     let sys = engine::reduced_system(&meshed.mesh, &problem).map_err(|e| CliError::from(model.solve_error(&e)))?;
     let n = sys.num_unknowns;

@@ -1,12 +1,11 @@
 //! `fieldgrade mesh`: mesh a model and report what was built.
 
 use crate::plan;
-use crate::results::mesh::{render_text, report};
+use crate::results::mesh::{render_text, report_of};
 use crate::results::picture::{mesh_picture, Mark, Part};
 use crate::results::write::write_atomic;
 use crate::CliError;
 use crate::Result;
-use mesher::generate;
 use std::path::PathBuf;
 
 /// A validated `mesh` run.
@@ -35,8 +34,9 @@ pub struct MeshRun {
 pub fn run(run: &MeshRun) -> Result<()> {
     let mut model = plan::load(&run.model).map_err(CliError::from)?;
     crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, false);
-    let out = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
-    let rep = report(&model, &out);
+    let out = crate::commands::first_mesh(&model)?;
+    let mut rep = report_of(&model, &out.mesh, out.complete, out.reason.clone());
+    rep.warnings.extend(out.warnings.iter().cloned());
     if let Some(p) = &run.out {
         write_atomic(p, |w| {
             let mut w = w;

@@ -4,12 +4,11 @@
 use crate::plan;
 use crate::plan::problem::problem_of;
 use crate::results::checks::breakdown_checks;
-use crate::results::mesh::report;
+use crate::results::mesh::report_of;
 use crate::results::solve::{analyse, finite_or_error, render_text, solve_error, write_outputs};
 use crate::CliError;
 use crate::Result;
 use engine::solve_factored;
-use mesher::generate;
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -38,7 +37,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let t0 = Instant::now();
     let mut model = plan::load(&run.model).map_err(CliError::from)?;
     crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, false);
-    let meshed = generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
+    let meshed = crate::commands::first_mesh(&model)?;
     let t_mesh = t0.elapsed().as_secs_f64();
     let mesh = &meshed.mesh;
     let problem = problem_of(&model);
@@ -48,7 +47,8 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let (fixed, cmat) = solved.capacitance.clone();
     let sol = solved.solution.clone();
     let t_solve = t0.elapsed().as_secs_f64() - t_mesh;
-    let mesh_report = report(&model, &meshed);
+    let mut mesh_report = report_of(&model, mesh, meshed.complete, meshed.reason.clone());
+    mesh_report.warnings.extend(meshed.warnings.iter().cloned());
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
     let discs = engine::exclusion_discs(mesh, model.singular_exclusion_radius_m);

@@ -189,7 +189,7 @@ pub(super) fn load_cases(
     raw: &RawModel,
     conductors: &[Conductor],
     outer_potential_v: Option<f64>,
-    shapes: &[mesher::Shape],
+    regions: &[super::RegionName],
     shape_charge_density: &[f64],
     materials: &mut [Material],
     probes: &mut [Probe],
@@ -215,7 +215,7 @@ pub(super) fn load_cases(
                         c.name.span(),
                         format!(
                             "load cases scale one solution, which needs every source to scale with the voltage; shape '{}' has a space charge density, which does not",
-                            shapes[k].name
+                            regions[k].name
                         ),
                     )
                     .key(key("name"))

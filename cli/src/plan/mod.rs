@@ -17,6 +17,7 @@ pub mod problem;
 
 mod boundary;
 mod conductors;
+pub mod import;
 mod load_cases;
 mod materials;
 mod mesh_controls;
@@ -178,6 +179,9 @@ pub struct Plan {
     pub unit_m: f64,
     /// Name of the model length unit.
     pub unit: &'static str,
+    /// `[import]`: the mesh comes from a file instead of the drawn shapes (which are then
+    /// none).
+    pub import: Option<import::ImportPlan>,
     /// Byte spans of each shape's `name` value, for pointing at shapes in errors.
     shape_spans: Vec<Range<usize>>,
     source: String,
@@ -331,6 +335,14 @@ pub fn load(path: &Path) -> Result<Plan, ModelError> {
     parse(path, &source)
 }
 
+/// A region name as probes and load cases refer to it: a drawn shape, or an imported region.
+pub(super) struct RegionName {
+    /// Shape or region name.
+    pub(super) name: String,
+    /// A conductor shape (no dielectric region).
+    pub(super) conductor: bool,
+}
+
 /// What every table's checks need: the file (for messages), its text and the length unit.
 struct Ctx<'a> {
     path: &'a Path,
@@ -448,19 +460,41 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
 
     let conductors = conductors(&cx, &raw)?;
 
-    let (shapes, shape_material, shape_charge_density, shape_spans) = shapes(&cx, &raw, &materials, &conductors, unit)?;
+    let import = import::import(&cx, &raw, &materials, &conductors, symmetry)?;
+    let (shapes, shape_material, shape_charge_density, shape_spans) = match &import {
+        None => shapes(&cx, &raw, &materials, &conductors, unit)?,
+        Some(i) => (
+            Vec::new(),
+            i.region_material.iter().map(|&m| Some(m)).collect(),
+            vec![0.0; i.region_material.len()],
+            Vec::new(),
+        ),
+    };
+    let region_names: Vec<RegionName> = match &import {
+        None => shapes
+            .iter()
+            .map(|s| RegionName { name: s.name.clone(), conductor: matches!(s.fill, mesher::Fill::Conductor { .. }) })
+            .collect(),
+        Some(i) => i.spec.region_names.iter().map(|n| RegionName { name: n.clone(), conductor: false }).collect(),
+    };
 
     let (outer, outer_potential_v) = boundary(&cx, &raw, &conductors)?;
+    if let (Some(_), mesher::OuterBoundary::Open, Some(b)) = (&import, outer, &raw.boundary) {
+        return Err(cx
+            .err(b.span(), "an open boundary needs a drawn circular domain; an imported mesh cannot have one".into())
+            .key("boundary.outer")
+            .help("use outer = \"potential\" or \"zero_flux\" for an imported mesh"));
+    }
 
     let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
-    let mut probes = probes(&cx, &raw, &shapes, &conductors)?;
+    let mut probes = probes(&cx, &raw, &region_names, &conductors)?;
     let mut materials = materials;
     let load_cases = load_cases::load_cases(
         &cx,
         &raw,
         &conductors,
         outer_potential_v,
-        &shapes,
+        &region_names,
         &shape_charge_density,
         &mut materials,
         &mut probes,
@@ -500,11 +534,14 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         breakdown,
         unit_m,
         unit,
+        import,
         shape_spans,
         source: source.to_string(),
         path: path.to_path_buf(),
     };
-    model.geometry.validate().map_err(|e| model.mesh_error(&e))?;
+    if model.import.is_none() {
+        model.geometry.validate().map_err(|e| model.mesh_error(&e))?;
+    }
     Ok(model)
 }
 

@@ -3,15 +3,14 @@
 
 use super::diag::ModelError;
 use super::raw::RawModel;
-use super::{Conductor, Ctx, Probe, ProbeKind};
-use mesher::{Fill, Shape};
+use super::{Conductor, Ctx, Probe, ProbeKind, RegionName};
 
 /// `[[probe]]`: names usable in file names and unique, one kind each (path, interface or
 /// conductor surface) naming shapes and conductors that exist.
 pub(super) fn probes(
     cx: &Ctx<'_>,
     raw: &RawModel,
-    shapes: &[Shape],
+    regions: &[RegionName],
     conductors: &[Conductor],
 ) -> Result<Vec<Probe>, ModelError> {
     let mut probes: Vec<Probe> = Vec::new();
@@ -78,11 +77,11 @@ pub(super) fn probes(
             let [a, b] = pair.get_ref();
             let mut idx = [0u32; 2];
             for (k, n) in [a, b].iter().enumerate() {
-                let s = shapes.iter().position(|s| &s.name == *n).ok_or_else(|| {
+                let s = regions.iter().position(|s| &s.name == *n).ok_or_else(|| {
                     cx.err(pair.span(), format!("probe '{name}' refers to shape '{n}', which does not exist"))
                         .key(key("interface"))
                 })?;
-                if let Fill::Conductor { .. } = shapes[s].fill {
+                if regions[s].conductor {
                     return Err(cx
                         .err(
                             pair.span(),

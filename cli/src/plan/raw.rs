@@ -25,6 +25,38 @@ pub(super) struct RawModel {
     #[serde(default)]
     pub(super) load_case: Vec<S<RawLoadCase>>,
     pub(super) breakdown: Option<S<RawBreakdown>>,
+    pub(super) import: Option<S<RawImport>>,
+}
+
+/// `[import]`: a mesh made elsewhere, its region ids and boundary tags.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawImport {
+    pub(super) file: S<String>,
+    pub(super) id_array: Option<S<String>>,
+    #[serde(default)]
+    pub(super) region: Vec<S<RawImportRegion>>,
+    #[serde(default)]
+    pub(super) boundary: Vec<S<RawImportBoundary>>,
+}
+
+/// `[[import.region]]`.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawImportRegion {
+    pub(super) id: S<i64>,
+    pub(super) name: Option<S<String>>,
+    pub(super) material: Option<S<String>>,
+    pub(super) conductor: Option<S<String>>,
+}
+
+/// `[[import.boundary]]`.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawImportBoundary {
+    pub(super) tag: S<i64>,
+    pub(super) conductor: Option<S<String>>,
+    pub(super) outer: Option<S<bool>>,
 }
 
 #[derive(Deserialize, Debug)]

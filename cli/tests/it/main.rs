@@ -16,6 +16,8 @@ mod debug_matrix;
 mod errors;
 /// Every singular point the mesh lists is graded by the corner law (checked on the VTU).
 mod grading;
+/// `[import]`: meshes made elsewhere, solved and refused.
+mod import;
 /// `fieldgrade mesh` statistics of the shipped demo models (insta snapshots).
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.

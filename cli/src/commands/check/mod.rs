@@ -66,6 +66,15 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let t0 = Instant::now();
     let mut model = plan::load(&run.model).map_err(CliError::from)?;
     crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, true);
+    if model.import.is_some() {
+        // The adaptive loop refines by remeshing the drawn geometry; an imported mesh has
+        // none, and refinement inside an imported mesh is not built yet.
+        return Err(CliError::from(model.import_error(
+            "`check` refines by remeshing drawn shapes, which an imported mesh does not have: run `fieldgrade solve` \
+             on it (one mesh, verdicts uncertified), or draw the part as [[shape]] tables"
+                .into(),
+        )));
+    }
     let problem = problem_of(&model);
     let bar = indicatif::ProgressBar::new_spinner();
     bar.set_style(

@@ -1,0 +1,25 @@
+//! Arbitrary bytes as an imported mesh file (.vtu in any encoding, legacy .vtk): the reader
+//! must return a grid or an error, never panic or run out of memory; a grid that reads must
+//! import into a validated mesh or give an error naming what is wrong.
+#![no_main]
+
+use libfuzzer_sys::fuzz_target;
+use mesher::{import_mesh, read_grid, BoundaryUse, ImportSpec, RegionUse, Symmetry};
+
+fuzz_target!(|data: &[u8]| {
+    let Ok(grid) = read_grid(data) else { return };
+    for symmetry in [Symmetry::Planar, Symmetry::Axisymmetric] {
+        let spec = ImportSpec {
+            symmetry,
+            unit_m: 1e-3,
+            id_array: grid.cell_arrays.first().map(|a| a.0.clone()).unwrap_or_else(|| "region".into()),
+            regions: vec![(0, RegionUse::Dielectric(0)), (1, RegionUse::Dielectric(1)), (2, RegionUse::Conductor(0))],
+            boundaries: vec![(10, BoundaryUse::Conductor(0)), (20, BoundaryUse::Outer)],
+            region_names: vec!["a".into(), "b".into()],
+            conductor_names: vec!["hv".into()],
+        };
+        if let Err(e) = import_mesh(&grid, &spec) {
+            let _ = e.to_string();
+        }
+    }
+});
