@@ -210,38 +210,51 @@ impl Layout {
     /// Bytes of an inline or appended base64 array: the header and data may be encoded as
     /// one stream or (VTK's way, and for compressed data) as separate ones.
     fn payload_base64(&self, text: &[u8], name: &str) -> Result<Vec<u8>, ReadError> {
-        let text: Vec<u8> = text.iter().copied().filter(|c| !c.is_ascii_whitespace()).collect();
+        let owned: Vec<u8>;
+        let text = if text.iter().any(u8::is_ascii_whitespace) {
+            owned = text.iter().copied().filter(|c| !c.is_ascii_whitespace()).collect();
+            &owned[..]
+        } else {
+            text
+        };
         let b64 = base64::engine::general_purpose::STANDARD;
         let bad = |e: base64::DecodeError| ReadError(format!("data array '{name}': bad base64 ({e})"));
         let h = self.header.size();
-        // Separate streams: the header's encoded length, then the rest.
         let head_len = |bytes: usize| bytes.div_ceil(3) * 4;
-        let split = |k: usize| -> Option<(Vec<u8>, Vec<u8>)> {
-            let head = b64.decode(text.get(..k)?).ok()?;
-            let body = b64.decode(text.get(k..)?).ok()?;
-            Some((head, body))
+        let joint = || -> Result<Vec<u8>, ReadError> {
+            let all = b64.decode(text).map_err(bad)?;
+            Ok(self.payload(&all, name)?.0)
         };
-        let first_len = if self.zlib { 3 * h } else { h };
-        let probe = b64.decode(text.get(..head_len(first_len)).unwrap_or(&text)).ok();
-        let head_bytes = if self.zlib {
-            probe
-                .and_then(|p| p.get(..h).map(|b| (self.header_ints(b)[0] as usize).saturating_add(3)))
-                .map(|n| n.saturating_mul(h))
-        } else {
-            Some(h)
-        };
-        if let Some(hb) = head_bytes {
-            if let Some((mut head, body)) = split(head_len(hb)) {
-                head.truncate(hb);
-                head.extend_from_slice(&body);
-                if let Ok((p, _)) = self.payload(&head, name) {
-                    return Ok(p);
-                }
-            }
+        // Uncompressed: the header is encoded on its own when its encoded length ends in
+        // padding (a 4- or 8-byte header never fills its last group of three bytes), which
+        // cannot occur inside one joint stream. Compressed: writers encode the header on its
+        // own; a joint stream is the fallback.
+        let first = head_len(if self.zlib { 3 * h } else { h });
+        if !self.zlib && text.get(first - 1) != Some(&b'=') {
+            return joint();
         }
-        // One stream.
-        let all = b64.decode(&text).map_err(bad)?;
-        Ok(self.payload(&all, name)?.0)
+        let Ok(head) = b64.decode(text.get(..first).unwrap_or(text)) else { return joint() };
+        let head_bytes = if self.zlib {
+            let blocks = self
+                .header_ints(head.get(..h).unwrap_or(&[]))
+                .first()
+                .copied()
+                .ok_or_else(|| ReadError(format!("data array '{name}': no compression header")))?;
+            (blocks as usize).saturating_add(3).saturating_mul(h)
+        } else {
+            h
+        };
+        let k = head_len(head_bytes);
+        let separate = || -> Option<Vec<u8>> {
+            let mut all = if k == first { head.clone() } else { b64.decode(text.get(..k)?).ok()? };
+            all.truncate(head_bytes);
+            b64.decode_vec(text.get(k..)?, &mut all).ok()?;
+            Some(all)
+        };
+        match separate().map(|all| self.payload(&all, name)) {
+            Some(Ok((p, _))) => Ok(p),
+            _ => joint(),
+        }
     }
 }
 
@@ -642,6 +655,42 @@ mod tests {
         assert_eq!(g.cell_array("region").unwrap(), &[1.0, 2.0, 7.0]);
         let v5 = "# vtk DataFile Version 5.1\nt\nASCII\nDATASET UNSTRUCTURED_GRID\nPOINTS 4 double\n0 0 0 1 0 0 1 1 0 0 1 0\nCELLS 4 8\nOFFSETS vtktypeint64\n0 3 6 8\nCONNECTIVITY vtktypeint64\n0 1 2 0 2 3 0 1\nCELL_TYPES 3\n5 5 3\nCELL_DATA 3\nFIELD FieldData 1\nregion 1 3 int\n1 2 7\n";
         assert_eq!(read_grid(v5.as_bytes()).unwrap(), g);
+    }
+
+    /// A one-triangle VTU with inline binary arrays, the UInt32 header encoded with the data
+    /// (meshio's way) or on its own (VTK's way).
+    fn tiny_vtu(separate: bool) -> String {
+        let b64 = base64::engine::general_purpose::STANDARD;
+        let arr = |data: Vec<u8>| {
+            let head = (data.len() as u32).to_le_bytes();
+            if separate {
+                format!("{}{}", b64.encode(head), b64.encode(&data))
+            } else {
+                b64.encode([head.to_vec(), data].concat())
+            }
+        };
+        let pts: Vec<u8> =
+            [0.0f64, 0.0, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0, 0.0].iter().flat_map(|v| v.to_le_bytes()).collect();
+        let ints = |v: &[i32]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
+        format!(
+            r#"<?xml version="1.0"?><VTKFile type="UnstructuredGrid" version="1.0" byte_order="LittleEndian"><UnstructuredGrid><Piece NumberOfPoints="3" NumberOfCells="1"><Points><DataArray type="Float64" NumberOfComponents="3" format="binary">{}</DataArray></Points><Cells><DataArray type="Int32" Name="connectivity" format="binary">{}</DataArray><DataArray type="Int32" Name="offsets" format="binary">{}</DataArray><DataArray type="UInt8" Name="types" format="binary">{}</DataArray></Cells><CellData><DataArray type="Int32" Name="region" format="binary">{}</DataArray></CellData></Piece></UnstructuredGrid></VTKFile>"#,
+            arr(pts),
+            arr(ints(&[0, 1, 2])),
+            arr(ints(&[3])),
+            arr(vec![5]),
+            arr(ints(&[4]))
+        )
+    }
+
+    #[test]
+    fn inline_base64_with_the_header_joint_or_separate() {
+        for separate in [false, true] {
+            let g = read_grid(tiny_vtu(separate).as_bytes()).unwrap();
+            assert_eq!(g.points[1], [1.0, 0.0, 0.0], "separate {separate}");
+            assert_eq!(g.cell(0), &[0, 1, 2]);
+            assert_eq!(g.types, vec![5]);
+            assert_eq!(g.cell_array("region").unwrap(), &[4.0]);
+        }
     }
 
     #[test]
