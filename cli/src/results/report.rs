@@ -32,6 +32,11 @@ fn num(v: &Value, digits: usize) -> String {
     }
 }
 
+/// One table row per element of a JSON array (none when it is absent).
+fn rows_of(list: &Value, row: impl Fn(&Value) -> Vec<String>) -> Vec<Vec<String>> {
+    list.as_array().into_iter().flatten().map(row).collect()
+}
+
 /// A table from a header row and body rows (already escaped).
 fn table(html: &mut String, head: &[&str], rows: &[Vec<String>]) {
     html.push_str("<table>\n<tr>");
@@ -176,49 +181,34 @@ pub fn write_report(dir: &Path) -> Result<()> {
         m["order"],
         r["unknowns"]
     );
-    let regions: Vec<Vec<String>> = m["regions"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .map(|g| {
-            vec![
-                esc(g["name"].as_str().unwrap_or("")),
-                esc(g["material"].as_str().unwrap_or("")),
-                num(&g["permittivity"], 3),
-                num(&g["allowable_kv_per_mm"], 2),
-            ]
-        })
-        .collect();
+    let regions = rows_of(&m["regions"], |g| {
+        vec![
+            esc(g["name"].as_str().unwrap_or("")),
+            esc(g["material"].as_str().unwrap_or("")),
+            num(&g["permittivity"], 3),
+            num(&g["allowable_stress_kv_per_mm"], 2),
+        ]
+    });
     table(&mut h, &["region", "material", "relative permittivity", "allowable kV/mm"], &regions);
-    let conductors: Vec<Vec<String>> = r["conductors"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .map(|c| {
-            vec![
-                esc(c["name"].as_str().unwrap_or("")),
-                if c["floating"].as_bool() == Some(true) { "floating".into() } else { "fixed".into() },
-                num(&c["potential_v"], 4),
-                num(&c["charge_c"], 4),
-            ]
-        })
-        .collect();
+    let conductors = rows_of(&r["conductors"], |c| {
+        vec![
+            esc(c["name"].as_str().unwrap_or("")),
+            if c["floating"].as_bool() == Some(true) { "floating".into() } else { "fixed".into() },
+            num(&c["potential_v"], 4),
+            num(&c["charge_c"], 4),
+        ]
+    });
     table(&mut h, &["conductor", "held", "potential V", "charge C"], &conductors);
-    let cases: Vec<Vec<String>> = r["checks"]["load_cases"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .map(|c| {
-            vec![
-                esc(c["name"].as_str().unwrap_or("")),
-                esc(c["kind"].as_str().unwrap_or("")),
-                esc(c["basis"].as_str().unwrap_or("")),
-                num(&(c["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
-                esc(c["reference"].as_str().unwrap_or("")),
-                num(&c["scale"], 4),
-            ]
-        })
-        .collect();
+    let cases = rows_of(&r["checks"]["load_cases"], |c| {
+        vec![
+            esc(c["name"].as_str().unwrap_or("")),
+            esc(c["kind"].as_str().unwrap_or("")),
+            esc(c["basis"].as_str().unwrap_or("")),
+            num(&(c["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
+            esc(c["reference"].as_str().unwrap_or("")),
+            num(&c["scale"], 4),
+        ]
+    });
     table(&mut h, &["load case", "kind", "basis", "voltage kV", "on", "scale of the model's stresses"], &cases);
     // Pictures: the mesh, the field-strength map, zoomed views.
     let mut picture_files: Vec<(String, String)> = Vec::new();

@@ -192,6 +192,17 @@ fn set_cell(g: &mut GridFile, c: usize, nodes: &[u32]) {
     g.connectivity[start..start + nodes.len()].copy_from_slice(nodes);
 }
 
+/// Inserts a region-1 triangle before the line cell (cell 4) of `squares`.
+fn insert_triangle(g: &mut GridFile, nodes: [u32; 3]) {
+    g.types.insert(4, 5);
+    let n = g.connectivity.len() - 2;
+    g.connectivity.splice(n..n, nodes);
+    let last = g.offsets[3];
+    g.offsets.insert(4, last + 3);
+    g.offsets[5] += 3;
+    g.cell_arrays[0].1.insert(4, 1.0);
+}
+
 #[test]
 fn each_import_error_names_the_cell_or_node() {
     assert!(squares(|_| {}).is_ok());
@@ -223,13 +234,7 @@ fn each_import_error_names_the_cell_or_node() {
     // A third cell on edge 1–4.
     let e = squares(|g| {
         g.points.push([0.4, 0.6, 0.0]);
-        g.types.insert(4, 5);
-        let n = g.connectivity.len() - 2;
-        g.connectivity.splice(n..n, [1, 4, 6]);
-        let last = g.offsets[3];
-        g.offsets.insert(4, last + 3);
-        g.offsets[5] += 3;
-        g.cell_arrays[0].1.insert(4, 1.0);
+        insert_triangle(g, [1, 4, 6]);
     })
     .unwrap_err();
     assert!(e.contains("edge 1–4") && e.contains("shared by 3 cells"), "{e}");
@@ -238,13 +243,7 @@ fn each_import_error_names_the_cell_or_node() {
         g.points.push([1.0, 0.5, 0.0]);
         set_cell(g, 2, &[1, 2, 6]);
         set_cell(g, 3, &[6, 2, 5]);
-        g.types.insert(4, 5);
-        let n = g.connectivity.len() - 2;
-        g.connectivity.splice(n..n, [6, 5, 4]);
-        let last = g.offsets[3];
-        g.offsets.insert(4, last + 3);
-        g.offsets[5] += 3;
-        g.cell_arrays[0].1.insert(4, 1.0);
+        insert_triangle(g, [6, 5, 4]);
     })
     .unwrap_err();
     assert!(e.contains("node 6") && e.contains("hanging"), "{e}");
