@@ -13,6 +13,7 @@ fuzz_target!(|data: &[u8]| {
             symmetry,
             unit_m: 1e-3,
             id_array: grid.cell_arrays.first().map(|a| a.0.clone()).unwrap_or_else(|| "region".into()),
+        boundary_array: None,
             regions: vec![(0, RegionUse::Dielectric(0)), (1, RegionUse::Dielectric(1)), (2, RegionUse::Conductor(0))],
             boundaries: vec![(10, BoundaryUse::Conductor(0)), (20, BoundaryUse::Outer)],
             region_names: vec!["a".into(), "b".into()],

@@ -46,8 +46,11 @@ pub struct ImportSpec {
     pub symmetry: Symmetry,
     /// Metres per file unit.
     pub unit_m: f64,
-    /// Name of the integer cell array holding region ids and boundary tags.
+    /// Name of the integer cell array holding region ids (and boundary tags, unless
+    /// `boundary_array` names another).
     pub id_array: String,
+    /// Name of the cell array holding the boundary tags of line cells, when not `id_array`.
+    pub boundary_array: Option<String>,
     /// Region ids of triangles.
     pub regions: Vec<(i64, RegionUse)>,
     /// Tags of boundary line cells.
@@ -125,11 +128,18 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             grid.points[v][2]
         ));
     }
-    // Cells: triangles with their use, lines with their tag.
+    let tags = match &spec.boundary_array {
+        None => ids,
+        Some(name) => grid.cell_array(name).ok_or_else(|| {
+            ImportError(format!("the file has no cell array '{name}' with boundary tags: name the array holding them"))
+        })?,
+    };
+    // Cells: triangles with their use, lines with their tag (None: unmapped, an error only
+    // where the line is needed, on the boundary).
     let mut order = None;
     let mut tris: Vec<FileTriangle> = Vec::new();
-    let mut lines: Vec<(usize, [u32; 2], BoundaryUse)> = Vec::new();
-    for (c, (&ty, &id)) in grid.types.iter().zip(ids).enumerate() {
+    let mut lines: Vec<(usize, [u32; 2], i64, Option<BoundaryUse>)> = Vec::new();
+    for (c, ((&ty, &id), &tag)) in grid.types.iter().zip(ids).zip(tags).enumerate() {
         let n = grid.cell(c);
         let o = match (ty, n.len()) {
             (5, 3) | (3, 2) => 1,
@@ -152,6 +162,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
                 3 - o
             ));
         }
+        let id = if ty == 3 || ty == 21 { tag } else { id };
         if !id.is_finite() || id.fract() != 0.0 {
             return fail(format!(
                 "cell {c} at {} has no integer id in '{}' ({id}): give every cell a region id or boundary tag",
@@ -173,14 +184,8 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             let mids = (n.len() == 6).then(|| [n[3], n[4], n[5]]);
             tris.push((c, [n[0], n[1], n[2]], mids, u));
         } else {
-            let Some(&(_, u)) = spec.boundaries.iter().find(|b| b.0 == id) else {
-                return fail(format!(
-                    "line cell {c} at {} has boundary tag {id}, which the model does not map: map it to a \
-                     conductor or to the outer boundary",
-                    centre(c)
-                ));
-            };
-            lines.push((c, [n[0], n[1]], u));
+            let u = spec.boundaries.iter().find(|b| b.0 == id).map(|b| b.1);
+            lines.push((c, [n[0], n[1]], id, u));
         }
     }
     if !tris.iter().any(|t| matches!(t.3, RegionUse::Dielectric(_))) {
@@ -353,39 +358,38 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     }
     // Renumber: dielectric triangles' vertices first, then their mid nodes.
     let kept: Vec<usize> = (0..tris.len()).filter(|&i| matches!(tris[i].3, RegionUse::Dielectric(_))).collect();
+    // New ids follow the file's order (corners first, then mid-side nodes), so a file whose
+    // nodes are already numbered that way keeps its numbering.
     let mut new_id = vec![u32::MAX; grid.points.len()];
-    let mut nodes: Vec<Xy> = Vec::new();
+    let mut corners: Vec<u32> = kept.iter().flat_map(|&i| tris[i].1).collect();
+    corners.sort_unstable();
+    corners.dedup();
     let k = spec.unit_m;
-    for &i in &kept {
-        for &v in &tris[i].1 {
-            if new_id[v as usize] == u32::MAX {
-                new_id[v as usize] = nodes.len() as u32;
-                let p = grid.points[v as usize];
-                nodes.push([p[0] * k, p[1] * k]);
-            }
-        }
+    let mut nodes: Vec<Xy> = Vec::with_capacity(corners.len());
+    for &v in &corners {
+        new_id[v as usize] = nodes.len() as u32;
+        let p = grid.points[v as usize];
+        nodes.push([p[0] * k, p[1] * k]);
     }
     let num_vertices = nodes.len() as u32;
     let mut mid_nodes = Vec::new();
     if p2 {
-        for &i in &kept {
-            let mut ms = [0u32; 3];
-            for (j, &v) in tris[i].2.iter().flatten().enumerate() {
-                if new_id[v as usize] == u32::MAX {
-                    new_id[v as usize] = nodes.len() as u32;
-                    let p = grid.points[v as usize];
-                    nodes.push([p[0] * k, p[1] * k]);
-                } else if new_id[v as usize] < num_vertices {
-                    return fail(format!(
-                        "node {v} at {} is a corner of one cell and the mid-side node of cell {}: fix the cell's node order",
-                        at(v),
-                        tris[i].0
-                    ));
-                }
-                ms[j] = new_id[v as usize];
+        let mut mids: Vec<u32> = kept.iter().flat_map(|&i| tris[i].2.into_iter().flatten()).collect();
+        mids.sort_unstable();
+        mids.dedup();
+        for &v in &mids {
+            if new_id[v as usize] != u32::MAX {
+                let cell = kept.iter().find(|&&i| tris[i].2.is_some_and(|m| m.contains(&v))).map_or(0, |&i| tris[i].0);
+                return fail(format!(
+                    "node {v} at {} is a corner of one cell and the mid-side node of cell {cell}: fix the cell's node order",
+                    at(v)
+                ));
             }
-            mid_nodes.push(ms);
+            new_id[v as usize] = nodes.len() as u32;
+            let p = grid.points[v as usize];
+            nodes.push([p[0] * k, p[1] * k]);
         }
+        mid_nodes = kept.iter().map(|&i| tris[i].2.unwrap_or([0; 3]).map(|v| new_id[v as usize])).collect();
     }
     let triangles: Vec<[u32; 3]> = kept.iter().map(|&i| tris[i].1.map(|v| new_id[v as usize])).collect();
     let regions: Vec<u32> = kept
@@ -396,8 +400,9 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         })
         .collect();
     // Tags from the line cells, by edge.
-    let mut line_tag: std::collections::HashMap<u64, (usize, BoundaryUse)> = std::collections::HashMap::new();
-    for &(c, [a, b], u) in &lines {
+    let mut line_tag: std::collections::HashMap<u64, (usize, i64, Option<BoundaryUse>)> =
+        std::collections::HashMap::new();
+    for &(c, [a, b], tag, u) in &lines {
         let pos = adj.partition_point(|e| e.0 < key(a, b));
         if pos >= adj.len() || adj[pos].0 != key(a, b) {
             return fail(format!(
@@ -407,7 +412,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
                 at(b)
             ));
         }
-        line_tag.insert(key(a, b), (c, u));
+        line_tag.insert(key(a, b), (c, tag, u));
     }
     // Tagged edges of the dielectric mesh.
     let mut edges: Vec<TaggedEdge> = Vec::new();
@@ -435,9 +440,17 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
                 let r0 = region_of(t0);
                 (r != r0).then_some(EdgeTag::Interface(r0.min(r), r0.max(r)))
             }
-            None => Some(match line_tag.get(&key(a, b)).map(|x| x.1) {
-                Some(BoundaryUse::Conductor(c)) => EdgeTag::Conductor(c),
-                Some(BoundaryUse::Outer) => EdgeTag::Outer,
+            None => Some(match line_tag.get(&key(a, b)) {
+                Some(&(_, _, Some(BoundaryUse::Conductor(c)))) => EdgeTag::Conductor(c),
+                Some(&(_, _, Some(BoundaryUse::Outer))) => EdgeTag::Outer,
+                Some(&(c, tag, None)) => {
+                    return fail(format!(
+                        "line cell {c} from {} to {} has boundary tag {tag}, which the model does not map: map it \
+                         to a conductor or to the outer boundary",
+                        at(a),
+                        at(b)
+                    ))
+                }
                 None if spec.symmetry == Symmetry::Axisymmetric
                     && grid.points[a as usize][0].abs() <= 1e-9 * scale
                     && grid.points[b as usize][0].abs() <= 1e-9 * scale =>

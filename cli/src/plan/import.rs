@@ -107,11 +107,14 @@ pub(super) fn import(
         let key = |k: &str| format!("import.boundary[{i}].{k}");
         let b = b.get_ref();
         let tag = *b.tag.get_ref();
-        if boundaries.iter().any(|o: &(i64, BoundaryUse)| o.0 == tag) || regions.iter().any(|o| o.0 == tag) {
+        // Region ids and boundary tags share one cell array unless boundary_array names
+        // another.
+        let shared = t.boundary_array.is_none() && regions.iter().any(|o| o.0 == tag);
+        if boundaries.iter().any(|o: &(i64, BoundaryUse)| o.0 == tag) || shared {
             return Err(cx
                 .err(b.tag.span(), format!("id {tag} is mapped twice"))
                 .key(key("tag"))
-                .help("region ids and boundary tags share one cell array: each id means one thing"));
+                .help("each id of a cell array means one thing (boundary_array = \"<name>\" reads the tags from another array)"));
         }
         let usage = match (&b.conductor, b.outer.as_ref().map(|o| *o.get_ref())) {
             (Some(c), None | Some(false)) => BoundaryUse::Conductor(conductor(c, key("conductor"))?),
@@ -134,6 +137,7 @@ pub(super) fn import(
         symmetry,
         unit_m: cx.unit_m,
         id_array,
+        boundary_array: t.boundary_array.as_ref().map(|a| a.get_ref().clone()),
         regions,
         boundaries,
         region_names,

@@ -34,6 +34,7 @@ pub(super) struct RawModel {
 pub(super) struct RawImport {
     pub(super) file: S<String>,
     pub(super) id_array: Option<S<String>>,
+    pub(super) boundary_array: Option<S<String>>,
     #[serde(default)]
     pub(super) region: Vec<S<RawImportRegion>>,
     #[serde(default)]

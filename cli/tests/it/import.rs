@@ -94,3 +94,108 @@ fn check_on_an_imported_mesh_is_refused_with_the_way_forward() {
     assert!(stderr(&o).contains("fieldgrade solve"), "{}", stderr(&o));
     assert!(!out.join("results.json").exists());
 }
+
+/// A drawn two-layer coaxial model (core 10 mm at 1 kV, paper to 20 mm, oil to 30 mm,
+/// earthed outer boundary), lengths in metres so its VTU reads back in the same unit.
+const DRAWN: &str = r#"
+[model]
+symmetry = "planar"
+length_unit = "m"
+
+[[material]]
+name = "oil"
+permittivity = 2.2
+
+[[material]]
+name = "paper"
+permittivity = 4.0
+
+[[conductor]]
+name = "core"
+potential_v = 1000.0
+
+[[shape]]
+name = "oil"
+material = "oil"
+circle = { center = [0.0, 0.0], radius = 0.03 }
+
+[[shape]]
+name = "paper"
+material = "paper"
+circle = { center = [0.0, 0.0], radius = 0.02 }
+
+[[shape]]
+name = "core"
+conductor = "core"
+circle = { center = [0.0, 0.0], radius = 0.01 }
+
+[boundary]
+outer = "potential"
+potential_v = 0.0
+
+[mesh]
+max_size = 0.003
+order = 2
+"#;
+
+#[test]
+fn a_mesh_written_by_mesh_out_reads_back_and_solves_identically() {
+    let dir = tempfile::tempdir().unwrap();
+    let drawn = dir.path().join("drawn.toml");
+    std::fs::write(&drawn, DRAWN).unwrap();
+    let vtu = dir.path().join("drawn.vtu");
+    let o = run(&["mesh", drawn.to_str().unwrap(), "--out", vtu.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    // Our files: region = shape index on triangles; edge_ref = conductor index on conductor
+    // edges, -1 on the outer boundary.
+    let imported = dir.path().join("imported.toml");
+    let head = DRAWN.split("[[shape]]").next().unwrap();
+    let tail = r#"
+[boundary]
+outer = "potential"
+potential_v = 0.0
+
+[mesh]
+order = 2
+
+[import]
+file = "drawn.vtu"
+boundary_array = "edge_ref"
+
+[[import.region]]
+id = 0
+name = "oil"
+material = "oil"
+
+[[import.region]]
+id = 1
+name = "paper"
+material = "paper"
+
+[[import.boundary]]
+tag = 0
+conductor = "core"
+
+[[import.boundary]]
+tag = -1
+outer = true
+"#;
+    std::fs::write(&imported, format!("{head}{tail}")).unwrap();
+    let solve = |model: &Path, out: &str| -> Value {
+        let out = dir.path().join(out);
+        let o = run(&["solve", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap()
+    };
+    let (a, b) = (solve(&drawn, "a"), solve(&imported, "b"));
+    assert_eq!(a["mesh"]["nodes"], b["mesh"]["nodes"]);
+    assert_eq!(a["mesh"]["triangles"], b["mesh"]["triangles"]);
+    for key in ["energy_j", "unknowns"] {
+        assert_eq!(a[key], b[key], "{key}");
+    }
+    assert_eq!(a["conductors"][0]["charge_c"], b["conductors"][0]["charge_c"]);
+    // And both match the two-layer closed form C' = 2πε₀ / (ln 2 / 4 + ln 1.5 / 2.2).
+    let exact = 2.0 * std::f64::consts::PI * engine::EPSILON_0 / (2f64.ln() / 4.0 + 1.5f64.ln() / 2.2) * 1e3;
+    let q = b["conductors"][0]["charge_c"].as_f64().unwrap();
+    assert!((q - exact).abs() < 1e-3 * exact, "{q:e} vs {exact:e}");
+}

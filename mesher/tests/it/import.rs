@@ -121,6 +121,7 @@ fn coax_spec() -> mesher::ImportSpec {
         symmetry: mesher::Symmetry::Planar,
         unit_m: 1e-3,
         id_array: "region".into(),
+        boundary_array: None,
         regions: vec![(1, RegionUse::Dielectric(0))],
         boundaries: vec![(10, BoundaryUse::Conductor(0)), (20, BoundaryUse::Conductor(1))],
         region_names: vec!["oil".into()],
