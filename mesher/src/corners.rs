@@ -186,8 +186,6 @@ pub fn conical_exponent(theta0: f64, nu_max: f64) -> Option<f64> {
 /// Finds every point of the arrangement where the solution is singular for elements of
 /// order `order` (λ < order and not an integer).
 pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(usize, SingularPoint)>, MeshError> {
-    let scale = geo.scale();
-    let lambda_max = order.max(1) as f64;
     // Incident directions per vertex: (angle, left side of the outgoing direction).
     let mut inc: Vec<Vec<(f64, Side)>> = vec![Vec::new(); arr.vertices.len()];
     for pc in &arr.pieces {
@@ -196,13 +194,65 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
         let t1 = pc.curve.tangent_at(1.0);
         inc[pc.v[1]].push(((-t1[1]).atan2(-t1[0]), pc.right));
     }
+    let eps = |k: u32| match geo.shapes[k as usize].fill {
+        Fill::Dielectric { permittivity } => permittivity,
+        Fill::Conductor { .. } => 1.0,
+    };
+    let cx = CornerCtx {
+        symmetry: geo.symmetry,
+        scale: geo.scale(),
+        outer_fixed: geo.outer == OuterBoundary::FixedPotential,
+        lambda_max: order.max(1) as f64,
+        eps: &eps,
+        conductor_names: &geo.conductors,
+    };
     let mut out = Vec::new();
     for (vi, dirs) in inc.iter_mut().enumerate() {
+        if let Some(b) = classify(arr.vertices[vi], dirs, &cx)? {
+            out.push((vi, b));
+        }
+    }
+    sort_points(&mut out);
+    Ok(out)
+}
+
+/// Sorts singular points by exponent, then position.
+fn sort_points(out: &mut [(usize, SingularPoint)]) {
+    out.sort_by(|(_, a), (_, b)| {
+        a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
+    });
+}
+
+/// What classifying a point needs besides its incident directions.
+pub(crate) struct CornerCtx<'a> {
+    pub(crate) symmetry: Symmetry,
+    /// Model size, for tolerances.
+    pub(crate) scale: f64,
+    /// The outer boundary is an electrode (else zero flux).
+    pub(crate) outer_fixed: bool,
+    /// Elements' order: exponents below it are singular for them.
+    pub(crate) lambda_max: f64,
+    /// Relative permittivity of a region.
+    pub(crate) eps: &'a dyn Fn(u32) -> f64,
+    /// Conductor names, for the touching-conductors error.
+    pub(crate) conductor_names: &'a [String],
+}
+
+/// The singular point at `at` with incident boundary and interface directions `dirs`
+/// (angle, the side on the left of the outgoing direction), if the smallest exponent of its
+/// sectors is singular.
+pub(crate) fn classify(
+    at: Xy,
+    dirs: &mut [(f64, Side)],
+    cx: &CornerCtx<'_>,
+) -> Result<Option<SingularPoint>, MeshError> {
+    let scale = cx.scale;
+    let lambda_max = cx.lambda_max;
+    {
         if dirs.len() < 2 {
-            continue;
+            return Ok(None);
         }
         dirs.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let at = arr.vertices[vi];
         let n = dirs.len();
         // Sector k goes from direction k to direction k+1 (counter-clockwise).
         let sectors: Vec<(f64, Side)> = (0..n)
@@ -217,30 +267,23 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
         if let Some(&c0) = conductors.first() {
             if let Some(&c1) = conductors.iter().find(|&&c| c != c0) {
                 return Err(MeshError::ConductorsTouch {
-                    first: geo.conductors[c0 as usize].clone(),
-                    second: geo.conductors[c1 as usize].clone(),
+                    first: cx.conductor_names[c0 as usize].clone(),
+                    second: cx.conductor_names[c1 as usize].clone(),
                     at,
                 });
             }
         }
-        let on_axis = geo.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale;
+        let on_axis = cx.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale;
         let wall_of = |s: Side| -> Option<Wall> {
             match s {
                 Side::Conductor(_) => Some(Wall::Potential),
-                Side::Outside => Some(if geo.outer == OuterBoundary::FixedPotential && !on_axis_side(geo, at, scale) {
-                    Wall::Potential
-                } else {
-                    Wall::ZeroFlux
-                }),
+                Side::Outside => Some(if cx.outer_fixed && !on_axis { Wall::Potential } else { Wall::ZeroFlux }),
                 Side::Region(_) => None,
             }
         };
         let eps = |s: Side| -> f64 {
             match s {
-                Side::Region(k) => match geo.shapes[k as usize].fill {
-                    Fill::Dielectric { permittivity } => permittivity,
-                    Fill::Conductor { .. } => 1.0,
-                },
+                Side::Region(k) => (cx.eps)(k),
                 _ => 1.0,
             }
         };
@@ -333,20 +376,8 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
                 consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0, secs, Some((start, end)));
             }
         }
-        if let Some(b) = best {
-            out.push((vi, b));
-        }
+        Ok(best)
     }
-    out.sort_by(|(_, a), (_, b)| {
-        a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
-    });
-    Ok(out)
-}
-
-/// In an axisymmetric model the outside beyond x = 0 is the axis (a symmetry line), never an
-/// electrode, even when the outer boundary is.
-fn on_axis_side(geo: &Geometry, at: Xy, scale: f64) -> bool {
-    geo.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale
 }
 
 #[cfg(test)]
