@@ -532,3 +532,91 @@ fn circle_through(a: Xy, b: Xy, c: Xy) -> Option<(Xy, f64)> {
     let r = (a[0] - x).hypot(a[1] - y);
     r.is_finite().then_some(([x, y], r))
 }
+
+/// The singular points of a mesh that has no drawn geometry (an imported one), from the
+/// angles its tagged edges make at each node: the same sector analysis as for drawn
+/// outlines (`corners::classify`), with the tangent of a curved edge taken from its arc.
+/// Nodes where a chain of straight edges of one tag turns by less than `SMOOTH_DEG` are taken
+/// as points of a smooth curve drawn by chords (a corner that blunt has λ within 10 % of 1).
+/// `permittivity` is per region; `outer_fixed` says the outer boundary is an electrode.
+///
+/// # Errors
+/// [`crate::MeshError::ConductorsTouch`] where two conductors meet at a node.
+pub fn find_singular_points(
+    mesh: &Mesh,
+    permittivity: &[f64],
+    outer_fixed: bool,
+) -> Result<Vec<crate::SingularPoint>, crate::MeshError> {
+    use crate::arrangement::Side;
+    const SMOOTH_DEG: f64 = 15.0;
+    // Region on the left of each directed triangle edge.
+    let mut left: std::collections::HashMap<u64, u32> = std::collections::HashMap::new();
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        for k in 0..3 {
+            let (a, b) = (tri[k], tri[(k + 1) % 3]);
+            // Counter-clockwise triangles have their region on the left of a→b.
+            left.insert(((a as u64) << 32) | b as u64, mesh.regions[t]);
+        }
+    }
+    let mut inc: Vec<Vec<(f64, Side, EdgeTag, bool)>> = vec![Vec::new(); mesh.num_vertices as usize];
+    for e in &mesh.edges {
+        let [a, b] = e.nodes;
+        let l = left.get(&(((a as u64) << 32) | b as u64)).copied();
+        let r = left.get(&(((b as u64) << 32) | a as u64)).copied();
+        let (ls, rs) = match e.tag {
+            EdgeTag::Interface(..) => (l.map(Side::Region), r.map(Side::Region)),
+            EdgeTag::Conductor(c) => (l.map(Side::Region).or(Some(Side::Conductor(c))), Some(Side::Conductor(c))),
+            EdgeTag::Outer | EdgeTag::Axis => {
+                (l.map(Side::Region).or(Some(Side::Outside)), r.map(Side::Region).or(Some(Side::Outside)))
+            }
+        };
+        let (Some(ls), Some(rs)) = (ls, rs) else { continue };
+        let (pa, pb) = (mesh.nodes[a as usize], mesh.nodes[b as usize]);
+        // Direction leaving `from` towards `to`: the chord, or the arc's tangent.
+        let dir = |from: Xy, to: Xy| -> f64 {
+            let chord = [to[0] - from[0], to[1] - from[1]];
+            let d = match e.arc.and_then(|k| mesh.arcs.get(k as usize)) {
+                Some(g) => {
+                    let rad = [from[0] - g.center[0], from[1] - g.center[1]];
+                    let t = [-rad[1], rad[0]];
+                    if t[0] * chord[0] + t[1] * chord[1] >= 0.0 {
+                        t
+                    } else {
+                        [-t[0], -t[1]]
+                    }
+                }
+                None => chord,
+            };
+            d[1].atan2(d[0])
+        };
+        let curved = e.arc.is_some();
+        inc[a as usize].push((dir(pa, pb), ls, e.tag, curved));
+        inc[b as usize].push((dir(pb, pa), rs, e.tag, curved));
+    }
+    let eps = |k: u32| permittivity.get(k as usize).copied().unwrap_or(1.0);
+    let cx = crate::corners::CornerCtx {
+        symmetry: mesh.symmetry,
+        scale: mesh.scale(),
+        outer_fixed,
+        lambda_max: f64::from(mesh.order().max(1)),
+        eps: &eps,
+        conductor_names: &mesh.conductor_names,
+    };
+    let mut out = Vec::new();
+    for (v, d) in inc.iter().enumerate() {
+        if d.len() == 2 && d[0].2 == d[1].2 && !d[0].3 && !d[1].3 {
+            let turn = (d[0].0 - d[1].0).rem_euclid(std::f64::consts::TAU);
+            if (turn - std::f64::consts::PI).abs() < SMOOTH_DEG.to_radians() {
+                continue;
+            }
+        }
+        let mut dirs: Vec<(f64, Side)> = d.iter().map(|x| (x.0, x.1)).collect();
+        if let Some(p) = crate::corners::classify(mesh.nodes[v], &mut dirs, &cx)? {
+            out.push(p);
+        }
+    }
+    out.sort_by(|a, b| {
+        a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
+    });
+    Ok(out)
+}

@@ -75,7 +75,7 @@ pub use geometry::{Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoi
 pub use grading::{Grading, GradingStatus, GRADED_WITHIN};
 pub use grid::{triangle_grid, BucketGrid};
 pub use import::{read_grid, GridFile, ReadError};
-pub use import_mesh::{import_mesh, BoundaryUse, ImportError, ImportSpec, Imported, RegionUse};
+pub use import_mesh::{find_singular_points, import_mesh, BoundaryUse, ImportError, ImportSpec, Imported, RegionUse};
 pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams, DEFAULT_MAX_SIZE_FRACTION};
 pub use size_field::{BackgroundSize, SizeField, SizeSource};

@@ -69,12 +69,22 @@ pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
             mesh.num_vertices, model.params.max_nodes
         ))));
     }
+    // Singular points from the angles of the imported boundary (after the order is set:
+    // exponents below the order are singular for the elements).
+    let permittivity: Vec<f64> =
+        model.shape_material.iter().map(|m| m.map_or(1.0, |m| model.materials[m].permittivity)).collect();
+    mesh.singular_points = mesher::find_singular_points(&mesh, &permittivity, model.outer_potential_v.is_some())
+        .map_err(|e| {
+            CliError::from(model.import_error(format!("'{file}': {}", e.message_in(model.unit_m, model.unit))))
+        })?;
     let mut warnings: Vec<String> = imported.warnings.iter().map(|w| format!("imported mesh: {w}")).collect();
-    warnings.push(
-        "imported mesh: singular points are not detected on imported meshes yet; peaks at sharp edges are reported \
-         without their exponent"
-            .into(),
-    );
+    if !mesh.singular_points.is_empty() {
+        warnings.push(format!(
+            "imported mesh: {} singular points found from the boundary angles; the imported mesh is not graded \
+             towards them (the mesher's grading applies to drawn shapes)",
+            mesh.singular_points.len()
+        ));
+    }
     Ok(FirstMesh {
         mesh,
         complete: true,

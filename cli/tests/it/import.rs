@@ -2,7 +2,7 @@
 //! binary against the coaxial closed form, and the located errors of bad `[import]` tables
 //! and of files that do not fit the model.
 
-use crate::common::{run, stderr, stdout};
+use crate::common::{run, stderr};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 
@@ -38,7 +38,8 @@ fn solve_on_the_imported_annulus_matches_the_coaxial_closed_form() {
         let r: Value = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
         let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
         assert!((q - exact).abs() < tol * exact, "{file}: {q:e} vs {exact:e}");
-        assert!(stdout(&o).contains("singular points are not detected"), "the limitation is said");
+        // Circles drawn by arcs (P2) or by 7.5° chords (P1): no singular point.
+        assert_eq!(r["mesh"]["singular_points"].as_array().map(Vec::len), Some(0), "{file}");
         assert!(out.join("report.html").exists());
     }
     // A linear file solved at order 2 is raised to P2 (mid nodes on the chords).
@@ -198,4 +199,94 @@ outer = true
     let exact = 2.0 * std::f64::consts::PI * engine::EPSILON_0 / (2f64.ln() / 4.0 + 1.5f64.ln() / 2.2) * 1e3;
     let q = b["conductors"][0]["charge_c"].as_f64().unwrap();
     assert!((q - exact).abs() < 1e-3 * exact, "{q:e} vs {exact:e}");
+}
+
+#[test]
+fn singular_points_of_an_imported_mesh_are_those_of_the_drawn_part() {
+    // An L-shaped electrode in an earthed box (lengths in m): its singular corners (the wedge
+    // exponent π/θ₀ of the air's opening θ₀) found from the imported mesh's boundary angles
+    // exactly where, and as, the mesher finds them on the outline.
+    let drawn_text = r#"
+[model]
+symmetry = "planar"
+length_unit = "m"
+
+[[material]]
+name = "air"
+permittivity = 1.0
+
+[[conductor]]
+name = "hv"
+potential_v = 1000.0
+
+[[shape]]
+name = "box"
+material = "air"
+polygon = [[-0.1, -0.1], [0.1, -0.1], [0.1, 0.1], [-0.1, 0.1]]
+
+[[shape]]
+name = "L"
+conductor = "hv"
+polygon = [[-0.04, -0.04], [0.04, -0.04], [0.04, 0.0], [0.0, 0.0], [0.0, 0.04], [-0.04, 0.04]]
+
+[boundary]
+outer = "potential"
+potential_v = 0.0
+
+[mesh]
+order = 2
+"#;
+    let dir = tempfile::tempdir().unwrap();
+    let drawn = dir.path().join("drawn.toml");
+    std::fs::write(&drawn, drawn_text).unwrap();
+    let vtu = dir.path().join("l.vtu");
+    let mesh_json = |model: &Path, extra: &[&str]| -> Value {
+        let mut a = vec!["mesh", model.to_str().unwrap(), "--json"];
+        a.extend_from_slice(extra);
+        let o = run(&a);
+        assert!(o.status.success(), "{}", stderr(&o));
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let a = mesh_json(&drawn, &["--out", vtu.to_str().unwrap()]);
+    let head = drawn_text.split("[[shape]]").next().unwrap();
+    let imported = dir.path().join("imported.toml");
+    std::fs::write(
+        &imported,
+        format!(
+            "{head}[boundary]\nouter = \"potential\"\npotential_v = 0.0\n\n[mesh]\norder = 2\n\n[import]\nfile = \"l.vtu\"\n\
+             boundary_array = \"edge_ref\"\n\n[[import.region]]\nid = 0\nname = \"box\"\nmaterial = \"air\"\n\n\
+             [[import.boundary]]\ntag = 0\nconductor = \"hv\"\n\n[[import.boundary]]\ntag = -1\nouter = true\n"
+        ),
+    )
+    .unwrap();
+    let b = mesh_json(&imported, &[]);
+    let points = |r: &Value| -> Vec<(f64, f64, f64, String)> {
+        let mut v: Vec<_> = r["singular_points"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|s| {
+                (
+                    s["x"].as_f64().unwrap(),
+                    s["y"].as_f64().unwrap(),
+                    s["lambda"].as_f64().unwrap(),
+                    s["kind"].as_str().unwrap().to_string(),
+                )
+            })
+            .collect();
+        v.sort_by(|p, q| p.0.total_cmp(&q.0).then(p.1.total_cmp(&q.1)));
+        v
+    };
+    let (pa, pb) = (points(&a), points(&b));
+    assert!(!pa.is_empty());
+    assert_eq!(pa.len(), pb.len(), "{pa:?} vs {pb:?}");
+    for (p, q) in pa.iter().zip(&pb) {
+        assert!((p.0 - q.0).abs() < 1e-12 && (p.1 - q.1).abs() < 1e-12, "{p:?} vs {q:?}");
+        assert!((p.2 - q.2).abs() < 1e-9 && p.3 == q.3, "{p:?} vs {q:?}");
+    }
+    // The five convex corners of the conductor face 3π/2 of air: λ = π / (3π/2) = 2/3. The
+    // conductor's re-entrant corner at the origin faces π/2 of air (λ = 2, regular for P2).
+    assert_eq!(pb.len(), 5);
+    assert!(pb.iter().all(|p| (p.2 - 2.0 / 3.0).abs() < 1e-9 && p.3 == "conductor corner"), "{pb:?}");
+    assert!(!pb.iter().any(|p| p.0.abs() < 1e-12 && p.1.abs() < 1e-12), "{pb:?}");
 }
