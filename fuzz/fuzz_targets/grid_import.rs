@@ -1,6 +1,7 @@
 //! Arbitrary bytes as an imported mesh file (.vtu in any encoding, legacy .vtk): the reader
 //! must return a grid or an error, never panic or run out of memory; a grid that reads must
-//! import into a validated mesh or give an error naming what is wrong.
+//! import into a validated mesh or give an error naming what is wrong, and its singular
+//! points must be found without a panic.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
@@ -19,8 +20,13 @@ fuzz_target!(|data: &[u8]| {
             region_names: vec!["a".into(), "b".into()],
             conductor_names: vec!["hv".into()],
         };
-        if let Err(e) = import_mesh(&grid, &spec) {
-            let _ = e.to_string();
+        match import_mesh(&grid, &spec) {
+            Ok(imp) => {
+                let _ = mesher::find_singular_points(&imp.mesh, &[1.0, 4.0], true);
+            }
+            Err(e) => {
+                let _ = e.to_string();
+            }
         }
     }
 });
