@@ -77,7 +77,17 @@ pub fn read_grid(bytes: &[u8]) -> Result<GridFile, ReadError> {
 }
 
 fn find(hay: &[u8], needle: &[u8]) -> Option<usize> {
-    hay.windows(needle.len()).position(|w| w == needle)
+    // Candidates by their first byte (a fast scan), then the whole needle.
+    let (&first, _) = needle.split_first()?;
+    let mut at = 0;
+    while let Some(k) = hay.get(at..)?.iter().position(|&c| c == first) {
+        let i = at + k;
+        if hay.get(i..i + needle.len()) == Some(needle) {
+            return Some(i);
+        }
+        at = i + 1;
+    }
+    None
 }
 
 /// Scalar types of VTK data arrays.
@@ -262,9 +272,10 @@ impl Layout {
 fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
     // The XML part is everything before the appended block, which is binary.
     let split = find(bytes, b"<AppendedData").unwrap_or(bytes.len());
-    let mut xml = std::str::from_utf8(&bytes[..split])
-        .map_err(|e| ReadError(format!("the XML part of the file is not UTF-8 text ({e})")))?
-        .to_string();
+    let text = std::str::from_utf8(&bytes[..split])
+        .map_err(|e| ReadError(format!("the XML part of the file is not UTF-8 text ({e})")))?;
+    // Borrowed unless the appended block was cut off and the root must be closed.
+    let mut xml = std::borrow::Cow::Borrowed(text);
     let mut appended: Option<(&[u8], bool)> = None;
     if split < bytes.len() {
         let tag_end =
@@ -279,7 +290,7 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
             return err("the appended data does not start with '_' after <AppendedData>");
         }
         appended = Some((&bytes[at + 1..], base64));
-        xml.push_str("</VTKFile>");
+        xml.to_mut().push_str("</VTKFile>");
     }
     let doc = roxmltree::Document::parse(&xml).map_err(|e| ReadError(format!("malformed XML: {e}")))?;
     let root = doc.root_element();
