@@ -291,7 +291,9 @@ impl Plan {
     }
 }
 
-fn units(name: &str) -> Option<(f64, &'static str)> {
+/// Metres per unit and the unit's canonical name, for a length unit of the model file (the
+/// results record the canonical name, so their readers use this too).
+pub fn units(name: &str) -> Option<(f64, &'static str)> {
     Some(match name {
         "m" => (1.0, "m"),
         "cm" => (1e-2, "cm"),

@@ -10,3 +10,8 @@ pub mod picture;
 pub mod report;
 pub mod solve;
 pub mod write;
+
+/// HTML- and XML-escapes text (the report and the SVG pictures).
+pub(crate) fn esc(s: &str) -> String {
+    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+}

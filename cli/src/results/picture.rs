@@ -17,6 +17,7 @@
 //! readable with the common colour-vision deficiencies. Equipotentials are contoured on the
 //! four straight sub-triangles of each P2 triangle (the usual linear sub-division).
 
+use crate::results::esc;
 use crate::results::mesh::RegionReport;
 use base64::Engine as _;
 use plotters::prelude::*;
@@ -133,22 +134,6 @@ fn hex((r, g, b): (u8, u8, u8)) -> String {
     format!("#{r:02x}{g:02x}{b:02x}")
 }
 
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
-}
-
-/// Reads a unit name of the model file (as the results record it) into metres per unit.
-pub fn unit_metres(unit: &str) -> Option<f64> {
-    Some(match unit {
-        "m" => 1.0,
-        "cm" => 1e-2,
-        "mm" => 1e-3,
-        "um" | "µm" => 1e-6,
-        "in" => 0.0254,
-        _ => return None,
-    })
-}
-
 impl Part {
     /// The part of a mesh (no potentials), keyed by the mesh report's regions.
     pub fn from_mesh(mesh: &mesher::Mesh, regions: &[RegionReport], unit_m: f64, unit: &str) -> Part {
@@ -203,29 +188,17 @@ impl Part {
     pub fn from_results(vtu: &[u8], results: &Value) -> Result<Part, String> {
         let m = &results["mesh"];
         let unit = m["length_unit"].as_str().unwrap_or("m").to_string();
-        let unit_m = unit_metres(&unit).ok_or(format!("unknown length unit '{unit}' in results.json"))?;
-        let points = mesher::read_vtu_array(vtu, None)?;
-        let nodes: Vec<[f64; 2]> = points.chunks_exact(3).map(|p| [p[0], p[1]]).collect();
-        let conn = mesher::read_vtu_array(vtu, Some("connectivity"))?;
-        let offsets = mesher::read_vtu_array(vtu, Some("offsets"))?;
-        let types = mesher::read_vtu_array(vtu, Some("types"))?;
-        let region = mesher::read_vtu_array(vtu, Some("region"))?;
-        let kind = mesher::read_vtu_array(vtu, Some("edge_kind"))?;
+        let unit_m = crate::plan::units(&unit).ok_or(format!("unknown length unit '{unit}' in results.json"))?.0;
+        // The grid through the import reader (every length and node id checked there), the
+        // point fields through the array reader (the grid reader keeps cell data only).
+        let grid = mesher::read_grid(vtu).map_err(|e| format!("fields.vtu: {e}"))?;
+        let cell = |name: &str| grid.cell_array(name).ok_or(format!("fields.vtu: no cell array '{name}'"));
+        let (region, kind) = (cell("region")?, cell("edge_kind")?);
+        let n = grid.points.len();
         let potential = mesher::read_vtu_array(vtu, Some("potential_V")).unwrap_or_default();
         let recovered = mesher::read_vtu_array(vtu, Some("E_recovered_V_per_m")).unwrap_or_default();
-        if offsets.len() != types.len() || region.len() != types.len() || kind.len() != types.len() {
-            return Err("fields.vtu: the cell arrays differ in length".into());
-        }
-        let n = nodes.len();
-        let id = |x: f64| -> Result<u32, String> {
-            if x >= 0.0 && (x as usize) < n {
-                Ok(x as u32)
-            } else {
-                Err(format!("fields.vtu: node id {x} out of range"))
-            }
-        };
         let mut part = Part {
-            nodes,
+            nodes: grid.points.iter().map(|p| [p[0], p[1]]).collect(),
             potential: if potential.len() == n { potential } else { Vec::new() },
             recovered: if recovered.len() == 3 * n {
                 recovered.chunks_exact(3).map(|e| [e[0], e[1]]).collect()
@@ -237,16 +210,13 @@ impl Part {
             unit,
             ..Part::default()
         };
-        let mut start = 0usize;
-        for (c, (&end, &ty)) in offsets.iter().zip(&types).enumerate() {
-            let end = end as usize;
-            let ids = conn.get(start..end).ok_or("fields.vtu: offsets beyond the connectivity")?;
-            start = end;
-            match (ty as u8, ids.len()) {
+        for (c, &ty) in grid.types.iter().enumerate() {
+            let ids = grid.cell(c);
+            match (ty, ids.len()) {
                 (5, 3) | (22, 6) => {
-                    part.tris.push([id(ids[0])?, id(ids[1])?, id(ids[2])?]);
+                    part.tris.push([ids[0], ids[1], ids[2]]);
                     if ids.len() == 6 {
-                        part.mids.push([id(ids[3])?, id(ids[4])?, id(ids[5])?]);
+                        part.mids.push([ids[3], ids[4], ids[5]]);
                     }
                     part.region.push(region[c].max(0.0) as u32);
                 }
@@ -257,7 +227,7 @@ impl Part {
                         4 => EdgeKind::Interface,
                         _ => EdgeKind::Outer,
                     };
-                    part.edges.push(([id(ids[0])?, id(ids[1])?], k));
+                    part.edges.push(([ids[0], ids[1]], k));
                 }
                 _ => {
                     return Err(format!("fields.vtu: cell {c} of type {ty} with {} nodes is not drawn here", ids.len()))

@@ -10,6 +10,7 @@
 //! drawn from `fields.vtu`); the convergence table and plot; the stress along each creepage
 //! path and line probe; the cautions.
 
+use crate::results::esc;
 use crate::results::picture::{self, Mark, Part};
 use crate::results::write::write_atomic;
 use crate::{CliError, Result};
@@ -17,11 +18,6 @@ use plotters::prelude::*;
 use serde_json::Value;
 use std::fmt::Write as _;
 use std::path::Path;
-
-/// HTML-escapes text.
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
-}
 
 /// A number of a JSON value in a short form, "-" when absent.
 fn num(v: &Value, digits: usize) -> String {
@@ -788,7 +784,7 @@ fn overall_verdict(checks: &Value) -> String {
 /// Metres per model unit of a results file (1 when unknown).
 fn unit_metres_of(r: &Value) -> (f64, String) {
     let unit = r["mesh"]["length_unit"].as_str().unwrap_or("m").to_string();
-    (picture::unit_metres(&unit).unwrap_or(1.0), unit)
+    (crate::plan::units(&unit).map_or(1.0, |u| u.0), unit)
 }
 
 /// The checks that do not depend on the load case, at the model's potentials: field
