@@ -212,13 +212,14 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
             out.push((vi, b));
         }
     }
-    sort_points(&mut out);
+    sort_points(&mut out, |p| &p.1);
     Ok(out)
 }
 
-/// Sorts singular points by exponent, then position.
-fn sort_points(out: &mut [(usize, SingularPoint)]) {
-    out.sort_by(|(_, a), (_, b)| {
+/// Sorts singular points (with whatever they are paired with) by exponent, then position.
+pub(crate) fn sort_points<T>(out: &mut [T], point: impl Fn(&T) -> &SingularPoint) {
+    out.sort_by(|x, y| {
+        let (a, b) = (point(x), point(y));
         a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
     });
 }

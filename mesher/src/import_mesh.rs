@@ -615,8 +615,6 @@ pub fn find_singular_points(
             out.push(p);
         }
     }
-    out.sort_by(|a, b| {
-        a.lambda.total_cmp(&b.lambda).then(a.at[0].total_cmp(&b.at[0])).then(a.at[1].total_cmp(&b.at[1]))
-    });
+    crate::corners::sort_points(&mut out, |p| p);
     Ok(out)
 }

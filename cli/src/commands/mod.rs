@@ -71,8 +71,7 @@ pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
     }
     // Singular points from the angles of the imported boundary (after the order is set:
     // exponents below the order are singular for the elements).
-    let permittivity: Vec<f64> =
-        model.shape_material.iter().map(|m| m.map_or(1.0, |m| model.materials[m].permittivity)).collect();
+    let permittivity = crate::plan::problem::problem_of(model).permittivity;
     mesh.singular_points = mesher::find_singular_points(&mesh, &permittivity, model.outer_potential_v.is_some())
         .map_err(|e| {
             CliError::from(model.import_error(format!("'{file}': {}", e.message_in(model.unit_m, model.unit))))
