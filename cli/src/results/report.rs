@@ -28,6 +28,17 @@ fn num(v: &Value, digits: usize) -> String {
     }
 }
 
+/// A JSON number divided by `per` (a unit: 1e3 for kV, 1e6 for kV/mm, metres per model
+/// unit), in the short form of [`num`].
+fn scaled(v: &Value, per: f64, digits: usize) -> String {
+    num(&v.as_f64().map(|x| x / per).into(), digits)
+}
+
+/// A point given in metres (a JSON pair) in the model unit, "(x, y)".
+fn point(v: &Value, unit_m: f64) -> String {
+    format!("({}, {})", scaled(&v[0], unit_m, 4), scaled(&v[1], unit_m, 4))
+}
+
 /// One table row per element of a JSON array (none when it is absent).
 fn rows_of(list: &Value, row: impl Fn(&Value) -> Vec<String>) -> Vec<Vec<String>> {
     list.as_array().into_iter().flatten().map(row).collect()
@@ -200,7 +211,7 @@ pub fn write_report(dir: &Path) -> Result<()> {
             esc(c["name"].as_str().unwrap_or("")),
             esc(c["kind"].as_str().unwrap_or("")),
             esc(c["basis"].as_str().unwrap_or("")),
-            num(&(c["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
+            scaled(&c["voltage_v"], 1e3, 3),
             esc(c["reference"].as_str().unwrap_or("")),
             num(&c["scale"], 4),
         ]
@@ -219,11 +230,11 @@ pub fn write_report(dir: &Path) -> Result<()> {
             esc(case["name"].as_str().unwrap_or("")),
             esc(case["kind"].as_str().unwrap_or("")),
             esc(case["basis"].as_str().unwrap_or("")),
-            num(&(case["voltage_v"].as_f64().map(|v| v / 1e3).into()), 3),
+            scaled(&case["voltage_v"], 1e3, 3),
             esc(case["reference"].as_str().unwrap_or("")),
             num(&case["scale"], 4)
         );
-        let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
+        let kv = |v: &Value| scaled(v, 1e6, 4);
         let verdict = |p: &Value| {
             let v = p["verdict"].as_str().unwrap_or("");
             let cert =
@@ -242,24 +253,23 @@ pub fn write_report(dir: &Path) -> Result<()> {
                 verdict(p),
             ]
         };
-        let mut rows: Vec<Vec<String>> = Vec::new();
-        for g in case["regions"].as_array().into_iter().flatten() {
-            rows.push(row(esc(g["region"].as_str().unwrap_or("")), &g["peak"]));
-        }
-        for t in case["interfaces"].as_array().into_iter().flatten() {
-            rows.push(row(format!("tangential on {}", esc(t["probe"].as_str().unwrap_or(""))), &t["e_t"]));
-        }
-        for g in case["gas"].as_array().into_iter().flatten() {
-            rows.push(vec![
-                format!("discharge inception in {}", esc(g["region"].as_str().unwrap_or(""))),
-                format!("{} kV peak", num(&(g["peak_voltage_v"].as_f64().map(|v| v / 1e3).into()), 3)),
-                "-".into(),
-                format!("{} kV", num(&(g["inception_voltage_v"].as_f64().map(|v| v / 1e3).into()), 3)),
-                "-".into(),
-                num(&g["margin"], 3),
-                esc(g["verdict"].as_str().unwrap_or("")),
-            ]);
-        }
+        let mut rows: Vec<Vec<String>> = case_checks(case)
+            .into_iter()
+            .map(|(label, p, gas)| {
+                if !gas {
+                    return row(esc(&label), p);
+                }
+                vec![
+                    esc(&label),
+                    format!("{} kV peak", scaled(&p["peak_voltage_v"], 1e3, 3)),
+                    "-".into(),
+                    format!("{} kV", scaled(&p["inception_voltage_v"], 1e3, 3)),
+                    "-".into(),
+                    num(&p["margin"], 3),
+                    esc(p["verdict"].as_str().unwrap_or("")),
+                ]
+            })
+            .collect();
         for row in &mut rows {
             let v = row[6].split(' ').next().unwrap_or("").to_string();
             row[6] = format!("<span class=\"{v}\">{}</span>", row[6]);
@@ -537,15 +547,12 @@ fn pictures(dir: &Path, r: &Value, files: &mut Vec<(String, String)>) -> (String
         .iter()
         .enumerate()
         .map(|(i, g)| {
-            let at = g["at_m"].as_array();
-            let c = |j: usize| num(&(at.and_then(|a| a.get(j)).and_then(Value::as_f64).map(|x| x / k).into()), 4);
-            let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
             vec![
                 format!("P{}", i + 1),
                 esc(g["region"].as_str().unwrap_or("")),
-                kv(&g["e_v_per_m"]),
-                kv(&g["error_bar_v_per_m"]),
-                format!("({}, {})", c(0), c(1)),
+                scaled(&g["e_v_per_m"], 1e6, 4),
+                scaled(&g["error_bar_v_per_m"], 1e6, 4),
+                point(&g["at_m"], k),
             ]
         })
         .collect();
@@ -736,16 +743,27 @@ fn plot_caption(name: &str) -> String {
     }
 }
 
+/// The checks of one load case as the report lists them: label (not escaped), the JSON
+/// object holding the verdict, and whether it is a gas check (voltages, not a stress).
+fn case_checks(case: &Value) -> Vec<(String, &Value, bool)> {
+    let list = |key: &str| case[key].as_array().into_iter().flatten();
+    let name = |v: &Value, key: &str| v[key].as_str().unwrap_or("").to_string();
+    let regions = list("regions").map(|g| (name(g, "region"), &g["peak"], false));
+    let interfaces = list("interfaces").map(|t| (format!("tangential on {}", name(t, "probe")), &t["e_t"], false));
+    let gas = list("gas").map(|g| (format!("discharge inception in {}", name(g, "region")), g, true));
+    regions.chain(interfaces).chain(gas).collect()
+}
+
 /// One line that answers the question first: does every check pass in every load case?
 /// Names the failing and undecided checks; uncertified verdicts (a single solve) are said so.
 fn overall_verdict(checks: &Value) -> String {
     let (mut n, mut fails, mut open, mut uncertified) = (0, Vec::new(), Vec::new(), false);
     for case in checks["load_cases"].as_array().into_iter().flatten() {
         let cname = case["name"].as_str().unwrap_or("");
-        let mut note = |what: String, p: &Value| {
+        for (what, p, _) in case_checks(case) {
             let v = p["verdict"].as_str().unwrap_or("");
             if v == "no allowable" || v.is_empty() {
-                return;
+                continue;
             }
             n += 1;
             uncertified |= p["certified"].as_bool() == Some(false);
@@ -754,15 +772,6 @@ fn overall_verdict(checks: &Value) -> String {
                 "pass" => {}
                 _ => open.push(format!("{what} ({cname}): {v}")),
             }
-        };
-        for g in case["regions"].as_array().into_iter().flatten() {
-            note(g["region"].as_str().unwrap_or("").to_string(), &g["peak"]);
-        }
-        for t in case["interfaces"].as_array().into_iter().flatten() {
-            note(format!("tangential on {}", t["probe"].as_str().unwrap_or("")), &t["e_t"]);
-        }
-        for g in case["gas"].as_array().into_iter().flatten() {
-            note(format!("discharge inception in {}", g["region"].as_str().unwrap_or("")), g);
         }
     }
     let cert = if uncertified { " Some verdicts are uncertified (one solve, no error bar)." } else { "" };
@@ -793,13 +802,9 @@ fn unit_metres_of(r: &Value) -> (f64, String) {
 fn other_checks(c: &Value, (k, unit): (f64, String)) -> String {
     let mut h = String::new();
     let list = |key: &str| c[key].as_array().cloned().unwrap_or_default();
-    let kv = |v: &Value| num(&(v.as_f64().map(|x| x / 1e6).into()), 4);
-    let len = |v: &Value| num(&(v.as_f64().map(|x| x / k).into()), 4);
-    let at = |v: &Value| {
-        let a = v.as_array();
-        let c = |j: usize| num(&(a.and_then(|a| a.get(j)).and_then(Value::as_f64).map(|x| x / k).into()), 4);
-        format!("({}, {})", c(0), c(1))
-    };
+    let kv = |v: &Value| scaled(v, 1e6, 4);
+    let len = |v: &Value| scaled(v, k, 4);
+    let at = |v: &Value| point(v, k);
     let s = |v: &Value| esc(v.as_str().unwrap_or(""));
     let ff = list("field_factors");
     if !ff.is_empty() {
@@ -835,9 +840,7 @@ fn other_checks(c: &Value, (k, unit): (f64, String)) -> String {
                     .as_array()
                     .into_iter()
                     .flatten()
-                    .map(|ch| {
-                        format!("{} {unit}, {} kV", len(&ch[0]), num(&(ch[1].as_f64().map(|v| v / 1e3).into()), 4))
-                    })
+                    .map(|ch| format!("{} {unit}, {} kV", len(&ch[0]), scaled(&ch[1], 1e3, 4)))
                     .collect();
                 vec![
                     s(&p["probe"]),
@@ -904,7 +907,7 @@ fn other_checks(c: &Value, (k, unit): (f64, String)) -> String {
             .map(|l| {
                 vec![
                     format!("{} → {}", s(&l["between"][0]), s(&l["between"][1])),
-                    num(&(l["step_v"].as_f64().map(|v| v / 1e3).into()), 4),
+                    scaled(&l["step_v"], 1e3, 4),
                     num(&l["step_percent"], 2),
                     num(&l["ideal_step_percent"], 2),
                     num(&l["partial_capacitance_f"], 4),
@@ -940,7 +943,7 @@ fn other_checks(c: &Value, (k, unit): (f64, String)) -> String {
             s(&g["gas"]),
             num(&g["pressure_bar"], 3),
             num(&g["temperature_c"], 1),
-            num(&(g["inception_voltage_v"].as_f64().map(|v| v / 1e3).into()), 4),
+            scaled(&g["inception_voltage_v"], 1e3, 4),
             num(&g["inception_scale"], 4),
             at(&g["lines"][g["weakest_line"].as_u64().unwrap_or(0) as usize]["start_m"]),
             s(&g["coefficients"])
