@@ -293,44 +293,37 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         let mut bverts: Vec<u32> = boundary.iter().flat_map(|e| [e.0, e.1]).collect();
         bverts.sort_unstable();
         bverts.dedup();
-        let mean = boundary
-            .iter()
-            .map(|&(a, b)| {
-                let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
-                (p[0] - q[0]).hypot(p[1] - q[1])
-            })
-            .sum::<f64>()
-            / boundary.len().max(1) as f64;
-        let cell = mean.max(1e-12 * scale);
-        let key = |p: [f64; 3]| (((p[0] - lo[0]) / cell).floor() as i64, ((p[1] - lo[1]) / cell).floor() as i64);
-        let mut grid_of: std::collections::HashMap<(i64, i64), Vec<u32>> = std::collections::HashMap::new();
-        for &v in &bverts {
-            grid_of.entry(key(grid.points[v as usize])).or_default().push(v);
-        }
+        // The boundary vertices in the project's bucket grid (as point boxes); each edge asks
+        // for the vertices within the square around it.
+        let xy = |v: u32| [grid.points[v as usize][0], grid.points[v as usize][1]];
+        let boxes: Vec<[f64; 4]> = bverts.iter().map(|&v| [xy(v)[0], xy(v)[1], xy(v)[0], xy(v)[1]]).collect();
+        let buckets = crate::BucketGrid::new(&boxes, [lo[0], lo[1], hi[0], hi[1]]);
         for &(a, b) in &boundary {
-            let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
-            let (ka, kb) = (key(p), key(q));
+            let (p, q) = (xy(a), xy(b));
             let len2 = (q[0] - p[0]).powi(2) + (q[1] - p[1]).powi(2);
-            for gx in ka.0.min(kb.0)..=ka.0.max(kb.0) {
-                for gy in ka.1.min(kb.1)..=ka.1.max(kb.1) {
-                    for &v in grid_of.get(&(gx, gy)).into_iter().flatten() {
-                        if v == a || v == b {
-                            continue;
-                        }
-                        let r = grid.points[v as usize];
-                        let s = ((r[0] - p[0]) * (q[0] - p[0]) + (r[1] - p[1]) * (q[1] - p[1])) / len2;
-                        let cross = (r[0] - p[0]) * (q[1] - p[1]) - (r[1] - p[1]) * (q[0] - p[0]);
-                        if s > 1e-9 && s < 1.0 - 1e-9 && cross.abs() <= 1e-9 * len2 {
-                            return fail(format!(
-                                "node {v} at {} lies inside edge {a}–{b} from {} to {} of another cell: a hanging \
-                                 node (non-conforming mesh); split the neighbouring cell at it",
-                                at(v),
-                                at(a),
-                                at(b)
-                            ));
-                        }
-                    }
+            let mid = [(p[0] + q[0]) / 2.0, (p[1] + q[1]) / 2.0];
+            let half = (q[0] - p[0]).abs().max((q[1] - p[1]).abs()) / 2.0;
+            let mut hanging = None;
+            buckets.for_each_near(mid, half, |k| {
+                let v = bverts[k as usize];
+                if v == a || v == b || hanging.is_some() {
+                    return;
                 }
+                let r = xy(v);
+                let s = ((r[0] - p[0]) * (q[0] - p[0]) + (r[1] - p[1]) * (q[1] - p[1])) / len2;
+                let cross = (r[0] - p[0]) * (q[1] - p[1]) - (r[1] - p[1]) * (q[0] - p[0]);
+                if s > 1e-9 && s < 1.0 - 1e-9 && cross.abs() <= 1e-9 * len2 {
+                    hanging = Some(v);
+                }
+            });
+            if let Some(v) = hanging {
+                return fail(format!(
+                    "node {v} at {} lies inside edge {a}–{b} from {} to {} of another cell: a hanging node \
+                     (non-conforming mesh); split the neighbouring cell at it",
+                    at(v),
+                    at(a),
+                    at(b)
+                ));
             }
         }
     }
