@@ -542,20 +542,26 @@ pub fn find_singular_points(
 ) -> Result<Vec<crate::SingularPoint>, crate::MeshError> {
     use crate::arrangement::Side;
     const SMOOTH_DEG: f64 = 15.0;
-    // Region on the left of each directed triangle edge.
+    // Region on the left of each tagged edge, in both directions (counter-clockwise
+    // triangles have their region on the left of a→b): only the tagged edges are looked up,
+    // so one pass over the triangles fills a small table.
+    let directed = |a: u32, b: u32| ((a as u64) << 32) | b as u64;
     let mut left: std::collections::HashMap<u64, u32> = std::collections::HashMap::new();
+    let tagged: std::collections::HashSet<u64> =
+        mesh.edges.iter().flat_map(|e| [directed(e.nodes[0], e.nodes[1]), directed(e.nodes[1], e.nodes[0])]).collect();
     for (t, tri) in mesh.triangles.iter().enumerate() {
         for k in 0..3 {
-            let (a, b) = (tri[k], tri[(k + 1) % 3]);
-            // Counter-clockwise triangles have their region on the left of a→b.
-            left.insert(((a as u64) << 32) | b as u64, mesh.regions[t]);
+            let key = directed(tri[k], tri[(k + 1) % 3]);
+            if tagged.contains(&key) {
+                left.insert(key, mesh.regions[t]);
+            }
         }
     }
     let mut inc: Vec<Vec<(f64, Side, EdgeTag, bool)>> = vec![Vec::new(); mesh.num_vertices as usize];
     for e in &mesh.edges {
         let [a, b] = e.nodes;
-        let l = left.get(&(((a as u64) << 32) | b as u64)).copied();
-        let r = left.get(&(((b as u64) << 32) | a as u64)).copied();
+        let l = left.get(&directed(a, b)).copied();
+        let r = left.get(&directed(b, a)).copied();
         let (ls, rs) = match e.tag {
             EdgeTag::Interface(..) => (l.map(Side::Region), r.map(Side::Region)),
             EdgeTag::Conductor(c) => (l.map(Side::Region).or(Some(Side::Conductor(c))), Some(Side::Conductor(c))),
