@@ -50,6 +50,7 @@
 #![warn(missing_debug_implementations)]
 
 mod arrangement;
+mod bisect;
 mod budget;
 mod corners;
 mod delaunay_refine;
@@ -68,6 +69,7 @@ mod smooth;
 mod triangulate;
 mod vtu;
 
+pub use bisect::{bisect_to_sizes, Bisected};
 pub use budget::{predict, SizePrediction, DELIVERY};
 pub use corners::{conical_exponent, legendre_p, wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;

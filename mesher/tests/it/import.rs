@@ -155,6 +155,71 @@ fn the_meshio_annulus_imports_with_its_circles_as_arcs() {
     }
 }
 
+#[test]
+fn bisection_inside_the_imported_annulus_keeps_the_circles() {
+    // Refine the meshio annulus (P2) by newest-vertex bisection towards the inner circle:
+    // every vertex and P2 mid node on a tagged boundary edge stays on its circle (r = 10 mm
+    // or 30 mm about the origin), the tags are kept, and the area approaches π(b² − a²).
+    let g = read_grid(&fixture("coax-p2-zlib.vtu")).unwrap();
+    let m = mesher::import_mesh(&g, &coax_spec()).unwrap().mesh;
+    let sizes: Vec<f64> = (0..m.num_triangles())
+        .map(|t| {
+            let p = m.nodes[m.triangles[t][0] as usize];
+            if p[0].hypot(p[1]) < 0.015 {
+                2e-4
+            } else {
+                1.0
+            }
+        })
+        .collect();
+    let out = mesher::bisect_to_sizes(&m, &sizes, 1_000_000).unwrap();
+    assert!(out.complete);
+    let r = &out.mesh;
+    assert!(r.num_triangles() > 10 * m.num_triangles(), "{}", r.num_triangles());
+    assert_eq!(r.order(), 2);
+    let on = |c: u32| r.edges.iter().filter(|e| e.tag == mesher::EdgeTag::Conductor(c)).count();
+    assert!(on(0) >= 48 * 8, "{}", on(0));
+    assert_eq!(on(1), 48, "the outer circle is not refined");
+    let mids: std::collections::HashMap<(u32, u32), u32> = (0..r.num_triangles())
+        .flat_map(|t| {
+            (0..3).map(move |k| {
+                let (a, b) = (r.triangles[t][k], r.triangles[t][(k + 1) % 3]);
+                ((a.min(b), a.max(b)), r.mid_nodes[t][k])
+            })
+        })
+        .collect();
+    for e in &r.edges {
+        let radius = if e.tag == mesher::EdgeTag::Conductor(0) { 0.010 } else { 0.030 };
+        let (a, b) = (e.nodes[0], e.nodes[1]);
+        for n in [a, b, mids[&(a.min(b), a.max(b))]] {
+            let p = r.nodes[n as usize];
+            assert!((p[0].hypot(p[1]) - radius).abs() < 1e-15, "node {n} at {p:?} off the circle {radius}");
+        }
+    }
+    // The boundary edges keep the dielectric on their left: the shoelace sum over them is
+    // the triangles' area. The inner polygon (the conductor's hole) approaches πa².
+    let shoelace = |mesh: &mesher::Mesh, only: Option<mesher::EdgeTag>| -> f64 {
+        mesh.edges
+            .iter()
+            .filter(|e| only.is_none_or(|t| e.tag == t))
+            .map(|e| {
+                let (p, q) = (mesh.nodes[e.nodes[0] as usize], mesh.nodes[e.nodes[1] as usize]);
+                0.5 * (p[0] * q[1] - q[0] * p[1])
+            })
+            .sum()
+    };
+    let area: f64 = (0..r.num_triangles()).map(|t| r.triangle_area(t)).sum();
+    assert!((shoelace(r, None) - area).abs() < 1e-12 * area, "{} vs {area}", shoelace(r, None));
+    let hole = |mesh: &mesher::Mesh| -shoelace(mesh, Some(mesher::EdgeTag::Conductor(0)));
+    let exact = std::f64::consts::PI * 0.01f64.powi(2);
+    assert!(
+        (hole(r) - exact).abs() < 0.02 * (hole(&m) - exact).abs(),
+        "{} vs {exact}, first mesh {}",
+        hole(r),
+        hole(&m)
+    );
+}
+
 /// A 2 × 1 grid of unit squares split into four triangles, region 1, lines tagged 7 on the
 /// left side; `edit` changes it before import.
 fn squares(edit: impl FnOnce(&mut GridFile)) -> Result<mesher::Imported, String> {
