@@ -10,7 +10,12 @@ as a structured polar grid split into triangles; P1 (`triangle`, `line`) and P2
 (`triangle6`, `line3`, mid-side nodes of the circular edges on the circles). Cell array
 "region": 1 for the dielectric triangles; the boundary lines carry 10 (inner circle) and
 20 (outer circle). Encodings: VTU ascii, VTU binary base64 uncompressed, VTU binary base64
-zlib, legacy VTK ASCII. The fixtures are committed; the tests need no Python.
+zlib, legacy VTK ASCII.
+
+A second part: the L-shaped domain (-1, 1)² minus the fourth quadrant (lengths in m), a
+structured grid of 0.25 squares each split into two triangles (P1), region 1; the two edges
+meeting at the re-entrant corner carry tag 10 (an electrode), the rest of the boundary 20.
+One encoding: VTU binary base64. The fixtures are committed; the tests need no Python.
 """
 
 import math
@@ -73,6 +78,48 @@ def annulus(order):
     return pts, np.array(tris), np.array(lines), np.array(tags)
 
 
+def l_shape():
+    """Points, triangles, boundary lines and their tags of the L-shaped domain."""
+    n = 8  # squares per side of (-1, 1)
+    h = 2.0 / n
+    index = {}
+    pts = []
+
+    def inside(i, j):
+        # Square (i, j) has its lower-left corner at (-1 + i h, -1 + j h); the fourth
+        # quadrant (x > 0, y < 0) is left out.
+        return not (i >= n // 2 and j < n // 2)
+
+    def p(i, j):
+        if (i, j) not in index:
+            index[(i, j)] = len(pts)
+            pts.append([-1.0 + i * h, -1.0 + j * h, 0.0])
+        return index[(i, j)]
+
+    tris = []
+    for j in range(n):
+        for i in range(n):
+            if inside(i, j):
+                tris.append([p(i, j), p(i + 1, j), p(i + 1, j + 1)])
+                tris.append([p(i, j), p(i + 1, j + 1), p(i, j + 1)])
+    # Boundary edges: the edges of exactly one triangle.
+    count = {}
+    for t in tris:
+        for a, b in ((t[0], t[1]), (t[1], t[2]), (t[2], t[0])):
+            k = (min(a, b), max(a, b))
+            count[k] = count.get(k, 0) + 1
+    lines, tags = [], []
+    for (a, b), c in sorted(count.items()):
+        if c == 1:
+            pa, pb = pts[a], pts[b]
+            # The electrode: y = 0 for x in [0, 1] and x = 0 for y in [-1, 0].
+            on_y0 = pa[1] == 0.0 and pb[1] == 0.0 and min(pa[0], pb[0]) >= 0.0
+            on_x0 = pa[0] == 0.0 and pb[0] == 0.0 and max(pa[1], pb[1]) <= 0.0
+            lines.append([a, b])
+            tags.append(10 if on_y0 or on_x0 else 20)
+    return np.array(pts), np.array(tris), np.array(lines), np.array(tags)
+
+
 def main():
     out = Path(sys.argv[1] if len(sys.argv) > 1 else "fixtures/import")
     out.mkdir(parents=True, exist_ok=True)
@@ -90,6 +137,14 @@ def main():
         meshio.write(out / f"{stem}-zlib.vtu", mesh, file_format="vtu", binary=True, compression="zlib")
         meshio.write(out / f"{stem}-legacy.vtk", mesh, file_format="vtk", binary=False)
         print(f"{stem}: {len(pts)} points, {len(tris)} triangles, {len(lines)} boundary lines")
+    pts, tris, lines, tags = l_shape()
+    mesh = meshio.Mesh(
+        pts,
+        [("triangle", tris), ("line", lines)],
+        cell_data={"region": [np.full(len(tris), 1, dtype=np.int32), tags.astype(np.int32)]},
+    )
+    meshio.write(out / "lshape-p1-base64.vtu", mesh, file_format="vtu", binary=True, compression=None)
+    print(f"lshape-p1: {len(pts)} points, {len(tris)} triangles, {len(lines)} boundary lines")
     print(f"written with meshio {meshio.__version__}")
 
 

@@ -287,12 +287,52 @@ pub fn adapt_watching(
     params: &RefineParams,
     problem: &Problem,
     ap: &AdaptParams,
+    watch: impl FnMut(&Mesh, &FactoredSolution, &ErrorEstimate) -> Result<Vec<Watched>, SolveError>,
+    progress: impl FnMut(&AdaptStep),
+) -> Result<AdaptOutcome, SolveError> {
+    adapt_from(MeshSource::Drawn { geometry: geo, params }, problem, ap, watch, progress)
+}
+
+/// Where the loop's meshes come from.
+#[derive(Debug)]
+pub enum MeshSource<'a> {
+    /// The drawn geometry, meshed afresh for every step on a background size field (arcs,
+    /// tags and the corner analysis stay exact; the mesh may coarsen where the error is
+    /// small).
+    Drawn {
+        /// The geometry.
+        geometry: &'a Geometry,
+        /// The caller's meshing parameters (the loop puts [`AdaptiveMesh`] in place).
+        params: &'a RefineParams,
+    },
+    /// A mesh with no geometry behind it (an imported one): the first mesh of the loop,
+    /// refined inside by newest-vertex bisection ([`mesher::bisect_to_sizes`]), which keeps
+    /// its regions, tags, arcs and singular points and never coarsens it. The element
+    /// order is the mesh's.
+    Given(Mesh),
+}
+
+/// [`adapt_watching`] on meshes from any [`MeshSource`].
+///
+/// # Errors
+/// A meshing error (as [`SolveError::Mesh`]), any solve error, or an error from `watch`.
+pub fn adapt_from(
+    source: MeshSource<'_>,
+    problem: &Problem,
+    ap: &AdaptParams,
     mut watch: impl FnMut(&Mesh, &FactoredSolution, &ErrorEstimate) -> Result<Vec<Watched>, SolveError>,
     mut progress: impl FnMut(&AdaptStep),
 ) -> Result<AdaptOutcome, SolveError> {
-    let p = params.order.max(1) as f64;
-    let params = ap.mesh.apply(geo, params);
-    let mut pending: Option<Mesh> = None;
+    let (drawn, mut pending, order) = match source {
+        MeshSource::Drawn { geometry, params } => {
+            (Some((geometry, ap.mesh.apply(geometry, params))), None, params.order)
+        }
+        MeshSource::Given(mesh) => {
+            let order = mesh.order();
+            (None, Some(mesh), order)
+        }
+    };
+    let p = order.max(1) as f64;
     let mut history: Vec<AdaptStep> = Vec::new();
     let mut clock = std::time::Instant::now();
     let mut lap = move || {
@@ -302,9 +342,10 @@ pub fn adapt_watching(
         s
     };
     loop {
-        let mesh = match pending.take() {
-            Some(m) => m,
-            None => generate_with(geo, &params, None).map_err(SolveError::Mesh)?.mesh,
+        let mesh = match (pending.take(), &drawn) {
+            (Some(m), _) => m,
+            (None, Some((geo, params))) => generate_with(geo, params, None).map_err(SolveError::Mesh)?.mesh,
+            (None, None) => unreachable!("a given mesh is the first pending one"),
         };
         if history.is_empty() && mesh.nodes.len() > ap.max_unknowns {
             return Err(SolveError::FirstMeshOverBudget { nodes: mesh.nodes.len(), max_unknowns: ap.max_unknowns });
@@ -338,7 +379,7 @@ pub fn adapt_watching(
                     .chain(std::iter::once((solution.num_unknowns, watched[q].value)))
                     .collect();
                 let w = &watched[q];
-                certify(&seq, w.estimate, w.class, params.order, w.floor, ap.tolerance)
+                certify(&seq, w.estimate, w.class, order, w.floor, ap.tolerance)
             })
             .collect();
         let step = AdaptStep {
@@ -418,7 +459,7 @@ pub fn adapt_watching(
             return Ok(AdaptOutcome { converged: false, reason, history, mesh, solved, estimate: est, bars });
         }
         let indicators = combined_indicators(&est, step, ap.tolerance);
-        let plan = SizePlan::new(&mesh, &indicators, ap, p);
+        let plan = SizePlan::new(&mesh, &indicators, ap, p, drawn.is_some());
         // The prediction is rough (the gradation spreads refinement, coarsening may not
         // happen): ask again for more if the mesh did not grow by 1.3×, so that the meshes
         // form a refinement sequence, as the convergence study needs.
@@ -426,8 +467,15 @@ pub fn adapt_watching(
         let mut next = None;
         for _ in 0..4 {
             let sizes = plan.sizes_for_count(ask);
-            let m =
-                generate_with(geo, &params, Some(BackgroundSize::new(&mesh, sizes))).map_err(SolveError::Mesh)?.mesh;
+            let m = match &drawn {
+                Some((geo, params)) => {
+                    generate_with(geo, params, Some(BackgroundSize::new(&mesh, sizes))).map_err(SolveError::Mesh)?.mesh
+                }
+                None => {
+                    let gradation = ap.mesh.gradation.unwrap_or(RefineParams::default().gradation);
+                    mesher::bisect_to_sizes(&mesh, &sizes, gradation, ap.max_unknowns).map_err(SolveError::Mesh)?.mesh
+                }
+            };
             let got = m.triangles.len() as f64;
             next = Some(m);
             if got >= 1.3 * nt {
@@ -493,6 +541,9 @@ struct SizePlan {
     /// Dörfler's marked set.
     marked: Vec<bool>,
     p: f64,
+    /// Largest size factor of an unmarked triangle: [`MOST_COARSENED`] when the next mesh
+    /// is made afresh, 1 when it is refined by bisection (which cannot coarsen).
+    coarsest: f64,
 }
 
 #[derive(Clone, Copy, Debug)]
@@ -505,7 +556,7 @@ struct Corner {
 }
 
 impl SizePlan {
-    fn new(mesh: &Mesh, ind: &[f64], ap: &AdaptParams, p: f64) -> SizePlan {
+    fn new(mesh: &Mesh, ind: &[f64], ap: &AdaptParams, p: f64, can_coarsen: bool) -> SizePlan {
         let nt = mesh.triangles.len();
         let h: Vec<f64> = (0..nt).map(|t| (4.0 * mesh.triangle_area(t).abs() / 3f64.sqrt()).sqrt()).collect();
         // Dörfler marking: largest indicators first until θ of the squared total.
@@ -551,7 +602,7 @@ impl SizePlan {
         for c in &mut corners {
             c.eta = (c.eta / c.triangles.max(1) as f64).sqrt();
         }
-        SizePlan { h, unit, corner_of, corners, marked, p }
+        SizePlan { h, unit, corner_of, corners, marked, p, coarsest: if can_coarsen { MOST_COARSENED } else { 1.0 } }
     }
 
     /// Size of triangle `t` for the per-triangle error ε, and the number of triangles it
@@ -561,7 +612,7 @@ impl SizePlan {
         let h = self.h[t];
         let marked = !dorfler || self.marked[t];
         let (lo, hi) =
-            if marked { (MOST_REFINED, if dorfler { 0.75 } else { MOST_COARSENED }) } else { (1.0, MOST_COARSENED) };
+            if marked { (MOST_REFINED, if dorfler { 0.75 } else { self.coarsest }) } else { (1.0, self.coarsest) };
         match self.corner_of[t] {
             Some(k) => {
                 // At a singular point ηₜ ≈ C·h^λ: the size follows with exponent 1/λ, and

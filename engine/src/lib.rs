@@ -80,7 +80,10 @@ mod singular;
 mod solve;
 pub mod space;
 
-pub use adapt::{adapt, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, StepTimings, Watched};
+pub use adapt::{
+    adapt, adapt_from, adapt_watching, AdaptOutcome, AdaptParams, AdaptStep, AdaptiveMesh, MeshSource, StepTimings,
+    Watched,
+};
 pub use budget::{predicted_memory_bytes, unknowns_per_vertex, unknowns_within};
 pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
 pub use checks::{

@@ -10,13 +10,17 @@
 //! bounded below by a constant of the first mesh (Sewell 1972). On the first mesh the
 //! refinement edge is the longest edge.
 //!
-//! One round marks the triangles larger than their asked size (size as the edge of the
+//! The sizes asked per triangle of the first mesh become a continuous, graded field (the
+//! [`BackgroundSize`] the mesher uses for remeshing, limited to grow by at most the
+//! gradation slope): a tiny size at a singular point's triangles then asks for rings of
+//! triangles growing away from it, not for the whole triangle at that size. One round marks
+//! the triangles larger than the field at their centroid (size as the edge of the
 //! equilateral triangle of the same area), marks their refinement edges, and closes the
 //! marking: a triangle with a marked edge gets its refinement edge marked too, until no
 //! triangle changes. Each triangle is then bisected at its refinement edge and each child
 //! again at its own when that is marked (one, two or three bisections), so every marked
 //! edge is split at the same new vertex from both sides and the mesh stays conforming.
-//! Children inherit their parent's region and asked size; rounds repeat until no triangle
+//! Children inherit their parent's region; rounds repeat until no triangle
 //! is larger than its size, or the vertex budget would be passed.
 //!
 //! Boundary and interface edges keep their tags and orientation (a split edge becomes two
@@ -36,6 +40,7 @@
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Xy};
 use crate::mesh::{Mesh, TaggedEdge};
+use crate::size_field::BackgroundSize;
 use std::collections::HashMap;
 
 /// Key of the undirected edge a–b.
@@ -61,9 +66,9 @@ pub struct Bisected {
 }
 
 /// Refines `mesh` by newest-vertex bisection until every triangle is at most the size
-/// asked for it in `sizes` (one per triangle of `mesh`, metres, as the edge of the
-/// equilateral triangle of the same area), or until another round would pass
-/// `max_vertices`. Sizes above a triangle's own leave it as it is (bisection never
+/// asked for it (module docs: `sizes` has one per triangle of `mesh`, metres, as the edge
+/// of the equilateral triangle of the same area, made a field that grows by at most
+/// `gradation` − 1 per metre per metre), or until another round would pass `max_vertices`. Sizes above a triangle's own leave it as it is (bisection never
 /// coarsens). Regions, tags, arcs, names, singular points and the exterior are kept; an
 /// order-2 mesh gets its mid-edge nodes rebuilt (on the arcs for curved edges).
 ///
@@ -72,7 +77,7 @@ pub struct Bisected {
 /// [`MeshError::InvalidMesh`] if placing a new vertex on a curved boundary would invert a
 /// triangle (the first mesh is too coarse along that arc), naming the edge, or if the
 /// result fails [`Mesh::validate`].
-pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], max_vertices: usize) -> Result<Bisected, MeshError> {
+pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], gradation: f64, max_vertices: usize) -> Result<Bisected, MeshError> {
     if sizes.len() != mesh.triangles.len() {
         return Err(MeshError::BadParameter {
             name: "sizes",
@@ -83,6 +88,11 @@ pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], max_vertices: usize) -> Resul
     if let Some(&s) = sizes.iter().find(|s| !(s.is_finite() && **s > 0.0)) {
         return Err(MeshError::BadParameter { name: "sizes", value: s, allowed: "finite and > 0" });
     }
+    if !(gradation > 1.0 && gradation.is_finite()) {
+        return Err(MeshError::BadParameter { name: "gradation", value: gradation, allowed: "finite and > 1" });
+    }
+    let mut field = BackgroundSize::new(mesh, sizes.to_vec());
+    field.limit_gradation(gradation - 1.0);
     let nv = mesh.num_vertices as usize;
     let mut work = Work {
         nodes: mesh.nodes[..nv].to_vec(),
@@ -93,7 +103,16 @@ pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], max_vertices: usize) -> Resul
     };
     let mut complete = true;
     for _ in 0..MAX_ROUNDS {
-        let marked: Vec<bool> = (0..work.tris.len()).map(|t| work.size(t) > work.sizes[t] * (1.0 + 1e-9)).collect();
+        let marked: Vec<bool> = (0..work.tris.len())
+            .map(|t| {
+                let c = work.tris[t].map(|i| work.nodes[i as usize]);
+                let centroid = [(c[0][0] + c[1][0] + c[2][0]) / 3.0, (c[0][1] + c[1][1] + c[2][1]) / 3.0];
+                // A centroid moved off the first mesh by a vertex on an arc keeps the
+                // size asked for its first-mesh triangle.
+                let want = field.size_at(centroid).unwrap_or(work.sizes[t]);
+                work.size(t) > want * (1.0 + 1e-9)
+            })
+            .collect();
         if !marked.iter().any(|&m| m) {
             break;
         }
@@ -309,26 +328,24 @@ mod tests {
 
     #[test]
     fn refining_one_corner_stays_conforming_and_keeps_the_boundary() {
-        // Ask for size 0.01 near (0, 0) only: the refinement stays local, every triangle
-        // near the corner reaches the size, the mesh validates (conforming, tags agree),
-        // and the boundary length is unchanged.
+        // Ask for size 0.01 on the triangles at the corner (0, 0) only: the refinement stays
+        // local and graded, the triangles at the corner reach the size (within the growth of
+        // the field over their centroid's distance), the mesh validates (conforming, tags
+        // agree), and the boundary length is unchanged.
         let mesh = square(1);
-        let sizes: Vec<f64> = (0..mesh.triangles.len())
-            .map(|t| {
-                let c = mesh.triangles[t].map(|i| mesh.nodes[i as usize]);
-                let x = (c[0][0] + c[1][0] + c[2][0]) / 3.0;
-                let y = (c[0][1] + c[1][1] + c[2][1]) / 3.0;
-                if x.hypot(y) < 0.25 {
-                    0.01
-                } else {
-                    1.0
-                }
-            })
-            .collect();
-        let out = bisect_to_sizes(&mesh, &sizes, 1_000_000).unwrap();
+        let at_origin = |m: &Mesh, t: usize| m.triangles[t].iter().any(|&i| norm(m.nodes[i as usize]) < 1e-12);
+        let sizes: Vec<f64> = (0..mesh.triangles.len()).map(|t| if at_origin(&mesh, t) { 0.01 } else { 1.0 }).collect();
+        let out = bisect_to_sizes(&mesh, &sizes, 1.6, 1_000_000).unwrap();
         assert!(out.complete);
         let m = out.mesh;
-        assert!(m.triangles.len() > 20 * mesh.triangles.len(), "{}", m.triangles.len());
+        assert!(m.triangles.len() > 2 * mesh.triangles.len(), "{}", m.triangles.len());
+        for t in (0..m.triangles.len()).filter(|&t| at_origin(&m, t)) {
+            // The field at the centroid, a distance d from the corner: 0.01 + 0.6·d.
+            let h = (4.0 * m.triangle_area(t) / 3f64.sqrt()).sqrt();
+            let c = m.triangles[t].map(|i| m.nodes[i as usize]);
+            let d = ((c[0][0] + c[1][0] + c[2][0]) / 3.0).hypot((c[0][1] + c[1][1] + c[2][1]) / 3.0);
+            assert!(h <= 0.01 + 0.6 * d + 1e-12 && h < 0.02, "triangle {t} at the corner: size {h}, centroid at {d}");
+        }
         let boundary: f64 =
             m.edges.iter().map(|e| norm(sub(m.nodes[e.nodes[0] as usize], m.nodes[e.nodes[1] as usize]))).sum();
         assert!((boundary - 4.0).abs() < 1e-12, "{boundary}");
@@ -345,18 +362,20 @@ mod tests {
 
     #[test]
     fn uniform_sizes_halve_every_triangle() {
-        // A size just below every triangle's own splits each once or more; no triangle is
-        // left larger than asked; the P2 mesh is rebuilt and validates.
+        // A size just below the smallest triangle's splits each once or more; the P2 mesh
+        // is rebuilt and validates.
         let mesh = square(2);
-        let sizes: Vec<f64> =
-            (0..mesh.triangles.len()).map(|t| 0.99 * (4.0 * mesh.triangle_area(t) / 3f64.sqrt()).sqrt()).collect();
-        let out = bisect_to_sizes(&mesh, &sizes, 1_000_000).unwrap();
+        let smallest =
+            (0..mesh.triangles.len()).map(|t| (4.0 * mesh.triangle_area(t) / 3f64.sqrt()).sqrt()).fold(1.0, f64::min);
+        let sizes = vec![0.99 * smallest; mesh.triangles.len()];
+        let out = bisect_to_sizes(&mesh, &sizes, 1.6, 1_000_000).unwrap();
         assert_eq!(out.mesh.order(), 2);
         assert!(out.mesh.triangles.len() >= 2 * mesh.triangles.len());
         // The budget stops a round before it is passed.
-        let capped = bisect_to_sizes(&mesh, &vec![1e-4; mesh.triangles.len()], 2 * mesh.num_vertices as usize).unwrap();
+        let capped =
+            bisect_to_sizes(&mesh, &vec![1e-4; mesh.triangles.len()], 1.6, 2 * mesh.num_vertices as usize).unwrap();
         assert!(!capped.complete);
         assert!(capped.mesh.num_vertices as usize <= 2 * mesh.num_vertices as usize);
-        assert!(bisect_to_sizes(&mesh, &[1.0], 10).is_err());
+        assert!(bisect_to_sizes(&mesh, &[1.0], 1.6, 10).is_err());
     }
 }

@@ -117,7 +117,7 @@ impl BackgroundSize {
     /// Limits the vertex sizes so that they grow by at most `slope` per metre along every
     /// edge: Dijkstra's shortest paths from every vertex at once, with h(v) = min over u of
     /// h(u) + slope·|uv|.
-    fn limit_gradation(&mut self, slope: f64) {
+    pub(crate) fn limit_gradation(&mut self, slope: f64) {
         self.slope = slope;
         use std::cmp::Reverse;
         use std::collections::BinaryHeap;

@@ -172,7 +172,7 @@ fn bisection_inside_the_imported_annulus_keeps_the_circles() {
             }
         })
         .collect();
-    let out = mesher::bisect_to_sizes(&m, &sizes, 1_000_000).unwrap();
+    let out = mesher::bisect_to_sizes(&m, &sizes, 1.6, 1_000_000).unwrap();
     assert!(out.complete);
     let r = &out.mesh;
     assert!(r.num_triangles() > 10 * m.num_triangles(), "{}", r.num_triangles());
