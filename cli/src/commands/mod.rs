@@ -80,7 +80,7 @@ pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
     if !mesh.singular_points.is_empty() {
         warnings.push(format!(
             "imported mesh: {} singular points found from the boundary angles; the imported mesh is not graded \
-             towards them (the mesher's grading applies to drawn shapes)",
+             towards them (one `solve` takes it as it is; `check` refines towards them)",
             mesh.singular_points.len()
         ));
     }

@@ -86,14 +86,39 @@ fn bad_import_tables_and_files_are_located_errors() {
     assert!(e.contains("either draws its shapes or imports a mesh"), "{e}");
 }
 
+/// The certified value, absolute bar and status of a watched quantity in `check`'s results.
+fn certified(r: &Value, quantity: &str) -> (f64, f64, String) {
+    let q = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == quantity).expect(quantity);
+    let b = &q["error_bar"];
+    (b["value"].as_f64().unwrap(), b["absolute"].as_f64().unwrap(), b["status"].as_str().unwrap().to_string())
+}
+
 #[test]
-fn check_on_an_imported_mesh_is_refused_with_the_way_forward() {
+fn check_on_the_imported_annulus_certifies_the_coaxial_closed_form() {
+    // `check` refines the imported mesh inside (bisection, the circles kept as arcs) until
+    // every bar is within 0.1 %; the closed forms lie inside the bars: Q' = 2πε₀εr·V / ln(b/a)
+    // (Griffiths, Introduction to Electrodynamics, 4th ed., problem 2.43) and the peak field
+    // at the core E(a) = V / (a ln(b/a)), by Gauss's law from the same line charge (ibid., ch. 2).
     let (dir, model) = variant("", "");
     let out = dir.path().join("out");
-    let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    assert!(stderr(&o).contains("fieldgrade solve"), "{}", stderr(&o));
-    assert!(!out.join("results.json").exists());
+    let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap(), "--tol", "0.1%"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let r: Value = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+    assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
+    let meshes = r["adaptivity"]["meshes"].as_array().unwrap();
+    assert!(meshes.len() >= 3);
+    // The first mesh is the file's 576 triangles; every later one refines it.
+    assert_eq!(meshes[0]["triangles"], 576);
+    assert!(meshes.windows(2).all(|w| w[1]["triangles"].as_u64() > w[0]["triangles"].as_u64()));
+    let exact_q = 2.0 * std::f64::consts::PI * engine::EPSILON_0 * 2.2 / 3f64.ln() * 1e4;
+    let (q, bar, status) = certified(&r, "charge of core");
+    assert_eq!(status, "converged");
+    assert!((q - exact_q).abs() <= bar && bar <= 1e-3 * q, "{q:e} ± {bar:e} vs {exact_q:e}");
+    let exact_e = 1e4 / (0.010 * 3f64.ln());
+    let (e, bar, status) = certified(&r, "peak field in gap away from singular points");
+    assert_eq!(status, "converged");
+    assert!((e - exact_e).abs() <= bar && bar <= 1e-3 * e, "{e} ± {bar} vs {exact_e}");
+    assert!(out.join("report.html").exists());
 }
 
 /// A drawn two-layer coaxial model (core 10 mm at 1 kV, paper to 20 mm, oil to 30 mm,
@@ -289,4 +314,19 @@ order = 2
     assert_eq!(pb.len(), 5);
     assert!(pb.iter().all(|p| (p.2 - 2.0 / 3.0).abs() < 1e-9 && p.3 == "conductor corner"), "{pb:?}");
     assert!(!pb.iter().any(|p| p.0.abs() < 1e-12 && p.1.abs() < 1e-12), "{pb:?}");
+    // `check` on the imported mesh (refined inside, towards its five corners) and on the
+    // drawn part (remeshed) certify the same electrode charge: the two values agree within
+    // the sum of their bars.
+    let charge = |model: &Path| -> (f64, f64) {
+        let out = dir.path().join(format!("out-{}", model.file_stem().unwrap().to_str().unwrap()));
+        let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let r: Value = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+        assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
+        let (q, bar, status) = certified(&r, "charge of hv");
+        assert_eq!(status, "converged");
+        (q, bar)
+    };
+    let ((qa, ba), (qb, bb)) = (charge(&drawn), charge(&imported));
+    assert!((qa - qb).abs() <= ba + bb, "drawn {qa:e} ± {ba:e}, imported {qb:e} ± {bb:e}");
 }

@@ -22,7 +22,7 @@ use crate::results::mesh::report_of;
 use crate::results::solve::{analyse, render_text, solve_error, write_outputs};
 use crate::CliError;
 use crate::Result;
-use engine::{adapt_watching, AdaptParams};
+use engine::{adapt_from, AdaptParams, MeshSource};
 use mesher::Xy;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -66,15 +66,15 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let t0 = Instant::now();
     let mut model = plan::load(&run.model).map_err(CliError::from)?;
     crate::plan::budget::prepare(&mut model, run.order, run.memory_limit, true);
-    if model.import.is_some() {
-        // The adaptive loop refines by remeshing the drawn geometry; an imported mesh has
-        // none, and refinement inside an imported mesh is not built yet.
-        return Err(CliError::from(model.import_error(
-            "`check` refines by remeshing drawn shapes, which an imported mesh does not have: run `fieldgrade solve` \
-             on it (one mesh, verdicts uncertified), or draw the part as [[shape]] tables"
-                .into(),
-        )));
-    }
+    // A drawn model is remeshed on every step; an imported mesh, which has no geometry
+    // behind it, is the first mesh and is refined inside by bisection.
+    let (source, import_warnings) = match &model.import {
+        None => (MeshSource::Drawn { geometry: &model.geometry, params: &model.params }, Vec::new()),
+        Some(_) => {
+            let first = crate::commands::first_mesh(&model)?;
+            (MeshSource::Given(first.mesh), first.warnings)
+        }
+    };
     let problem = problem_of(&model);
     let bar = indicatif::ProgressBar::new_spinner();
     bar.set_style(
@@ -102,9 +102,8 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     // The discs around singular points and the list of quantities come from the first mesh
     // (the singular points and regions are the geometry's, the same on every mesh).
     let mut setup: Option<(Vec<(Xy, f64)>, Watchlist)> = None;
-    let outcome = adapt_watching(
-        &model.geometry,
-        &model.params,
+    let outcome = adapt_from(
+        source,
         &problem,
         &ap,
         |mesh, solved, est| {
@@ -133,7 +132,8 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let t_adapt = t0.elapsed().as_secs_f64();
     let engine::AdaptOutcome { converged, reason, history, mesh, solved, estimate, bars } = outcome;
     let (solution, (fixed, cmat)) = (solved.solution.clone(), solved.capacitance.clone());
-    let mesh_report = report_of(&model, &mesh, true, None);
+    let mut mesh_report = report_of(&model, &mesh, true, None);
+    mesh_report.warnings.extend(import_warnings);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
     crate::results::solve::finite_or_error(&model, &solve)?;
     let mut singular = singular_section(&model, &mesh, &analysis.sol, &discs);
