@@ -133,9 +133,10 @@ impl Scalar {
 
     /// The values of raw bytes of this type.
     fn decode(self, b: &[u8], little: bool) -> Vec<f64> {
+        use rayon::prelude::*;
         macro_rules! conv {
             ($t:ty, $n:expr) => {
-                b.chunks_exact($n)
+                b.par_chunks_exact($n)
                     .map(|c| {
                         let a: [u8; $n] = c.try_into().unwrap_or([0; $n]);
                         (if little { <$t>::from_le_bytes(a) } else { <$t>::from_be_bytes(a) }) as f64
@@ -144,8 +145,8 @@ impl Scalar {
             };
         }
         match self {
-            Scalar::I8 => b.iter().map(|&x| f64::from(x as i8)).collect(),
-            Scalar::U8 => b.iter().map(|&x| f64::from(x)).collect(),
+            Scalar::I8 => b.par_iter().map(|&x| f64::from(x as i8)).collect(),
+            Scalar::U8 => b.par_iter().map(|&x| f64::from(x)).collect(),
             Scalar::I16 => conv!(i16, 2),
             Scalar::U16 => conv!(u16, 2),
             Scalar::I32 => conv!(i32, 4),
@@ -171,16 +172,19 @@ impl Layout {
         self.header.decode(b, self.little).into_iter().map(|x| x as u64).collect()
     }
 
-    /// Bytes of one binary array from `data` (header first): returns the payload and how
-    /// many bytes of `data` the array took.
-    fn payload(&self, data: &[u8], name: &str) -> Result<(Vec<u8>, usize), ReadError> {
+    /// Bytes of one binary array from `data` (header first): returns the payload (where it
+    /// lies in `data`, or inflated) and how many bytes of `data` the array took.
+    fn payload(&self, data: &[u8], name: &str) -> Result<(Body, usize), ReadError> {
         let h = self.header.size();
         let short =
             || ReadError(format!("data array '{name}': the binary data ends inside the array (file truncated?)"));
         if !self.zlib {
             let n = *self.header_ints(data.get(..h).ok_or_else(short)?).first().ok_or_else(short)? as usize;
-            let body = data.get(h..h.checked_add(n).ok_or_else(short)?).ok_or_else(short)?;
-            return Ok((body.to_vec(), h + n));
+            let end = h.checked_add(n).ok_or_else(short)?;
+            if end > data.len() {
+                return Err(short());
+            }
+            return Ok((Body::Within(h..end), end));
         }
         let first = self.header_ints(data.get(..3 * h).ok_or_else(short)?);
         let blocks = first[0] as usize;
@@ -214,12 +218,14 @@ impl Layout {
         if out.len() != expected {
             return err(format!("data array '{name}': {} bytes decompressed, the header says {expected}", out.len()));
         }
-        Ok((out, at))
+        Ok((Body::Inflated(out), at))
     }
 
-    /// Bytes of an inline or appended base64 array: the header and data may be encoded as
-    /// one stream or (VTK's way, and for compressed data) as separate ones.
-    fn payload_base64(&self, text: &[u8], name: &str) -> Result<Vec<u8>, ReadError> {
+    /// Bytes of an inline or appended base64 array, as a buffer and the payload's range in
+    /// it: the header and data may be encoded as one stream or (VTK's way, and for
+    /// compressed data) as separate ones.
+    fn payload_base64(&self, text: &[u8], name: &str) -> Result<(Vec<u8>, std::ops::Range<usize>), ReadError> {
+        let text = text.trim_ascii();
         let owned: Vec<u8>;
         let text = if text.iter().any(u8::is_ascii_whitespace) {
             owned = text.iter().copied().filter(|c| !c.is_ascii_whitespace()).collect();
@@ -228,12 +234,13 @@ impl Layout {
             text
         };
         let b64 = base64::engine::general_purpose::STANDARD;
-        let bad = |e: base64::DecodeError| ReadError(format!("data array '{name}': bad base64 ({e})"));
+        let bad = |e: String| ReadError(format!("data array '{name}': bad base64 ({e})"));
         let h = self.header.size();
         let head_len = |bytes: usize| bytes.div_ceil(3) * 4;
-        let joint = || -> Result<Vec<u8>, ReadError> {
-            let all = b64.decode(text).map_err(bad)?;
-            Ok(self.payload(&all, name)?.0)
+        let joint = || -> Result<(Vec<u8>, std::ops::Range<usize>), ReadError> {
+            let all = decode_base64(text, Vec::new()).map_err(bad)?;
+            let (body, _) = self.payload(&all, name)?;
+            Ok(body.in_buffer(all))
         };
         // Uncompressed: the header is encoded on its own when its encoded length ends in
         // padding (a 4- or 8-byte header never fills its last group of three bytes), which
@@ -258,14 +265,73 @@ impl Layout {
         let separate = || -> Option<Vec<u8>> {
             let mut all = if k == first { head.clone() } else { b64.decode(text.get(..k)?).ok()? };
             all.truncate(head_bytes);
-            b64.decode_vec(text.get(k..)?, &mut all).ok()?;
-            Some(all)
+            decode_base64(text.get(k..)?, all).ok()
         };
-        match separate().map(|all| self.payload(&all, name)) {
-            Some(Ok((p, _))) => Ok(p),
+        match separate().map(|all| self.payload(&all, name).map(|(body, _)| body.in_buffer(all))) {
+            Some(Ok(found)) => Ok(found),
             _ => joint(),
         }
     }
+}
+
+/// Where a binary array's payload is.
+enum Body {
+    /// This range of the bytes it was read from (uncompressed data).
+    Within(std::ops::Range<usize>),
+    /// Inflated from zlib blocks.
+    Inflated(Vec<u8>),
+}
+
+impl Body {
+    /// The buffer holding the payload and its range there: `data` itself for a range of it.
+    fn in_buffer(self, data: Vec<u8>) -> (Vec<u8>, std::ops::Range<usize>) {
+        match self {
+            Body::Within(r) => (data, r),
+            Body::Inflated(v) => {
+                let n = v.len();
+                (v, 0..n)
+            }
+        }
+    }
+}
+
+/// Decodes standard base64 (no whitespace) after the bytes of `prefix`, in parallel pieces
+/// of whole four-character groups for long texts.
+fn decode_base64(text: &[u8], mut prefix: Vec<u8>) -> Result<Vec<u8>, String> {
+    use base64::Engine;
+    use rayon::prelude::*;
+    /// Characters per piece: a multiple of 4 (4 MiB of text, 3 MiB of bytes).
+    const PIECE: usize = 1 << 22;
+    let b64 = base64::engine::general_purpose::STANDARD;
+    if text.len() <= 2 * PIECE || !text.len().is_multiple_of(4) {
+        b64.decode_vec(text, &mut prefix).map_err(|e| e.to_string())?;
+        return Ok(prefix);
+    }
+    let pad = text.iter().rev().take(2).take_while(|&&c| c == b'=').count();
+    let start = prefix.len();
+    prefix.resize(start + text.len() / 4 * 3 - pad, 0);
+    let pieces = text.len().div_ceil(PIECE);
+    prefix[start..].par_chunks_mut(PIECE / 4 * 3).zip(text.par_chunks(PIECE)).enumerate().try_for_each(
+        |(i, (out, t))| {
+            if i + 1 < pieces {
+                // A whole piece fills its three quarters exactly; padding inside the text
+                // would leave it short.
+                match b64.decode_slice(t, out) {
+                    Ok(n) if n == out.len() => Ok(()),
+                    Ok(_) => Err("padding inside the data".to_string()),
+                    Err(e) => Err(e.to_string()),
+                }
+            } else {
+                let v = b64.decode(t).map_err(|e| e.to_string())?;
+                if v.len() != out.len() {
+                    return Err("padding inside the data".to_string());
+                }
+                out.copy_from_slice(&v);
+                Ok(())
+            }
+        },
+    )?;
+    Ok(prefix)
 }
 
 /// Reads a VTK XML unstructured grid.
@@ -342,8 +408,8 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
                 .map(|t| t.parse::<f64>().map_err(|_| ReadError(format!("data array '{name}': '{t}' is not a number"))))
                 .collect(),
             "binary" => {
-                let bytes = layout.payload_base64(node.text().unwrap_or("").as_bytes(), name)?;
-                Ok(ty.decode(&bytes, little))
+                let (bytes, range) = layout.payload_base64(node.text().unwrap_or("").as_bytes(), name)?;
+                Ok(ty.decode(&bytes[range], little))
             }
             "appended" => {
                 let (data, base64) = appended
@@ -355,13 +421,16 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
                 let rest = data.get(off..).ok_or(ReadError(format!(
                     "data array '{name}': offset {off} lies beyond the appended data (file truncated?)"
                 )))?;
-                let bytes = if base64 {
+                if base64 {
                     let end = rest.iter().position(|&c| c == b'<' || c == b'_').unwrap_or(rest.len());
-                    layout.payload_base64(&rest[..end], name)?
+                    let (bytes, range) = layout.payload_base64(&rest[..end], name)?;
+                    Ok(ty.decode(&bytes[range], little))
                 } else {
-                    layout.payload(rest, name)?.0
-                };
-                Ok(ty.decode(&bytes, little))
+                    match layout.payload(rest, name)?.0 {
+                        Body::Within(range) => Ok(ty.decode(&rest[range], little)),
+                        Body::Inflated(bytes) => Ok(ty.decode(&bytes, little)),
+                    }
+                }
             }
             f => err(format!("data array '{name}': format '{f}' is not ascii, binary or appended")),
         }
@@ -413,11 +482,11 @@ fn assemble(
             types.len()
         ));
     }
-    if xyz.iter().any(|v| !v.is_finite()) {
-        let k = xyz.iter().position(|v| !v.is_finite()).unwrap_or(0) / 3;
-        return err(format!("point {k} has a coordinate that is not a finite number"));
+    use rayon::prelude::*;
+    if let Some(k) = xyz.par_iter().position_first(|v| !v.is_finite()) {
+        return err(format!("point {} has a coordinate that is not a finite number", k / 3));
     }
-    let points: Vec<[f64; 3]> = xyz.chunks_exact(3).map(|p| [p[0], p[1], p[2]]).collect();
+    let points: Vec<[f64; 3]> = xyz.par_chunks_exact(3).map(|p| [p[0], p[1], p[2]]).collect();
     let np = points.len();
     let mut prev = 0usize;
     let mut ends = Vec::with_capacity(nc);
@@ -434,20 +503,17 @@ fn assemble(
     if prev != conn.len() {
         return err(format!("the last offset {prev} is not the connectivity length {}", conn.len()));
     }
-    let mut connectivity = Vec::with_capacity(conn.len());
-    let mut cell = 0usize;
-    for (k, &v) in conn.iter().enumerate() {
-        while ends[cell] <= k {
-            cell += 1;
-        }
-        if !(v >= 0.0 && v.fract() == 0.0 && (v as usize) < np) {
-            return err(format!(
-                "cell {cell}: node id {v} is out of range (the file has {np} points, ids 0–{})",
-                np.saturating_sub(1)
-            ));
-        }
-        connectivity.push(v as u32);
+    let valid = |v: f64| v >= 0.0 && v.fract() == 0.0 && (v as usize) < np;
+    if let Some(k) = conn.par_iter().position_first(|&v| !valid(v)) {
+        // The cell holding entry k: the first whose end lies beyond it.
+        let cell = ends.partition_point(|&e| e <= k);
+        return err(format!(
+            "cell {cell}: node id {} is out of range (the file has {np} points, ids 0–{})",
+            conn[k],
+            np.saturating_sub(1)
+        ));
     }
+    let connectivity: Vec<u32> = conn.par_iter().map(|&v| v as u32).collect();
     let types = types
         .iter()
         .enumerate()
@@ -712,5 +778,26 @@ mod tests {
         let short = "# vtk DataFile Version 4.2\nt\nASCII\nDATASET UNSTRUCTURED_GRID\nPOINTS 3 double\n0 0 0 1 0";
         let e = read_grid(short.as_bytes()).unwrap_err().0;
         assert!(e.contains("ends"), "{e}");
+    }
+
+    #[test]
+    fn long_base64_decodes_in_parallel_pieces_as_in_one() {
+        // Texts longer than two pieces take the parallel path: the bytes must equal the
+        // base64 crate's own decoding of the whole text (lengths with 0, 1 and 2 padding
+        // characters, after a prefix), and padding inside the text is refused.
+        use base64::Engine;
+        let b64 = base64::engine::general_purpose::STANDARD;
+        for len in [9 << 20, (9 << 20) + 1, (9 << 20) + 2] {
+            let bytes: Vec<u8> = (0..len).map(|i: usize| (i.wrapping_mul(2_654_435_761) >> 13) as u8).collect();
+            let text = b64.encode(&bytes);
+            assert!(text.len() > 2 << 22);
+            let got = decode_base64(text.as_bytes(), vec![7, 8]).unwrap();
+            assert_eq!(&got[..2], &[7, 8]);
+            assert!(got[2..] == bytes[..], "length {len}");
+        }
+        let mut text = b64.encode(vec![1u8; 9 << 20]).into_bytes();
+        text[4 << 20] = b'=';
+        text[(4 << 20) + 1] = b'=';
+        assert!(decode_base64(&text, Vec::new()).is_err());
     }
 }

@@ -20,6 +20,7 @@
 use crate::geometry::{Symmetry, Xy};
 use crate::import::GridFile;
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
+use rayon::prelude::*;
 
 /// What an imported region id becomes.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -241,7 +242,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             adj.push((key(t[k], t[(k + 1) % 3]), i as u32, k as u8));
         }
     }
-    adj.sort_unstable();
+    adj.par_sort_unstable();
     let mut runs: Vec<(usize, usize)> = Vec::new();
     let mut i = 0;
     while i < adj.len() {
@@ -265,11 +266,14 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         i = j;
     }
     // Duplicate vertices: sort by coordinates, compare neighbours.
-    let mut verts: Vec<u32> = tris.iter().flat_map(|t| t.1).collect();
-    verts.sort_unstable();
-    verts.dedup();
-    let mut by_xy = verts.clone();
-    by_xy.sort_by(|&a, &b| {
+    let mut is_vertex = vec![false; grid.points.len()];
+    for t in &tris {
+        for v in t.1 {
+            is_vertex[v as usize] = true;
+        }
+    }
+    let mut by_xy: Vec<u32> = (0..grid.points.len() as u32).filter(|&v| is_vertex[v as usize]).collect();
+    by_xy.par_sort_by(|&a, &b| {
         let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
         p[0].total_cmp(&q[0]).then(p[1].total_cmp(&q[1]))
     });
@@ -354,9 +358,19 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     // New ids follow the file's order (corners first, then mid-side nodes), so a file whose
     // nodes are already numbered that way keeps its numbering.
     let mut new_id = vec![u32::MAX; grid.points.len()];
-    let mut corners: Vec<u32> = kept.iter().flat_map(|&i| tris[i].1).collect();
-    corners.sort_unstable();
-    corners.dedup();
+    // Marks instead of a sort: ids in ascending order, each once.
+    let ascending = |used: &dyn Fn(&mut Vec<bool>)| -> Vec<u32> {
+        let mut mark = vec![false; grid.points.len()];
+        used(&mut mark);
+        (0..grid.points.len() as u32).filter(|&v| mark[v as usize]).collect()
+    };
+    let corners = ascending(&|mark| {
+        for &i in &kept {
+            for v in tris[i].1 {
+                mark[v as usize] = true;
+            }
+        }
+    });
     let k = spec.unit_m;
     let mut nodes: Vec<Xy> = Vec::with_capacity(corners.len());
     for &v in &corners {
@@ -367,9 +381,13 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     let num_vertices = nodes.len() as u32;
     let mut mid_nodes = Vec::new();
     if p2 {
-        let mut mids: Vec<u32> = kept.iter().flat_map(|&i| tris[i].2.into_iter().flatten()).collect();
-        mids.sort_unstable();
-        mids.dedup();
+        let mids = ascending(&|mark| {
+            for &i in &kept {
+                for v in tris[i].2.into_iter().flatten() {
+                    mark[v as usize] = true;
+                }
+            }
+        });
         for &v in &mids {
             if new_id[v as usize] != u32::MAX {
                 let cell = kept.iter().find(|&&i| tris[i].2.is_some_and(|m| m.contains(&v))).map_or(0, |&i| tris[i].0);
@@ -392,6 +410,11 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             RegionUse::Conductor(_) => unreachable!("only dielectric triangles are kept"),
         })
         .collect();
+    // Position of each kept triangle among the kept ones.
+    let mut kept_at = vec![u32::MAX; tris.len()];
+    for (k, &i) in kept.iter().enumerate() {
+        kept_at[i] = k as u32;
+    }
     // Tags from the line cells, by edge.
     let mut line_tag: std::collections::HashMap<u64, (usize, i64, Option<BoundaryUse>)> =
         std::collections::HashMap::new();
@@ -412,21 +435,18 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     let mut arcs: Vec<ArcGeom> = Vec::new();
     let mut straightened = 0usize;
     for &(s, e) in &runs {
-        let cells: Vec<(u32, u8)> = adj[s..e].iter().map(|x| (x.1, x.2)).collect();
-        let dielectric: Vec<(u32, u8)> =
-            cells.iter().copied().filter(|&(t, _)| matches!(tris[t as usize].3, RegionUse::Dielectric(_))).collect();
-        if dielectric.is_empty() {
-            continue;
-        }
+        // One or two cells (three were refused above).
+        let cells = &adj[s..e];
+        let is_dielectric = |x: &&(u64, u32, u8)| matches!(tris[x.1 as usize].3, RegionUse::Dielectric(_));
+        let Some(&(_, t0, k0)) = cells.iter().find(is_dielectric) else { continue };
         let region_of = |t: u32| match tris[t as usize].3 {
             RegionUse::Dielectric(r) => r,
             RegionUse::Conductor(_) => u32::MAX,
         };
         // The first dielectric cell's edge runs counter-clockwise: its region is on the left.
-        let (t0, k0) = dielectric[0];
         let tri = tris[t0 as usize].1;
         let (a, b) = (tri[k0 as usize], tri[(k0 as usize + 1) % 3]);
-        let other = cells.iter().find(|&&(t, _)| t != t0).map(|&(t, _)| t);
+        let other = cells.iter().find(|x| x.1 != t0).map(|x| x.1);
         let tag = match other.map(|t| tris[t as usize].3) {
             Some(RegionUse::Conductor(c)) => Some(EdgeTag::Conductor(c)),
             Some(RegionUse::Dielectric(r)) => {
@@ -460,7 +480,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         };
         let mut arc = None;
         if p2 {
-            let m = mid_nodes[kept.binary_search(&(t0 as usize)).unwrap_or(0)][k0 as usize];
+            let m = mid_nodes[kept_at[t0 as usize] as usize][k0 as usize];
             let (pa, pb, pm) = (nodes[na as usize], nodes[nb as usize], nodes[m as usize]);
             let mid = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
             let off = (pm[0] - mid[0]).hypot(pm[1] - mid[1]);
