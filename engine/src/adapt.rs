@@ -309,7 +309,7 @@ pub enum MeshSource<'a> {
     /// refined inside by newest-vertex bisection ([`mesher::bisect_to_sizes`]), which keeps
     /// its regions, tags, arcs and singular points and never coarsens it. The element
     /// order is the mesh's.
-    Given(Mesh),
+    Given(Box<Mesh>),
 }
 
 /// [`adapt_watching`] on meshes from any [`MeshSource`].
@@ -329,7 +329,7 @@ pub fn adapt_from(
         }
         MeshSource::Given(mesh) => {
             let order = mesh.order();
-            (None, Some(mesh), order)
+            (None, Some(*mesh), order)
         }
     };
     let p = order.max(1) as f64;

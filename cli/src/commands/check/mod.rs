@@ -72,7 +72,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         None => (MeshSource::Drawn { geometry: &model.geometry, params: &model.params }, Vec::new()),
         Some(_) => {
             let first = crate::commands::first_mesh(&model)?;
-            (MeshSource::Given(first.mesh), first.warnings)
+            (MeshSource::Given(Box::new(first.mesh)), first.warnings)
         }
     };
     let problem = problem_of(&model);
