@@ -167,6 +167,26 @@ pub(super) struct RawShape {
     pub(super) circle: Option<S<RawCircle>>,
     pub(super) polygon: Option<S<Vec<S<[f64; 2]>>>>,
     pub(super) path: Option<S<RawPath>>,
+    pub(super) sector: Option<S<RawSector>>,
+    pub(super) half_disc: Option<S<RawHalfDisc>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawSector {
+    pub(super) center: S<[f64; 2]>,
+    pub(super) radius: S<f64>,
+    pub(super) inner_radius: Option<S<f64>>,
+    pub(super) from_deg: S<f64>,
+    pub(super) to_deg: S<f64>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawHalfDisc {
+    pub(super) center: S<[f64; 2]>,
+    pub(super) radius: S<f64>,
+    pub(super) side: Option<S<String>>,
 }
 
 #[derive(Deserialize, Debug)]

@@ -93,16 +93,24 @@ pub(super) fn shapes(
                 .key(key("conductor"))
                 .help("put the surrounding dielectric (e.g. a rectangle of air or oil) first"));
         }
-        let kinds = [sh.rectangle.is_some(), sh.circle.is_some(), sh.polygon.is_some(), sh.path.is_some()]
-            .iter()
-            .filter(|b| **b)
-            .count();
+        let kinds = [
+            sh.rectangle.is_some(),
+            sh.circle.is_some(),
+            sh.polygon.is_some(),
+            sh.path.is_some(),
+            sh.sector.is_some(),
+            sh.half_disc.is_some(),
+        ]
+        .iter()
+        .filter(|b| **b)
+        .count();
         if kinds != 1 {
             return Err(cx
                 .err(
                     whole,
                     format!(
-                        "shape '{sname}' must have exactly one of rectangle, circle, polygon or path (it has {kinds})"
+                        "shape '{sname}' must have exactly one of rectangle, circle, polygon, path, sector or half_disc \
+                         (it has {kinds})"
                     ),
                 )
                 .key(format!("shape[{i}]")));
@@ -149,6 +157,26 @@ pub(super) fn shapes(
             let center = cx.finite_xy(&c.center, key("circle.center"))?;
             let rad = cx.positive(&c.radius, key("circle.radius"), "the radius")?;
             Outline::circle(&sname, center, rad * unit_m).map_err(|e| me(e, c.radius.span()))?
+        } else if let Some(sec) = &sh.sector {
+            sector(cx, sec, &sname, &key, unit)?
+        } else if let Some(hd) = &sh.half_disc {
+            let h = hd.get_ref();
+            let center = cx.finite_xy(&h.center, key("half_disc.center"))?;
+            let rad = cx.positive(&h.radius, key("half_disc.radius"), "the radius")? * unit_m;
+            // The flat side through the centre; the round side faces `side`.
+            let facing = match h.side.as_ref().map(|t| t.get_ref().as_str()) {
+                None | Some("+x") => 0.0,
+                Some("+y") => 90.0,
+                Some("-x") => 180.0,
+                Some("-y") => 270.0,
+                Some(o) => {
+                    return Err(cx
+                        .err(h.side.as_ref().map_or(hd.span(), |t| t.span()), format!("unknown side '{o}'"))
+                        .key(key("half_disc.side"))
+                        .help("use \"+x\" (the default: the half towards larger x, the axisymmetric half), \"-x\", \"+y\" or \"-y\""))
+                }
+            };
+            sector_outline(&sname, center, rad, 0.0, facing - 90.0, 180.0).map_err(|e| me(e, hd.span()))?
         } else if let Some(p) = &sh.polygon {
             let mut pts = Vec::new();
             for (k, q) in p.get_ref().iter().enumerate() {
@@ -247,4 +275,75 @@ pub(super) fn shapes(
     }
 
     Ok((shapes, shape_material, shape_charge_density, shape_spans))
+}
+
+/// `sector = { center, radius, from_deg, to_deg, inner_radius }`: the circular sector (or,
+/// with an inner radius, the annulus sector) swept counter-clockwise from `from_deg` to
+/// `to_deg`, in metres.
+fn sector(
+    cx: &Ctx<'_>,
+    sec: &toml::Spanned<super::raw::RawSector>,
+    sname: &str,
+    key: &dyn Fn(&str) -> String,
+    unit: &'static str,
+) -> Result<Outline, ModelError> {
+    let s = sec.get_ref();
+    let center = cx.finite_xy(&s.center, key("sector.center"))?;
+    let outer = cx.positive(&s.radius, key("sector.radius"), "the radius")?;
+    let inner = match &s.inner_radius {
+        None => 0.0,
+        Some(r) => {
+            let v = *r.get_ref();
+            if !(v.is_finite() && v >= 0.0 && v < outer) {
+                return Err(cx
+                    .err(r.span(), format!("the inner radius {v} must be at least 0 and less than the radius {outer}"))
+                    .key(key("sector.inner_radius")));
+            }
+            v
+        }
+    };
+    let (a0, a1) = (*s.from_deg.get_ref(), *s.to_deg.get_ref());
+    for (v, span, k) in [(a0, s.from_deg.span(), "sector.from_deg"), (a1, s.to_deg.span(), "sector.to_deg")] {
+        if !(v.is_finite() && v.abs() <= 720.0) {
+            return Err(cx.err(span, format!("the angle must be a finite number of degrees within ±720, not {v}")).key(key(k)));
+        }
+    }
+    let sweep = a1 - a0;
+    if !(sweep > 0.0 && sweep < 360.0) {
+        return Err(cx
+            .err(
+                s.to_deg.span(),
+                format!("the sector sweeps {sweep}° from from_deg = {a0} to to_deg = {a1}: it must sweep more than 0° and less than 360°"),
+            )
+            .key(key("sector.to_deg"))
+            .help("angles run counter-clockwise from +x; for a whole disc or ring use circles (a ring is a circle painted over by a smaller one)"));
+    }
+    sector_outline(sname, center, outer * cx.unit_m, inner * cx.unit_m, a0, sweep)
+        .map_err(|e| cx.err(sec.span(), e.message_in(cx.unit_m, unit)))
+}
+
+/// The outline of the sector of radius `outer` (metres) about `center` from `from_deg`
+/// sweeping `sweep_deg` counter-clockwise, without the disc of radius `inner` (0 for none).
+fn sector_outline(
+    shape: &str,
+    center: mesher::Xy,
+    outer: f64,
+    inner: f64,
+    from_deg: f64,
+    sweep_deg: f64,
+) -> Result<Outline, MeshError> {
+    let (a0, sweep) = (from_deg.to_radians(), sweep_deg.to_radians());
+    let at = |r: f64, a: f64| [center[0] + r * a.cos(), center[1] + r * a.sin()];
+    let outer_arc = Curve::Arc { center, radius: outer, start: a0, sweep };
+    let curves = if inner > 0.0 {
+        vec![
+            Curve::Line { from: at(inner, a0), to: at(outer, a0) },
+            outer_arc,
+            Curve::Line { from: at(outer, a0 + sweep), to: at(inner, a0 + sweep) },
+            Curve::Arc { center, radius: inner, start: a0 + sweep, sweep: -sweep },
+        ]
+    } else {
+        vec![Curve::Line { from: center, to: at(outer, a0) }, outer_arc, Curve::Line { from: at(outer, a0 + sweep), to: center }]
+    };
+    Outline::new(shape, curves)
 }

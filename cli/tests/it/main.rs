@@ -24,5 +24,7 @@ mod mesh_report;
 mod outputs;
 /// The HTML report and its plots.
 mod report;
+/// `sector` and `half_disc` shapes against closed forms, and their errors.
+mod shapes;
 /// `fieldgrade solve`: results, closed-form check, errors.
 mod solve;
