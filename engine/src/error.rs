@@ -59,6 +59,18 @@ pub enum SolveError {
         /// The mesh node of that unknown (None for a floating conductor's potential).
         node: Option<u32>,
     },
+    /// A conductor touches the outer boundary, which is held at another potential (or the
+    /// conductor floats): the nodes they share cannot hold both potentials.
+    ConductorOnHeldBoundary {
+        /// The conductor's name.
+        conductor: String,
+        /// A shared node, metres.
+        at: [f64; 2],
+        /// The conductor's potential (None: floating).
+        conductor_v: Option<f64>,
+        /// The boundary's potential at that node.
+        boundary_v: f64,
+    },
     /// Meshing failed (in the adaptive loop).
     Mesh(mesher::MeshError),
     /// The sparse factorisation failed (the reduced matrix is not positive definite).
@@ -77,6 +89,13 @@ impl fmt::Display for SolveError {
             SolveError::FactorOverBudget { unknowns, bytes, budget } => write!(f, "the factorisation of the {unknowns} unknowns would need {:.2} GB for its values alone, over the memory budget of {:.2} GB; coarsen the sizes in [mesh] or raise --memory-limit if the machine has the memory", bytes / 1e9, budget / 1e9),
             SolveError::FirstMeshOverBudget { nodes, max_unknowns } => write!(f, "the first mesh already has {nodes} nodes, more than the budget of {max_unknowns} unknowns for the adaptive loop; raise --max-unknowns (or --memory-limit) or coarsen the sizes in [mesh]"),
             SolveError::NoPotentialReference => write!(f, "no potential reference: hold at least one conductor at a fixed potential (potential_v) or give the outer boundary a potential"),
+            SolveError::ConductorOnHeldBoundary { conductor, at, conductor_v, boundary_v } => write!(
+                f,
+                "conductor '{conductor}' touches the outer boundary at ({:.6e}, {:.6e}) m, which is held at {boundary_v} V, while the conductor {}: a point cannot hold two potentials; move the conductor off the boundary (a gap of dielectric between them), give it the boundary's potential, or make the outer boundary zero_flux if it is a symmetry plane",
+                at[0],
+                at[1],
+                match conductor_v { Some(v) => format!("is at {v} V"), None => "floats".to_string() }
+            ),
             SolveError::FloatingPart { region, at } => write!(f, "region '{region}' (near ({:.6e}, {:.6e}) m) is cut off from every fixed potential, so its potential is undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a potential", at[0], at[1]),
             SolveError::NotPositiveDefinite { pivot, node } => match node {
                 Some(n) => write!(f, "the system matrix is not positive definite (pivot {pivot}, at mesh node {n}); check the elements and permittivities around that node, e.g. with `fieldgrade mesh --svg` and the fields.vtu node ids"),

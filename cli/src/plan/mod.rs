@@ -267,10 +267,21 @@ impl Plan {
         if let E::Mesh(m) = e {
             return self.mesh_error(m);
         }
-        let shape = region.and_then(|r| self.geometry.shapes.iter().position(|s| s.name == r));
+        // The region's shape, or the first shape of the conductor named.
+        let shape = region.and_then(|r| self.geometry.shapes.iter().position(|s| s.name == r)).or_else(|| match e {
+            E::ConductorOnHeldBoundary { conductor, .. } => {
+                let c = self.conductors.iter().position(|k| &k.name == conductor)?;
+                self.geometry
+                    .shapes
+                    .iter()
+                    .position(|s| matches!(s.fill, mesher::Fill::Conductor { conductor } if conductor as usize == c))
+            }
+            _ => None,
+        });
         let span = shape.map(|i| self.shape_spans[i].clone());
         let mut err = ModelError::new(&self.path, &self.source, span, e.to_string());
         let look_at = match e {
+            E::ConductorOnHeldBoundary { conductor, .. } => format!("[[conductor]] '{conductor}' and [boundary]"),
             _ if shape.is_some() => format!("in shape '{}'", region.unwrap_or_default()),
             E::NoPotentialReference | E::ConductorMismatch { .. } => "[[conductor]] and [boundary]".into(),
             E::NonFinite { .. } => {

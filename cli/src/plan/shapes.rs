@@ -305,7 +305,9 @@ fn sector(
     let (a0, a1) = (*s.from_deg.get_ref(), *s.to_deg.get_ref());
     for (v, span, k) in [(a0, s.from_deg.span(), "sector.from_deg"), (a1, s.to_deg.span(), "sector.to_deg")] {
         if !(v.is_finite() && v.abs() <= 720.0) {
-            return Err(cx.err(span, format!("the angle must be a finite number of degrees within ±720, not {v}")).key(key(k)));
+            return Err(cx
+                .err(span, format!("the angle must be a finite number of degrees within ±720, not {v}"))
+                .key(key(k)));
         }
     }
     let sweep = a1 - a0;
@@ -343,7 +345,11 @@ fn sector_outline(
             Curve::Arc { center, radius: inner, start: a0 + sweep, sweep: -sweep },
         ]
     } else {
-        vec![Curve::Line { from: center, to: at(outer, a0) }, outer_arc, Curve::Line { from: at(outer, a0 + sweep), to: center }]
+        vec![
+            Curve::Line { from: center, to: at(outer, a0) },
+            outer_arc,
+            Curve::Line { from: at(outer, a0 + sweep), to: center },
+        ]
     };
     Outline::new(shape, curves)
 }

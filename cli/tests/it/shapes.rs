@@ -110,10 +110,16 @@ fn misused_sectors_are_located_errors() {
     for (shape, want) in [
         ("sector = { center = [0.0, 0.0], radius = 5.0, from_deg = 0.0, to_deg = 360.0 }", "less than 360°"),
         ("sector = { center = [0.0, 0.0], radius = 5.0, from_deg = 90.0, to_deg = 10.0 }", "more than 0°"),
-        ("sector = { center = [0.0, 0.0], radius = 5.0, inner_radius = 5.0, from_deg = 0.0, to_deg = 90.0 }", "less than the radius"),
+        (
+            "sector = { center = [0.0, 0.0], radius = 5.0, inner_radius = 5.0, from_deg = 0.0, to_deg = 90.0 }",
+            "less than the radius",
+        ),
         ("sector = { center = [0.0, 0.0], radius = -5.0, from_deg = 0.0, to_deg = 90.0 }", "greater than zero"),
         ("half_disc = { center = [0.0, 0.0], radius = 5.0, side = \"left\" }", "unknown side 'left'"),
-        ("half_disc = { center = [0.0, 0.0], radius = 5.0 }\ncircle = { center = [0.0, 0.0], radius = 1.0 }", "exactly one of"),
+        (
+            "half_disc = { center = [0.0, 0.0], radius = 5.0 }\ncircle = { center = [0.0, 0.0], radius = 1.0 }",
+            "exactly one of",
+        ),
     ] {
         let dir = tempfile::tempdir().unwrap();
         let path = dir.path().join("m.toml");

@@ -142,3 +142,73 @@ fn open_boundary_demo_solves_and_keeps_the_exterior_out_of_the_peaks() {
     let row0 = c[0][0].as_f64().unwrap() + c[0][1].as_f64().unwrap();
     assert!(row0 > 0.0 && (c[0][1].as_f64().unwrap() - c[1][0].as_f64().unwrap()).abs() < 1e-9 * row0);
 }
+
+#[test]
+fn a_conductor_touching_the_held_outer_boundary_at_another_potential_is_refused() {
+    // A busbar resting on the earthed enclosure wall: at 1 kV it would short the wall (the
+    // shared nodes cannot hold both potentials), so solve and check refuse it, naming the
+    // conductor, the place and the fix; at 0 V, or on a zero-flux (symmetry) boundary, it
+    // is a legitimate model. A floating conductor touching the wall is refused as well.
+    let model = |potential: &str, outer: &str| {
+        format!(
+            r#"[model]
+symmetry = "planar"
+length_unit = "mm"
+
+[[material]]
+name = "air"
+permittivity = 1.0
+
+[[conductor]]
+name = "bar"
+{potential}
+
+[[conductor]]
+name = "rod"
+potential_v = 500.0
+
+[[shape]]
+name = "box"
+material = "air"
+rectangle = {{ corner = [0.0, 0.0], size = [100.0, 100.0] }}
+
+[[shape]]
+name = "bar"
+conductor = "bar"
+rectangle = {{ corner = [0.0, 40.0], size = [20.0, 20.0] }}
+
+[[shape]]
+name = "rod"
+conductor = "rod"
+circle = {{ center = [60.0, 50.0], radius = 5.0 }}
+
+[boundary]
+{outer}
+"#
+        )
+    };
+    let earthed = "outer = \"potential\"\npotential_v = 0.0";
+    let attempt = |text: String, command: &str| {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("m.toml");
+        std::fs::write(&path, text).unwrap();
+        let out = dir.path().join("out");
+        let o = run(&[command, path.to_str().unwrap(), "--out", out.to_str().unwrap()]);
+        (o.status.code(), stderr(&o), out.join("results.json").exists())
+    };
+    for command in ["solve", "check"] {
+        let (code, e, written) = attempt(model("potential_v = 1000.0", earthed), command);
+        assert_eq!(code, Some(2), "{command}: {e}");
+        assert!(!written);
+        assert!(e.contains("conductor 'bar' touches the outer boundary") && e.contains("held at 0 V"), "{e}");
+        assert!(e.contains("is at 1000 V") && e.contains("zero_flux") && e.contains("m.toml:"), "{e}");
+    }
+    let (code, e, _) = attempt(model("floating = true", earthed), "solve");
+    assert_eq!(code, Some(2), "{e}");
+    assert!(e.contains("conductor 'bar'") && e.contains("floats"), "{e}");
+    for (potential, outer) in [("potential_v = 0.0", earthed), ("potential_v = 1000.0", "outer = \"zero_flux\"")] {
+        let (code, e, written) = attempt(model(potential, outer), "solve");
+        assert_eq!(code, Some(0), "{potential}, {outer}: {e}");
+        assert!(written);
+    }
+}

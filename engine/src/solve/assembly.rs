@@ -118,6 +118,31 @@ impl System {
                 next += 1;
             }
         }
+        // A conductor touching the held outer boundary must be at the boundary's potential.
+        if outer_terminal.is_some() {
+            for v in (0..n).filter(|&v| node_outer[v]) {
+                let Some(c) = node_conductor[v] else { continue };
+                let p = mesh.nodes[v];
+                let boundary_v = match problem.outer_potential_fn {
+                    Some(g) => g(p),
+                    None => problem.outer_potential_v.unwrap_or(0.0),
+                };
+                let conductor_v = match problem.conductors[c as usize] {
+                    ConductorSpec::Fixed { potential_v } => Some(potential_v),
+                    ConductorSpec::Floating { .. } => None,
+                };
+                let agrees = conductor_v
+                    .is_some_and(|cv| (cv - boundary_v).abs() <= 1e-12 * cv.abs().max(boundary_v.abs()).max(1.0));
+                if !agrees {
+                    return Err(SolveError::ConductorOnHeldBoundary {
+                        conductor: mesh.conductor_names[c as usize].clone(),
+                        at: p,
+                        conductor_v,
+                        boundary_v,
+                    });
+                }
+            }
+        }
         let mut dof = vec![Dof::Free(0); n];
         let mut used_terminal = vec![false; num_terminals as usize];
         for v in 0..n {
