@@ -24,7 +24,10 @@
 //!   problem is J′(v) = 2∫ω∇V_h·∇v w dA / ∫ω w dA, and the remainder ∫ω|∇(V − V_h)|² w dA /
 //!   ∫ω w dA is added, recovered. This stands in for a peak field, which is not a
 //!   functional of V: centred at the peak, with ρ a few elements, its relative error is
-//!   twice the relative error of the field there.
+//!   twice the relative error of the field there;
+//! - the mean potential over a disc, J = ∫ω V w dA / ∫ω w dA with the same bump: linear, its
+//!   dual load is J(v) itself. Centred at a point, with ρ a few elements, it stands in for
+//!   the potential at the point (whose own dual, a point load, has no finite energy).
 //!
 //! Every dual problem reuses the factorisation of the solution ([`FactoredSolution`]): one
 //! forward and back substitution each.
@@ -61,6 +64,24 @@ pub enum Goal {
         /// Radius ρ, metres.
         radius_m: f64,
         /// Only the triangles of this region count.
+        region: Option<u32>,
+    },
+    /// The mean potential over a disc, weighted by the same bump, within `region` if one is
+    /// given: the stand-in for the potential at `center`.
+    LocalPotential {
+        /// Centre c, metres.
+        center: Xy,
+        /// Radius ρ, metres.
+        radius_m: f64,
+        /// Only the triangles of this region count.
+        region: Option<u32>,
+    },
+    /// The potential at `at`: estimated by the local potential over a disc three times the
+    /// longest edge at the point (as for a peak).
+    PointPotential {
+        /// The point, metres.
+        at: Xy,
+        /// The region whose side is meant (a point on an interface).
         region: Option<u32>,
     },
     /// A peak field |E| = `value` at `at` (a mesh node): estimated by the local field over
@@ -174,6 +195,41 @@ fn basis_gradients(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize
     }
 }
 
+/// Shape functions' values of triangle `t` at reference point (ξ, η): node ids, their
+/// count (3 or 6), the values, the physical point and the Jacobian determinant.
+fn basis_values(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize, [f64; 6], Xy, f64) {
+    fn build<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> ([f64; 6], Xy, f64) {
+        let (_, v, _, p, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
+        let mut out = [0.0; 6];
+        out[..N].copy_from_slice(&v[..N]);
+        (out, p, det)
+    }
+    let tri = mesh.triangles[t];
+    if mesh.mid_nodes.is_empty() {
+        let (v, p, det) = build::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta);
+        ([tri[0], tri[1], tri[2], 0, 0, 0], 3, v, p, det)
+    } else {
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        let (v, p, det) = build::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), xi, eta);
+        (ids, 6, v, p, det)
+    }
+}
+
+/// The triangles that reach into the disc (centre, radius): their corners' bounding box,
+/// widened by a tenth for curved P2 edges, comes within the radius of the centre.
+fn near_disc(mesh: &Mesh, center: Xy, radius: f64) -> impl Iterator<Item = usize> + '_ {
+    (0..mesh.triangles.len()).filter(move |&t| {
+        let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
+        let (x0, x1) = (p[0][0].min(p[1][0]).min(p[2][0]), p[0][0].max(p[1][0]).max(p[2][0]));
+        let (y0, y1) = (p[0][1].min(p[1][1]).min(p[2][1]), p[0][1].max(p[1][1]).max(p[2][1]));
+        let pad = 0.1 * (x1 - x0).max(y1 - y0);
+        let dx = (x0 - pad - center[0]).max(center[0] - x1 - pad).max(0.0);
+        let dy = (y0 - pad - center[1]).max(center[1] - y1 - pad).max(0.0);
+        dx.hypot(dy) < radius
+    })
+}
+
 /// The bump weight of a local-field goal at `x`.
 fn bump(center: Xy, radius: f64, x: Xy) -> f64 {
     let q = ((x[0] - center[0]).powi(2) + (x[1] - center[1]).powi(2)) / (radius * radius);
@@ -201,6 +257,9 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             Goal::PeakField { at, region, .. } => {
                 Goal::LocalField { center: at, radius_m: peak_radius(mesh, at), region }
             }
+            Goal::PointPotential { at, region } => {
+                Goal::LocalPotential { center: at, radius_m: peak_radius(mesh, at), region }
+            }
             other => other,
         })
         .collect();
@@ -214,7 +273,38 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let mut cases = Vec::new();
     for g in goals {
         match *g {
-            Goal::Charge(_) | Goal::PeakField { .. } => {}
+            Goal::Charge(_) | Goal::PeakField { .. } | Goal::PointPotential { .. } => {}
+            Goal::LocalPotential { center, radius_m, region } => {
+                // J(v) = ∫ω v w / ∫ω w, linear: its load per node is ∫ω φ_k w / ∫ω w.
+                let mut load = vec![0.0; mesh.nodes.len()];
+                let mut total = 0.0;
+                for t in near_disc(mesh, center, radius_m) {
+                    if region.is_some_and(|r| r != mesh.regions[t]) {
+                        continue;
+                    }
+                    for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
+                        let (ids, n, values, at, det) = basis_values(mesh, t, xi, eta);
+                        let o = bump(center, radius_m, at);
+                        if o == 0.0 {
+                            continue;
+                        }
+                        let mut weight = w * det.abs() * o;
+                        if axisym {
+                            weight *= 2.0 * std::f64::consts::PI * at[0];
+                        }
+                        for k in 0..n {
+                            load[ids[k] as usize] += weight * values[k];
+                        }
+                        total += weight;
+                    }
+                }
+                if total > 0.0 {
+                    for l in &mut load {
+                        *l /= total;
+                    }
+                }
+                cases.push(DualCase { unit_charge: None, node_load: Some(load) });
+            }
             Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
             Goal::LocalField { center, radius_m, region } => {
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
@@ -267,6 +357,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
         }
     }
     let mut duals = solved.solve_duals(problem, &cases).into_iter();
+    let grid = crate::probe::TriangleGrid::new(mesh);
     let estimates: Vec<GoalEstimate> = goals
         .iter()
         .map(|g| match *g {
@@ -323,7 +414,22 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     indicators: p.iter().map(|x| x[0].abs() + if total > 0.0 { x[1] / total } else { 0.0 }).collect(),
                 }
             }
-            Goal::PeakField { .. } => unreachable!("peaks were turned into local fields"),
+            Goal::LocalPotential { center, .. } => {
+                let zp = duals.next().expect("one dual per local potential");
+                let z = recover_field_with(plan, mesh, &zp);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
+                let value = grid
+                    .locate(mesh, center)
+                    .map_or(0.0, |(t, xi, eta)| crate::fields::eval_point(mesh, &sol.potential, t, xi, eta).v);
+                GoalEstimate {
+                    value,
+                    estimate: p.iter().map(|x| x[0]).sum(),
+                    indicators: p.iter().map(|x| x[0].abs()).collect(),
+                }
+            }
+            Goal::PeakField { .. } | Goal::PointPotential { .. } => {
+                unreachable!("peaks and point potentials were turned into local goals")
+            }
         })
         .collect();
     // Peaks: the local field's relative error applied to the peak value; its indicators
@@ -332,7 +438,6 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     // peak (a mean of the elements' own fields) bounds the peak's error where the
     // recovered field is the better of the two, as it is on a smooth solution.
     let tol2 = (1e-12 * mesh.scale()).powi(2);
-    let grid = crate::probe::TriangleGrid::new(mesh);
     let vertex_at = |at: Xy| {
         (0..mesh.num_vertices).find(|&v| {
             let q = mesh.nodes[v as usize];

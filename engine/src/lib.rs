@@ -19,6 +19,7 @@
 //! - [`element_fields`] → [`ElementFields`]: E per element and the peak |E| per region
 //!   with its location.
 //! - [`capacitance_matrix`]: the Maxwell capacitance matrix of the fixed conductors.
+//! - [`point_values`]: V and E at named points, per side on an interface.
 //! - [`probe_line`], [`probe_interface`]: V and E along a polyline, and normal and
 //!   tangential E on both sides of an interface or on a conductor surface.
 //! - [`grid_convergence`]: observed order, Richardson extrapolation and grid convergence
@@ -100,7 +101,9 @@ pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
 pub use fields::{element_fields, energy_error, exclusion_discs, region_peaks_away_from, ElementFields, RegionPeak};
 pub use goal::{goal_estimates, Goal, GoalEstimate};
-pub use probe::{probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, SideField};
+pub use probe::{
+    point_values, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,
+};
 pub use problem::{ConductorSpec, Problem};
 pub use singular::{
     singular_coefficient, singular_coefficient_dual, singular_field, singular_field_factor, singular_radius_above,

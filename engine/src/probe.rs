@@ -6,6 +6,14 @@
 //! (barycentric for straight elements, refined by Newton's method on the isoparametric map
 //! for curved P2 ones) where V and E = −∇V are evaluated.
 //!
+//! A named point gets V and E on each side: the triangles containing it are grouped by
+//! region, and V and E are averaged over the triangles of each region (a point on an edge or
+//! at a vertex lies in several). E is the recovered field (the patch fits of the error
+//! estimate, more accurate than the element's own −∇V_h, which jumps between elements) when
+//! taken from a factorised solution. A point on an
+//! interface thus gets one value per side; a point outside the dielectric mesh (inside a
+//! conductor, or outside the domain) gets none.
+//!
 //! An interface (two regions, or a region and a conductor) is sampled at the midpoint of
 //! every mesh edge on it, chained end to end; on each side E is evaluated in the adjacent
 //! element and split into the normal component Eₙ = E·n (n the unit normal pointing from
@@ -72,6 +80,80 @@ pub struct InterfaceSample {
     pub ends: [f64; 2],
 }
 
+/// The field at a point in one region.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PointSide {
+    /// Region (shape index).
+    pub region: u32,
+    /// Potential, V.
+    pub potential: f64,
+    /// E, V/m.
+    pub e: [f64; 2],
+}
+
+/// V and the element field E = −∇V_h at each point, one [`PointSide`] per region whose
+/// triangles contain it (in region order; two on an interface, none outside the dielectric
+/// mesh). Triangles of the mapped open-boundary exterior are left out (their coordinates
+/// are not physical). `potential` holds the nodal values (a [`Solution`]'s `potential`; any
+/// vector of the mesh's length to find only the regions).
+/// [`crate::FactoredSolution::point_values`] gives the recovered field instead.
+///
+/// # Panics
+/// If `potential` does not belong to the mesh.
+#[track_caller]
+pub fn point_values(mesh: &Mesh, potential: &[f64], points: &[Xy]) -> Vec<Vec<PointSide>> {
+    assert_eq!(potential.len(), mesh.nodes.len(), "potential and mesh do not match");
+    point_values_with(mesh, potential, points, |t, xi, eta| evaluate(mesh, potential, t, xi, eta).1)
+}
+
+/// [`point_values`] with E from `field(t, ξ, η)`.
+pub(crate) fn point_values_with(
+    mesh: &Mesh,
+    potential: &[f64],
+    points: &[Xy],
+    field: impl Fn(usize, f64, f64) -> [f64; 2],
+) -> Vec<Vec<PointSide>> {
+    let grid = TriangleGrid::new(mesh);
+    let exterior = mesh.exterior.map(|x| x.region);
+    points
+        .iter()
+        .map(|&p| {
+            // (region, triangles, ΣV, ΣE) per region containing p.
+            let mut found: Vec<(u32, usize, f64, [f64; 2])> = Vec::new();
+            grid.grid.for_each_near(p, 0.0, |t| {
+                let t = t as usize;
+                let region = mesh.regions[t];
+                if Some(region) == exterior {
+                    return;
+                }
+                // A point given on an interface lies on an element edge only to round-off
+                // (a curved edge's point is found by Newton's method): a looser tolerance
+                // finds the elements of both sides.
+                if let Some((xi, eta)) = locate_within(mesh, t, p, 1e-7) {
+                    let v = evaluate(mesh, potential, t, xi, eta).0;
+                    let e = field(t, xi, eta);
+                    match found.iter_mut().find(|f| f.0 == region) {
+                        Some(f) => {
+                            f.1 += 1;
+                            f.2 += v;
+                            f.3 = [f.3[0] + e[0], f.3[1] + e[1]];
+                        }
+                        None => found.push((region, 1, v, e)),
+                    }
+                }
+            });
+            found.sort_by_key(|f| f.0);
+            found
+                .into_iter()
+                .map(|(region, n, v, e)| {
+                    let n = n as f64;
+                    PointSide { region, potential: v / n, e: [e[0] / n, e[1] / n] }
+                })
+                .collect()
+        })
+        .collect()
+}
+
 /// Which interface to sample.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum InterfaceSelector {
@@ -84,6 +166,11 @@ pub enum InterfaceSelector {
 /// Reference coordinates (ξ, η) of point `p` in triangle `t`, if it lies inside (with a
 /// small tolerance).
 fn locate_in(mesh: &Mesh, t: usize, p: Xy) -> Option<(f64, f64)> {
+    locate_within(mesh, t, p, 1e-10)
+}
+
+/// [`locate_in`] with the tolerance `tol` on the reference coordinates.
+fn locate_within(mesh: &Mesh, t: usize, p: Xy, tol: f64) -> Option<(f64, f64)> {
     let tri = mesh.triangles[t];
     let [a, b, c] = tri.map(|i| mesh.nodes[i as usize]);
     let det = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
@@ -122,7 +209,6 @@ fn locate_in(mesh: &Mesh, t: usize, p: Xy) -> Option<(f64, f64)> {
             }
         }
     }
-    let tol = 1e-10;
     (xi >= -tol && eta >= -tol && xi + eta <= 1.0 + tol).then_some((xi, eta))
 }
 

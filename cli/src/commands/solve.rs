@@ -50,6 +50,7 @@ pub fn run(run: &SolveRun) -> Result<()> {
     let mut mesh_report = report_of(&model, mesh, meshed.complete, meshed.reason.clone());
     mesh_report.warnings.extend(meshed.warnings.iter().cloned());
     let (mut results, analysis) = analyse(&model, mesh, mesh_report, &problem, sol, &fixed, cmat);
+    results.points = crate::results::solve::point_results(&model, mesh, &solved);
     let t_post = t0.elapsed().as_secs_f64() - t_mesh - t_solve;
     let discs = engine::exclusion_discs(mesh, model.singular_exclusion_radius_m);
     let (checks, mut files) = breakdown_checks(&model, mesh, &problem, &solved, &discs, &|_| None);
@@ -63,6 +64,9 @@ pub fn run(run: &SolveRun) -> Result<()> {
         ("breakdown checks".into(), t_checks),
     ];
     let json = serde_json::to_string_pretty(&results)?;
+    if !results.points.is_empty() {
+        files.push(("points.csv".into(), crate::results::solve::points_csv(&results.points)));
+    }
     files.push(("results.json".into(), json.clone()));
     write_outputs(&run.out, mesh, &problem, &analysis, &files, run.vtu)?;
     crate::results::report::write_report(&run.out)?;

@@ -31,7 +31,7 @@ use diag::ModelError;
 use materials::materials;
 use mesh_controls::mesh_controls;
 use mesher::{Geometry, MeshError, RefineParams, Symmetry, Xy};
-use probes::probes;
+use probes::{points, probes};
 use raw::RawModel;
 use shapes::shapes;
 use std::ops::Range;
@@ -106,6 +106,15 @@ pub enum ProbeKind {
     ConductorSurface(u32),
 }
 
+/// A named point where `solve` and `check` report V and E (`[[point]]`).
+#[derive(Clone, Debug, PartialEq)]
+pub struct NamedPoint {
+    /// Name.
+    pub name: String,
+    /// Position, metres.
+    pub at: mesher::Xy,
+}
+
 /// A requested field probe.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Probe {
@@ -161,6 +170,8 @@ pub struct Plan {
     pub outer_potential_v: Option<f64>,
     /// Field probes.
     pub probes: Vec<Probe>,
+    /// Named points (`[[point]]`).
+    pub points: Vec<NamedPoint>,
     /// The load cases (`[[load_case]]`); empty: the model's potentials as given are the one
     /// case.
     pub load_cases: Vec<LoadCase>,
@@ -501,6 +512,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
 
     let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
     let mut probes = probes(&cx, &raw, &region_names, &conductors)?;
+    let points = points(&cx, &raw, symmetry == Symmetry::Axisymmetric)?;
     let mut materials = materials;
     let load_cases = load_cases::load_cases(
         &cx,
@@ -543,6 +555,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         conductors,
         outer_potential_v,
         probes,
+        points,
         load_cases,
         breakdown,
         unit_m,

@@ -1,9 +1,9 @@
 //! `[[probe]]`: field probes along a path, along an interface between two shapes, or on a
-//! conductor's surface.
+//! conductor's surface; `[[point]]`: named points where V and E are reported.
 
 use super::diag::ModelError;
 use super::raw::RawModel;
-use super::{Conductor, Ctx, Probe, ProbeKind, RegionName};
+use super::{Conductor, Ctx, NamedPoint, Probe, ProbeKind, RegionName};
 
 /// `[[probe]]`: names usable in file names and unique, one kind each (path, interface or
 /// conductor surface) naming shapes and conductors that exist.
@@ -130,4 +130,33 @@ pub(super) fn probes(
         });
     }
     Ok(probes)
+}
+
+/// `[[point]]`: names unique and non-empty, positions inside the coordinate range (and at
+/// x ≥ 0 in an axisymmetric model, where x is the radius).
+pub(super) fn points(cx: &Ctx<'_>, raw: &RawModel, axisymmetric: bool) -> Result<Vec<NamedPoint>, ModelError> {
+    let mut points: Vec<NamedPoint> = Vec::new();
+    for (i, p) in raw.point.iter().enumerate() {
+        let p = p.get_ref();
+        let key = |k: &str| format!("point[{i}].{k}");
+        let name = p.name.get_ref().trim().to_string();
+        if name.is_empty() {
+            return Err(cx.err(p.name.span(), "a point needs a name".into()).key(key("name")));
+        }
+        if points.iter().any(|q| q.name == name) {
+            return Err(cx
+                .err(p.name.span(), format!("point '{name}' is defined twice"))
+                .key(key("name"))
+                .help("give each point its own name"));
+        }
+        let at = cx.finite_xy(&p.at, key("at"))?;
+        if axisymmetric && at[0] < 0.0 {
+            return Err(cx
+                .err(p.at.span(), format!("point '{name}' lies at x < 0; in an axisymmetric model x is the radius"))
+                .key(key("at"))
+                .help("give the point at x ≥ 0 (its mirror image has the same field)"));
+        }
+        points.push(NamedPoint { name, at });
+    }
+    Ok(points)
 }

@@ -23,6 +23,8 @@ pub(super) struct RawModel {
     #[serde(default)]
     pub(super) probe: Vec<S<RawProbe>>,
     #[serde(default)]
+    pub(super) point: Vec<S<RawNamedPoint>>,
+    #[serde(default)]
     pub(super) load_case: Vec<S<RawLoadCase>>,
     pub(super) breakdown: Option<S<RawBreakdown>>,
     pub(super) import: Option<S<RawImport>>,
@@ -104,6 +106,14 @@ pub(super) type ByCase = S<BTreeMap<String, S<f64>>>;
 #[serde(deny_unknown_fields)]
 pub(super) struct RawCheck {
     pub(super) singular_exclusion_radius: Option<S<f64>>,
+}
+
+/// `[[point]]`: a named point where V and E are reported.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawNamedPoint {
+    pub(super) name: S<String>,
+    pub(super) at: S<[f64; 2]>,
 }
 
 #[derive(Deserialize, Debug)]

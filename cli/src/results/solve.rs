@@ -34,6 +34,14 @@ impl Results {
                 return Some(format!("largest field along probe '{}'", p.name));
             }
         }
+        for p in &self.points {
+            for s in &p.sides {
+                let bars = [s.potential_error_bar_v, s.e_error_bar_v_per_m];
+                if bad(s.potential_v) || bad(s.e_abs_v_per_m) || bars.iter().flatten().any(|&b| bad(b)) {
+                    return Some(format!("field at point '{}'", p.name));
+                }
+            }
+        }
         self.checks.as_ref().and_then(|c| c.first_non_finite())
     }
 }
@@ -67,6 +75,8 @@ pub struct Results {
     pub regions: Vec<RegionResult>,
     /// Field probes and their CSV files.
     pub probes: Vec<ProbeResult>,
+    /// V and E at the named points of `[[point]]` (also in points.csv).
+    pub points: Vec<PointResult>,
     /// The breakdown checks per load case (filled by the command after the analysis).
     pub checks: Option<crate::results::checks::Checks>,
     /// Wall-clock seconds per stage.
@@ -115,6 +125,43 @@ pub struct ProbeResult {
     pub e_max_v_per_m: f64,
     /// Largest |Eₜ| over the samples (interfaces and surfaces), V/m.
     pub e_t_max_v_per_m: Option<f64>,
+}
+
+/// V and E at one named point.
+#[derive(Serialize, Debug)]
+pub struct PointResult {
+    /// The point's name.
+    pub name: String,
+    /// Position, metres.
+    pub at_m: [f64; 2],
+    /// One entry per region the point lies in: two on an interface, none inside a
+    /// conductor or outside the domain.
+    pub sides: Vec<PointSideResult>,
+    /// Why `sides` is empty, or which singular point is near (the field there is
+    /// mesh-dependent).
+    pub note: Option<String>,
+}
+
+/// V and E at a point, in one region.
+#[derive(Serialize, Debug)]
+pub struct PointSideResult {
+    /// Region (shape) name.
+    pub region: String,
+    /// Potential, V.
+    pub potential_v: f64,
+    /// E = −∇V, V/m (the element field, averaged over the region's elements at the point).
+    pub e_v_per_m: [f64; 2],
+    /// |E|, V/m.
+    pub e_abs_v_per_m: f64,
+    /// `check` only: the potential's error bar, V.
+    pub potential_error_bar_v: Option<f64>,
+    /// `check` only: the potential's verdict.
+    pub potential_status: Option<String>,
+    /// `check` only: |E|'s error bar, V/m.
+    pub e_error_bar_v_per_m: Option<f64>,
+    /// `check` only: |E|'s verdict ("converged", "not converged", or "singular —
+    /// mesh-dependent" within a singular point's disc).
+    pub e_status: Option<String>,
 }
 
 /// One region's peak field.
@@ -296,6 +343,9 @@ pub fn analyse(
         },
         regions,
         probes,
+        // Filled by the command (`point_results`: the recovered field needs the
+        // factorised solution).
+        points: Vec::new(),
         checks: None,
         timings_s: Vec::new(),
         cautions: CAUTIONS.to_vec(),
@@ -303,6 +353,103 @@ pub fn analyse(
         mesh: mesh_report,
     };
     (results, Analysis { sol, fields, probe_files })
+}
+
+/// V and the recovered E at the model's named points (`[[point]]`), bars left empty.
+pub fn point_results(model: &Plan, mesh: &mesher::Mesh, solved: &engine::FactoredSolution) -> Vec<PointResult> {
+    let positions: Vec<mesher::Xy> = model.points.iter().map(|p| p.at).collect();
+    let values = solved.point_values(mesh, &positions);
+    model
+        .points
+        .iter()
+        .zip(values)
+        .map(|(p, sides)| {
+            let note = if sides.is_empty() {
+                Some(
+                    "outside the dielectric mesh: inside a conductor (V is its potential, E = 0) or outside the domain"
+                        .into(),
+                )
+            } else {
+                near_singular_point(mesh, p.at)
+            };
+            PointResult {
+                name: p.name.clone(),
+                at_m: p.at,
+                sides: sides
+                    .iter()
+                    .map(|s| PointSideResult {
+                        region: mesh.shape_names[s.region as usize].clone(),
+                        potential_v: s.potential,
+                        e_v_per_m: s.e,
+                        e_abs_v_per_m: s.e[0].hypot(s.e[1]),
+                        potential_error_bar_v: None,
+                        potential_status: None,
+                        e_error_bar_v_per_m: None,
+                        e_status: None,
+                    })
+                    .collect(),
+                note,
+            }
+        })
+        .collect()
+}
+
+/// A note naming the field-singular point within two element sizes of `p`, if any (the
+/// field there grows as the mesh is refined).
+fn near_singular_point(mesh: &mesher::Mesh, p: mesher::Xy) -> Option<String> {
+    let grid = mesher::triangle_grid(mesh, 0.0);
+    let mut h: f64 = 0.0;
+    grid.for_each_near(p, 0.0, |t| {
+        let tri = mesh.triangles[t as usize];
+        for i in 0..3 {
+            let (a, b) = (mesh.nodes[tri[i] as usize], mesh.nodes[tri[(i + 1) % 3] as usize]);
+            h = h.max((a[0] - b[0]).hypot(a[1] - b[1]));
+        }
+    });
+    mesh.singular_points
+        .iter()
+        .enumerate()
+        .filter(|(_, s)| s.is_field_singular())
+        .map(|(i, s)| (i, (s.at[0] - p[0]).hypot(s.at[1] - p[1])))
+        .filter(|&(_, d)| d <= 2.0 * h)
+        .min_by(|a, b| a.1.total_cmp(&b.1))
+        .map(|(i, _)| {
+            format!("within two element sizes of singular point S{}: the field there is mesh-dependent", i + 1)
+        })
+}
+
+/// points.csv: one row per point and side (a point outside the dielectric mesh gets one
+/// row with empty values). Bars are empty after `solve`.
+pub fn points_csv(points: &[PointResult]) -> String {
+    use std::fmt::Write as _;
+    let mut csv = String::from(
+        "name,x_m,y_m,region,potential_v,ex_v_per_m,ey_v_per_m,e_v_per_m,potential_bar_v,potential_status,e_bar_v_per_m,e_status\n",
+    );
+    let opt = |v: Option<f64>| v.map(|x| format!("{x:e}")).unwrap_or_default();
+    for p in points {
+        if p.sides.is_empty() {
+            let _ = writeln!(csv, "{},{:e},{:e},,,,,,,,,", p.name, p.at_m[0], p.at_m[1]);
+        }
+        for s in &p.sides {
+            let _ = writeln!(
+                csv,
+                "{},{:e},{:e},{},{:e},{:e},{:e},{:e},{},{},{},{}",
+                p.name,
+                p.at_m[0],
+                p.at_m[1],
+                s.region,
+                s.potential_v,
+                s.e_v_per_m[0],
+                s.e_v_per_m[1],
+                s.e_abs_v_per_m,
+                opt(s.potential_error_bar_v),
+                s.potential_status.as_deref().unwrap_or(""),
+                opt(s.e_error_bar_v_per_m),
+                s.e_status.as_deref().unwrap_or("")
+            );
+        }
+    }
+    csv
 }
 
 /// The selector and report label of an interface or conductor-surface probe (None for a
@@ -476,6 +623,36 @@ pub fn render_text(r: &Results, unit_m: f64, unit: &str) -> String {
                 p.e_max_v_per_m / 1e6,
                 p.file
             );
+        }
+    }
+    if !r.points.is_empty() {
+        let _ = writeln!(s, "\npoints (model potentials; E in kV/mm)");
+        let _ = writeln!(
+            s,
+            "  {:<16} {:<20} {:>14} {:>10} {:>12} {:>10}  at ({unit})",
+            "point", "region", "V", "± V", "|E| kV/mm", "± kV/mm"
+        );
+        for p in &r.points {
+            let at = format!("({:.4}, {:.4})", p.at_m[0] / unit_m, p.at_m[1] / unit_m);
+            if p.sides.is_empty() {
+                let _ = writeln!(s, "  {:<16} {:<20} {:>14} {:>10} {:>12} {:>10}  {at}", p.name, "-", "-", "", "-", "");
+            }
+            for side in &p.sides {
+                let bar = |b: Option<f64>, k: f64| b.map(|x| format!("± {:.2e}", x / k)).unwrap_or_default();
+                let _ = writeln!(
+                    s,
+                    "  {:<16} {:<20} {:>14.6e} {:>10} {:>12.5} {:>10}  {at}",
+                    p.name,
+                    side.region,
+                    side.potential_v,
+                    bar(side.potential_error_bar_v, 1.0),
+                    side.e_abs_v_per_m / 1e6,
+                    bar(side.e_error_bar_v_per_m, 1e6)
+                );
+            }
+            if let Some(n) = &p.note {
+                let _ = writeln!(s, "    {}: {n}", p.name);
+            }
         }
     }
     for w in &r.mesh.warnings {

@@ -22,6 +22,8 @@ mod import;
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.
 mod outputs;
+/// `[[point]]`: V and E at named points against closed forms, with `check`'s bars.
+mod points;
 /// The HTML report and its plots.
 mod report;
 /// `sector` and `half_disc` shapes against closed forms, and their errors.

@@ -214,6 +214,16 @@ impl FactoredSolution {
         self.recovered.get_or_init(|| PrimalRecovery::new(mesh, &self.solution.potential))
     }
 
+    /// V and the recovered E at each point, one side per region containing it (see
+    /// [`crate::point_values`], which gives the element field instead).
+    pub fn point_values(&self, mesh: &Mesh, points: &[Xy]) -> Vec<Vec<crate::PointSide>> {
+        let primal = self.recovery(mesh);
+        let rec = primal.field(&self.solution.potential);
+        crate::probe::point_values_with(mesh, &self.solution.potential, points, |t, xi, eta| {
+            rec.fields_at(mesh, &primal.quad, t, xi, eta).0
+        })
+    }
+
     /// The peak |E| per region away from the given discs, as
     /// [`region_peaks_away_from`](crate::region_peaks_away_from) finds them, with the
     /// recovery shared by the mesh's other estimates.

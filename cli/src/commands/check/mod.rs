@@ -135,6 +135,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     let mut mesh_report = report_of(&model, &mesh, true, None);
     mesh_report.warnings.extend(import_warnings);
     let (mut solve, analysis) = analyse(&model, &mesh, mesh_report, &problem, solution, &fixed, cmat);
+    solve.points = crate::results::solve::point_results(&model, &mesh, &solved);
     crate::results::solve::finite_or_error(&model, &solve)?;
     let mut singular = singular_section(&model, &mesh, &analysis.sol, &discs);
     let t_post = t0.elapsed().as_secs_f64() - t_adapt;
@@ -156,6 +157,7 @@ pub fn run(run: &CheckRun) -> Result<bool> {
         }
     }
     annotate_regions(&mut solve.regions, &convergence);
+    sections::annotate_points(&mut solve.points, &convergence, &discs);
     // The breakdown checks on the final solution, with the certified value and bar of every
     // watched peak (a bar that is not finite is no bar).
     let bar_of = |name: &str| {
@@ -199,6 +201,9 @@ pub fn run(run: &CheckRun) -> Result<bool> {
     };
     let json = serde_json::to_string_pretty(&results)?;
     files.push(("convergence.csv".into(), convergence_csv(&results.convergence)));
+    if !results.solve.points.is_empty() {
+        files.push(("points.csv".into(), crate::results::solve::points_csv(&results.solve.points)));
+    }
     files.push(("results.json".into(), json.clone()));
     write_outputs(&run.out, &mesh, &problem, &analysis, &files, run.vtu)?;
     crate::results::report::write_report(&run.out)?;

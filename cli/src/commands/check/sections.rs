@@ -43,6 +43,31 @@ pub(super) fn annotate_regions(regions: &mut [RegionResult], convergence: &[Quan
     }
 }
 
+/// The bars and verdicts of the named points' potentials and fields, from their studies;
+/// a point inside a disc around a singular point (`discs`) has a mesh-dependent field.
+pub(super) fn annotate_points(
+    points: &mut [crate::results::solve::PointResult],
+    convergence: &[QuantityStudy],
+    discs: &[(mesher::Xy, f64)],
+) {
+    for p in points {
+        let singular = discs.iter().any(|(c, r)| (p.at_m[0] - c[0]).hypot(p.at_m[1] - c[1]) < *r);
+        let n = p.sides.len();
+        for s in &mut p.sides {
+            let (v, e) = super::watch::point_quantity_names(&p.name, &s.region, n);
+            if let Some(q) = convergence.iter().find(|q| q.quantity == v) {
+                s.potential_error_bar_v = q.error_bar.absolute;
+                s.potential_status = Some(q.error_bar.status.to_string());
+            }
+            if let Some(q) = convergence.iter().find(|q| q.quantity == e) {
+                s.e_error_bar_v_per_m = q.error_bar.absolute;
+                s.e_status =
+                    Some(if singular { "singular — mesh-dependent".into() } else { q.error_bar.status.to_string() });
+            }
+        }
+    }
+}
+
 /// The convergence study of one sequence, with the error bar at each mesh and at the end.
 pub(super) fn study(
     quantity: String,

@@ -23,6 +23,17 @@ pub(super) enum Quantity {
     ProbeTangential(usize),
     /// The coefficient A of the singular term at singular point k (one a conductor bounds).
     Singular(usize),
+    /// V at named point i, on the side of region r.
+    PointPotential(usize, u32),
+    /// |E| at named point i, on the side of region r.
+    PointField(usize, u32),
+}
+
+/// The names of the watched potential and field at point `name` in `region` (the region
+/// is named only when the point lies on an interface, `sides` > 1).
+pub(super) fn point_quantity_names(name: &str, region: &str, sides: usize) -> (String, String) {
+    let side = if sides > 1 { format!(" in {region}") } else { String::new() };
+    (format!("potential at point {name}{side}"), format!("field at point {name}{side}"))
 }
 
 /// The watched quantities: (name, unit, what).
@@ -60,6 +71,16 @@ pub(super) fn quantity_list(model: &Plan, mesh: &Mesh) -> Watchlist {
                 "V/m",
                 Quantity::ProbeTangential(i),
             ));
+        }
+    }
+    let positions: Vec<Xy> = model.points.iter().map(|p| p.at).collect();
+    let zeros = vec![0.0; mesh.nodes.len()];
+    for (i, sides) in engine::point_values(mesh, &zeros, &positions).iter().enumerate() {
+        for side in sides {
+            let (v, e) =
+                point_quantity_names(&model.points[i].name, &mesh.shape_names[side.region as usize], sides.len());
+            q.push((v, "V", Quantity::PointPotential(i, side.region)));
+            q.push((e, "V/m", Quantity::PointField(i, side.region)));
         }
     }
     for (k, sp) in mesh.singular_points.iter().enumerate() {
@@ -126,6 +147,9 @@ pub(super) fn watch(
         .map(|v| v.abs())
         .fold(0.0, f64::max)
         .max(model.outer_potential_v.unwrap_or(0.0).abs());
+    let positions: Vec<Xy> = model.points.iter().map(|p| p.at).collect();
+    let at_points = if positions.is_empty() { Vec::new() } else { solved.point_values(mesh, &positions) };
+    let side = |i: usize, r: u32| at_points.get(i).and_then(|s| s.iter().find(|s| s.region == r));
     // Each quantity's value, floor, class, and the goal that estimates it (with the peak
     // value its local field stands in for).
     let mut goals = Vec::new();
@@ -161,6 +185,25 @@ pub(super) fn watch(
                 };
                 (value, 0.01 * peak_max, QuantityClass::Field, None)
             }
+            // A point's potential is relative to the largest potential of the model.
+            Quantity::PointPotential(i, r) => match side(i, r) {
+                Some(s) => (
+                    s.potential,
+                    v_max,
+                    QuantityClass::Field,
+                    Some(Goal::PointPotential { at: positions[i], region: Some(r) }),
+                ),
+                None => (0.0, v_max, QuantityClass::Field, None),
+            },
+            // A point's field by the local-field goal around it.
+            Quantity::PointField(i, r) => match side(i, r) {
+                Some(s) => {
+                    let value = s.e[0].hypot(s.e[1]);
+                    let goal = (value > 0.0).then_some(Goal::PeakField { at: positions[i], value, region: Some(r) });
+                    (value, 0.01 * peak_max, QuantityClass::Field, goal)
+                }
+                None => (0.0, 0.01 * peak_max, QuantityClass::Field, None),
+            },
             Quantity::Singular(k) => {
                 let sp = &mesh.singular_points[k];
                 let radius = discs.iter().find(|d| d.0 == sp.at).map(|d| d.1).unwrap_or(0.02 * mesh.scale());
@@ -201,6 +244,14 @@ pub(super) fn watch(
             // junction it jitters by 1e-3 from one remeshing to the next.
             if let Quantity::Singular(_) = q {
                 w = w.reported_only();
+            }
+            // Likewise a point inside a disc around a singular point: its field grows with
+            // every refinement.
+            if let Quantity::PointPotential(i, _) | Quantity::PointField(i, _) = q {
+                let p = positions[*i];
+                if discs.iter().any(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) < *r) {
+                    w = w.reported_only();
+                }
             }
             if let Quantity::Energy = q {
                 // |W − W_h| = ½‖V − V_h‖², recovered: ½η² (the energy estimate's own
