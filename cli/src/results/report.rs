@@ -280,6 +280,62 @@ pub fn write_report(dir: &Path) -> Result<()> {
     // The pictures after the verdicts: the stress map, then the mesh and its singular points.
     h.push_str(&field_html);
     h.push_str(&mesh_html);
+    // Values at the named points, one row per side.
+    let (unit_m, unit) = unit_metres_of(&r);
+    let sides: Vec<Vec<String>> = r["points"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .flat_map(|p| {
+            let name = esc(p["name"].as_str().unwrap_or(""));
+            let at = point(&p["at_m"], unit_m);
+            let note = p["note"].as_str().unwrap_or("").to_string();
+            let list = p["sides"].as_array().cloned().unwrap_or_default();
+            if list.is_empty() {
+                return vec![vec![
+                    name,
+                    at,
+                    "-".into(),
+                    "-".into(),
+                    String::new(),
+                    "-".into(),
+                    String::new(),
+                    esc(&note),
+                ]];
+            }
+            list.iter()
+                .map(|s| {
+                    let status = match (s["potential_status"].as_str(), s["e_status"].as_str()) {
+                        (Some(a), Some(b)) => format!("V {a}; |E| {b}"),
+                        _ => String::new(),
+                    };
+                    vec![
+                        name.clone(),
+                        at.clone(),
+                        esc(s["region"].as_str().unwrap_or("")),
+                        num(&s["potential_v"], 6),
+                        num(&s["potential_error_bar_v"], 2),
+                        scaled(&s["e_abs_v_per_m"], 1e6, 5),
+                        scaled(&s["e_error_bar_v_per_m"], 1e6, 2),
+                        esc(&[status, note.clone()]
+                            .iter()
+                            .filter(|x| !x.is_empty())
+                            .cloned()
+                            .collect::<Vec<_>>()
+                            .join("; ")),
+                    ]
+                })
+                .collect()
+        })
+        .collect();
+    if !sides.is_empty() {
+        h.push_str("<h2>Named points</h2>\n<p>V and the recovered |E| at the model's potentials; one row per side on an interface.</p>\n");
+        table(
+            &mut h,
+            &["point", &format!("at ({unit})"), "region", "V", "± V", "|E| kV/mm", "± kV/mm", "verdict / note"],
+            &sides,
+        );
+    }
     // Convergence.
     if let Some(conv) = r["convergence"].as_array() {
         h.push_str("<h2>Convergence</h2>\n");
