@@ -48,7 +48,7 @@
 //!             outline: Outline::circle("core", [0.0, 0.0], 0.01)? },
 //! ];
 //! let geo = Geometry { symmetry: Symmetry::Planar, shapes, conductors: vec!["core".into()],
-//!                      outer: OuterBoundary::FixedPotential, size_points: vec![] };
+//!                      outer: OuterBoundary::FixedPotential, size_points: vec![], boundary_pieces: vec![] };
 //! let mesh = generate(&geo, &RefineParams::new().with_max_size_m(0.004))?.mesh;
 //! let problem = Problem { permittivity: vec![1.0, 1.0], conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
 //!                         outer_potential_v: Some(0.0), ..Default::default() };
@@ -104,7 +104,7 @@ pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{
     point_values, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,
 };
-pub use problem::{ConductorSpec, Problem};
+pub use problem::{BoundaryStretch, ConductorSpec, Problem};
 pub use singular::{
     singular_coefficient, singular_coefficient_dual, singular_field, singular_field_factor, singular_radius_above,
     SingularFit,

@@ -19,6 +19,35 @@ pub enum ConductorSpec {
     },
 }
 
+/// A stretch of the outer boundary with a condition of its own.
+#[derive(Clone, Debug, PartialEq)]
+pub struct BoundaryStretch {
+    /// The stretch, metres; its ends are mesh vertices (`mesher::Geometry::boundary_pieces`).
+    pub curve: mesher::Curve,
+    /// The potential along it as (arc length from the curve's start in metres, V) pairs,
+    /// interpolated linearly and constant beyond the first and last (one pair: a constant
+    /// potential); `None`: zero normal flux.
+    pub potential: Option<Vec<(f64, f64)>>,
+}
+
+impl BoundaryStretch {
+    /// The potential at `p` (a point on the curve), if the stretch is held.
+    pub fn potential_at(&self, p: [f64; 2]) -> Option<f64> {
+        let table = self.potential.as_ref()?;
+        let s = self.curve.distance(p).1 * self.curve.length();
+        let (first, last) = (table.first()?, table.last()?);
+        if s <= first.0 {
+            return Some(first.1);
+        }
+        if s >= last.0 {
+            return Some(last.1);
+        }
+        let k = table.partition_point(|e| e.0 <= s).clamp(1, table.len() - 1);
+        let ((s0, v0), (s1, v1)) = (table[k - 1], table[k]);
+        Some(if s1 > s0 { v0 + (v1 - v0) * (s - s0) / (s1 - s0) } else { v1 })
+    }
+}
+
 /// What the engine needs besides the mesh.
 #[derive(Clone, Debug, Default)]
 pub struct Problem {
@@ -41,6 +70,10 @@ pub struct Problem {
     /// When given it holds the outer boundary and `outer_potential_v` is ignored; the
     /// capacitance matrix still takes the outer boundary at 0 V.
     pub outer_potential_fn: Option<fn([f64; 2]) -> f64>,
+    /// Stretches of the outer boundary with a condition of their own (the rest of the
+    /// outer boundary keeps `outer_potential_v` / `outer_potential_fn`, or zero flux). An
+    /// outer edge belongs to the first stretch on whose curve both its ends lie.
+    pub boundary_stretches: Vec<BoundaryStretch>,
     /// A resource limit, not physics: the solve stops with
     /// [`SolveError::FactorOverBudget`] before the
     /// numeric factorisation if the factor's values alone would take more bytes than this
@@ -49,6 +82,27 @@ pub struct Problem {
 }
 
 impl Problem {
+    /// The held outer boundary's potential varies from node to node (a potential function
+    /// or a held stretch): its terminal's coupling column then holds K·g for the nodal
+    /// values g, and the terminal's "potential" is 1.
+    pub(crate) fn outer_varying(&self) -> bool {
+        self.outer_potential_fn.is_some() || self.boundary_stretches.iter().any(|b| b.potential.is_some())
+    }
+
+    /// Some part of the outer boundary is held at a potential.
+    pub(crate) fn outer_held(&self) -> bool {
+        self.outer_potential_v.is_some() || self.outer_varying()
+    }
+
+    /// The same problem with every boundary potential at 0 V (the stretches' and the outer
+    /// boundary's), the shape of the system unchanged: for the capacitance columns and the
+    /// dual problems, which reuse the factorisation.
+    pub(crate) fn homogeneous_outer(&mut self) {
+        self.outer_potential_v = self.outer_held().then_some(0.0);
+        self.outer_potential_fn = None;
+        self.boundary_stretches.clear();
+    }
+
     /// Checks that the problem fits the mesh: one conductor entry per conductor of the mesh
     /// and a permittivity for every region that has triangles.
     ///

@@ -82,6 +82,17 @@ impl Arrangement {
                 }
             }
         }
+        // The ends of the boundary pieces cut the outline they lie on.
+        for bp in &geo.boundary_pieces {
+            for e in [bp.curve.from(), bp.curve.to()] {
+                for (x, c) in curves.iter().enumerate() {
+                    let (d, t) = c.distance(e);
+                    if d <= tol && t > 0.0 && t < 1.0 {
+                        cuts[x].push(t);
+                    }
+                }
+            }
+        }
         let mut vertices: Vec<Xy> = Vec::new();
         let find_vertex = |p: Xy, vertices: &mut Vec<Xy>| -> usize {
             if let Some(k) = vertices.iter().position(|q| norm(sub(*q, p)) <= tol) {
@@ -243,6 +254,7 @@ mod tests {
             conductors: vec!["hv".into()],
             outer: OuterBoundary::ZeroFlux,
             size_points: vec![],
+            boundary_pieces: vec![],
         };
         let arr = Arrangement::build(&geo).unwrap();
         // Every piece separates two different fills, and total length of pieces between the

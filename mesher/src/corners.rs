@@ -187,12 +187,22 @@ pub fn conical_exponent(theta0: f64, nu_max: f64) -> Option<f64> {
 /// order `order` (λ < order and not an integer).
 pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(usize, SingularPoint)>, MeshError> {
     // Incident directions per vertex: (angle, left side of the outgoing direction).
-    let mut inc: Vec<Vec<(f64, Side)>> = vec![Vec::new(); arr.vertices.len()];
+    let mut inc: Vec<Vec<(f64, Side, Option<Wall>)>> = vec![Vec::new(); arr.vertices.len()];
+    let tol = 1e-9 * geo.scale();
     for pc in &arr.pieces {
+        // A stretch of the outer boundary with a condition of its own walls off the domain
+        // there with that condition.
+        let on_outer = pc.left == Side::Outside || pc.right == Side::Outside;
+        let wall = if on_outer {
+            let mid = pc.curve.point_at(0.5);
+            geo.boundary_pieces.iter().find(|b| b.curve.distance(mid).0 <= tol).map(|b| b.wall)
+        } else {
+            None
+        };
         let t0 = pc.curve.tangent_at(0.0);
-        inc[pc.v[0]].push((t0[1].atan2(t0[0]), pc.left));
+        inc[pc.v[0]].push((t0[1].atan2(t0[0]), pc.left, wall));
         let t1 = pc.curve.tangent_at(1.0);
-        inc[pc.v[1]].push(((-t1[1]).atan2(-t1[0]), pc.right));
+        inc[pc.v[1]].push(((-t1[1]).atan2(-t1[0]), pc.right, wall));
     }
     let eps = |k: u32| match geo.shapes[k as usize].fill {
         Fill::Dielectric { permittivity } => permittivity,
@@ -240,11 +250,12 @@ pub(crate) struct CornerCtx<'a> {
 }
 
 /// The singular point at `at` with incident boundary and interface directions `dirs`
-/// (angle, the side on the left of the outgoing direction), if the smallest exponent of its
+/// (angle, the side on the left of the outgoing direction, and for a stretch of the outer
+/// boundary with a condition of its own, its wall), if the smallest exponent of its
 /// sectors is singular.
 pub(crate) fn classify(
     at: Xy,
-    dirs: &mut [(f64, Side)],
+    dirs: &mut [(f64, Side, Option<Wall>)],
     cx: &CornerCtx<'_>,
 ) -> Result<Option<SingularPoint>, MeshError> {
     let scale = cx.scale;
@@ -338,8 +349,16 @@ pub(crate) fn classify(
             // Runs of dielectric sectors between consecutive walls.
             for (w, &k0) in wall_idx.iter().enumerate() {
                 let k1 = wall_idx[(w + 1) % wall_idx.len()];
-                let start = wall_of(sectors[k0].1).unwrap();
-                let end = wall_of(sectors[k1].1).unwrap();
+                // Outside the domain, the wall is that of the boundary stretch along the
+                // run's bounding direction when it has its own condition.
+                let start = match (sectors[k0].1, dirs[(k0 + 1) % n].2) {
+                    (Side::Outside, Some(w)) if !on_axis => w,
+                    (s, _) => wall_of(s).unwrap(),
+                };
+                let end = match (sectors[k1].1, dirs[k1].2) {
+                    (Side::Outside, Some(w)) if !on_axis => w,
+                    (s, _) => wall_of(s).unwrap(),
+                };
                 let mut secs = Vec::new();
                 let mut regions = Vec::new();
                 let mut k = (k0 + 1) % n;

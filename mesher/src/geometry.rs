@@ -561,6 +561,19 @@ pub struct Geometry {
     pub outer: OuterBoundary,
     /// Element sizes requested at points.
     pub size_points: Vec<SizePoint>,
+    /// Stretches of the outer boundary with a condition of their own (the rest has
+    /// `outer`'s): the mesh puts a vertex at each end, and the corner analysis takes each
+    /// stretch's wall.
+    pub boundary_pieces: Vec<BoundaryPiece>,
+}
+
+/// A stretch of the domain's outer boundary with its own condition.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct BoundaryPiece {
+    /// The stretch: a line or arc lying on the domain's outline, metres.
+    pub curve: Curve,
+    /// Held at a potential (fixed, varying along it, or a conductor's) or zero flux.
+    pub wall: crate::Wall,
 }
 
 impl Geometry {

@@ -629,7 +629,7 @@ pub fn find_singular_points(
                 continue;
             }
         }
-        let mut dirs: Vec<(f64, Side)> = d.iter().map(|x| (x.0, x.1)).collect();
+        let mut dirs: Vec<(f64, Side, Option<crate::Wall>)> = d.iter().map(|x| (x.0, x.1, None)).collect();
         if let Some(p) = crate::corners::classify(mesh.nodes[v], &mut dirs, &cx)? {
             out.push(p);
         }

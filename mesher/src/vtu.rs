@@ -369,6 +369,7 @@ mod tests {
             conductors: vec!["c".into()],
             outer: OuterBoundary::FixedPotential,
             size_points: vec![],
+            boundary_pieces: vec![],
         };
         let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.02)).unwrap().mesh;
         let phi: Vec<f64> = mesh.nodes.iter().map(|p| p[0].sin() * 1e3 + p[1]).collect();

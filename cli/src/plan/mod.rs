@@ -106,6 +106,17 @@ pub enum ProbeKind {
     ConductorSurface(u32),
 }
 
+/// A stretch of the outer boundary with its own condition (`[[boundary.piece]]`).
+#[derive(Clone, Debug, PartialEq)]
+pub struct BoundaryPieceSpec {
+    /// Name.
+    pub name: String,
+    /// The stretch, metres.
+    pub curve: mesher::Curve,
+    /// (arc length in metres, V) pairs, linear between them; `None`: zero flux.
+    pub potential: Option<Vec<(f64, f64)>>,
+}
+
 /// A named point where `solve` and `check` report V and E (`[[point]]`).
 #[derive(Clone, Debug, PartialEq)]
 pub struct NamedPoint {
@@ -172,6 +183,8 @@ pub struct Plan {
     pub probes: Vec<Probe>,
     /// Named points (`[[point]]`).
     pub points: Vec<NamedPoint>,
+    /// Pieces of the outer boundary with their own conditions (`[[boundary.piece]]`).
+    pub boundary_pieces: Vec<BoundaryPieceSpec>,
     /// The load cases (`[[load_case]]`); empty: the model's potentials as given are the one
     /// case.
     pub load_cases: Vec<LoadCase>,
@@ -513,6 +526,8 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
     let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
     let mut probes = probes(&cx, &raw, &region_names, &conductors)?;
     let points = points(&cx, &raw, symmetry == Symmetry::Axisymmetric)?;
+    let boundary_pieces =
+        boundary::pieces(&cx, &raw, if import.is_none() { shapes.first().map(|s| &s.outline) } else { None }, outer)?;
     let mut materials = materials;
     let load_cases = load_cases::load_cases(
         &cx,
@@ -531,6 +546,13 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         conductors: conductors.iter().map(|c| c.name.clone()).collect(),
         outer,
         size_points,
+        boundary_pieces: boundary_pieces
+            .iter()
+            .map(|b| mesher::BoundaryPiece {
+                curve: b.curve,
+                wall: if b.potential.is_some() { mesher::Wall::Potential } else { mesher::Wall::ZeroFlux },
+            })
+            .collect(),
     };
     let singular_exclusion_radius_m =
         match raw.check.as_ref().and_then(|c| c.get_ref().singular_exclusion_radius.as_ref()) {
@@ -556,6 +578,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         outer_potential_v,
         probes,
         points,
+        boundary_pieces,
         load_cases,
         breakdown,
         unit_m,

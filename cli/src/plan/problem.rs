@@ -34,6 +34,11 @@ pub fn problem_of(model: &Plan) -> Problem {
             .collect(),
         outer_potential_v: model.outer_potential_v,
         outer_potential_fn: None,
+        boundary_stretches: model
+            .boundary_pieces
+            .iter()
+            .map(|b| engine::BoundaryStretch { curve: b.curve, potential: b.potential.clone() })
+            .collect(),
         memory_budget_bytes: Some(model.memory_budget_bytes),
     }
 }

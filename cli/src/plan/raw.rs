@@ -236,6 +236,31 @@ pub(super) struct RawStep {
 pub(super) struct RawBoundary {
     pub(super) outer: Option<S<String>>,
     pub(super) potential_v: Option<S<f64>>,
+    #[serde(default)]
+    pub(super) piece: Vec<S<RawPiece>>,
+}
+
+/// `[[boundary.piece]]`: a stretch of the outer boundary with its own condition.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawPiece {
+    pub(super) name: S<String>,
+    pub(super) along: Option<S<[S<[f64; 2]>; 2]>>,
+    pub(super) arc: Option<S<RawArcPiece>>,
+    pub(super) potential_v: Option<S<f64>>,
+    pub(super) zero_flux: Option<S<bool>>,
+    pub(super) potential_from_v: Option<S<f64>>,
+    pub(super) potential_to_v: Option<S<f64>>,
+    pub(super) potential_table: Option<S<Vec<S<[f64; 2]>>>>,
+}
+
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawArcPiece {
+    pub(super) center: S<[f64; 2]>,
+    pub(super) radius: S<f64>,
+    pub(super) from_deg: S<f64>,
+    pub(super) to_deg: S<f64>,
 }
 
 #[derive(Deserialize, Debug)]

@@ -218,6 +218,7 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
             grading_warning(&format!("singular point S{}", i + 1), s, k, model.unit, model.params.max_nodes)
         })
         .collect();
+    warnings.extend(potential_jumps(model));
     // A dielectric shape that the shapes painted after it cover entirely has no elements:
     // it would vanish from the results without a word.
     for (i, shape) in model.geometry.shapes.iter().enumerate() {
@@ -428,4 +429,53 @@ pub fn sig(v: f64) -> String {
     } else {
         format!("{v:.3e}")
     }
+}
+
+/// A warning for each point where held boundary pieces of different potential meet (or a
+/// held piece meets the held rest of the outer boundary at another potential): the field
+/// there goes like 1/r and the stored energy diverges, so nothing near it converges.
+fn potential_jumps(model: &Plan) -> Vec<String> {
+    let tol = 1e-9 * model.geometry.scale();
+    let k = model.unit_m;
+    let ends = |p: &crate::plan::BoundaryPieceSpec| -> Vec<(mesher::Xy, f64)> {
+        let Some(t) = &p.potential else { return Vec::new() };
+        let first = t.first().map_or(0.0, |e| e.1);
+        let last = t.last().map_or(0.0, |e| e.1);
+        vec![(p.curve.from(), first), (p.curve.to(), if t.len() == 1 { first } else { last })]
+    };
+    let same = |a: mesher::Xy, b: mesher::Xy| (a[0] - b[0]).hypot(a[1] - b[1]) <= tol;
+    let mut out = Vec::new();
+    let differ = |a: f64, b: f64| (a - b).abs() > 1e-9 * a.abs().max(b.abs()).max(1.0);
+    let mut warn = |name: &str, va: f64, what: String, vb: f64, at: mesher::Xy| {
+        out.push(format!(
+            "boundary piece '{name}' at {va} V meets {what} at {vb} V at ({}, {}) {}: the potential jumps there, so the field goes like 1/r and the stored energy diverges; leave a zero-flux gap or a linear transition between them",
+            at[0] / k,
+            at[1] / k,
+            model.unit
+        ))
+    };
+    for (i, a) in model.boundary_pieces.iter().enumerate() {
+        for (at, va) in ends(a) {
+            // Other held pieces ending here (each pair once).
+            for b in &model.boundary_pieces[i + 1..] {
+                for (bt, vb) in ends(b) {
+                    if same(bt, at) && differ(va, vb) {
+                        warn(&a.name, va, format!("piece '{}'", b.name), vb, at);
+                    }
+                }
+            }
+            // No other piece ends here: the rest of the outer boundary continues it.
+            let shared = model
+                .boundary_pieces
+                .iter()
+                .enumerate()
+                .any(|(j, b)| j != i && (same(b.curve.from(), at) || same(b.curve.to(), at)));
+            if let (false, Some(v0)) = (shared, model.outer_potential_v) {
+                if differ(va, v0) {
+                    warn(&a.name, va, "the rest of the outer boundary".into(), v0, at);
+                }
+            }
+        }
+    }
+    out
 }

@@ -22,6 +22,8 @@ mod import;
 mod mesh_report;
 /// The files `mesh` writes (VTU, SVG, JSON) are complete and consistent.
 mod outputs;
+/// `[[boundary.piece]]`: conditions on stretches of the boundary against exact solutions.
+mod pieces;
 /// `[[point]]`: V and E at named points against closed forms, with `check`'s bars.
 mod points;
 /// The HTML report and its plots.

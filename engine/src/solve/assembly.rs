@@ -50,6 +50,9 @@ pub(super) struct System {
     pub(super) positions: Vec<Option<[f64; 2]>>,
     /// Space-charge load ∫ρφ w dA per unknown, if any region carries space charge.
     pub(super) load: Option<Vec<f64>>,
+    /// The potential of each node held by the outer terminal (NaN elsewhere): the outer
+    /// boundary's, a potential function's, or a held stretch's.
+    pub(super) outer_value: Vec<f64>,
 }
 
 impl System {
@@ -70,6 +73,20 @@ impl System {
         }
         let mut node_conductor: Vec<Option<u32>> = vec![None; n];
         let mut node_outer = vec![false; n];
+        let mut outer_value = vec![f64::NAN; n];
+        // The stretch an outer edge belongs to: the first on whose curve both ends lie.
+        let tol = 1e-9 * mesh.scale();
+        let stretch_of = |a: u32, b: u32| {
+            problem.boundary_stretches.iter().find(|s| {
+                s.curve.distance(mesh.nodes[a as usize]).0 <= tol && s.curve.distance(mesh.nodes[b as usize]).0 <= tol
+            })
+        };
+        let plain_outer = |p: [f64; 2]| -> Option<f64> {
+            match problem.outer_potential_fn {
+                Some(g) => Some(g(p)),
+                None => problem.outer_potential_v,
+            }
+        };
         for (t, tri) in mesh.triangles.iter().enumerate() {
             for k in 0..3 {
                 let (a, b) = (tri[k], tri[(k + 1) % 3]);
@@ -78,10 +95,22 @@ impl System {
                 }
                 let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
                 let mid = if mesh.mid_nodes.is_empty() { None } else { Some(mesh.mid_nodes[t][k]) };
+                let stretch = if *tag == EdgeTag::Outer { stretch_of(a, b) } else { None };
                 for v in [Some(a), Some(b), mid].into_iter().flatten() {
                     match tag {
                         EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
-                        EdgeTag::Outer => node_outer[v as usize] = true,
+                        EdgeTag::Outer => {
+                            let p = mesh.nodes[v as usize];
+                            // A zero-flux stretch holds nothing; a held one its profile.
+                            let held = match stretch {
+                                Some(s) => s.potential_at(p),
+                                None => plain_outer(p),
+                            };
+                            if let Some(value) = held {
+                                node_outer[v as usize] = true;
+                                outer_value[v as usize] = value;
+                            }
+                        }
                         _ => {}
                     }
                 }
@@ -95,15 +124,16 @@ impl System {
                 num_terminals += 1;
             }
         }
-        let outer_terminal = (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then(|| {
+        let outer_terminal = problem.outer_held().then(|| {
             num_terminals += 1;
             num_terminals - 1
         });
         // With a boundary potential function the outer terminal's coupling column holds
         // K·g (g the nodal boundary values) instead of K·1, and its "potential" is 1.
+        let varying = problem.outer_varying();
         let held_weight = |h: u32, node: u32| -> f64 {
-            match (problem.outer_potential_fn, outer_terminal) {
-                (Some(g), Some(t)) if t == h => g(mesh.nodes[node as usize]),
+            match outer_terminal {
+                Some(t) if t == h && varying => outer_value[node as usize],
                 _ => 1.0,
             }
         };
@@ -123,10 +153,7 @@ impl System {
             for v in (0..n).filter(|&v| node_outer[v]) {
                 let Some(c) = node_conductor[v] else { continue };
                 let p = mesh.nodes[v];
-                let boundary_v = match problem.outer_potential_fn {
-                    Some(g) => g(p),
-                    None => problem.outer_potential_v.unwrap_or(0.0),
-                };
+                let boundary_v = outer_value[v];
                 let conductor_v = match problem.conductors[c as usize] {
                     ConductorSpec::Fixed { potential_v } => Some(potential_v),
                     ConductorSpec::Floating { .. } => None,
@@ -246,6 +273,7 @@ impl System {
             coupling,
             positions,
             load: if has_space_charge { Some(load) } else { None },
+            outer_value,
         })
     }
 
@@ -370,7 +398,7 @@ pub(super) fn case_rhs(system: &System, problem: &Problem, rhs: &mut [f64], with
             _ => {}
         }
     }
-    let outer_scale = if problem.outer_potential_fn.is_some() { Some(1.0) } else { problem.outer_potential_v };
+    let outer_scale = if problem.outer_varying() { Some(1.0) } else { problem.outer_potential_v };
     if let (Some(v0), Some(t)) = (outer_scale, system.outer_terminal) {
         for (r, k) in rhs.iter_mut().zip(&system.coupling[t as usize]) {
             *r -= v0 * k;

@@ -58,8 +58,8 @@ pub(super) fn finish(mesh: &Mesh, problem: &Problem, system: &System, x: &[f64],
         .enumerate()
         .map(|(v, d)| match *d {
             Dof::Free(i) => x[i as usize],
-            Dof::Held(t) => match (problem.outer_potential_fn, system.outer_terminal) {
-                (Some(g), Some(o)) if o == t => g(mesh.nodes[v]),
+            Dof::Held(t) => match system.outer_terminal {
+                Some(o) if o == t && problem.outer_varying() => system.outer_value[v],
                 _ => terminal_values[t as usize],
             },
         })

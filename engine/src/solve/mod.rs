@@ -329,9 +329,7 @@ impl FactoredSolution {
                 ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
             };
         }
-        homogeneous.outer_potential_v =
-            (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then_some(0.0);
-        homogeneous.outer_potential_fn = None;
+        homogeneous.homogeneous_outer();
         let mut b = Mat::<f64>::zeros(m, cases.len());
         for (c, case) in cases.iter().enumerate() {
             let mut p = homogeneous.clone();
@@ -424,9 +422,7 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
                 ConductorSpec::Floating { .. } => ConductorSpec::Floating { charge_c: 0.0 },
             };
         }
-        p.outer_potential_v =
-            (problem.outer_potential_v.is_some() || problem.outer_potential_fn.is_some()).then_some(0.0);
-        p.outer_potential_fn = None;
+        p.homogeneous_outer();
         cases.push(p);
     }
     let k = 1 + cases.len();

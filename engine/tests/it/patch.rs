@@ -87,6 +87,7 @@ fn capacitance_matrix_of_plates_and_field_in_layers() {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.008)).unwrap().mesh;
     let problem = engine::Problem {
@@ -208,6 +209,7 @@ fn rotated_plates(angle: f64, eps: f64, order: u8) -> mesher::Mesh {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        boundary_pieces: vec![],
     };
     generate(&geo, &mesher::RefineParams::new().with_order(order).with_max_size_m(0.007)).unwrap().mesh
 }
@@ -289,6 +291,7 @@ fn axisymmetric_space_charge_parabola_with_p2() {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.006)).unwrap().mesh;
     check_space_charge_parabola(&mesh, std::f64::consts::PI * 0.03 * 0.03 * 0.04);
@@ -353,6 +356,7 @@ fn coax_mesh(eps: f64, order: u8) -> mesher::Mesh {
         conductors: vec!["core".into()],
         outer: mesher::OuterBoundary::FixedPotential,
         size_points: vec![],
+        boundary_pieces: vec![],
     };
     mesher::generate(&geo, &mesher::RefineParams::new().with_order(order)).unwrap().mesh
 }
