@@ -26,13 +26,20 @@ pub struct BoundaryStretch {
     pub curve: mesher::Curve,
     /// The potential along it as (arc length from the curve's start in metres, V) pairs,
     /// interpolated linearly and constant beyond the first and last (one pair: a constant
-    /// potential); `None`: zero normal flux.
+    /// potential); `None` (and no conductor): zero normal flux.
     pub potential: Option<Vec<(f64, f64)>>,
+    /// The stretch is part of this conductor's surface (index into the mesh's conductors):
+    /// held at its potential, fixed or floating, its charge counted with the conductor's.
+    /// `potential` is then ignored.
+    pub conductor: Option<u32>,
 }
 
 impl BoundaryStretch {
     /// The potential at `p` (a point on the curve), if the stretch is held.
     pub fn potential_at(&self, p: [f64; 2]) -> Option<f64> {
+        if self.conductor.is_some() {
+            return None;
+        }
         let table = self.potential.as_ref()?;
         let s = self.curve.distance(p).1 * self.curve.length();
         let (first, last) = (table.first()?, table.last()?);
@@ -86,7 +93,8 @@ impl Problem {
     /// or a held stretch): its terminal's coupling column then holds K·g for the nodal
     /// values g, and the terminal's "potential" is 1.
     pub(crate) fn outer_varying(&self) -> bool {
-        self.outer_potential_fn.is_some() || self.boundary_stretches.iter().any(|b| b.potential.is_some())
+        self.outer_potential_fn.is_some()
+            || self.boundary_stretches.iter().any(|b| b.potential.is_some() && b.conductor.is_none())
     }
 
     /// Some part of the outer boundary is held at a potential.

@@ -90,6 +90,7 @@ pub(super) fn pieces(
     raw: &RawModel,
     domain: Option<&Outline>,
     outer: OuterBoundary,
+    conductors: &[Conductor],
 ) -> Result<Vec<BoundaryPieceSpec>, ModelError> {
     let Some(b) = &raw.boundary else { return Ok(Vec::new()) };
     let mut out: Vec<BoundaryPieceSpec> = Vec::new();
@@ -181,6 +182,7 @@ pub(super) fn pieces(
             p.zero_flux.is_some(),
             p.potential_from_v.is_some() || p.potential_to_v.is_some(),
             p.potential_table.is_some(),
+            p.conductor.is_some(),
         ]
         .iter()
         .filter(|b| **b)
@@ -189,9 +191,24 @@ pub(super) fn pieces(
             return Err(cx
                 .err(whole, format!("boundary piece '{name}' needs exactly one condition (it has {conditions})"))
                 .key(key("potential_v"))
-                .help("potential_v = <V>, zero_flux = true, potential_from_v and potential_to_v (linear along it), or potential_table = [[s, V], ...]"));
+                .help("potential_v = <V>, zero_flux = true, potential_from_v and potential_to_v (linear along it), potential_table = [[s, V], ...], or conductor = \"<name>\""));
         }
-        let potential = if let Some(v) = &p.potential_v {
+        let conductor = match &p.conductor {
+            Some(c) => Some(conductors.iter().position(|k| &k.name == c.get_ref()).ok_or_else(|| {
+                let known: Vec<&str> = conductors.iter().map(|k| k.name.as_str()).collect();
+                cx.err(c.span(), format!("unknown conductor '{}' in boundary piece '{name}'", c.get_ref()))
+                    .key(key("conductor"))
+                    .help(if known.is_empty() {
+                        "define it in a [[conductor]] table".to_string()
+                    } else {
+                        format!("known conductors: {}", known.join(", "))
+                    })
+            })? as u32),
+            None => None,
+        };
+        let potential = if conductor.is_some() {
+            None
+        } else if let Some(v) = &p.potential_v {
             Some(vec![(0.0, cx.potential(v, key("potential_v"))?)])
         } else if let Some(z) = &p.zero_flux {
             if !*z.get_ref() {
@@ -241,7 +258,7 @@ pub(super) fn pieces(
                 (length, cx.potential(b, key("potential_to_v"))?),
             ])
         };
-        out.push(BoundaryPieceSpec { name, curve, potential });
+        out.push(BoundaryPieceSpec { name, curve, potential, conductor });
     }
     Ok(out)
 }

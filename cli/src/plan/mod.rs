@@ -113,8 +113,11 @@ pub struct BoundaryPieceSpec {
     pub name: String,
     /// The stretch, metres.
     pub curve: mesher::Curve,
-    /// (arc length in metres, V) pairs, linear between them; `None`: zero flux.
+    /// (arc length in metres, V) pairs, linear between them; `None`: zero flux (or a
+    /// conductor's).
     pub potential: Option<Vec<(f64, f64)>>,
+    /// The conductor whose surface it is (index), if any.
+    pub conductor: Option<u32>,
 }
 
 /// A named point where `solve` and `check` report V and E (`[[point]]`).
@@ -526,8 +529,13 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
     let (params, size_points, sets_min_angle, sets_gradation) = mesh_controls(&cx, &raw, &shapes, unit)?;
     let mut probes = probes(&cx, &raw, &region_names, &conductors)?;
     let points = points(&cx, &raw, symmetry == Symmetry::Axisymmetric)?;
-    let boundary_pieces =
-        boundary::pieces(&cx, &raw, if import.is_none() { shapes.first().map(|s| &s.outline) } else { None }, outer)?;
+    let boundary_pieces = boundary::pieces(
+        &cx,
+        &raw,
+        if import.is_none() { shapes.first().map(|s| &s.outline) } else { None },
+        outer,
+        &conductors,
+    )?;
     let mut materials = materials;
     let load_cases = load_cases::load_cases(
         &cx,
@@ -550,7 +558,11 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
             .iter()
             .map(|b| mesher::BoundaryPiece {
                 curve: b.curve,
-                wall: if b.potential.is_some() { mesher::Wall::Potential } else { mesher::Wall::ZeroFlux },
+                wall: if b.potential.is_some() || b.conductor.is_some() {
+                    mesher::Wall::Potential
+                } else {
+                    mesher::Wall::ZeroFlux
+                },
             })
             .collect(),
     };

@@ -37,7 +37,7 @@ pub fn problem_of(model: &Plan) -> Problem {
         boundary_stretches: model
             .boundary_pieces
             .iter()
-            .map(|b| engine::BoundaryStretch { curve: b.curve, potential: b.potential.clone() })
+            .map(|b| engine::BoundaryStretch { curve: b.curve, potential: b.potential.clone(), conductor: b.conductor })
             .collect(),
         memory_budget_bytes: Some(model.memory_budget_bytes),
     }

@@ -252,6 +252,7 @@ pub(super) struct RawPiece {
     pub(super) potential_from_v: Option<S<f64>>,
     pub(super) potential_to_v: Option<S<f64>>,
     pub(super) potential_table: Option<S<Vec<S<[f64; 2]>>>>,
+    pub(super) conductor: Option<S<String>>,
 }
 
 #[derive(Deserialize, Debug)]

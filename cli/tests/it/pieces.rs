@@ -220,3 +220,26 @@ fn misused_pieces_are_located_errors_and_jumps_are_warned() {
         "{w:?}"
     );
 }
+
+#[test]
+fn a_conductor_on_a_boundary_piece_is_the_held_piece_with_a_charge() {
+    // The half-covered slab with its electrode given as a conductor's surface instead of a
+    // fixed potential: the same field (point values equal to round-off), and the electrode's
+    // charge closes the energy balance W = ½·Q·V₀ (the ground at 0 V adds nothing).
+    let conductor = SLAB.replace(
+        "name = \"electrode\"\nalong = [[-50.0, 10.0], [0.0, 10.0]]\npotential_v = 1000.0",
+        "name = \"electrode\"\nalong = [[-50.0, 10.0], [0.0, 10.0]]\nconductor = \"top\"",
+    );
+    assert_ne!(conductor, SLAB);
+    let conductor = conductor.replace("[[shape]]", "[[conductor]]\nname = \"top\"\npotential_v = 1000.0\n\n[[shape]]");
+    let (held, _) = results(SLAB, "solve", &[]);
+    let (cond, _) = results(&conductor, "solve", &[]);
+    for name in ["top-face", "inside", "under"] {
+        let (a, b) =
+            (side(&held, name)["potential_v"].as_f64().unwrap(), side(&cond, name)["potential_v"].as_f64().unwrap());
+        assert!((a - b).abs() < 1e-9 * 1000.0, "{name}: {a} vs {b}");
+    }
+    let q = cond["conductors"][0]["charge_c"].as_f64().unwrap();
+    let w = cond["energy_j"].as_f64().unwrap();
+    assert!((0.5 * q * 1000.0 - w).abs() < 1e-6 * w, "½QV = {} vs W = {w}", 0.5 * q * 1000.0);
+}

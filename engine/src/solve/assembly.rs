@@ -99,6 +99,9 @@ impl System {
                 for v in [Some(a), Some(b), mid].into_iter().flatten() {
                     match tag {
                         EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
+                        EdgeTag::Outer if stretch.is_some_and(|s| s.conductor.is_some()) => {
+                            node_conductor[v as usize] = stretch.and_then(|s| s.conductor);
+                        }
                         EdgeTag::Outer => {
                             let p = mesh.nodes[v as usize];
                             // A zero-flux stretch holds nothing; a held one its profile.
