@@ -435,6 +435,10 @@ pub fn sig(v: f64) -> String {
 /// held piece meets the held rest of the outer boundary at another potential): the field
 /// there goes like 1/r and the stored energy diverges, so nothing near it converges.
 fn potential_jumps(model: &Plan) -> Vec<String> {
+    // (Pieces exist only on drawn models, whose geometry has shapes.)
+    if model.boundary_pieces.is_empty() {
+        return Vec::new();
+    }
     let tol = 1e-9 * model.geometry.scale();
     let k = model.unit_m;
     let ends = |p: &crate::plan::BoundaryPieceSpec| -> Vec<(mesher::Xy, f64)> {
