@@ -171,48 +171,41 @@ pub struct GoalEstimate {
     pub indicators: Vec<f64>,
 }
 
-/// Shape functions' gradients of triangle `t` at reference point (ξ, η): node ids, their
-/// count (3 or 6), the physical gradients, the physical point and the Jacobian determinant.
-fn basis_gradients(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize, [[f64; 2]; 6], Xy, f64) {
-    fn build<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> ([[f64; 2]; 6], Xy, f64) {
-        let (g, _, j, p, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
-        let mut out = [[0.0; 2]; 6];
-        for k in 0..N {
-            // ∇φ = J⁻ᵀ ∇̂φ.
-            out[k] = [(j[1][1] * g[k][0] - j[1][0] * g[k][1]) / det, (-j[0][1] * g[k][0] + j[0][0] * g[k][1]) / det];
-        }
-        (out, p, det)
-    }
-    let tri = mesh.triangles[t];
-    if mesh.mid_nodes.is_empty() {
-        let (g, p, det) = build::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta);
-        ([tri[0], tri[1], tri[2], 0, 0, 0], 3, g, p, det)
-    } else {
-        let m = mesh.mid_nodes[t];
-        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
-        let (g, p, det) = build::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), xi, eta);
-        (ids, 6, g, p, det)
-    }
+/// Shape functions of triangle `t` at reference point (ξ, η).
+struct Basis {
+    /// Node ids (the first `n` count).
+    ids: [u32; 6],
+    /// 3 (P1) or 6 (P2).
+    n: usize,
+    /// Physical gradients.
+    grads: [[f64; 2]; 6],
+    /// Values.
+    values: [f64; 6],
+    /// The physical point.
+    at: Xy,
+    /// Jacobian determinant.
+    det: f64,
 }
 
-/// Shape functions' values of triangle `t` at reference point (ξ, η): node ids, their
-/// count (3 or 6), the values, the physical point and the Jacobian determinant.
-fn basis_values(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> ([u32; 6], usize, [f64; 6], Xy, f64) {
-    fn build<const N: usize, E: Element<N>>(x: &[Xy; N], xi: f64, eta: f64) -> ([f64; 6], Xy, f64) {
-        let (_, v, _, p, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
-        let mut out = [0.0; 6];
-        out[..N].copy_from_slice(&v[..N]);
-        (out, p, det)
+fn basis_at(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> Basis {
+    fn build<const N: usize, E: Element<N>>(ids: [u32; 6], x: &[Xy; N], xi: f64, eta: f64) -> Basis {
+        let (g, v, j, at, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
+        let mut grads = [[0.0; 2]; 6];
+        let mut values = [0.0; 6];
+        for k in 0..N {
+            // ∇φ = J⁻ᵀ ∇̂φ.
+            grads[k] = [(j[1][1] * g[k][0] - j[1][0] * g[k][1]) / det, (-j[0][1] * g[k][0] + j[0][0] * g[k][1]) / det];
+            values[k] = v[k];
+        }
+        Basis { ids, n: N, grads, values, at, det }
     }
     let tri = mesh.triangles[t];
     if mesh.mid_nodes.is_empty() {
-        let (v, p, det) = build::<3, P1>(&tri.map(|i| mesh.nodes[i as usize]), xi, eta);
-        ([tri[0], tri[1], tri[2], 0, 0, 0], 3, v, p, det)
+        build::<3, P1>([tri[0], tri[1], tri[2], 0, 0, 0], &tri.map(|i| mesh.nodes[i as usize]), xi, eta)
     } else {
         let m = mesh.mid_nodes[t];
         let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
-        let (v, p, det) = build::<6, P2>(&ids.map(|i| mesh.nodes[i as usize]), xi, eta);
-        (ids, 6, v, p, det)
+        build::<6, P2>(ids, &ids.map(|i| mesh.nodes[i as usize]), xi, eta)
     }
 }
 
@@ -283,7 +276,7 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                         continue;
                     }
                     for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
-                        let (ids, n, values, at, det) = basis_values(mesh, t, xi, eta);
+                        let Basis { ids, n, values, at, det, .. } = basis_at(mesh, t, xi, eta);
                         let o = bump(center, radius_m, at);
                         if o == 0.0 {
                             continue;
@@ -310,23 +303,12 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
                 let mut load = vec![0.0; mesh.nodes.len()];
                 let mut total = 0.0;
-                for t in 0..mesh.triangles.len() {
+                for t in near_disc(mesh, center, radius_m) {
                     if region.is_some_and(|r| r != mesh.regions[t]) {
                         continue;
                     }
-                    // Only triangles that reach into the disc (their corners' bounding box,
-                    // widened by a tenth for curved P2 edges).
-                    let p = mesh.triangles[t].map(|v| mesh.nodes[v as usize]);
-                    let (x0, x1) = (p[0][0].min(p[1][0]).min(p[2][0]), p[0][0].max(p[1][0]).max(p[2][0]));
-                    let (y0, y1) = (p[0][1].min(p[1][1]).min(p[2][1]), p[0][1].max(p[1][1]).max(p[2][1]));
-                    let pad = 0.1 * (x1 - x0).max(y1 - y0);
-                    let dx = (x0 - pad - center[0]).max(center[0] - x1 - pad).max(0.0);
-                    let dy = (y0 - pad - center[1]).max(center[1] - y1 - pad).max(0.0);
-                    if dx.hypot(dy) >= radius_m {
-                        continue;
-                    }
                     for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
-                        let (ids, n, grads, at, det) = basis_gradients(mesh, t, xi, eta);
+                        let Basis { ids, n, grads, at, det, .. } = basis_at(mesh, t, xi, eta);
                         let o = bump(center, radius_m, at);
                         if o == 0.0 {
                             continue;

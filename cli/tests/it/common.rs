@@ -54,3 +54,19 @@ pub fn read_vtu(path: &Path) -> VtuMesh {
     }
     VtuMesh { points, triangles }
 }
+
+/// Writes `text` as `m.toml` in a fresh folder, runs `command` on it with `--out` and
+/// `extra`, and asserts success. Returns the folder (kept alive by the caller), the parsed
+/// `results.json` and the terminal output.
+pub fn run_model(text: &str, command: &str, extra: &[&str]) -> (tempfile::TempDir, serde_json::Value, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("m.toml");
+    std::fs::write(&path, text).unwrap();
+    let out = dir.path().join("out");
+    let mut a = vec![command, path.to_str().unwrap(), "--out", out.to_str().unwrap()];
+    a.extend_from_slice(extra);
+    let o = run(&a);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let r = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+    (dir, r, stdout(&o))
+}

@@ -5,19 +5,10 @@ use crate::common::{run, stderr};
 use serde_json::Value;
 use std::f64::consts::PI;
 
-/// Writes `text` to a fresh folder, runs `command` with `extra` and returns results.json and
-/// the terminal output.
+/// `command` on `text` with `extra`: results.json and the terminal output.
 fn results(text: &str, command: &str, extra: &[&str]) -> (Value, String) {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("m.toml");
-    std::fs::write(&path, text).unwrap();
-    let out = dir.path().join("out");
-    let mut a = vec![command, path.to_str().unwrap(), "--out", out.to_str().unwrap()];
-    a.extend_from_slice(extra);
-    let o = run(&a);
-    assert!(o.status.success(), "{}", stderr(&o));
-    let r = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
-    (r, String::from_utf8_lossy(&o.stdout).to_string())
+    let (_dir, r, out) = crate::common::run_model(text, command, extra);
+    (r, out)
 }
 
 fn side<'a>(r: &'a Value, name: &str) -> &'a Value {

@@ -1,7 +1,7 @@
 //! `[[point]]`: V and E at named points, against the closed forms of the two-layer coaxial
 //! line and of concentric spheres; with `check`, every value inside its printed bar.
 
-use crate::common::{run, stderr};
+use crate::common::{run, run_model, stderr};
 use serde_json::Value;
 
 /// Core r = 10 mm at 1 kV, paper (εr 4) to 20 mm, oil (εr 2.2) to the earthed sheath at
@@ -72,18 +72,15 @@ fn coax_exact(r: f64, eps: f64) -> (f64, f64) {
     (v, k / (eps * r))
 }
 
-fn results(dir: &std::path::Path, command: &str, text: &str, extra: &[&str]) -> Value {
-    let path = dir.join("m.toml");
-    std::fs::write(&path, text).unwrap();
-    let out = dir.join(format!("out-{command}"));
-    let mut a = vec![command, path.to_str().unwrap(), "--out", out.to_str().unwrap()];
-    a.extend_from_slice(extra);
-    let o = run(&a);
-    assert!(o.status.success(), "{}", stderr(&o));
-    assert!(String::from_utf8_lossy(&o.stdout).contains("points (model potentials"));
-    let csv = std::fs::read_to_string(out.join("points.csv")).unwrap();
+/// `command` on `text` with `extra`: results.json, after checking the points table and
+/// points.csv (one header and five rows: four points, two sides on the interface, one
+/// empty row for the point in the core).
+fn results(command: &str, text: &str, extra: &[&str]) -> Value {
+    let (dir, r, out) = run_model(text, command, extra);
+    assert!(out.contains("points (model potentials"));
+    let csv = std::fs::read_to_string(dir.path().join("out/points.csv")).unwrap();
     assert_eq!(csv.lines().count(), 1 + 5, "{csv}");
-    serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap()
+    r
 }
 
 fn point<'a>(r: &'a Value, name: &str) -> &'a Value {
@@ -92,8 +89,7 @@ fn point<'a>(r: &'a Value, name: &str) -> &'a Value {
 
 #[test]
 fn point_values_match_the_two_layer_coaxial_line() {
-    let dir = tempfile::tempdir().unwrap();
-    let r = results(dir.path(), "solve", COAX, &[]);
+    let r = results("solve", COAX, &[]);
     for (name, radius, region, eps) in [
         ("in paper", 0.015, "paper", 4.0),
         ("interface", 0.020, "paper", 4.0),
@@ -120,8 +116,7 @@ fn point_values_match_the_two_layer_coaxial_line() {
 
 #[test]
 fn check_certifies_point_values_within_their_bars() {
-    let dir = tempfile::tempdir().unwrap();
-    let r = results(dir.path(), "check", COAX, &["--tol", "0.1%"]);
+    let r = results("check", COAX, &["--tol", "0.1%"]);
     assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
     for (name, radius, region, eps) in [
         ("in paper", 0.015, "paper", 4.0),
@@ -191,13 +186,7 @@ max_size = 1.0
 name = "p"
 at = [14.142135623730951, 14.142135623730951]
 "#;
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("m.toml");
-    std::fs::write(&path, model).unwrap();
-    let out = dir.path().join("out");
-    let o = run(&["solve", path.to_str().unwrap(), "--out", out.to_str().unwrap()]);
-    assert!(o.status.success(), "{}", stderr(&o));
-    let r: Value = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+    let r = run_model(model, "solve", &[]).1;
     let s = &point(&r, "p")["sides"][0];
     let (a, b, rr) = (0.01, 0.03, 0.02);
     let v = 1000.0 * (a / rr) * (b - rr) / (b - a);

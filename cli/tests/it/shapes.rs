@@ -4,15 +4,9 @@
 use crate::common::{run, stderr};
 use serde_json::Value;
 
-/// Writes `model` to a fresh folder, runs `solve` at order 2 and returns results.json.
+/// `solve` on `model`: results.json.
 fn solved(model: &str) -> Value {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("m.toml");
-    std::fs::write(&path, model).unwrap();
-    let out = dir.path().join("out");
-    let o = run(&["solve", path.to_str().unwrap(), "--out", out.to_str().unwrap()]);
-    assert!(o.status.success(), "{}", stderr(&o));
-    serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap()
+    crate::common::run_model(model, "solve", &[]).1
 }
 
 const HEAD: &str = r#"
