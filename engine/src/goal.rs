@@ -223,6 +223,44 @@ fn near_disc(mesh: &Mesh, center: Xy, radius: f64) -> impl Iterator<Item = usize
     })
 }
 
+/// A disc goal's load per node, ∫ω f w dA / ∫ω w dA: `add(basis, weight, load)` adds one
+/// quadrature point's terms, weighted by ω·w·|J| (w = 2πr in axisymmetry), over the
+/// triangles of the disc (centre, radius, and only those of the region, if one is given).
+fn disc_load(
+    mesh: &Mesh,
+    quad: &crate::fields::SingularQuadrature,
+    (center, radius, region): (Xy, f64, Option<u32>),
+    mut add: impl FnMut(&Basis, f64, &mut [f64]),
+) -> Vec<f64> {
+    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
+    let mut load = vec![0.0; mesh.nodes.len()];
+    let mut total = 0.0;
+    for t in near_disc(mesh, center, radius) {
+        if region.is_some_and(|r| r != mesh.regions[t]) {
+            continue;
+        }
+        for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
+            let b = basis_at(mesh, t, xi, eta);
+            let o = bump(center, radius, b.at);
+            if o == 0.0 {
+                continue;
+            }
+            let mut weight = w * b.det.abs() * o;
+            if axisym {
+                weight *= 2.0 * std::f64::consts::PI * b.at[0];
+            }
+            add(&b, weight, &mut load);
+            total += weight;
+        }
+    }
+    if total > 0.0 {
+        for l in &mut load {
+            *l /= total;
+        }
+    }
+    load
+}
+
 /// The bump weight of a local-field goal at `x`.
 fn bump(center: Xy, radius: f64, x: Xy) -> f64 {
     let q = ((x[0] - center[0]).powi(2) + (x[1] - center[1]).powi(2)) / (radius * radius);
@@ -261,7 +299,6 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
     let (quad, plan) = (&recovered.quad, &recovered.plan);
     let u = recovered.field(&sol.potential);
     let primal = primal_samples(mesh, quad, &u);
-    let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     // The dual problems that need a solve, in goal order.
     let mut cases = Vec::new();
     for g in goals {
@@ -269,71 +306,27 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             Goal::Charge(_) | Goal::PeakField { .. } | Goal::PointPotential { .. } => {}
             Goal::LocalPotential { center, radius_m, region } => {
                 // J(v) = ∫ω v w / ∫ω w, linear: its load per node is ∫ω φ_k w / ∫ω w.
-                let mut load = vec![0.0; mesh.nodes.len()];
-                let mut total = 0.0;
-                for t in near_disc(mesh, center, radius_m) {
-                    if region.is_some_and(|r| r != mesh.regions[t]) {
-                        continue;
+                let load = disc_load(mesh, quad, (center, radius_m, region), |b, weight, load| {
+                    for k in 0..b.n {
+                        load[b.ids[k] as usize] += weight * b.values[k];
                     }
-                    for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
-                        let Basis { ids, n, values, at, det, .. } = basis_at(mesh, t, xi, eta);
-                        let o = bump(center, radius_m, at);
-                        if o == 0.0 {
-                            continue;
-                        }
-                        let mut weight = w * det.abs() * o;
-                        if axisym {
-                            weight *= 2.0 * std::f64::consts::PI * at[0];
-                        }
-                        for k in 0..n {
-                            load[ids[k] as usize] += weight * values[k];
-                        }
-                        total += weight;
-                    }
-                }
-                if total > 0.0 {
-                    for l in &mut load {
-                        *l /= total;
-                    }
-                }
+                });
                 cases.push(DualCase { unit_charge: None, node_load: Some(load) });
             }
             Goal::FloatingPotential(k) => cases.push(DualCase { unit_charge: Some(k), node_load: None }),
             Goal::LocalField { center, radius_m, region } => {
                 // J′(v) = 2∫ω∇V_h·∇v w / ∫ω w as a load per node.
-                let mut load = vec![0.0; mesh.nodes.len()];
-                let mut total = 0.0;
-                for t in near_disc(mesh, center, radius_m) {
-                    if region.is_some_and(|r| r != mesh.regions[t]) {
-                        continue;
+                let load = disc_load(mesh, quad, (center, radius_m, region), |b, weight, load| {
+                    let mut gv = [0.0; 2];
+                    for k in 0..b.n {
+                        let v = sol.potential[b.ids[k] as usize];
+                        gv[0] += v * b.grads[k][0];
+                        gv[1] += v * b.grads[k][1];
                     }
-                    for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
-                        let Basis { ids, n, grads, at, det, .. } = basis_at(mesh, t, xi, eta);
-                        let o = bump(center, radius_m, at);
-                        if o == 0.0 {
-                            continue;
-                        }
-                        let mut weight = w * det.abs() * o;
-                        if axisym {
-                            weight *= 2.0 * std::f64::consts::PI * at[0];
-                        }
-                        let mut gv = [0.0; 2];
-                        for k in 0..n {
-                            let v = sol.potential[ids[k] as usize];
-                            gv[0] += v * grads[k][0];
-                            gv[1] += v * grads[k][1];
-                        }
-                        for k in 0..n {
-                            load[ids[k] as usize] += 2.0 * weight * (gv[0] * grads[k][0] + gv[1] * grads[k][1]);
-                        }
-                        total += weight;
+                    for k in 0..b.n {
+                        load[b.ids[k] as usize] += 2.0 * weight * (gv[0] * b.grads[k][0] + gv[1] * b.grads[k][1]);
                     }
-                }
-                if total > 0.0 {
-                    for l in &mut load {
-                        *l /= total;
-                    }
-                }
+                });
                 cases.push(DualCase { unit_charge: None, node_load: Some(load) });
             }
         }
