@@ -258,6 +258,16 @@ pub(super) fn pieces(
                 (length, cx.potential(b, key("potential_to_v"))?),
             ])
         };
+        // Pieces may meet at their ends but not overlap: an edge would have two conditions.
+        if let Some(other) = out.iter().find(|q| {
+            [0.25, 0.5, 0.75].iter().any(|&t| q.curve.distance(curve.point_at(t)).0 <= tol)
+                || [0.25, 0.5, 0.75].iter().any(|&t| curve.distance(q.curve.point_at(t)).0 <= tol)
+        }) {
+            return Err(cx
+                .err(p.name.span(), format!("boundary piece '{name}' overlaps piece '{}'", other.name))
+                .key(key("along"))
+                .help("pieces may meet end to end; split the boundary so that each stretch has one condition"));
+        }
         out.push(BoundaryPieceSpec { name, curve, potential, conductor });
     }
     Ok(out)

@@ -192,6 +192,7 @@ fn misused_pieces_are_located_errors_and_jumps_are_warned() {
     bad("potential_v = 1000.0\n", "zero_flux = false\n", "gives no condition");
     bad("name = \"left\"", "name = \"right\"", "defined twice");
     bad("along = [[100.0, 0.0], [100.0, 50.0]]\n", "", "needs exactly one of along or arc");
+    bad("along = [[100.0, 0.0], [100.0, 50.0]]", "along = [[0.0, 10.0], [0.0, 40.0]]", "overlaps piece 'left'");
     // A conductor resting on the 0 V piece at another potential is refused like one on
     // the held outer boundary.
     bad(
