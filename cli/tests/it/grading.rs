@@ -5,8 +5,8 @@
 //! the grading radius R the element size is h(r) = max(h₀·(r/R)^(1−μ), r₀), μ = f·λ/p,
 //! r₀ = R·(h₀/R)^(1/μ) (where the law meets h = r). The models: every demo, and the
 //! scenarios of `fixtures/grading/` (a partially electroded slab, an electrode end on an
-//! interface, corners on the outer boundary and of conductors touching it, planar and
-//! axisymmetric, in m, cm and mm).
+//! interface, corners on the outer boundary and of conductors touching it, an electrode
+//! given as a piece of the outer boundary, planar and axisymmetric, in m, cm and mm).
 
 use crate::common::{read_vtu, run, stderr, stdout, VtuMesh};
 use std::path::{Path, PathBuf};
