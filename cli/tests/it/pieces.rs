@@ -235,3 +235,51 @@ fn a_conductor_on_a_boundary_piece_is_the_held_piece_with_a_charge() {
     let w = cond["energy_j"].as_f64().unwrap();
     assert!((0.5 * q * 1000.0 - w).abs() < 1e-6 * w, "½QV = {} vs W = {w}", 0.5 * q * 1000.0);
 }
+
+#[test]
+fn arc_pieces_hold_a_circular_boundary() {
+    // The outer circle of a coaxial gap given as two arc pieces at 0 V (the outer boundary
+    // itself zero flux): the coaxial closed form Q' = 2πε₀εr·V / ln(b/a) (Griffiths 2017,
+    // problem 2.43) within 1e-3.
+    let model = r#"
+[model]
+symmetry = "planar"
+length_unit = "mm"
+
+[[material]]
+name = "oil"
+permittivity = 2.2
+
+[[conductor]]
+name = "core"
+potential_v = 1000.0
+
+[[shape]]
+name = "gap"
+material = "oil"
+circle = { center = [0.0, 0.0], radius = 30.0 }
+
+[[shape]]
+name = "core"
+conductor = "core"
+circle = { center = [0.0, 0.0], radius = 10.0 }
+
+[[boundary.piece]]
+name = "upper half"
+arc = { center = [0.0, 0.0], radius = 30.0, from_deg = 0.0, to_deg = 180.0 }
+potential_v = 0.0
+
+[[boundary.piece]]
+name = "lower half"
+arc = { center = [0.0, 0.0], radius = 30.0, from_deg = 180.0, to_deg = 360.0 }
+potential_v = 0.0
+
+[mesh]
+order = 2
+"#;
+    let (r, _) = results(model, "solve", &[]);
+    let exact = 2.0 * PI * engine::EPSILON_0 * 2.2 / 3f64.ln() * 1000.0;
+    let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
+    assert!((q - exact).abs() < 1e-3 * exact, "{q:e} vs {exact:e}");
+    assert!(r["mesh"]["singular_points"].as_array().unwrap().is_empty(), "{}", r["mesh"]["singular_points"]);
+}
