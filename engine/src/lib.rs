@@ -110,6 +110,6 @@ pub use singular::{
     SingularFit,
 };
 pub use solve::{
-    capacitance_matrix, reduced_system, solve, solve_factored, solve_with_capacitance, solver_ordering,
+    capacitance_matrix, check_contacts, reduced_system, solve, solve_factored, solve_with_capacitance, solver_ordering,
     CapacitanceMatrix, FactoredSolution, ReducedSystem, Solution, SolveTimings, EPSILON_0,
 };

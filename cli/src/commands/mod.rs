@@ -35,6 +35,10 @@ pub struct FirstMesh {
 pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
     let Some(imp) = &model.import else {
         let out = mesher::generate(&model.geometry, &model.params).map_err(|e| CliError::from(model.mesh_error(&e)))?;
+        // A conductor touching a held boundary at another potential is refused here,
+        // before `mesh` writes anything, as touching conductors are.
+        engine::check_contacts(&out.mesh, &crate::plan::problem::problem_of(model))
+            .map_err(|e| CliError::from(model.solve_error(&e)))?;
         return Ok(FirstMesh {
             mesh: out.mesh,
             complete: out.complete,
@@ -76,6 +80,8 @@ pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
         .map_err(|e| {
             CliError::from(model.import_error(format!("'{file}': {}", e.message_in(model.unit_m, model.unit))))
         })?;
+    engine::check_contacts(&mesh, &crate::plan::problem::problem_of(model))
+        .map_err(|e| CliError::from(model.solve_error(&e)))?;
     let mut warnings: Vec<String> = imported.warnings.iter().map(|w| format!("imported mesh: {w}")).collect();
     if !mesh.singular_points.is_empty() {
         warnings.push(format!(

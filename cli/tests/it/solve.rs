@@ -149,6 +149,7 @@ fn a_conductor_touching_the_held_outer_boundary_at_another_potential_is_refused(
     // shared nodes cannot hold both potentials), so solve and check refuse it, naming the
     // conductor, the place and the fix; at 0 V, or on a zero-flux (symmetry) boundary, it
     // is a legitimate model. A floating conductor touching the wall is refused as well.
+    // `mesh` refuses it too, before writing anything.
     let model = |potential: &str, outer: &str| {
         format!(
             r#"[model]
@@ -196,7 +197,7 @@ circle = {{ center = [60.0, 50.0], radius = 5.0 }}
         let o = run(&[command, path.to_str().unwrap(), "--out", out.to_str().unwrap()]);
         (o.status.code(), stderr(&o), out.join("results.json").exists())
     };
-    for command in ["solve", "check"] {
+    for command in ["mesh", "solve", "check"] {
         let (code, e, written) = attempt(model("potential_v = 1000.0", earthed), command);
         assert_eq!(code, Some(2), "{command}: {e}");
         assert!(!written);

@@ -60,65 +60,7 @@ impl System {
         problem.check(mesh)?;
         let n = mesh.nodes.len();
         let nc = mesh.conductor_names.len();
-        // Nodes on each tagged edge, including P2 mid nodes. Only triangle edges whose two
-        // ends both lie on tagged edges can be tagged, which skips the hash look-up for
-        // nearly every edge of the mesh.
-        let mut edge_tag: HashMap<(u32, u32), EdgeTag> = HashMap::with_capacity(mesh.edges.len());
-        let mut on_tagged = vec![false; n];
-        for e in &mesh.edges {
-            let [a, b] = e.nodes;
-            edge_tag.insert((a.min(b), a.max(b)), e.tag);
-            on_tagged[a as usize] = true;
-            on_tagged[b as usize] = true;
-        }
-        let mut node_conductor: Vec<Option<u32>> = vec![None; n];
-        let mut node_outer = vec![false; n];
-        let mut outer_value = vec![f64::NAN; n];
-        // The stretch an outer edge belongs to: the first on whose curve both ends lie.
-        let tol = 1e-9 * mesh.scale();
-        let stretch_of = |a: u32, b: u32| {
-            problem.boundary_stretches.iter().find(|s| {
-                s.curve.distance(mesh.nodes[a as usize]).0 <= tol && s.curve.distance(mesh.nodes[b as usize]).0 <= tol
-            })
-        };
-        let plain_outer = |p: [f64; 2]| -> Option<f64> {
-            match problem.outer_potential_fn {
-                Some(g) => Some(g(p)),
-                None => problem.outer_potential_v,
-            }
-        };
-        for (t, tri) in mesh.triangles.iter().enumerate() {
-            for k in 0..3 {
-                let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                if !(on_tagged[a as usize] && on_tagged[b as usize]) {
-                    continue;
-                }
-                let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
-                let mid = if mesh.mid_nodes.is_empty() { None } else { Some(mesh.mid_nodes[t][k]) };
-                let stretch = if *tag == EdgeTag::Outer { stretch_of(a, b) } else { None };
-                for v in [Some(a), Some(b), mid].into_iter().flatten() {
-                    match tag {
-                        EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
-                        EdgeTag::Outer if stretch.is_some_and(|s| s.conductor.is_some()) => {
-                            node_conductor[v as usize] = stretch.and_then(|s| s.conductor);
-                        }
-                        EdgeTag::Outer => {
-                            let p = mesh.nodes[v as usize];
-                            // A zero-flux stretch holds nothing; a held one its profile.
-                            let held = match stretch {
-                                Some(s) => s.potential_at(p),
-                                None => plain_outer(p),
-                            };
-                            if let Some(value) = held {
-                                node_outer[v as usize] = true;
-                                outer_value[v as usize] = value;
-                            }
-                        }
-                        _ => {}
-                    }
-                }
-            }
-        }
+        let BoundaryNodes { node_conductor, node_outer, outer_value } = boundary_nodes(mesh, problem)?;
         let mut terminal_of: Vec<Option<u32>> = vec![None; nc];
         let mut num_terminals = 0u32;
         for (c, spec) in problem.conductors.iter().enumerate() {
@@ -149,28 +91,6 @@ impl System {
                 *fd = Some(next);
                 positions.push(None);
                 next += 1;
-            }
-        }
-        // A conductor touching the held outer boundary must be at the boundary's potential.
-        if outer_terminal.is_some() {
-            for v in (0..n).filter(|&v| node_outer[v]) {
-                let Some(c) = node_conductor[v] else { continue };
-                let p = mesh.nodes[v];
-                let boundary_v = outer_value[v];
-                let conductor_v = match problem.conductors[c as usize] {
-                    ConductorSpec::Fixed { potential_v } => Some(potential_v),
-                    ConductorSpec::Floating { .. } => None,
-                };
-                let agrees = conductor_v
-                    .is_some_and(|cv| (cv - boundary_v).abs() <= 1e-12 * cv.abs().max(boundary_v.abs()).max(1.0));
-                if !agrees {
-                    return Err(SolveError::ConductorOnHeldBoundary {
-                        conductor: mesh.conductor_names[c as usize].clone(),
-                        at: p,
-                        conductor_v,
-                        boundary_v,
-                    });
-                }
             }
         }
         let mut dof = vec![Dof::Free(0); n];
@@ -592,4 +512,113 @@ pub(super) fn element_matrix<const N: usize, E: Element<N>>(
             }
         }
     }
+}
+
+/// Which conductor and which held outer value each node has.
+struct BoundaryNodes {
+    /// Conductor of each node on a conductor's surface (a boundary piece of one included).
+    node_conductor: Vec<Option<u32>>,
+    /// The node is held by the outer terminal.
+    node_outer: Vec<bool>,
+    /// Its value there (NaN elsewhere).
+    outer_value: Vec<f64>,
+}
+
+/// The nodes on conductor surfaces and on the held outer boundary, with the check that a
+/// conductor touching the held boundary is at its potential.
+fn boundary_nodes(mesh: &Mesh, problem: &Problem) -> Result<BoundaryNodes, SolveError> {
+    let n = mesh.nodes.len();
+    // Nodes on each tagged edge, including P2 mid nodes. Only triangle edges whose two
+    // ends both lie on tagged edges can be tagged, which skips the hash look-up for
+    // nearly every edge of the mesh.
+    let mut edge_tag: HashMap<(u32, u32), EdgeTag> = HashMap::with_capacity(mesh.edges.len());
+    let mut on_tagged = vec![false; n];
+    for e in &mesh.edges {
+        let [a, b] = e.nodes;
+        edge_tag.insert((a.min(b), a.max(b)), e.tag);
+        on_tagged[a as usize] = true;
+        on_tagged[b as usize] = true;
+    }
+    let mut node_conductor: Vec<Option<u32>> = vec![None; n];
+    let mut node_outer = vec![false; n];
+    let mut outer_value = vec![f64::NAN; n];
+    // The stretch an outer edge belongs to: the first on whose curve both ends lie.
+    let tol = 1e-9 * mesh.scale();
+    let stretch_of = |a: u32, b: u32| {
+        problem.boundary_stretches.iter().find(|s| {
+            s.curve.distance(mesh.nodes[a as usize]).0 <= tol && s.curve.distance(mesh.nodes[b as usize]).0 <= tol
+        })
+    };
+    let plain_outer = |p: [f64; 2]| -> Option<f64> {
+        match problem.outer_potential_fn {
+            Some(g) => Some(g(p)),
+            None => problem.outer_potential_v,
+        }
+    };
+    for (t, tri) in mesh.triangles.iter().enumerate() {
+        for k in 0..3 {
+            let (a, b) = (tri[k], tri[(k + 1) % 3]);
+            if !(on_tagged[a as usize] && on_tagged[b as usize]) {
+                continue;
+            }
+            let Some(tag) = edge_tag.get(&(a.min(b), a.max(b))) else { continue };
+            let mid = if mesh.mid_nodes.is_empty() { None } else { Some(mesh.mid_nodes[t][k]) };
+            let stretch = if *tag == EdgeTag::Outer { stretch_of(a, b) } else { None };
+            for v in [Some(a), Some(b), mid].into_iter().flatten() {
+                match tag {
+                    EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
+                    EdgeTag::Outer if stretch.is_some_and(|s| s.conductor.is_some()) => {
+                        node_conductor[v as usize] = stretch.and_then(|s| s.conductor);
+                    }
+                    EdgeTag::Outer => {
+                        let p = mesh.nodes[v as usize];
+                        // A zero-flux stretch holds nothing; a held one its profile.
+                        let held = match stretch {
+                            Some(s) => s.potential_at(p),
+                            None => plain_outer(p),
+                        };
+                        if let Some(value) = held {
+                            node_outer[v as usize] = true;
+                            outer_value[v as usize] = value;
+                        }
+                    }
+                    _ => {}
+                }
+            }
+        }
+    }
+    // A conductor touching the held outer boundary must be at the boundary's potential.
+    if problem.outer_held() {
+        for v in (0..n).filter(|&v| node_outer[v]) {
+            let Some(c) = node_conductor[v] else { continue };
+            let p = mesh.nodes[v];
+            let boundary_v = outer_value[v];
+            let conductor_v = match problem.conductors[c as usize] {
+                ConductorSpec::Fixed { potential_v } => Some(potential_v),
+                ConductorSpec::Floating { .. } => None,
+            };
+            let agrees = conductor_v
+                .is_some_and(|cv| (cv - boundary_v).abs() <= 1e-12 * cv.abs().max(boundary_v.abs()).max(1.0));
+            if !agrees {
+                return Err(SolveError::ConductorOnHeldBoundary {
+                    conductor: mesh.conductor_names[c as usize].clone(),
+                    at: p,
+                    conductor_v,
+                    boundary_v,
+                });
+            }
+        }
+    }
+    Ok(BoundaryNodes { node_conductor, node_outer, outer_value })
+}
+
+/// Checks, before any assembly, that no conductor touches the held outer boundary (or a
+/// held piece of it) at another potential, or floats there.
+///
+/// # Errors
+/// [`SolveError::ConductorOnHeldBoundary`] naming the conductor and a shared node; the
+/// errors of [`Problem::check`].
+pub fn check_contacts(mesh: &Mesh, problem: &Problem) -> Result<(), SolveError> {
+    problem.check(mesh)?;
+    boundary_nodes(mesh, problem).map(|_| ())
 }

@@ -44,6 +44,7 @@ mod assembly;
 mod derived;
 mod factor;
 
+pub use assembly::check_contacts;
 use assembly::*;
 use derived::*;
 use factor::*;
