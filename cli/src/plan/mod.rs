@@ -306,7 +306,32 @@ impl Plan {
             _ => None,
         });
         let span = shape.map(|i| self.shape_spans[i].clone());
-        let mut err = ModelError::new(&self.path, &self.source, span, e.to_string());
+        // Places in the model's unit, as the file gives them.
+        let place = |at: [f64; 2]| {
+            format!("({}, {}) {}", num(round4(at[0] / self.unit_m)), num(round4(at[1] / self.unit_m)), self.unit)
+        };
+        let message = match e {
+            E::ConductorOnHeldBoundary { conductor, at, conductor_v, boundary_v } => format!(
+                "conductor '{conductor}' touches the outer boundary at {}, which is held at {} V there, while the \
+                 conductor {}: a point cannot hold two potentials; move the conductor off the boundary (a gap of \
+                 dielectric between them), give it the boundary's potential, or make that stretch zero_flux if it \
+                 is a symmetry plane",
+                place(*at),
+                num(*boundary_v),
+                match conductor_v {
+                    Some(v) => format!("is at {} V", num(*v)),
+                    None => "floats".to_string(),
+                }
+            ),
+            E::FloatingPart { region, at } => format!(
+                "region '{region}' (near {}) is cut off from every fixed potential, so its potential is \
+                 undetermined; connect it to an electrode through a dielectric, or hold an enclosing conductor at a \
+                 potential",
+                place(*at)
+            ),
+            _ => e.to_string(),
+        };
+        let mut err = ModelError::new(&self.path, &self.source, span, message);
         let look_at = match e {
             E::ConductorOnHeldBoundary { conductor, .. } => format!("[[conductor]] '{conductor}' and [boundary]"),
             _ if shape.is_some() => format!("in shape '{}'", region.unwrap_or_default()),
