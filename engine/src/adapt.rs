@@ -21,6 +21,11 @@
 //! the triangles, the loop asks again for more: successive meshes form a refinement
 //! sequence, which the convergence study of the watched quantities needs.
 //!
+//! A mesh with no geometry behind it (an imported one, [`MeshSource::Given`]) is refined
+//! inside instead: the same sizes, spread as the same graded background field, drive
+//! newest-vertex bisection (`mesher::bisect_to_sizes`), which keeps its regions, tags, arcs
+//! and singular points. Bisection cannot coarsen, so the size plan lets no triangle grow.
+//!
 //! The loop's meshes use their own angle bound, gradation, smoothing and smallest size
 //! ([`AdaptiveMesh`]), measured to need fewer unknowns for the same error.
 //!
