@@ -80,6 +80,12 @@ fn results(command: &str, text: &str, extra: &[&str]) -> Value {
     assert!(out.contains("points (model potentials"));
     let csv = std::fs::read_to_string(dir.path().join("out/points.csv")).unwrap();
     assert_eq!(csv.lines().count(), 1 + 5, "{csv}");
+    // The report's table has a row per point and side.
+    let html = std::fs::read_to_string(dir.path().join("out/report.html")).unwrap();
+    let table = &html[html.find("<h2>Named points</h2>").expect("the named points' table")..];
+    let table = &table[..table.find("</table>").unwrap()];
+    assert_eq!(table.matches("<tr><td>").count(), 5, "{table}");
+    assert!(table.contains("<td>interface</td>") && table.contains("inside a conductor"), "{table}");
     r
 }
 
