@@ -99,7 +99,7 @@ fn check_on_the_imported_annulus_certifies_the_coaxial_closed_form() {
     // every bar is within 0.1 %; the closed forms lie inside the bars: Q' = 2πε₀εr·V / ln(b/a)
     // (Griffiths, Introduction to Electrodynamics, 4th ed., problem 2.43) and the peak field
     // at the core E(a) = V / (a ln(b/a)), by Gauss's law from the same line charge (ibid., ch. 2).
-    let (dir, model) = variant("", "");
+    let (dir, model) = variant("[import]", "[[point]]\nname = \"mid\"\nat = [0.0, 20.0]\n\n[import]");
     let out = dir.path().join("out");
     let o = run(&["check", model.to_str().unwrap(), "--out", out.to_str().unwrap(), "--tol", "0.1%"]);
     assert!(o.status.success(), "{}", stderr(&o));
@@ -118,6 +118,13 @@ fn check_on_the_imported_annulus_certifies_the_coaxial_closed_form() {
     let (e, bar, status) = certified(&r, "peak field in gap away from singular points");
     assert_eq!(status, "converged");
     assert!((e - exact_e).abs() <= bar && bar <= 1e-3 * e, "{e} ± {bar} vs {exact_e}");
+    // A named point on the imported mesh, r = 20 mm: V = V₀·ln(b/r)/ln(b/a), E = V₀/(r ln(b/a)).
+    let side = &r["points"][0]["sides"][0];
+    let (v, ev) = (side["potential_v"].as_f64().unwrap(), side["e_abs_v_per_m"].as_f64().unwrap());
+    let (vb, eb) = (side["potential_error_bar_v"].as_f64().unwrap(), side["e_error_bar_v_per_m"].as_f64().unwrap());
+    let (v_exact, e_exact) = (1e4 * 1.5f64.ln() / 3f64.ln(), 1e4 / (0.020 * 3f64.ln()));
+    assert!((v - v_exact).abs() <= vb.max(1e-6 * 1e4), "V {v} ± {vb} vs {v_exact}");
+    assert!((ev - e_exact).abs() <= eb, "|E| {ev} ± {eb} vs {e_exact}");
     assert!(out.join("report.html").exists());
 }
 
