@@ -35,6 +35,9 @@ pub struct MeshReport {
     pub note: Option<String>,
     /// The outer boundary condition, in words.
     pub outer_boundary: String,
+    /// The pieces of the outer boundary with their own conditions (`[[boundary.piece]]`).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub boundary_pieces: Vec<PieceReport>,
     /// Conductors and how their potential is set.
     pub conductors: Vec<ConductorReport>,
     /// Per region.
@@ -43,6 +46,19 @@ pub struct MeshReport {
     pub singular_points: Vec<SingularReport>,
     /// What the user should know about this mesh: singular points left ungraded and why.
     pub warnings: Vec<String>,
+}
+
+/// One piece of the outer boundary.
+#[derive(Serialize, Debug)]
+pub struct PieceReport {
+    /// Name.
+    pub name: String,
+    /// Its condition, in words.
+    pub condition: String,
+    /// Its length, model unit.
+    pub length: f64,
+    /// Mesh edges on it.
+    pub edges: usize,
 }
 
 /// One conductor.
@@ -262,6 +278,31 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
             (Some(v), None) => format!("fixed potential {v} V"),
             (None, None) => "zero normal flux".into(),
         },
+        boundary_pieces: model
+            .boundary_pieces
+            .iter()
+            .map(|b| {
+                let tol = 1e-9 * mesh.scale();
+                let on = |v: u32| b.curve.distance(mesh.nodes[v as usize]).0 <= tol;
+                let edges = mesh
+                    .edges
+                    .iter()
+                    .filter(|e| e.tag == mesher::EdgeTag::Outer && on(e.nodes[0]) && on(e.nodes[1]))
+                    .count();
+                let condition = match (&b.potential, b.conductor) {
+                    (_, Some(c)) => format!("surface of conductor {}", model.conductors[c as usize].name),
+                    (None, None) => "zero normal flux".into(),
+                    (Some(t), None) if t.len() == 1 => format!("fixed potential {} V", t[0].1),
+                    (Some(t), None) => format!(
+                        "potential from {} V to {} V along it ({} points, linear between)",
+                        t[0].1,
+                        t[t.len() - 1].1,
+                        t.len()
+                    ),
+                };
+                PieceReport { name: b.name.clone(), condition, length: b.curve.length() / k, edges }
+            })
+            .collect(),
         conductors: model
             .conductors
             .iter()
@@ -302,6 +343,9 @@ pub fn render_text(r: &MeshReport) -> String {
         let _ = writeln!(s, "note         {n}");
     }
     let _ = writeln!(s, "outer        {}", r.outer_boundary);
+    for p in &r.boundary_pieces {
+        let _ = writeln!(s, "  piece      {}: {}, {} {u}, {} edges", p.name, p.condition, sig(p.length), p.edges);
+    }
     let _ = writeln!(s, "\nconductors");
     for c in &r.conductors {
         let how = match (c.potential_v, c.floating_charge_c) {

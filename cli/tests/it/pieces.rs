@@ -75,6 +75,12 @@ fn a_linear_boundary_potential_gives_the_linear_field_exactly() {
         let wh = r["energy_j"].as_f64().unwrap();
         assert!((wh - w).abs() < 1e-9 * w, "P{order}: W {wh} vs {w}");
         assert!(r["mesh"]["warnings"].as_array().unwrap().is_empty(), "{:?}", r["mesh"]["warnings"]);
+        // The mesh report lists each piece with its condition, length and edges.
+        let pieces = r["mesh"]["boundary_pieces"].as_array().unwrap();
+        assert_eq!(pieces.len(), 4);
+        assert!(pieces.iter().all(|p| p["edges"].as_u64().unwrap() > 0), "{pieces:?}");
+        assert_eq!(pieces[1]["condition"], "fixed potential 1000 V");
+        assert!((pieces[0]["length"].as_f64().unwrap() - 50.0).abs() < 1e-9);
     }
 }
 
