@@ -197,8 +197,8 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     let mut flipped = 0usize;
     let h2 = |t: &[u32; 3]| {
         let p = t.map(|v| grid.points[v as usize]);
-        let l = |a: [f64; 3], b: [f64; 3]| (a[0] - b[0]).hypot(a[1] - b[1]);
-        l(p[0], p[1]).max(l(p[1], p[2])).max(l(p[2], p[0])).powi(2)
+        let l2 = |a: [f64; 3], b: [f64; 3]| (a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2);
+        l2(p[0], p[1]).max(l2(p[1], p[2])).max(l2(p[2], p[0]))
     };
     for (c, t, m, _) in &mut tris {
         let p = t.map(|v| grid.points[v as usize]);
@@ -236,13 +236,32 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     }
     // Edges of all triangles, sorted: runs are the cells sharing an edge.
     let key = |a: u32, b: u32| ((a.min(b) as u64) << 32) | a.max(b) as u64;
-    let mut adj: Vec<(u64, u32, u8)> = Vec::with_capacity(3 * tris.len());
-    for (i, (_, t, _, _)) in tris.iter().enumerate() {
+    // A counting sort on the smaller node id, then a sort of each short bucket (linear
+    // time, as `Mesh::sorted_edges`).
+    let np = grid.points.len();
+    let mut start = vec![0u32; np + 1];
+    for (_, t, _, _) in &tris {
         for k in 0..3 {
-            adj.push((key(t[k], t[(k + 1) % 3]), i as u32, k as u8));
+            start[t[k].min(t[(k + 1) % 3]) as usize + 1] += 1;
         }
     }
-    adj.par_sort_unstable();
+    for v in 0..np {
+        start[v + 1] += start[v];
+    }
+    let mut fill = start.clone();
+    let mut adj: Vec<(u64, u32, u8)> = vec![(0, 0, 0); 3 * tris.len()];
+    for (i, (_, t, _, _)) in tris.iter().enumerate() {
+        for k in 0..3 {
+            let (a, b) = (t[k], t[(k + 1) % 3]);
+            let slot = &mut fill[a.min(b) as usize];
+            adj[*slot as usize] = (key(a, b), i as u32, k as u8);
+            *slot += 1;
+        }
+    }
+    drop(fill);
+    for v in 0..np {
+        adj[start[v] as usize..start[v + 1] as usize].sort_unstable();
+    }
     let mut runs: Vec<(usize, usize)> = Vec::new();
     let mut i = 0;
     while i < adj.len() {
@@ -279,7 +298,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     });
     for w in by_xy.windows(2) {
         let (p, q) = (grid.points[w[0] as usize], grid.points[w[1] as usize]);
-        if (p[0] - q[0]).hypot(p[1] - q[1]) <= 1e-13 * scale {
+        if (p[0] - q[0]).powi(2) + (p[1] - q[1]).powi(2) <= (1e-13 * scale).powi(2) {
             return fail(format!(
                 "nodes {} and {} coincide at {}: merge duplicate nodes (the cells on either side are not joined)",
                 w[0],
@@ -483,9 +502,10 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             let m = mid_nodes[kept_at[t0 as usize] as usize][k0 as usize];
             let (pa, pb, pm) = (nodes[na as usize], nodes[nb as usize], nodes[m as usize]);
             let mid = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
-            let off = (pm[0] - mid[0]).hypot(pm[1] - mid[1]);
-            let len = (pb[0] - pa[0]).hypot(pb[1] - pa[1]);
-            if off > 1e-9 * len {
+            // Squared lengths: this runs on every edge of the mesh.
+            let off2 = (pm[0] - mid[0]).powi(2) + (pm[1] - mid[1]).powi(2);
+            let len2 = (pb[0] - pa[0]).powi(2) + (pb[1] - pa[1]).powi(2);
+            if off2 > 1e-18 * len2 {
                 if tag.is_some() && !matches!(tag, Some(EdgeTag::Axis)) {
                     // The circle through the three nodes.
                     match circle_through(pa, pm, pb) {
