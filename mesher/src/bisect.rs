@@ -102,9 +102,15 @@ pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], gradation: f64, max_vertices:
         edges: mesh.edges.clone(),
     };
     let mut complete = true;
+    // Only triangles made in the last round can be too large: the others were checked and
+    // have not changed.
+    let mut fresh = vec![true; work.tris.len()];
     for _ in 0..MAX_ROUNDS {
         let marked: Vec<bool> = (0..work.tris.len())
             .map(|t| {
+                if !fresh[t] {
+                    return false;
+                }
                 let c = work.tris[t].map(|i| work.nodes[i as usize]);
                 let centroid = [(c[0][0] + c[1][0] + c[2][0]) / 3.0, (c[0][1] + c[1][1] + c[2][1]) / 3.0];
                 // A centroid moved off the first mesh by a vertex on an arc keeps the
@@ -116,9 +122,12 @@ pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], gradation: f64, max_vertices:
         if !marked.iter().any(|&m| m) {
             break;
         }
-        if !work.round(&marked, mesh, max_vertices)? {
-            complete = false;
-            break;
+        match work.round(&marked, mesh, max_vertices)? {
+            Some(changed) => fresh = changed,
+            None => {
+                complete = false;
+                break;
+            }
         }
     }
     let mut out = Mesh {
@@ -135,10 +144,12 @@ pub fn bisect_to_sizes(mesh: &Mesh, sizes: &[f64], gradation: f64, max_vertices:
         singular_points: mesh.singular_points.clone(),
         exterior: mesh.exterior,
     };
+    // One edge list serves the P2 nodes and the validation.
+    let adj = out.sorted_edges();
     if mesh.order() == 2 {
-        out.make_order2();
+        out.make_order2_with(&adj);
     }
-    out.validate()?;
+    out.validate_with(Some(&adj))?;
     Ok(Bisected { mesh: out, complete })
 }
 
@@ -177,26 +188,22 @@ impl Work {
     /// Neighbour across each local edge (`NONE` on the boundary), as slot t·3 + k → the
     /// neighbour's slot.
     fn neighbours(&self) -> Vec<u32> {
-        let mut half: Vec<(u64, u32)> = Vec::with_capacity(3 * self.tris.len());
-        for (t, tri) in self.tris.iter().enumerate() {
-            for k in 0..3 {
-                half.push((key(tri[k], tri[(k + 1) % 3]), (3 * t + k) as u32));
-            }
-        }
-        half.sort_unstable();
-        let mut nb = vec![NONE; half.len()];
-        for w in half.windows(2) {
+        let adj = crate::mesh::sorted_edges_of(self.nodes.len(), self.tris.iter().copied());
+        let mut nb = vec![NONE; adj.len()];
+        for w in adj.windows(2) {
             if w[0].0 == w[1].0 {
-                nb[w[0].1 as usize] = w[1].1;
-                nb[w[1].1 as usize] = w[0].1;
+                let (s0, s1) = (3 * w[0].1 + w[0].2 as u32, 3 * w[1].1 + w[1].2 as u32);
+                nb[s0 as usize] = s1;
+                nb[s1 as usize] = s0;
             }
         }
         nb
     }
 
     /// One round: refine the `marked` triangles with the closure that keeps the mesh
-    /// conforming. Returns false (and changes nothing) if the round would pass the budget.
-    fn round(&mut self, marked: &[bool], first: &Mesh, max_vertices: usize) -> Result<bool, MeshError> {
+    /// conforming. Returns which triangles are new or changed, or `None` (and changes
+    /// nothing) if the round would pass the budget.
+    fn round(&mut self, marked: &[bool], first: &Mesh, max_vertices: usize) -> Result<Option<Vec<bool>>, MeshError> {
         let nb = self.neighbours();
         let mut split = vec![false; nb.len()];
         let mut stack: Vec<u32> = (0..self.tris.len() as u32).filter(|&t| marked[t as usize]).collect();
@@ -217,7 +224,7 @@ impl Work {
         // edge marked as well (closure), so every triangle with a marked edge bisects.
         let new_vertices = (0..split.len()).filter(|&s| split[s] && (nb[s] == NONE || nb[s] as usize > s)).count();
         if self.nodes.len() + new_vertices > max_vertices {
-            return Ok(false);
+            return Ok(None);
         }
         // The tagged edges by key, to place new vertices on arcs and split the tags.
         let tagged: HashMap<u64, usize> =
@@ -251,11 +258,13 @@ impl Work {
             self.edges.push(TaggedEdge { nodes: [m, e.nodes[1]], ..e });
         }
         let n = self.tris.len();
+        let mut changed = vec![false; n];
         for t in 0..n {
             let mids = [mid[3 * t], mid[3 * t + 1], mid[3 * t + 2]];
             if mids[1] == NONE {
                 continue;
             }
+            changed[t] = true;
             let [v0, v1, v2] = self.tris[t];
             let m = mids[1];
             let children = [([m, v0, v1], mids[0]), ([m, v2, v0], mids[2])];
@@ -291,7 +300,9 @@ impl Work {
                 }
             }
         }
-        Ok(true)
+        // The children pushed after the first n are new.
+        changed.resize(self.tris.len(), true);
+        Ok(Some(changed))
     }
 }
 

@@ -236,32 +236,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
     }
     // Edges of all triangles, sorted: runs are the cells sharing an edge.
     let key = |a: u32, b: u32| ((a.min(b) as u64) << 32) | a.max(b) as u64;
-    // A counting sort on the smaller node id, then a sort of each short bucket (linear
-    // time, as `Mesh::sorted_edges`).
-    let np = grid.points.len();
-    let mut start = vec![0u32; np + 1];
-    for (_, t, _, _) in &tris {
-        for k in 0..3 {
-            start[t[k].min(t[(k + 1) % 3]) as usize + 1] += 1;
-        }
-    }
-    for v in 0..np {
-        start[v + 1] += start[v];
-    }
-    let mut fill = start.clone();
-    let mut adj: Vec<(u64, u32, u8)> = vec![(0, 0, 0); 3 * tris.len()];
-    for (i, (_, t, _, _)) in tris.iter().enumerate() {
-        for k in 0..3 {
-            let (a, b) = (t[k], t[(k + 1) % 3]);
-            let slot = &mut fill[a.min(b) as usize];
-            adj[*slot as usize] = (key(a, b), i as u32, k as u8);
-            *slot += 1;
-        }
-    }
-    drop(fill);
-    for v in 0..np {
-        adj[start[v] as usize..start[v + 1] as usize].sort_unstable();
-    }
+    let adj = crate::mesh::sorted_edges_of(grid.points.len(), tris.iter().map(|t| t.1));
     let mut runs: Vec<(usize, usize)> = Vec::new();
     let mut i = 0;
     while i < adj.len() {

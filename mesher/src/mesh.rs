@@ -524,39 +524,53 @@ impl Mesh {
         (start, around)
     }
 
-    /// (edge key, triangle, local edge) for every triangle edge, sorted by key.
-    ///
-    /// A counting sort on the smaller vertex id, then a sort of each short bucket: linear
-    /// time, and several times faster than one comparison sort of all 3·N entries.
+    /// (edge key, triangle, local edge) for every triangle edge, sorted by key
+    /// ([`sorted_edges_of`]).
     ///
     /// # Panics
     /// If a triangle refers to a node beyond `num_vertices` (checked by `validate` first).
     pub(crate) fn sorted_edges(&self) -> Vec<(u64, u32, u8)> {
-        let nv = self.num_vertices as usize;
-        let mut start = vec![0u32; nv + 1];
-        for tri in &self.triangles {
-            for k in 0..3 {
-                start[tri[k].min(tri[(k + 1) % 3]) as usize + 1] += 1;
-            }
-        }
-        for i in 0..nv {
-            start[i + 1] += start[i];
-        }
-        let mut fill = start.clone();
-        let mut adj = vec![(0u64, 0u32, 0u8); 3 * self.triangles.len()];
-        for (t, tri) in self.triangles.iter().enumerate() {
-            for k in 0..3 {
-                let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                let slot = &mut fill[a.min(b) as usize];
-                adj[*slot as usize] = (edge_key(a, b), t as u32, k as u8);
-                *slot += 1;
-            }
-        }
-        for i in 0..nv {
-            adj[start[i] as usize..start[i + 1] as usize].sort_unstable();
-        }
-        adj
+        sorted_edges_of(self.num_vertices as usize, self.triangles.iter().copied())
     }
+}
+
+/// (edge key, triangle, local edge) for every edge of `triangles` (vertex ids below
+/// `num_nodes`), sorted by key: the triangles sharing an edge form a run.
+///
+/// A counting sort on the smaller vertex id, then a sort of each short bucket: linear
+/// time, and several times faster than one comparison sort of all 3·N entries.
+///
+/// # Panics
+/// If a triangle refers to a node at or beyond `num_nodes`.
+pub(crate) fn sorted_edges_of(
+    num_nodes: usize,
+    triangles: impl Iterator<Item = [u32; 3]> + Clone,
+) -> Vec<(u64, u32, u8)> {
+    let mut start = vec![0u32; num_nodes + 1];
+    let mut count = 0usize;
+    for tri in triangles.clone() {
+        count += 1;
+        for k in 0..3 {
+            start[tri[k].min(tri[(k + 1) % 3]) as usize + 1] += 1;
+        }
+    }
+    for i in 0..num_nodes {
+        start[i + 1] += start[i];
+    }
+    let mut fill = start.clone();
+    let mut adj = vec![(0u64, 0u32, 0u8); 3 * count];
+    for (t, tri) in triangles.enumerate() {
+        for k in 0..3 {
+            let (a, b) = (tri[k], tri[(k + 1) % 3]);
+            let slot = &mut fill[a.min(b) as usize];
+            adj[*slot as usize] = (edge_key(a, b), t as u32, k as u8);
+            *slot += 1;
+        }
+    }
+    for i in 0..num_nodes {
+        adj[start[i] as usize..start[i + 1] as usize].sort_unstable();
+    }
+    adj
 }
 
 #[cfg(test)]
