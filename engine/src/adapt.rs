@@ -328,18 +328,23 @@ pub fn adapt_from(
     mut watch: impl FnMut(&Mesh, &FactoredSolution, &ErrorEstimate) -> Result<Vec<Watched>, SolveError>,
     mut progress: impl FnMut(&AdaptStep),
 ) -> Result<AdaptOutcome, SolveError> {
-    let (drawn, mut pending, order) = match source {
+    // The first step's meshing time counts from here.
+    let mut clock = std::time::Instant::now();
+    // The first mesh, and for a drawn model the geometry and settings to remesh it with.
+    let (drawn, mut next_mesh, order) = match source {
         MeshSource::Drawn { geometry, params } => {
-            (Some((geometry, ap.mesh.apply(geometry, params))), None, params.order)
+            let order = params.order;
+            let params = ap.mesh.apply(geometry, params);
+            let first = generate_with(geometry, &params, None).map_err(SolveError::Mesh)?.mesh;
+            (Some((geometry, params)), first, order)
         }
         MeshSource::Given(mesh) => {
             let order = mesh.order();
-            (None, Some(*mesh), order)
+            (None, *mesh, order)
         }
     };
     let p = order.max(1) as f64;
     let mut history: Vec<AdaptStep> = Vec::new();
-    let mut clock = std::time::Instant::now();
     let mut lap = move || {
         let now = std::time::Instant::now();
         let s = (now - clock).as_secs_f64();
@@ -347,11 +352,7 @@ pub fn adapt_from(
         s
     };
     loop {
-        let mesh = match (pending.take(), &drawn) {
-            (Some(m), _) => m,
-            (None, Some((geo, params))) => generate_with(geo, params, None).map_err(SolveError::Mesh)?.mesh,
-            (None, None) => unreachable!("a given mesh is the first pending one"),
-        };
+        let mesh = next_mesh;
         if history.is_empty() && mesh.nodes.len() > ap.max_unknowns {
             return Err(SolveError::FirstMeshOverBudget { nodes: mesh.nodes.len(), max_unknowns: ap.max_unknowns });
         }
@@ -468,11 +469,9 @@ pub fn adapt_from(
         // The prediction is rough (the gradation spreads refinement, coarsening may not
         // happen): ask again for more if the mesh did not grow by 1.3×, so that the meshes
         // form a refinement sequence, as the convergence study needs.
-        let mut ask = target;
-        let mut next = None;
-        for _ in 0..4 {
+        let remesh = |ask: f64| -> Result<Mesh, SolveError> {
             let sizes = plan.sizes_for_count(ask);
-            let m = match &drawn {
+            Ok(match &drawn {
                 Some((geo, params)) => {
                     generate_with(geo, params, Some(BackgroundSize::new(&mesh, sizes))).map_err(SolveError::Mesh)?.mesh
                 }
@@ -480,15 +479,18 @@ pub fn adapt_from(
                     let gradation = ap.mesh.gradation.unwrap_or(RefineParams::default().gradation);
                     mesher::bisect_to_sizes(&mesh, &sizes, gradation, ap.max_unknowns).map_err(SolveError::Mesh)?.mesh
                 }
-            };
-            let got = m.triangles.len() as f64;
-            next = Some(m);
+            })
+        };
+        let mut ask = target;
+        next_mesh = remesh(ask)?;
+        for _ in 1..4 {
+            let got = next_mesh.triangles.len() as f64;
             if got >= 1.3 * nt {
                 break;
             }
             ask *= (1.5 * nt / got).max(1.2);
+            next_mesh = remesh(ask)?;
         }
-        pending = next;
     }
 }
 
