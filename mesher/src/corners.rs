@@ -260,144 +260,142 @@ pub(crate) fn classify(
 ) -> Result<Option<SingularPoint>, MeshError> {
     let scale = cx.scale;
     let lambda_max = cx.lambda_max;
-    {
-        if dirs.len() < 2 {
-            return Ok(None);
+    if dirs.len() < 2 {
+        return Ok(None);
+    }
+    dirs.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let n = dirs.len();
+    // Sector k goes from direction k to direction k+1 (counter-clockwise).
+    let sectors: Vec<(f64, Side)> = (0..n)
+        .map(|k| {
+            let a0 = dirs[k].0;
+            let a1 = if k + 1 < n { dirs[k + 1].0 } else { dirs[0].0 + TAU };
+            (a1 - a0, dirs[k].1)
+        })
+        .collect();
+    let conductors: Vec<u32> =
+        sectors.iter().filter_map(|s| if let Side::Conductor(c) = s.1 { Some(c) } else { None }).collect();
+    if let Some(&c0) = conductors.first() {
+        if let Some(&c1) = conductors.iter().find(|&&c| c != c0) {
+            return Err(MeshError::ConductorsTouch {
+                first: cx.conductor_names[c0 as usize].clone(),
+                second: cx.conductor_names[c1 as usize].clone(),
+                at,
+            });
         }
-        dirs.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let n = dirs.len();
-        // Sector k goes from direction k to direction k+1 (counter-clockwise).
-        let sectors: Vec<(f64, Side)> = (0..n)
-            .map(|k| {
-                let a0 = dirs[k].0;
-                let a1 = if k + 1 < n { dirs[k + 1].0 } else { dirs[0].0 + TAU };
-                (a1 - a0, dirs[k].1)
-            })
-            .collect();
-        let conductors: Vec<u32> =
-            sectors.iter().filter_map(|s| if let Side::Conductor(c) = s.1 { Some(c) } else { None }).collect();
-        if let Some(&c0) = conductors.first() {
-            if let Some(&c1) = conductors.iter().find(|&&c| c != c0) {
-                return Err(MeshError::ConductorsTouch {
-                    first: cx.conductor_names[c0 as usize].clone(),
-                    second: cx.conductor_names[c1 as usize].clone(),
+    }
+    let on_axis = cx.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale;
+    let wall_of = |s: Side| -> Option<Wall> {
+        match s {
+            Side::Conductor(_) => Some(Wall::Potential),
+            Side::Outside => Some(if cx.outer_fixed && !on_axis { Wall::Potential } else { Wall::ZeroFlux }),
+            Side::Region(_) => None,
+        }
+    };
+    // The wall bounding a run of dielectric: a wall sector's own, except that outside the
+    // domain a stretch of the outer boundary with its own condition (the direction's wall)
+    // overrides the outer boundary's.
+    let bounding_wall = |s: Side, along: Option<Wall>| -> Wall {
+        match (s, along) {
+            (Side::Outside, Some(w)) if !on_axis => w,
+            _ => wall_of(s).expect("wall sectors have walls"),
+        }
+    };
+    let eps = |s: Side| -> f64 {
+        match s {
+            Side::Region(k) => (cx.eps)(k),
+            _ => 1.0,
+        }
+    };
+    let mut best: Option<SingularPoint> = None;
+    let mut consider = |lam: Option<f64>,
+                        opening: f64,
+                        regions: Vec<u32>,
+                        kind: SingularKind,
+                        start_angle: f64,
+                        sectors: Vec<Sector>,
+                        walls: Option<(Wall, Wall)>| {
+        if let Some(l) = lam {
+            let near_int = (l - l.round()).abs() <= LAMBDA_TOL;
+            if l < lambda_max - LAMBDA_TOL && !near_int && best.as_ref().is_none_or(|b| l < b.lambda) {
+                best = Some(SingularPoint {
                     at,
+                    kind,
+                    opening,
+                    lambda: l,
+                    regions,
+                    conductor: conductors.first().copied(),
+                    on_axis,
+                    start_angle,
+                    sectors,
+                    walls,
+                    grading: None,
                 });
             }
         }
-        let on_axis = cx.symmetry == Symmetry::Axisymmetric && at[0].abs() <= 1e-9 * scale;
-        let wall_of = |s: Side| -> Option<Wall> {
-            match s {
-                Side::Conductor(_) => Some(Wall::Potential),
-                Side::Outside => Some(if cx.outer_fixed && !on_axis { Wall::Potential } else { Wall::ZeroFlux }),
-                Side::Region(_) => None,
-            }
-        };
-        let eps = |s: Side| -> f64 {
-            match s {
-                Side::Region(k) => (cx.eps)(k),
-                _ => 1.0,
-            }
-        };
-        let mut best: Option<SingularPoint> = None;
-        let mut consider = |lam: Option<f64>,
-                            opening: f64,
-                            regions: Vec<u32>,
-                            kind: SingularKind,
-                            start_angle: f64,
-                            sectors: Vec<Sector>,
-                            walls: Option<(Wall, Wall)>| {
-            if let Some(l) = lam {
-                let near_int = (l - l.round()).abs() <= LAMBDA_TOL;
-                if l < lambda_max - LAMBDA_TOL && !near_int && best.as_ref().is_none_or(|b| l < b.lambda) {
-                    best = Some(SingularPoint {
-                        at,
-                        kind,
-                        opening,
-                        lambda: l,
-                        regions,
-                        conductor: conductors.first().copied(),
-                        on_axis,
-                        start_angle,
-                        sectors,
-                        walls,
-                        grading: None,
-                    });
-                }
-            }
-        };
-        let wall_idx: Vec<usize> = (0..n).filter(|&k| wall_of(sectors[k].1).is_some()).collect();
-        if wall_idx.is_empty() {
-            // Only dielectrics around the point.
-            let secs: Vec<Sector> = sectors.iter().map(|s| Sector { angle: s.0, permittivity: eps(s.1) }).collect();
-            let distinct =
-                secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
-            if distinct {
-                let regions =
-                    sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
-                consider(
-                    wedge_exponent(&secs, None, lambda_max),
-                    TAU,
-                    regions,
-                    SingularKind::DielectricCorner,
-                    dirs[0].0,
-                    secs.clone(),
-                    None,
-                );
-            }
-        } else {
-            // Runs of dielectric sectors between consecutive walls.
-            for (w, &k0) in wall_idx.iter().enumerate() {
-                let k1 = wall_idx[(w + 1) % wall_idx.len()];
-                // Outside the domain, the wall is that of the boundary stretch along the
-                // run's bounding direction when it has its own condition.
-                let start = match (sectors[k0].1, dirs[(k0 + 1) % n].2) {
-                    (Side::Outside, Some(w)) if !on_axis => w,
-                    (s, _) => wall_of(s).unwrap(),
-                };
-                let end = match (sectors[k1].1, dirs[k1].2) {
-                    (Side::Outside, Some(w)) if !on_axis => w,
-                    (s, _) => wall_of(s).unwrap(),
-                };
-                let mut secs = Vec::new();
-                let mut regions = Vec::new();
-                let mut k = (k0 + 1) % n;
-                while k != k1 {
-                    secs.push(Sector { angle: sectors[k].0, permittivity: eps(sectors[k].1) });
-                    if let Side::Region(r) = sectors[k].1 {
-                        regions.push(r);
-                    }
-                    k = (k + 1) % n;
-                }
-                if secs.is_empty() {
-                    continue;
-                }
-                let opening: f64 = secs.iter().map(|s| s.angle).sum();
-                let has_cond =
-                    matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
-                let multi =
-                    secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
-                let kind = match (has_cond, multi) {
-                    (true, false) => SingularKind::ConductorCorner,
-                    (true, true) => SingularKind::TripleJunction,
-                    (false, _) => SingularKind::BoundaryCorner,
-                };
-                // A conical point on the axis: one dielectric between the axis and a
-                // conductor follows the Legendre condition, not the planar wedge.
-                let axis_to_conductor = on_axis
-                    && !multi
-                    && ((sectors[k0].1 == Side::Outside && matches!(sectors[k1].1, Side::Conductor(_)))
-                        || (sectors[k1].1 == Side::Outside && matches!(sectors[k0].1, Side::Conductor(_))));
-                let lam = if axis_to_conductor {
-                    conical_exponent(opening, lambda_max)
-                } else {
-                    wedge_exponent(&secs, Some((start, end)), lambda_max)
-                };
-                consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0, secs, Some((start, end)));
-            }
+    };
+    let wall_idx: Vec<usize> = (0..n).filter(|&k| wall_of(sectors[k].1).is_some()).collect();
+    if wall_idx.is_empty() {
+        // Only dielectrics around the point.
+        let secs: Vec<Sector> = sectors.iter().map(|s| Sector { angle: s.0, permittivity: eps(s.1) }).collect();
+        let distinct =
+            secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+        if distinct {
+            let regions =
+                sectors.iter().filter_map(|s| if let Side::Region(r) = s.1 { Some(r) } else { None }).collect();
+            consider(
+                wedge_exponent(&secs, None, lambda_max),
+                TAU,
+                regions,
+                SingularKind::DielectricCorner,
+                dirs[0].0,
+                secs.clone(),
+                None,
+            );
         }
-        Ok(best)
+    } else {
+        // Runs of dielectric sectors between consecutive walls.
+        for (w, &k0) in wall_idx.iter().enumerate() {
+            let k1 = wall_idx[(w + 1) % wall_idx.len()];
+            let start = bounding_wall(sectors[k0].1, dirs[(k0 + 1) % n].2);
+            let end = bounding_wall(sectors[k1].1, dirs[k1].2);
+            let mut secs = Vec::new();
+            let mut regions = Vec::new();
+            let mut k = (k0 + 1) % n;
+            while k != k1 {
+                secs.push(Sector { angle: sectors[k].0, permittivity: eps(sectors[k].1) });
+                if let Side::Region(r) = sectors[k].1 {
+                    regions.push(r);
+                }
+                k = (k + 1) % n;
+            }
+            if secs.is_empty() {
+                continue;
+            }
+            let opening: f64 = secs.iter().map(|s| s.angle).sum();
+            let has_cond = matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
+            let multi =
+                secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+            let kind = match (has_cond, multi) {
+                (true, false) => SingularKind::ConductorCorner,
+                (true, true) => SingularKind::TripleJunction,
+                (false, _) => SingularKind::BoundaryCorner,
+            };
+            // A conical point on the axis: one dielectric between the axis and a
+            // conductor follows the Legendre condition, not the planar wedge.
+            let axis_to_conductor = on_axis
+                && !multi
+                && ((sectors[k0].1 == Side::Outside && matches!(sectors[k1].1, Side::Conductor(_)))
+                    || (sectors[k1].1 == Side::Outside && matches!(sectors[k0].1, Side::Conductor(_))));
+            let lam = if axis_to_conductor {
+                conical_exponent(opening, lambda_max)
+            } else {
+                wedge_exponent(&secs, Some((start, end)), lambda_max)
+            };
+            consider(lam, opening, regions, kind, dirs[(k0 + 1) % n].0, secs, Some((start, end)));
+        }
     }
+    Ok(best)
 }
 
 #[cfg(test)]
