@@ -104,7 +104,7 @@ pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{
     point_values, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,
 };
-pub use problem::{BoundaryStretch, ConductorSpec, Problem};
+pub use problem::{BoundaryStretch, ConductorSpec, Problem, StretchCondition};
 pub use singular::{
     singular_coefficient, singular_coefficient_dual, singular_field, singular_field_factor, singular_radius_above,
     SingularFit,

@@ -24,23 +24,29 @@ pub enum ConductorSpec {
 pub struct BoundaryStretch {
     /// The stretch, metres; its ends are mesh vertices (`mesher::Geometry::boundary_pieces`).
     pub curve: mesher::Curve,
-    /// The potential along it as (arc length from the curve's start in metres, V) pairs,
+    /// What holds it.
+    pub condition: StretchCondition,
+}
+
+/// The condition on a [`BoundaryStretch`].
+#[derive(Clone, Debug, PartialEq)]
+pub enum StretchCondition {
+    /// Held at the potential of (arc length from the curve's start in metres, V) pairs,
     /// interpolated linearly and constant beyond the first and last (one pair: a constant
-    /// potential); `None` (and no conductor): zero normal flux.
-    pub potential: Option<Vec<(f64, f64)>>,
-    /// The stretch is part of this conductor's surface (index into the mesh's conductors):
-    /// held at its potential, fixed or floating, its charge counted with the conductor's.
-    /// `potential` is then ignored.
-    pub conductor: Option<u32>,
+    /// potential).
+    Potential(Vec<(f64, f64)>),
+    /// Zero normal flux.
+    ZeroFlux,
+    /// Part of this conductor's surface (index into the mesh's conductors): held at its
+    /// potential, fixed or floating, its charge counted with the conductor's.
+    Conductor(u32),
 }
 
 impl BoundaryStretch {
-    /// The potential at `p` (a point on the curve), if the stretch is held.
+    /// The potential at `p` (a point on the curve), if the stretch is held at a given
+    /// potential (not a conductor's).
     pub fn potential_at(&self, p: [f64; 2]) -> Option<f64> {
-        if self.conductor.is_some() {
-            return None;
-        }
-        let table = self.potential.as_ref()?;
+        let StretchCondition::Potential(table) = &self.condition else { return None };
         let s = self.curve.distance(p).1 * self.curve.length();
         let (first, last) = (table.first()?, table.last()?);
         if s <= first.0 {
@@ -52,6 +58,14 @@ impl BoundaryStretch {
         let k = table.partition_point(|e| e.0 <= s).clamp(1, table.len() - 1);
         let ((s0, v0), (s1, v1)) = (table[k - 1], table[k]);
         Some(if s1 > s0 { v0 + (v1 - v0) * (s - s0) / (s1 - s0) } else { v1 })
+    }
+
+    /// The wall the stretch makes for the corner analysis.
+    pub fn wall(&self) -> mesher::Wall {
+        match self.condition {
+            StretchCondition::ZeroFlux => mesher::Wall::ZeroFlux,
+            _ => mesher::Wall::Potential,
+        }
     }
 }
 
@@ -94,7 +108,7 @@ impl Problem {
     /// values g, and the terminal's "potential" is 1.
     pub(crate) fn outer_varying(&self) -> bool {
         self.outer_potential_fn.is_some()
-            || self.boundary_stretches.iter().any(|b| b.potential.is_some() && b.conductor.is_none())
+            || self.boundary_stretches.iter().any(|b| matches!(b.condition, StretchCondition::Potential(_)))
     }
 
     /// Some part of the outer boundary is held at a potential.

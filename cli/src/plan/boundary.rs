@@ -5,6 +5,7 @@
 use super::diag::ModelError;
 use super::raw::RawModel;
 use super::{BoundaryPieceSpec, Conductor, ConductorKind, Ctx};
+use engine::{BoundaryStretch, StretchCondition};
 use mesher::{Curve, OuterBoundary, Outline};
 
 /// `[boundary]` and the potential reference: the outer boundary's kind and potential, and
@@ -193,8 +194,8 @@ pub(super) fn pieces(
                 .key(key("potential_v"))
                 .help("potential_v = <V>, zero_flux = true, potential_from_v and potential_to_v (linear along it), potential_table = [[s, V], ...], or conductor = \"<name>\""));
         }
-        let conductor = match &p.conductor {
-            Some(c) => Some(conductors.iter().position(|k| &k.name == c.get_ref()).ok_or_else(|| {
+        let condition = if let Some(c) = &p.conductor {
+            let k = conductors.iter().position(|k| &k.name == c.get_ref()).ok_or_else(|| {
                 let known: Vec<&str> = conductors.iter().map(|k| k.name.as_str()).collect();
                 cx.err(c.span(), format!("unknown conductor '{}' in boundary piece '{name}'", c.get_ref()))
                     .key(key("conductor"))
@@ -203,13 +204,10 @@ pub(super) fn pieces(
                     } else {
                         format!("known conductors: {}", known.join(", "))
                     })
-            })? as u32),
-            None => None,
-        };
-        let potential = if conductor.is_some() {
-            None
+            })?;
+            StretchCondition::Conductor(k as u32)
         } else if let Some(v) = &p.potential_v {
-            Some(vec![(0.0, cx.potential(v, key("potential_v"))?)])
+            StretchCondition::Potential(vec![(0.0, cx.potential(v, key("potential_v"))?)])
         } else if let Some(z) = &p.zero_flux {
             if !*z.get_ref() {
                 return Err(cx
@@ -217,7 +215,7 @@ pub(super) fn pieces(
                     .key(key("zero_flux"))
                     .help("leave the piece out for the outer boundary's own condition, or give it a potential"));
             }
-            None
+            StretchCondition::ZeroFlux
         } else if let Some(t) = &p.potential_table {
             let mut table: Vec<(f64, f64)> = Vec::new();
             for (k, e) in t.get_ref().iter().enumerate() {
@@ -246,29 +244,29 @@ pub(super) fn pieces(
                     .key(key("potential_table"))
                     .help("use potential_v for a constant potential"));
             }
-            Some(table)
+            StretchCondition::Potential(table)
         } else {
             let (Some(a), Some(b)) = (&p.potential_from_v, &p.potential_to_v) else {
                 return Err(cx
                     .err(whole, "a linear potential needs both potential_from_v and potential_to_v".into())
                     .key(key("potential_from_v")));
             };
-            Some(vec![
+            StretchCondition::Potential(vec![
                 (0.0, cx.potential(a, key("potential_from_v"))?),
                 (length, cx.potential(b, key("potential_to_v"))?),
             ])
         };
         // Pieces may meet at their ends but not overlap: an edge would have two conditions.
         if let Some(other) = out.iter().find(|q| {
-            [0.25, 0.5, 0.75].iter().any(|&t| q.curve.distance(curve.point_at(t)).0 <= tol)
-                || [0.25, 0.5, 0.75].iter().any(|&t| curve.distance(q.curve.point_at(t)).0 <= tol)
+            let on = |a: &Curve, b: &Curve| [0.25, 0.5, 0.75].iter().any(|&t| a.distance(b.point_at(t)).0 <= tol);
+            on(&q.stretch.curve, &curve) || on(&curve, &q.stretch.curve)
         }) {
             return Err(cx
                 .err(p.name.span(), format!("boundary piece '{name}' overlaps piece '{}'", other.name))
                 .key(key("along"))
                 .help("pieces may meet end to end; split the boundary so that each stretch has one condition"));
         }
-        out.push(BoundaryPieceSpec { name, curve, potential, conductor });
+        out.push(BoundaryPieceSpec { name, stretch: BoundaryStretch { curve, condition } });
     }
     Ok(out)
 }

@@ -111,13 +111,8 @@ pub enum ProbeKind {
 pub struct BoundaryPieceSpec {
     /// Name.
     pub name: String,
-    /// The stretch, metres.
-    pub curve: mesher::Curve,
-    /// (arc length in metres, V) pairs, linear between them; `None`: zero flux (or a
-    /// conductor's).
-    pub potential: Option<Vec<(f64, f64)>>,
-    /// The conductor whose surface it is (index), if any.
-    pub conductor: Option<u32>,
+    /// The stretch (metres) and its condition, as the engine takes it.
+    pub stretch: engine::BoundaryStretch,
 }
 
 /// A named point where `solve` and `check` report V and E (`[[point]]`).
@@ -581,14 +576,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         size_points,
         boundary_pieces: boundary_pieces
             .iter()
-            .map(|b| mesher::BoundaryPiece {
-                curve: b.curve,
-                wall: if b.potential.is_some() || b.conductor.is_some() {
-                    mesher::Wall::Potential
-                } else {
-                    mesher::Wall::ZeroFlux
-                },
-            })
+            .map(|b| mesher::BoundaryPiece { curve: b.stretch.curve, wall: b.stretch.wall() })
             .collect(),
     };
     let singular_exclusion_radius_m =

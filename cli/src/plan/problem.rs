@@ -34,11 +34,7 @@ pub fn problem_of(model: &Plan) -> Problem {
             .collect(),
         outer_potential_v: model.outer_potential_v,
         outer_potential_fn: None,
-        boundary_stretches: model
-            .boundary_pieces
-            .iter()
-            .map(|b| engine::BoundaryStretch { curve: b.curve, potential: b.potential.clone(), conductor: b.conductor })
-            .collect(),
+        boundary_stretches: model.boundary_pieces.iter().map(|b| b.stretch.clone()).collect(),
         memory_budget_bytes: Some(model.memory_budget_bytes),
     }
 }

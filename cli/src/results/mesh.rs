@@ -3,6 +3,7 @@
 //! command, which all mesh first.
 
 use crate::plan::{ConductorKind, Plan};
+use engine::StretchCondition;
 use mesher::{GradingStatus, MeshOutcome, Symmetry};
 use serde::Serialize;
 
@@ -282,25 +283,27 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
             .boundary_pieces
             .iter()
             .map(|b| {
-                let tol = 1e-9 * mesh.scale();
-                let on = |v: u32| b.curve.distance(mesh.nodes[v as usize]).0 <= tol;
+                let (curve, tol) = (&b.stretch.curve, 1e-9 * mesh.scale());
+                let on = |v: u32| curve.distance(mesh.nodes[v as usize]).0 <= tol;
                 let edges = mesh
                     .edges
                     .iter()
                     .filter(|e| e.tag == mesher::EdgeTag::Outer && on(e.nodes[0]) && on(e.nodes[1]))
                     .count();
-                let condition = match (&b.potential, b.conductor) {
-                    (_, Some(c)) => format!("surface of conductor {}", model.conductors[c as usize].name),
-                    (None, None) => "zero normal flux".into(),
-                    (Some(t), None) if t.len() == 1 => format!("fixed potential {} V", t[0].1),
-                    (Some(t), None) => format!(
+                let condition = match &b.stretch.condition {
+                    StretchCondition::Conductor(c) => {
+                        format!("surface of conductor {}", model.conductors[*c as usize].name)
+                    }
+                    StretchCondition::ZeroFlux => "zero normal flux".into(),
+                    StretchCondition::Potential(t) if t.len() == 1 => format!("fixed potential {} V", t[0].1),
+                    StretchCondition::Potential(t) => format!(
                         "potential from {} V to {} V along it ({} points, linear between)",
                         t[0].1,
                         t[t.len() - 1].1,
                         t.len()
                     ),
                 };
-                PieceReport { name: b.name.clone(), condition, length: b.curve.length() / k, edges }
+                PieceReport { name: b.name.clone(), condition, length: curve.length() / k, edges }
             })
             .collect(),
         conductors: model
@@ -485,11 +488,10 @@ fn potential_jumps(model: &Plan) -> Vec<String> {
     }
     let tol = 1e-9 * model.geometry.scale();
     let k = model.unit_m;
+    // The potential at each end of a piece held at a given potential.
     let ends = |p: &crate::plan::BoundaryPieceSpec| -> Vec<(mesher::Xy, f64)> {
-        let Some(t) = &p.potential else { return Vec::new() };
-        let first = t.first().map_or(0.0, |e| e.1);
-        let last = t.last().map_or(0.0, |e| e.1);
-        vec![(p.curve.from(), first), (p.curve.to(), if t.len() == 1 { first } else { last })]
+        let c = &p.stretch.curve;
+        [c.from(), c.to()].into_iter().filter_map(|e| p.stretch.potential_at(e).map(|v| (e, v))).collect()
     };
     let same = |a: mesher::Xy, b: mesher::Xy| (a[0] - b[0]).hypot(a[1] - b[1]) <= tol;
     let mut out = Vec::new();
@@ -517,7 +519,7 @@ fn potential_jumps(model: &Plan) -> Vec<String> {
                 .boundary_pieces
                 .iter()
                 .enumerate()
-                .any(|(j, b)| j != i && (same(b.curve.from(), at) || same(b.curve.to(), at)));
+                .any(|(j, b)| j != i && (same(b.stretch.curve.from(), at) || same(b.stretch.curve.to(), at)));
             if let (false, Some(v0)) = (shared, model.outer_potential_v) {
                 if differ(va, v0) {
                     warn(&a.name, va, "the rest of the outer boundary".into(), v0, at);

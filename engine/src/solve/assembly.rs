@@ -13,6 +13,7 @@
 //!   mapped exterior disc of the open boundary; see `mesher/src/exterior.rs`).
 
 use super::*;
+use crate::StretchCondition;
 
 /// What one chunk of elements contributes: matrix triplets, and (terminal, row, value)
 /// couplings to held nodes.
@@ -567,14 +568,16 @@ fn boundary_nodes(mesh: &Mesh, problem: &Problem) -> Result<BoundaryNodes, Solve
             for v in [Some(a), Some(b), mid].into_iter().flatten() {
                 match tag {
                     EdgeTag::Conductor(c) => node_conductor[v as usize] = Some(*c),
-                    EdgeTag::Outer if stretch.is_some_and(|s| s.conductor.is_some()) => {
-                        node_conductor[v as usize] = stretch.and_then(|s| s.conductor);
-                    }
                     EdgeTag::Outer => {
                         let p = mesh.nodes[v as usize];
-                        // A zero-flux stretch holds nothing; a held one its profile.
-                        let held = match stretch {
-                            Some(s) => s.potential_at(p),
+                        // A conductor's stretch joins the conductor; a zero-flux one holds
+                        // nothing; a held one its profile; the rest the outer boundary's.
+                        let held = match stretch.map(|s| &s.condition) {
+                            Some(&StretchCondition::Conductor(c)) => {
+                                node_conductor[v as usize] = Some(c);
+                                None
+                            }
+                            Some(_) => stretch.and_then(|s| s.potential_at(p)),
                             None => plain_outer(p),
                         };
                         if let Some(value) = held {
