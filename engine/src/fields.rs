@@ -319,7 +319,7 @@ fn peaks_of(mesh: &Mesh, means: Vec<VertexMean>, discs: &[(Xy, f64)]) -> Vec<Reg
             continue;
         }
         let at = mesh.nodes[g.node as usize];
-        if discs.iter().any(|(c, rad)| (at[0] - c[0]).hypot(at[1] - c[1]) < *rad) {
+        if in_exclusion_disc(discs, at) {
             continue;
         }
         let m = if singular.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
@@ -342,6 +342,11 @@ fn peaks_of(mesh: &Mesh, means: Vec<VertexMean>, discs: &[(Xy, f64)]) -> Vec<Reg
 pub fn region_peaks_away_from(mesh: &Mesh, solution: &Solution, discs: &[(Xy, f64)]) -> Vec<RegionPeak> {
     assert_eq!(solution.potential.len(), mesh.nodes.len(), "solution and mesh do not match");
     peaks_away_from_with(mesh, solution, &PrimalRecovery::new(mesh, &solution.potential), discs)
+}
+
+/// `p` lies inside one of the `discs` (centre, radius in metres; the rims belong outside).
+pub fn in_exclusion_disc(discs: &[(Xy, f64)], p: Xy) -> bool {
+    discs.iter().any(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) < *r)
 }
 
 /// The disc (centre, radius in metres) around every point whose field is singular
@@ -479,7 +484,7 @@ fn polish_peaks(
     peaks: &mut [RegionPeak],
     discs: &[(Xy, f64)],
 ) {
-    let outside = |p: Xy| discs.iter().all(|(c, rad)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *rad);
+    let outside = |p: Xy| !in_exclusion_disc(discs, p);
     for peak in peaks.iter_mut() {
         if quad.lambda_at(peak.node).is_some() || mesh.nodes[peak.node as usize] != peak.at {
             continue;

@@ -99,7 +99,9 @@ pub use convergence::{
 };
 pub use error::SolveError;
 pub use estimate::{estimate_error, ErrorEstimate};
-pub use fields::{element_fields, energy_error, exclusion_discs, region_peaks_away_from, ElementFields, RegionPeak};
+pub use fields::{
+    element_fields, energy_error, exclusion_discs, in_exclusion_disc, region_peaks_away_from, ElementFields, RegionPeak,
+};
 pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{
     point_values, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,

@@ -450,7 +450,7 @@ pub fn breakdown_checks(
     bar_of: BarLookup<'_>,
 ) -> (Checks, Vec<(String, String)>) {
     let sol = &solved.solution;
-    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+    let outside = |p: Xy| !engine::in_exclusion_disc(discs, p);
     let region_name = |r: u32| mesh.shape_names[r as usize].clone();
     let material = |r: u32| plan.shape_material.get(r as usize).copied().flatten().map(|m| &plan.materials[m]);
     // The peak away from singular points of every region: certified value and bar where

@@ -239,15 +239,7 @@ pub fn analyse(
                     })
                 })
                 .fold(0.0, f64::max);
-            let near = mesh
-                .singular_points
-                .iter()
-                .enumerate()
-                .filter(|(_, s)| s.is_field_singular())
-                .map(|(i, s)| (i, (s.at[0] - p.at[0]).hypot(s.at[1] - p.at[1])))
-                .filter(|&(_, d)| d <= 2.0 * h)
-                .min_by(|a, b| a.1.total_cmp(&b.1))
-                .map(|(i, _)| format!("S{}", i + 1));
+            let near = singular_point_within(mesh, p.at, 2.0 * h).map(|i| format!("S{}", i + 1));
             let allow = mat.and_then(|m| m.allowable_stress_kv_per_mm);
             RegionResult {
                 name: mesh.shape_names[r].clone(),
@@ -357,7 +349,11 @@ pub fn analyse(
 
 /// V and the recovered E at the model's named points (`[[point]]`), bars left empty.
 pub fn point_results(model: &Plan, mesh: &mesher::Mesh, solved: &engine::FactoredSolution) -> Vec<PointResult> {
+    if model.points.is_empty() {
+        return Vec::new();
+    }
     let positions: Vec<mesher::Xy> = model.points.iter().map(|p| p.at).collect();
+    let grid = mesher::triangle_grid(mesh, 0.0);
     let values = solved.point_values(mesh, &positions);
     model
         .points
@@ -370,7 +366,7 @@ pub fn point_results(model: &Plan, mesh: &mesher::Mesh, solved: &engine::Factore
                         .into(),
                 )
             } else {
-                near_singular_point(mesh, p.at)
+                near_singular_point(mesh, &grid, p.at)
             };
             PointResult {
                 name: p.name.clone(),
@@ -395,9 +391,8 @@ pub fn point_results(model: &Plan, mesh: &mesher::Mesh, solved: &engine::Factore
 }
 
 /// A note naming the field-singular point within two element sizes of `p`, if any (the
-/// field there grows as the mesh is refined).
-fn near_singular_point(mesh: &mesher::Mesh, p: mesher::Xy) -> Option<String> {
-    let grid = mesher::triangle_grid(mesh, 0.0);
+/// field there grows as the mesh is refined); `grid` is the mesh's triangle grid.
+fn near_singular_point(mesh: &mesher::Mesh, grid: &mesher::BucketGrid, p: mesher::Xy) -> Option<String> {
     let mut h: f64 = 0.0;
     grid.for_each_near(p, 0.0, |t| {
         let tri = mesh.triangles[t as usize];
@@ -406,16 +401,20 @@ fn near_singular_point(mesh: &mesher::Mesh, p: mesher::Xy) -> Option<String> {
             h = h.max((a[0] - b[0]).hypot(a[1] - b[1]));
         }
     });
+    singular_point_within(mesh, p, 2.0 * h)
+        .map(|i| format!("within two element sizes of singular point S{}: the field there is mesh-dependent", i + 1))
+}
+
+/// The field-singular point nearest to `p` within `reach` (metres), by its index.
+fn singular_point_within(mesh: &mesher::Mesh, p: mesher::Xy, reach: f64) -> Option<usize> {
     mesh.singular_points
         .iter()
         .enumerate()
         .filter(|(_, s)| s.is_field_singular())
         .map(|(i, s)| (i, (s.at[0] - p[0]).hypot(s.at[1] - p[1])))
-        .filter(|&(_, d)| d <= 2.0 * h)
+        .filter(|&(_, d)| d <= reach)
         .min_by(|a, b| a.1.total_cmp(&b.1))
-        .map(|(i, _)| {
-            format!("within two element sizes of singular point S{}: the field there is mesh-dependent", i + 1)
-        })
+        .map(|(i, _)| i)
 }
 
 /// points.csv: one row per point and side (a point outside the dielectric mesh gets one

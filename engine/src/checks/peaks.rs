@@ -81,7 +81,7 @@ pub(crate) fn local_peaks_with(
     let value_of = |node: u32, region: u32| {
         values.binary_search_by_key(&(node, region), |(g, _)| (g.node, g.region)).ok().map(|k| values[k].1)
     };
-    let inside_disc = |p: Xy| discs.iter().any(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) < *r);
+    let inside_disc = |p: Xy| crate::fields::in_exclusion_disc(discs, p);
     // A vertex is a local maximum until a neighbour in the same region beats it.
     let mut is_max = vec![true; values.len()];
     for (t, tri) in mesh.triangles.iter().enumerate() {

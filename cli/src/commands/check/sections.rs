@@ -51,7 +51,7 @@ pub(super) fn annotate_points(
     discs: &[(mesher::Xy, f64)],
 ) {
     for p in points {
-        let singular = discs.iter().any(|(c, r)| (p.at_m[0] - c[0]).hypot(p.at_m[1] - c[1]) < *r);
+        let singular = engine::in_exclusion_disc(discs, p.at_m);
         let n = p.sides.len();
         for s in &mut p.sides {
             let (v, e) = super::watch::point_quantity_names(&p.name, &s.region, n);

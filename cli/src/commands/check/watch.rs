@@ -93,7 +93,7 @@ pub(super) fn quantity_list(model: &Plan, mesh: &Mesh) -> Watchlist {
 
 /// The largest |E| of a probe outside the discs: value, where, and the region there.
 fn probe_peak(model: &Plan, mesh: &Mesh, sol: &Solution, i: usize, discs: &[(Xy, f64)]) -> (f64, Xy, Option<u32>) {
-    let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+    let outside = |p: Xy| !engine::in_exclusion_disc(discs, p);
     let kind = &model.probes[i].kind;
     let mut best = (0.0, [0.0; 2], None);
     match (kind, interface_selector(kind)) {
@@ -178,7 +178,7 @@ pub(super) fn watch(
                 (value, 0.01 * peak_max, QuantityClass::Field, goal)
             }
             Quantity::ProbeTangential(i) => {
-                let outside = |p: Xy| discs.iter().all(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) >= *r);
+                let outside = |p: Xy| !engine::in_exclusion_disc(discs, p);
                 let value = match interface_selector(&model.probes[i].kind) {
                     Some((which, _)) => interface_peak(&engine::probe_interface(mesh, sol, which), outside).1,
                     None => 0.0,
@@ -249,7 +249,7 @@ pub(super) fn watch(
             // every refinement.
             if let Quantity::PointPotential(i, _) | Quantity::PointField(i, _) = q {
                 let p = positions[*i];
-                if discs.iter().any(|(c, r)| (p[0] - c[0]).hypot(p[1] - c[1]) < *r) {
+                if engine::in_exclusion_disc(discs, p) {
                     w = w.reported_only();
                 }
             }
