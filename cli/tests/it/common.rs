@@ -70,3 +70,57 @@ pub fn run_model(text: &str, command: &str, extra: &[&str]) -> (tempfile::TempDi
     let r = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
     (dir, r, stdout(&o))
 }
+
+/// The two-layer coaxial line several tests solve: core r = 10 mm at 1 kV, paper (εr 4) to
+/// 20 mm, oil (εr 2.2) to the earthed outer boundary at 30 mm; lengths in `unit` ("mm" or
+/// "m"), P2 elements of at most `max_size` (in `unit`).
+pub fn two_layer_coax(unit: &str, max_size: f64) -> String {
+    let k = match unit {
+        "mm" => 1.0,
+        "m" => 1e-3,
+        u => panic!("unit {u}"),
+    };
+    let (a, c, b) = (10.0 * k, 20.0 * k, 30.0 * k);
+    format!(
+        r#"
+[model]
+symmetry = "planar"
+length_unit = "{unit}"
+
+[[material]]
+name = "oil"
+permittivity = 2.2
+
+[[material]]
+name = "paper"
+permittivity = 4.0
+
+[[conductor]]
+name = "core"
+potential_v = 1000.0
+
+[[shape]]
+name = "oil"
+material = "oil"
+circle = {{ center = [0.0, 0.0], radius = {b:?} }}
+
+[[shape]]
+name = "paper"
+material = "paper"
+circle = {{ center = [0.0, 0.0], radius = {c:?} }}
+
+[[shape]]
+name = "core"
+conductor = "core"
+circle = {{ center = [0.0, 0.0], radius = {a:?} }}
+
+[boundary]
+outer = "potential"
+potential_v = 0.0
+
+[mesh]
+max_size = {max_size:?}
+order = 2
+"#
+    )
+}

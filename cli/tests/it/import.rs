@@ -128,61 +128,24 @@ fn check_on_the_imported_annulus_certifies_the_coaxial_closed_form() {
     assert!(out.join("report.html").exists());
 }
 
-/// A drawn two-layer coaxial model (core 10 mm at 1 kV, paper to 20 mm, oil to 30 mm,
-/// earthed outer boundary), lengths in metres so its VTU reads back in the same unit.
-const DRAWN: &str = r#"
-[model]
-symmetry = "planar"
-length_unit = "m"
-
-[[material]]
-name = "oil"
-permittivity = 2.2
-
-[[material]]
-name = "paper"
-permittivity = 4.0
-
-[[conductor]]
-name = "core"
-potential_v = 1000.0
-
-[[shape]]
-name = "oil"
-material = "oil"
-circle = { center = [0.0, 0.0], radius = 0.03 }
-
-[[shape]]
-name = "paper"
-material = "paper"
-circle = { center = [0.0, 0.0], radius = 0.02 }
-
-[[shape]]
-name = "core"
-conductor = "core"
-circle = { center = [0.0, 0.0], radius = 0.01 }
-
-[boundary]
-outer = "potential"
-potential_v = 0.0
-
-[mesh]
-max_size = 0.003
-order = 2
-"#;
+/// The drawn two-layer coaxial model in metres, so that its VTU reads back in the same unit.
+fn drawn_coax() -> String {
+    crate::common::two_layer_coax("m", 0.003)
+}
 
 #[test]
 fn a_mesh_written_by_mesh_out_reads_back_and_solves_identically() {
     let dir = tempfile::tempdir().unwrap();
     let drawn = dir.path().join("drawn.toml");
-    std::fs::write(&drawn, DRAWN).unwrap();
+    std::fs::write(&drawn, drawn_coax()).unwrap();
     let vtu = dir.path().join("drawn.vtu");
     let o = run(&["mesh", drawn.to_str().unwrap(), "--out", vtu.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
     // Our files: region = shape index on triangles; edge_ref = conductor index on conductor
     // edges, -1 on the outer boundary.
     let imported = dir.path().join("imported.toml");
-    let head = DRAWN.split("[[shape]]").next().unwrap();
+    let text = drawn_coax();
+    let head = text.split("[[shape]]").next().unwrap();
     let tail = r#"
 [boundary]
 outer = "potential"

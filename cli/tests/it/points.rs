@@ -1,51 +1,16 @@
 //! `[[point]]`: V and E at named points, against the closed forms of the two-layer coaxial
 //! line and of concentric spheres; with `check`, every value inside its printed bar.
 
-use crate::common::{run, run_model, stderr};
+use crate::common::{run, run_model, stderr, two_layer_coax};
 use serde_json::Value;
 
-/// Core r = 10 mm at 1 kV, paper (εr 4) to 20 mm, oil (εr 2.2) to the earthed sheath at
-/// 30 mm; points in the paper, on the paper–oil interface, in the oil, and in the core.
-const COAX: &str = r#"
-[model]
-symmetry = "planar"
-length_unit = "mm"
+/// The two-layer coaxial line (`common::two_layer_coax`, mm, P2 at h = 1 mm) with points
+/// in the paper, on the paper–oil interface, in the oil, and in the core.
+fn coax() -> String {
+    two_layer_coax("mm", 1.0) + POINTS
+}
 
-[[material]]
-name = "oil"
-permittivity = 2.2
-
-[[material]]
-name = "paper"
-permittivity = 4.0
-
-[[conductor]]
-name = "core"
-potential_v = 1000.0
-
-[[shape]]
-name = "oil"
-material = "oil"
-circle = { center = [0.0, 0.0], radius = 30.0 }
-
-[[shape]]
-name = "paper"
-material = "paper"
-circle = { center = [0.0, 0.0], radius = 20.0 }
-
-[[shape]]
-name = "core"
-conductor = "core"
-circle = { center = [0.0, 0.0], radius = 10.0 }
-
-[boundary]
-outer = "potential"
-potential_v = 0.0
-
-[mesh]
-order = 2
-max_size = 1.0
-
+const POINTS: &str = r#"
 [[point]]
 name = "in paper"
 at = [12.99038105676658, 7.5]
@@ -95,7 +60,7 @@ fn point<'a>(r: &'a Value, name: &str) -> &'a Value {
 
 #[test]
 fn point_values_match_the_two_layer_coaxial_line() {
-    let r = results("solve", COAX, &[]);
+    let r = results("solve", &coax(), &[]);
     for (name, radius, region, eps) in [
         ("in paper", 0.015, "paper", 4.0),
         ("interface", 0.020, "paper", 4.0),
@@ -122,7 +87,7 @@ fn point_values_match_the_two_layer_coaxial_line() {
 
 #[test]
 fn check_certifies_point_values_within_their_bars() {
-    let r = results("check", COAX, &["--tol", "0.1%"]);
+    let r = results("check", &coax(), &["--tol", "0.1%"]);
     assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
     for (name, radius, region, eps) in [
         ("in paper", 0.015, "paper", 4.0),
@@ -216,7 +181,7 @@ fn misused_points_are_located_errors() {
         let path = dir.path().join("m.toml");
         // In the axisymmetric variant the shapes stay in x ≥ 0 only for the error's sake:
         // the point is refused before the geometry is.
-        std::fs::write(&path, COAX.replace(from, to)).unwrap();
+        std::fs::write(&path, coax().replace(from, to)).unwrap();
         let o = run(&["solve", path.to_str().unwrap(), "--out", dir.path().join("o").to_str().unwrap()]);
         assert_eq!(o.status.code(), Some(2), "{to}: {}", stderr(&o));
         let e = stderr(&o);
