@@ -39,14 +39,9 @@
 
 use crate::error::MeshError;
 use crate::geometry::{norm, sub, Xy};
-use crate::mesh::{Mesh, TaggedEdge};
+use crate::mesh::{arc_midpoint, edge_key as key, Mesh, TaggedEdge};
 use crate::size_field::BackgroundSize;
 use std::collections::HashMap;
-
-/// Key of the undirected edge a–b.
-fn key(a: u32, b: u32) -> u64 {
-    ((a.min(b) as u64) << 32) | a.max(b) as u64
-}
 
 /// No neighbour across an edge (a boundary edge).
 const NONE: u32 = u32::MAX;
@@ -241,7 +236,7 @@ impl Work {
             let mut p = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
             if let Some(&i) = tagged.get(&key(a, b)) {
                 if let Some(arc) = self.edges[i].arc {
-                    p = on_arc(first.arcs[arc as usize].center, first.arcs[arc as usize].radius, pa, pb);
+                    p = arc_midpoint(first.arcs[arc as usize], pa, pb);
                 }
                 edge_splits.push((i, self.nodes.len() as u32));
             }
@@ -304,15 +299,6 @@ impl Work {
         changed.resize(self.tris.len(), true);
         Ok(Some(changed))
     }
-}
-
-/// The point of the circle (centre, radius) halfway in angle between `a` and `b` (the
-/// short way round).
-fn on_arc(center: Xy, radius: f64, a: Xy, b: Xy) -> Xy {
-    let (ua, ub) = (sub(a, center), sub(b, center));
-    let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
-    let ns = norm(s);
-    [center[0] + radius * s[0] / ns, center[1] + radius * s[1] / ns]
 }
 
 #[cfg(test)]

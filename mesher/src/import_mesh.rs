@@ -235,7 +235,7 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         }
     }
     // Edges of all triangles, sorted: runs are the cells sharing an edge.
-    let key = |a: u32, b: u32| ((a.min(b) as u64) << 32) | a.max(b) as u64;
+    let key = crate::mesh::edge_key;
     let adj = crate::mesh::sorted_edges_of(grid.points.len(), tris.iter().map(|t| t.1));
     let mut runs: Vec<(usize, usize)> = Vec::new();
     let mut i = 0;

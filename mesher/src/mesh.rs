@@ -8,7 +8,7 @@ use rayon::prelude::*;
 use std::collections::HashMap;
 
 /// Key of the undirected edge a–b: smaller id in the high half.
-fn edge_key(a: u32, b: u32) -> u64 {
+pub(crate) fn edge_key(a: u32, b: u32) -> u64 {
     ((a.min(b) as u64) << 32) | a.max(b) as u64
 }
 
@@ -459,14 +459,7 @@ impl Mesh {
             let (a, b) = ((key >> 32) as usize, (key & 0xffff_ffff) as usize);
             let (pa, pb) = (self.nodes[a], self.nodes[b]);
             let p = match arc_of.binary_search_by_key(&key, |t| t.0) {
-                Ok(k) => {
-                    let g = self.arcs[arc_of[k].1 as usize];
-                    let (ua, ub) = (sub(pa, g.center), sub(pb, g.center));
-                    // Bisector of the two radii (the short way round).
-                    let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
-                    let ns = norm(s);
-                    [g.center[0] + g.radius * s[0] / ns, g.center[1] + g.radius * s[1] / ns]
-                }
+                Ok(k) => arc_midpoint(self.arcs[arc_of[k].1 as usize], pa, pb),
                 Err(_) => [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0],
             };
             let id = self.nodes.len() as u32;
@@ -532,6 +525,15 @@ impl Mesh {
     pub(crate) fn sorted_edges(&self) -> Vec<(u64, u32, u8)> {
         sorted_edges_of(self.num_vertices as usize, self.triangles.iter().copied())
     }
+}
+
+/// The point of the arc's circle halfway in angle between `a` and `b` (the short way
+/// round): on the bisector of their radii.
+pub(crate) fn arc_midpoint(g: ArcGeom, a: Xy, b: Xy) -> Xy {
+    let (ua, ub) = (sub(a, g.center), sub(b, g.center));
+    let s = [ua[0] / norm(ua) + ub[0] / norm(ub), ua[1] / norm(ua) + ub[1] / norm(ub)];
+    let ns = norm(s);
+    [g.center[0] + g.radius * s[0] / ns, g.center[1] + g.radius * s[1] / ns]
 }
 
 /// (edge key, triangle, local edge) for every edge of `triangles` (vertex ids below
