@@ -19,7 +19,8 @@
 //! - [`element_fields`] → [`ElementFields`]: E per element and the peak |E| per region
 //!   with its location.
 //! - [`capacitance_matrix`]: the Maxwell capacitance matrix of the fixed conductors.
-//! - [`point_values`]: V and E at named points, per side on an interface.
+//! - [`FactoredSolution::point_values`]: V and the recovered E at named points, per side
+//!   on an interface ([`point_regions`]: the sides).
 //! - [`probe_line`], [`probe_interface`]: V and E along a polyline, and normal and
 //!   tangential E on both sides of an interface or on a conductor surface.
 //! - [`grid_convergence`]: observed order, Richardson extrapolation and grid convergence
@@ -104,7 +105,7 @@ pub use fields::{
 };
 pub use goal::{goal_estimates, Goal, GoalEstimate};
 pub use probe::{
-    point_values, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,
+    point_regions, probe_interface, probe_line, InterfaceSample, InterfaceSelector, LineSample, PointSide, SideField,
 };
 pub use problem::{BoundaryStretch, ConductorSpec, Problem, StretchCondition};
 pub use singular::{

@@ -9,10 +9,9 @@
 //! A named point gets V and E on each side: the triangles containing it are grouped by
 //! region, and V and E are averaged over the triangles of each region (a point on an edge or
 //! at a vertex lies in several). E is the recovered field (the patch fits of the error
-//! estimate, more accurate than the element's own −∇V_h, which jumps between elements) when
-//! taken from a factorised solution. A point on an
-//! interface thus gets one value per side; a point outside the dielectric mesh (inside a
-//! conductor, or outside the domain) gets none.
+//! estimate, more accurate than the element's own −∇V_h, which jumps between elements). A
+//! point on an interface thus gets one value per side; a point outside the dielectric mesh
+//! (inside a conductor, or outside the domain) gets none.
 //!
 //! An interface (two regions, or a region and a conductor) is sampled at the midpoint of
 //! every mesh edge on it, chained end to end; on each side E is evaluated in the adjacent
@@ -91,22 +90,45 @@ pub struct PointSide {
     pub e: [f64; 2],
 }
 
-/// V and the element field E = −∇V_h at each point, one [`PointSide`] per region whose
-/// triangles contain it (in region order; two on an interface, none outside the dielectric
-/// mesh). Triangles of the mapped open-boundary exterior are left out (their coordinates
-/// are not physical). `potential` holds the nodal values (a [`Solution`]'s `potential`; any
-/// vector of the mesh's length to find only the regions).
-/// [`crate::FactoredSolution::point_values`] gives the recovered field instead.
-///
-/// # Panics
-/// If `potential` does not belong to the mesh.
-#[track_caller]
-pub fn point_values(mesh: &Mesh, potential: &[f64], points: &[Xy]) -> Vec<Vec<PointSide>> {
-    assert_eq!(potential.len(), mesh.nodes.len(), "potential and mesh do not match");
-    point_values_with(mesh, potential, points, |t, xi, eta| evaluate(mesh, potential, t, xi, eta).1)
+/// The regions whose triangles contain each point, in region order (two on an interface,
+/// none outside the dielectric mesh): the sides on which
+/// [`crate::FactoredSolution::point_values`] reports V and E.
+pub fn point_regions(mesh: &Mesh, points: &[Xy]) -> Vec<Vec<u32>> {
+    let grid = TriangleGrid::new(mesh);
+    points.iter().map(|&p| containing(mesh, &grid, p).into_iter().map(|(r, _)| r).collect()).collect()
 }
 
-/// [`point_values`] with E from `field(t, ξ, η)`.
+/// A triangle and the reference coordinates (ξ, η) of a point in it.
+type Located = (usize, f64, f64);
+
+/// The triangles containing `p` (with their reference coordinates there), grouped by
+/// region in region order. Triangles of the mapped open-boundary exterior are left out
+/// (their coordinates are not physical).
+fn containing(mesh: &Mesh, grid: &TriangleGrid, p: Xy) -> Vec<(u32, Vec<Located>)> {
+    let exterior = mesh.exterior.map(|x| x.region);
+    let mut found: Vec<(u32, Vec<Located>)> = Vec::new();
+    grid.grid.for_each_near(p, 0.0, |t| {
+        let t = t as usize;
+        let region = mesh.regions[t];
+        if Some(region) == exterior {
+            return;
+        }
+        // A point given on an interface lies on an element edge only to round-off (a
+        // curved edge's point is found by Newton's method): a looser tolerance finds the
+        // elements of both sides.
+        if let Some((xi, eta)) = locate_within(mesh, t, p, 1e-7) {
+            match found.iter_mut().find(|f| f.0 == region) {
+                Some(f) => f.1.push((t, xi, eta)),
+                None => found.push((region, vec![(t, xi, eta)])),
+            }
+        }
+    });
+    found.sort_by_key(|f| f.0);
+    found
+}
+
+/// V and E = `field(t, ξ, η)` at each point, one [`PointSide`] per region containing it,
+/// averaged over the region's triangles there.
 pub(crate) fn point_values_with(
     mesh: &Mesh,
     potential: &[f64],
@@ -114,39 +136,19 @@ pub(crate) fn point_values_with(
     field: impl Fn(usize, f64, f64) -> [f64; 2],
 ) -> Vec<Vec<PointSide>> {
     let grid = TriangleGrid::new(mesh);
-    let exterior = mesh.exterior.map(|x| x.region);
     points
         .iter()
         .map(|&p| {
-            // (region, triangles, ΣV, ΣE) per region containing p.
-            let mut found: Vec<(u32, usize, f64, [f64; 2])> = Vec::new();
-            grid.grid.for_each_near(p, 0.0, |t| {
-                let t = t as usize;
-                let region = mesh.regions[t];
-                if Some(region) == exterior {
-                    return;
-                }
-                // A point given on an interface lies on an element edge only to round-off
-                // (a curved edge's point is found by Newton's method): a looser tolerance
-                // finds the elements of both sides.
-                if let Some((xi, eta)) = locate_within(mesh, t, p, 1e-7) {
-                    let v = evaluate(mesh, potential, t, xi, eta).0;
-                    let e = field(t, xi, eta);
-                    match found.iter_mut().find(|f| f.0 == region) {
-                        Some(f) => {
-                            f.1 += 1;
-                            f.2 += v;
-                            f.3 = [f.3[0] + e[0], f.3[1] + e[1]];
-                        }
-                        None => found.push((region, 1, v, e)),
-                    }
-                }
-            });
-            found.sort_by_key(|f| f.0);
-            found
+            containing(mesh, &grid, p)
                 .into_iter()
-                .map(|(region, n, v, e)| {
-                    let n = n as f64;
+                .map(|(region, tris)| {
+                    let n = tris.len() as f64;
+                    let (mut v, mut e) = (0.0, [0.0; 2]);
+                    for &(t, xi, eta) in &tris {
+                        v += evaluate(mesh, potential, t, xi, eta).0;
+                        let f = field(t, xi, eta);
+                        e = [e[0] + f[0], e[1] + f[1]];
+                    }
                     PointSide { region, potential: v / n, e: [e[0] / n, e[1] / n] }
                 })
                 .collect()

@@ -215,8 +215,8 @@ impl FactoredSolution {
         self.recovered.get_or_init(|| PrimalRecovery::new(mesh, &self.solution.potential))
     }
 
-    /// V and the recovered E at each point, one side per region containing it (see
-    /// [`crate::point_values`], which gives the element field instead).
+    /// V and the recovered E at each point, one side per region containing it (the regions
+    /// of [`crate::point_regions`]).
     pub fn point_values(&self, mesh: &Mesh, points: &[Xy]) -> Vec<Vec<crate::PointSide>> {
         let primal = self.recovery(mesh);
         let rec = primal.field(&self.solution.potential);

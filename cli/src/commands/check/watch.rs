@@ -74,13 +74,11 @@ pub(super) fn quantity_list(model: &Plan, mesh: &Mesh) -> Watchlist {
         }
     }
     let positions: Vec<Xy> = model.points.iter().map(|p| p.at).collect();
-    let zeros = vec![0.0; mesh.nodes.len()];
-    for (i, sides) in engine::point_values(mesh, &zeros, &positions).iter().enumerate() {
-        for side in sides {
-            let (v, e) =
-                point_quantity_names(&model.points[i].name, &mesh.shape_names[side.region as usize], sides.len());
-            q.push((v, "V", Quantity::PointPotential(i, side.region)));
-            q.push((e, "V/m", Quantity::PointField(i, side.region)));
+    for (i, regions) in engine::point_regions(mesh, &positions).iter().enumerate() {
+        for &r in regions {
+            let (v, e) = point_quantity_names(&model.points[i].name, &mesh.shape_names[r as usize], regions.len());
+            q.push((v, "V", Quantity::PointPotential(i, r)));
+            q.push((e, "V/m", Quantity::PointField(i, r)));
         }
     }
     for (k, sp) in mesh.singular_points.iter().enumerate() {
