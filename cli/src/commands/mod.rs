@@ -75,13 +75,12 @@ pub fn first_mesh(model: &Plan) -> Result<FirstMesh, CliError> {
     }
     // Singular points from the angles of the imported boundary (after the order is set:
     // exponents below the order are singular for the elements).
-    let permittivity = crate::plan::problem::problem_of(model).permittivity;
-    mesh.singular_points = mesher::find_singular_points(&mesh, &permittivity, model.outer_potential_v.is_some())
-        .map_err(|e| {
+    let problem = crate::plan::problem::problem_of(model);
+    mesh.singular_points =
+        mesher::find_singular_points(&mesh, &problem.permittivity, model.outer_potential_v.is_some()).map_err(|e| {
             CliError::from(model.import_error(format!("'{file}': {}", e.message_in(model.unit_m, model.unit))))
         })?;
-    engine::check_contacts(&mesh, &crate::plan::problem::problem_of(model))
-        .map_err(|e| CliError::from(model.solve_error(&e)))?;
+    engine::check_contacts(&mesh, &problem).map_err(|e| CliError::from(model.solve_error(&e)))?;
     let mut warnings: Vec<String> = imported.warnings.iter().map(|w| format!("imported mesh: {w}")).collect();
     if !mesh.singular_points.is_empty() {
         warnings.push(format!(

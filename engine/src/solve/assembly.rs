@@ -74,8 +74,9 @@ impl System {
             num_terminals += 1;
             num_terminals - 1
         });
-        // With a boundary potential function the outer terminal's coupling column holds
-        // K·g (g the nodal boundary values) instead of K·1, and its "potential" is 1.
+        // With a varying outer boundary (a potential function, or held stretches) the outer
+        // terminal's coupling column holds K·g (g the nodal boundary values) instead of
+        // K·1, and its "potential" is 1.
         let varying = problem.outer_varying();
         let held_weight = |h: u32, node: u32| -> f64 {
             match outer_terminal {
