@@ -195,16 +195,8 @@ pub(super) fn pieces(
                 .help("potential_v = <V>, zero_flux = true, potential_from_v and potential_to_v (linear along it), potential_table = [[s, V], ...], or conductor = \"<name>\""));
         }
         let condition = if let Some(c) = &p.conductor {
-            let k = conductors.iter().position(|k| &k.name == c.get_ref()).ok_or_else(|| {
-                let known: Vec<&str> = conductors.iter().map(|k| k.name.as_str()).collect();
-                cx.err(c.span(), format!("unknown conductor '{}' in boundary piece '{name}'", c.get_ref()))
-                    .key(key("conductor"))
-                    .help(if known.is_empty() {
-                        "define it in a [[conductor]] table".to_string()
-                    } else {
-                        format!("known conductors: {}", known.join(", "))
-                    })
-            })?;
+            let names = conductors.iter().map(|k| k.name.as_str());
+            let k = cx.named(names, c, "conductor", &format!("boundary piece '{name}'"), key("conductor"))?;
             StretchCondition::Conductor(k as u32)
         } else if let Some(v) = &p.potential_v {
             StretchCondition::Potential(vec![(0.0, cx.potential(v, key("potential_v"))?)])

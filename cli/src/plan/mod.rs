@@ -417,6 +417,28 @@ impl Ctx<'_> {
         ModelError::new(self.path, self.source, Some(span), msg)
     }
 
+    /// The index of the `table` entry ("material", "conductor") that `given` names, or an
+    /// error at it listing the known names; `place` says where it was named ("shape 'x'").
+    fn named<'n>(
+        &self,
+        names: impl Iterator<Item = &'n str> + Clone,
+        given: &S<String>,
+        table: &str,
+        place: &str,
+        key: String,
+    ) -> Result<usize, ModelError> {
+        names.clone().position(|n| n == given.get_ref()).ok_or_else(|| {
+            let known: Vec<&str> = names.collect();
+            self.err(given.span(), format!("unknown {table} '{}' in {place}", given.get_ref())).key(key).help(
+                if known.is_empty() {
+                    format!("define it in a [[{table}]] table")
+                } else {
+                    format!("known {table}s: {}", known.join(", "))
+                },
+            )
+        })
+    }
+
     /// A finite number greater than zero.
     fn positive(&self, v: &S<f64>, key: String, what: &str) -> Result<f64, ModelError> {
         let x = *v.get_ref();

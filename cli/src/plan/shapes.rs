@@ -46,29 +46,13 @@ pub(super) fn shapes(
         }
         let (fill, mat) = match (&sh.material, &sh.conductor) {
             (Some(m), None) => {
-                let k = materials.iter().position(|x| &x.name == m.get_ref()).ok_or_else(|| {
-                    let known: Vec<&str> = materials.iter().map(|x| x.name.as_str()).collect();
-                    cx.err(m.span(), format!("unknown material '{}' in shape '{sname}'", m.get_ref()))
-                        .key(key("material"))
-                        .help(if known.is_empty() {
-                            "define it in a [[material]] table".to_string()
-                        } else {
-                            format!("known materials: {}", known.join(", "))
-                        })
-                })?;
+                let names = materials.iter().map(|x| x.name.as_str());
+                let k = cx.named(names, m, "material", &format!("shape '{sname}'"), key("material"))?;
                 (Fill::Dielectric { permittivity: materials[k].permittivity }, Some(k))
             }
             (None, Some(c)) => {
-                let k = conductors.iter().position(|x| &x.name == c.get_ref()).ok_or_else(|| {
-                    let known: Vec<&str> = conductors.iter().map(|x| x.name.as_str()).collect();
-                    cx.err(c.span(), format!("unknown conductor '{}' in shape '{sname}'", c.get_ref()))
-                        .key(key("conductor"))
-                        .help(if known.is_empty() {
-                            "define it in a [[conductor]] table".to_string()
-                        } else {
-                            format!("known conductors: {}", known.join(", "))
-                        })
-                })?;
+                let names = conductors.iter().map(|x| x.name.as_str());
+                let k = cx.named(names, c, "conductor", &format!("shape '{sname}'"), key("conductor"))?;
                 (Fill::Conductor { conductor: k as u32 }, None)
             }
             (Some(m), Some(_)) => {
