@@ -37,6 +37,7 @@ fn geometry() -> Geometry {
         conductors: vec!["rod".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

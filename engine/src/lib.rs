@@ -49,7 +49,7 @@
 //!             outline: Outline::circle("core", [0.0, 0.0], 0.01)? },
 //! ];
 //! let geo = Geometry { symmetry: Symmetry::Planar, shapes, conductors: vec!["core".into()],
-//!                      outer: OuterBoundary::FixedPotential, size_points: vec![], boundary_pieces: vec![] };
+//!                      outer: OuterBoundary::FixedPotential, size_points: vec![], thin: vec![], boundary_pieces: vec![] };
 //! let mesh = generate(&geo, &RefineParams::new().with_max_size_m(0.004))?.mesh;
 //! let problem = Problem { permittivity: vec![1.0, 1.0], conductors: vec![ConductorSpec::Fixed { potential_v: 1.0 }],
 //!                         outer_potential_v: Some(0.0), ..Default::default() };

@@ -32,6 +32,7 @@ fn geometry() -> Geometry {
         conductors: vec!["hv".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

@@ -40,6 +40,9 @@ pub(crate) struct Piece {
     pub v: [usize; 2],
     pub left: Side,
     pub right: Side,
+    /// The conductor whose thin electrode lies along the piece (the field on both faces,
+    /// which may be one dielectric).
+    pub thin: Option<u32>,
 }
 
 /// The arrangement of all shape outlines.
@@ -53,7 +56,15 @@ impl Arrangement {
     pub fn build(geo: &Geometry) -> Result<Arrangement, MeshError> {
         let scale = geo.scale();
         let tol = 1e-9 * scale;
-        let curves: Vec<Curve> = geo.shapes.iter().flat_map(|s| s.outline.curves().iter().copied()).collect();
+        let mut curves: Vec<Curve> = geo.shapes.iter().flat_map(|s| s.outline.curves().iter().copied()).collect();
+        // Thin electrodes' curves come last, each with its electrode (index into geo.thin).
+        let shape_curves = curves.len();
+        let mut thin_of: Vec<usize> = Vec::new();
+        for (k, t) in geo.thin.iter().enumerate() {
+            curves.extend(t.curves.iter().copied());
+            thin_of.extend(std::iter::repeat_n(k, t.curves.len()));
+        }
+        let thin_at = |c: usize| (c >= shape_curves).then(|| thin_of[c - shape_curves]);
         let n = curves.len();
         let bbs: Vec<[f64; 4]> = curves.iter().map(|c| c.bbox()).collect();
         let mut cuts: Vec<Vec<f64>> = vec![vec![0.0, 1.0]; n];
@@ -103,7 +114,8 @@ impl Arrangement {
             }
         };
         let mut pieces: Vec<Piece> = Vec::new();
-        for (c, ts) in curves.iter().zip(cuts.iter_mut()) {
+        for (ci, (c, ts)) in curves.iter().zip(cuts.iter_mut()).enumerate() {
+            let thin = thin_at(ci);
             ts.sort_by(f64::total_cmp);
             let len = c.length();
             let mut kept: Vec<f64> = Vec::with_capacity(ts.len());
@@ -127,13 +139,32 @@ impl Arrangement {
                 if a == b {
                     continue;
                 }
-                // Drop duplicates (shared edges of adjacent shapes).
+                // Drop duplicates (shared edges of adjacent shapes); a thin electrode along an
+                // outline marks the piece already there.
                 let mid = piece.point_at(0.5);
-                let dup = pieces.iter().any(|q| {
+                let dup = pieces.iter().position(|q| {
                     ((q.v == [a, b]) || (q.v == [b, a])) && norm(sub(q.curve.point_at(0.5), mid)) <= 1e3 * tol
                 });
-                if !dup {
-                    pieces.push(Piece { curve: piece, v: [a, b], left: Side::Outside, right: Side::Outside });
+                let conductor = thin.map(|k| geo.thin[k].conductor);
+                match dup {
+                    None => pieces.push(Piece {
+                        curve: piece,
+                        v: [a, b],
+                        left: Side::Outside,
+                        right: Side::Outside,
+                        thin: conductor,
+                    }),
+                    Some(q) => match (pieces[q].thin, conductor) {
+                        (Some(c0), Some(c1)) if c0 != c1 => {
+                            return Err(MeshError::ConductorsTouch {
+                                first: geo.conductors[c0 as usize].clone(),
+                                second: geo.conductors[c1 as usize].clone(),
+                                at: mid,
+                            })
+                        }
+                        (None, Some(_)) => pieces[q].thin = conductor,
+                        _ => {}
+                    },
                 }
             }
         }
@@ -146,7 +177,36 @@ impl Arrangement {
             pc.left = side_of([m[0] + delta * nl[0], m[1] + delta * nl[1]]);
             pc.right = side_of([m[0] - delta * nl[0], m[1] - delta * nl[1]]);
         }
-        pieces.retain(|p| p.left != p.right);
+        // A thin electrode is kept where it has dielectric on both faces; inside or along its
+        // own conductor it adds nothing, along another conductor or the outer boundary it
+        // is refused.
+        for pc in pieces.iter_mut() {
+            let Some(c) = pc.thin else { continue };
+            for s in [pc.left, pc.right] {
+                match s {
+                    Side::Region(_) => {}
+                    Side::Conductor(d) if d == c => pc.thin = None,
+                    Side::Conductor(d) => {
+                        return Err(MeshError::ConductorsTouch {
+                            first: geo.conductors[c as usize].clone(),
+                            second: geo.conductors[d as usize].clone(),
+                            at: pc.curve.point_at(0.5),
+                        })
+                    }
+                    Side::Outside => {
+                        let name = geo.thin.iter().find(|t| t.conductor == c).map_or(String::new(), |t| t.name.clone());
+                        let at = pc.curve.point_at(0.5);
+                        let name = geo
+                            .thin
+                            .iter()
+                            .find(|t| t.conductor == c && t.curves.iter().any(|k| k.distance(at).0 <= 1e3 * tol))
+                            .map_or(name, |t| t.name.clone());
+                        return Err(MeshError::ThinOnBoundary { name, at });
+                    }
+                }
+            }
+        }
+        pieces.retain(|p| p.left != p.right || p.thin.is_some());
         // Renumber vertices to those in use.
         let mut map = vec![usize::MAX; vertices.len()];
         let mut used = Vec::new();
@@ -254,6 +314,7 @@ mod tests {
             conductors: vec!["hv".into()],
             outer: OuterBoundary::ZeroFlux,
             size_points: vec![],
+            thin: vec![],
             boundary_pieces: vec![],
         };
         let arr = Arrangement::build(&geo).unwrap();

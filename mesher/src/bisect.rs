@@ -319,6 +319,7 @@ mod tests {
             conductors: vec![],
             outer: OuterBoundary::FixedPotential,
             size_points: vec![],
+            thin: vec![],
             boundary_pieces: vec![],
         };
         generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(0.3)).unwrap().mesh

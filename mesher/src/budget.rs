@@ -208,6 +208,7 @@ mod tests {
             conductors: vec![],
             outer: OuterBoundary::FixedPotential,
             size_points: vec![],
+            thin: vec![],
             boundary_pieces: vec![],
         }
     }

@@ -199,10 +199,18 @@ pub(crate) fn find(geo: &Geometry, arr: &Arrangement, order: u8) -> Result<Vec<(
         } else {
             None
         };
+        // A thin electrode is a conductor sector of zero opening just before the
+        // direction (the sort below is stable): a potential wall on both faces.
         let t0 = pc.curve.tangent_at(0.0);
-        inc[pc.v[0]].push((t0[1].atan2(t0[0]), pc.left, wall));
+        let a0 = t0[1].atan2(t0[0]);
         let t1 = pc.curve.tangent_at(1.0);
-        inc[pc.v[1]].push(((-t1[1]).atan2(-t1[0]), pc.right, wall));
+        let a1 = (-t1[1]).atan2(-t1[0]);
+        if let Some(c) = pc.thin {
+            inc[pc.v[0]].push((a0, Side::Conductor(c), None));
+            inc[pc.v[1]].push((a1, Side::Conductor(c), None));
+        }
+        inc[pc.v[0]].push((a0, pc.left, wall));
+        inc[pc.v[1]].push((a1, pc.right, wall));
     }
     let eps = |k: u32| match geo.shapes[k as usize].fill {
         Fill::Dielectric { permittivity } => permittivity,

@@ -110,6 +110,14 @@ pub enum MeshError {
         /// Where they touch.
         at: Xy,
     },
+    /// A thin electrode lies along the outer boundary, where it has the field on one face
+    /// only.
+    ThinOnBoundary {
+        /// The thin electrode's name.
+        name: String,
+        /// A point of the stretch.
+        at: Xy,
+    },
     /// An open boundary needs a circular domain.
     OpenBoundaryShape {
         /// The domain shape's name.
@@ -213,6 +221,7 @@ impl MeshError {
             OutsideDomain { shape, domain, at } => write!(f, "shape '{shape}' reaches outside the domain '{domain}' at {}; enlarge the domain or move the shape inside it", p(at)),
             NegativeRadius { shape, at } => write!(f, "shape '{shape}' reaches x = {} < 0 in an axisymmetric model (x is the radius); keep every point at x ≥ 0, the axis is x = 0", l(at[0])),
             ConductorsTouch { first, second, at } => write!(f, "conductors '{first}' and '{second}' touch at {}; the potential cannot jump between them at a point: separate them by a dielectric gap or make them one conductor", p(at)),
+            ThinOnBoundary { name, at } => write!(f, "thin electrode '{name}' runs along the outer boundary near {}, where only one face meets the field; give that stretch as a [[boundary.piece]] with conductor = \"...\" instead, or move the electrode inside", p(at)),
             OpenBoundaryShape { shape } => write!(f, "an open boundary needs a circular domain: make the first shape '{shape}' a circle (planar) or a half disc centred on the axis (axisymmetric), enclosing every part of the model"),
             BadParameter { name, value, allowed } => write!(f, "mesh parameter {name} = {value} is out of range; allowed: {allowed}"),
             Triangulation { detail } => write!(f, "triangulation failed: {detail}"),
@@ -256,6 +265,7 @@ impl MeshError {
             | OutsideDomain { shape, .. }
             | NegativeRadius { shape, .. }
             | OpenBoundaryShape { shape } => Some(shape),
+            ThinOnBoundary { name, .. } => Some(name),
             DuplicateName { name } => Some(name),
             OverBudget { cause: (SizeSource::Shape(_), _, name), .. } => Some(name),
             _ => None,

@@ -565,6 +565,22 @@ pub struct Geometry {
     /// `outer`'s): the mesh puts a vertex at each end, and the corner analysis takes each
     /// stretch's wall.
     pub boundary_pieces: Vec<BoundaryPiece>,
+    /// Conductors of zero thickness (foils, plates seen edge-on): curves inside the domain
+    /// with the field on both faces.
+    pub thin: Vec<ThinElectrode>,
+}
+
+/// A conductor of zero thickness: a chain of lines and arcs inside the domain (in one
+/// dielectric or along an interface), part of a conductor's surface on both faces. Its free
+/// ends are singular points (λ = ½ in one dielectric).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ThinElectrode {
+    /// The name the user gave it (for messages).
+    pub name: String,
+    /// The curves, metres; consecutive curves need not join.
+    pub curves: Vec<Curve>,
+    /// Index of the conductor in [`Geometry::conductors`].
+    pub conductor: u32,
 }
 
 /// A stretch of the domain's outer boundary with its own condition.
@@ -684,6 +700,46 @@ impl Geometry {
         }
         if self.outer == OuterBoundary::Open {
             domain_circle(self)?;
+        }
+        for t in &self.thin {
+            if self.shapes.iter().any(|s| s.name == t.name) || self.thin.iter().filter(|o| o.name == t.name).count() > 1
+            {
+                return Err(MeshError::DuplicateName { name: t.name.clone() });
+            }
+            if t.conductor as usize >= self.conductors.len() {
+                return Err(MeshError::UnknownConductor { shape: t.name.clone(), index: t.conductor });
+            }
+            if t.curves.is_empty() {
+                return Err(MeshError::EmptyShape { shape: t.name.clone() });
+            }
+            let dom = &self.shapes[0].outline;
+            for c in &t.curves {
+                let pts = [c.from(), c.to()];
+                if pts.iter().flatten().any(|v| !v.is_finite()) {
+                    return Err(MeshError::BadNumber {
+                        shape: t.name.clone(),
+                        what: "a coordinate".into(),
+                        value: f64::NAN,
+                    });
+                }
+                if c.length() <= tol {
+                    return Err(MeshError::DegenerateCurve { shape: t.name.clone(), at: c.from() });
+                }
+                let n = (c.length() / scale * 256.0).ceil().clamp(8.0, 4096.0) as usize;
+                for k in 0..=n {
+                    let q = c.point_at(k as f64 / n as f64);
+                    if self.symmetry == Symmetry::Axisymmetric && q[0] < -tol {
+                        return Err(MeshError::NegativeRadius { shape: t.name.clone(), at: q });
+                    }
+                    if !dom.contains(q) && dom.distance(q) > 1e-6 * scale {
+                        return Err(MeshError::OutsideDomain {
+                            shape: t.name.clone(),
+                            domain: self.shapes[0].name.clone(),
+                            at: q,
+                        });
+                    }
+                }
+            }
         }
         for (i, p) in self.size_points.iter().enumerate() {
             if !(p.size_m.is_finite() && p.size_m > 0.0 && p.at.iter().all(|v| v.is_finite())) {

@@ -28,7 +28,7 @@
 //!             outline: Outline::polygon("hv", &[[-0.5, -0.5], [0.0, -0.5], [0.0, 0.0], [-0.5, 0.0]])? },
 //! ];
 //! let geo = Geometry { symmetry: Symmetry::Planar, shapes, conductors: vec!["hv".into()],
-//!                      outer: OuterBoundary::FixedPotential, size_points: vec![], boundary_pieces: vec![] };
+//!                      outer: OuterBoundary::FixedPotential, size_points: vec![], thin: vec![], boundary_pieces: vec![] };
 //! let out = generate(&geo, &RefineParams::new().with_order(1).with_max_size_m(0.1))?;
 //! // The square electrode's four corners are re-entrant (θ₀ = 3π/2, λ = 2/3).
 //! assert_eq!(out.mesh.singular_points.len(), 4);
@@ -73,12 +73,14 @@ pub use bisect::{bisect_to_sizes, Bisected};
 pub use budget::{predict, SizePrediction, DELIVERY};
 pub use corners::{conical_exponent, legendre_p, wedge_exponent, Sector, SingularKind, SingularPoint, Wall};
 pub use error::MeshError;
-pub use geometry::{BoundaryPiece, Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, Xy};
+pub use geometry::{
+    BoundaryPiece, Curve, Fill, Geometry, OuterBoundary, Outline, Shape, SizePoint, Symmetry, ThinElectrode, Xy,
+};
 pub use grading::{Grading, GradingStatus, GRADED_WITHIN};
 pub use grid::{triangle_grid, BucketGrid};
 pub use import::{read_grid, GridFile, ReadError};
 pub use import_mesh::{find_singular_points, import_mesh, BoundaryUse, ImportError, ImportSpec, Imported, RegionUse};
-pub use mesh::{ArcGeom, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
+pub use mesh::{ArcGeom, CornerFans, EdgeTag, Exterior, Mesh, MeshStats, TaggedEdge};
 pub use refine::{MeshOutcome, RefineParams, DEFAULT_MAX_SIZE_FRACTION};
 pub use size_field::{BackgroundSize, SizeField, SizeSource};
 pub use triangulate::{generate, generate_with};

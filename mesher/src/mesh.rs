@@ -58,12 +58,40 @@ pub struct Exterior {
     pub radius: f64,
 }
 
+/// The fans of triangles around the vertices of thin electrodes ([`Mesh::corner_fans`]).
+#[derive(Clone, Debug, Default)]
+pub struct CornerFans {
+    /// Per triangle, the fan of each corner; empty when the mesh has no thin electrode.
+    fans: Vec<[u8; 3]>,
+    /// Keys of the thin electrodes' edges, sorted.
+    thin: Vec<u64>,
+}
+
+impl CornerFans {
+    /// The fan of corner `k` of triangle `t` around its vertex (0 away from thin
+    /// electrodes).
+    pub fn of(&self, t: usize, k: usize) -> u8 {
+        self.fans.get(t).map_or(0, |f| f[k])
+    }
+
+    /// True when the mesh has a thin electrode.
+    pub fn any(&self) -> bool {
+        !self.thin.is_empty()
+    }
+
+    /// True when a–b is an edge of a thin electrode.
+    pub fn is_thin_edge(&self, a: u32, b: u32) -> bool {
+        self.thin.binary_search(&edge_key(a, b)).is_ok()
+    }
+}
+
 /// A triangular mesh of the dielectric regions of a cross-section.
 ///
 /// Invariants (checked by [`Mesh::validate`]): triangles are counter-clockwise with positive
 /// area; every edge belongs to one or two triangles; every edge with one triangle and every
 /// edge between two regions is tagged, and tags agree with the regions on both sides; no two
-/// vertices coincide; for order 2, mid-edge nodes are shared between neighbours and lie at the
+/// vertices coincide (a conductor edge may have triangles on both sides: a thin electrode);
+/// for order 2, mid-edge nodes are shared between neighbours and lie at the
 /// chord midpoint, or on the arc for curved boundary edges.
 #[derive(Clone, Debug)]
 pub struct Mesh {
@@ -287,6 +315,8 @@ impl Mesh {
                 EdgeTag::Axis if self.symmetry != Symmetry::Axisymmetric => {
                     return bad(format!("edge {a}–{b} is tagged as the axis in a planar mesh"));
                 }
+                // A thin electrode has dielectric on both faces.
+                EdgeTag::Conductor(_) => {}
                 _ => {
                     if tris.len() != 1 {
                         return bad(format!("edge {a}–{b} is tagged {:?} but has triangles on both sides", e.tag));
@@ -515,6 +545,89 @@ impl Mesh {
             }
         }
         (start, around)
+    }
+
+    /// The faces of the thin electrodes: per triangle corner, which fan of triangles around
+    /// that vertex it belongs to. Around a vertex on a thin electrode (a conductor edge
+    /// with triangles on both sides) the triangles of one region split into fans on either
+    /// face, which must not be averaged together (the normal field changes sign across
+    /// the electrode); elsewhere every corner is in fan 0.
+    pub fn corner_fans(&self) -> CornerFans {
+        let (start, around) = self.vertex_triangles();
+        let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
+        // A thin edge a→b (region on the left) also has a triangle with the edge b→a.
+        let has_directed = |a: u32, b: u32| {
+            star(a).iter().any(|&t| {
+                let tri = self.triangles[t as usize];
+                (0..3).any(|k| tri[k] == a && tri[(k + 1) % 3] == b)
+            })
+        };
+        let mut thin: Vec<u64> = self
+            .edges
+            .iter()
+            .filter(|e| matches!(e.tag, EdgeTag::Conductor(_)))
+            .filter(|e| {
+                let [a, b] = e.nodes;
+                has_directed(a, b) && has_directed(b, a)
+            })
+            .map(|e| edge_key(e.nodes[0], e.nodes[1]))
+            .collect();
+        if thin.is_empty() {
+            return CornerFans { fans: Vec::new(), thin: Vec::new() };
+        }
+        thin.sort_unstable();
+        let is_thin = |a: u32, b: u32| thin.binary_search(&edge_key(a, b)).is_ok();
+        let mut fans = vec![[0u8; 3]; self.triangles.len()];
+        let mut verts: Vec<u32> = thin.iter().flat_map(|&k| [(k >> 32) as u32, k as u32]).collect();
+        verts.sort_unstable();
+        verts.dedup();
+        for &v in &verts {
+            let tris = star(v);
+            // Union–find over the star: triangles sharing an edge from v that is not thin,
+            // in one region, are in one fan.
+            let mut parent: Vec<usize> = (0..tris.len()).collect();
+            fn root(p: &mut [usize], mut i: usize) -> usize {
+                while p[i] != i {
+                    p[i] = p[p[i]];
+                    i = p[i];
+                }
+                i
+            }
+            let others = |t: u32| {
+                let tri = self.triangles[t as usize];
+                let k = tri.iter().position(|&w| w == v).expect("star triangle holds v");
+                [tri[(k + 1) % 3], tri[(k + 2) % 3]]
+            };
+            for i in 0..tris.len() {
+                for j in (i + 1)..tris.len() {
+                    let (ti, tj) = (tris[i], tris[j]);
+                    if self.regions[ti as usize] != self.regions[tj as usize] {
+                        continue;
+                    }
+                    let (oi, oj) = (others(ti), others(tj));
+                    if let Some(&w) = oi.iter().find(|w| oj.contains(w)) {
+                        if !is_thin(v, w) {
+                            let (ri, rj) = (root(&mut parent, i), root(&mut parent, j));
+                            parent[ri.max(rj)] = ri.min(rj);
+                        }
+                    }
+                }
+            }
+            // Number the fans of each region in the order of their first triangle.
+            let mut seen: Vec<(u32, usize)> = Vec::new();
+            for i in 0..tris.len() {
+                let r = root(&mut parent, i);
+                let region = self.regions[tris[i] as usize];
+                if !seen.iter().any(|&(_, q)| q == r) {
+                    seen.push((region, r));
+                }
+                let fan = seen.iter().filter(|&&(g, _)| g == region).position(|&(_, q)| q == r).unwrap_or(0);
+                let t = tris[i] as usize;
+                let k = self.triangles[t].iter().position(|&w| w == v).expect("star triangle holds v");
+                fans[t][k] = fan.min(u8::MAX as usize) as u8;
+            }
+        }
+        CornerFans { fans, thin }
     }
 
     /// (edge key, triangle, local edge) for every triangle edge, sorted by key

@@ -724,30 +724,9 @@ fn extract(
         let (fl, fr) = (d.face(), d.rev().face());
         let sl = if fl.is_outer() { Side::Outside } else { face_side(fl.fix().index()) };
         let sr = if fr.is_outer() { Side::Outside } else { face_side(fr.fix().index()) };
-        if sl == sr {
-            continue;
-        }
         let (from, to) = (d.from().fix(), d.to().fix());
-        // Orient so that a dielectric region is on the left (the smaller one for interfaces).
-        let (a, b, tag) = match (sl, sr) {
-            (Side::Region(x), Side::Region(y)) => {
-                if x < y {
-                    (from, to, EdgeTag::Interface(x, y))
-                } else {
-                    (to, from, EdgeTag::Interface(y, x))
-                }
-            }
-            (Side::Region(_), other) => {
-                (from, to, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
-            }
-            (other, Side::Region(_)) => {
-                (to, from, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
-            }
-            _ => continue,
-        };
         // Which piece of the arrangement the edge lies on.
-        let pa = all[a.index()];
-        let pb = all[b.index()];
+        let (pa, pb) = (all[from.index()], all[to.index()]);
         let mid = [(pa[0] + pb[0]) / 2.0, (pa[1] + pb[1]) / 2.0];
         let len = norm(sub(pa, pb));
         let mut best = (f64::INFINITY, u32::MAX);
@@ -758,9 +737,32 @@ fn extract(
                 best = (d, si);
             }
         });
+        let piece = (best.0 <= 1e-6 * len.max(1e-9 * scale)).then(|| pslg.piece_of[best.1 as usize] as usize);
+        let thin = piece.and_then(|p| arr.pieces[p].thin);
+        if sl == sr && thin.is_none() {
+            continue;
+        }
+        // Orient so that a dielectric region is on the left (the smaller one for interfaces).
+        let (a, b, tag) = match (sl, sr, thin) {
+            // A thin electrode: dielectric on both faces.
+            (Side::Region(_), Side::Region(_), Some(c)) => (from, to, EdgeTag::Conductor(c)),
+            (Side::Region(x), Side::Region(y), None) => {
+                if x < y {
+                    (from, to, EdgeTag::Interface(x, y))
+                } else {
+                    (to, from, EdgeTag::Interface(y, x))
+                }
+            }
+            (Side::Region(_), other, _) => {
+                (from, to, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
+            }
+            (other, Side::Region(_), _) => {
+                (to, from, boundary_tag(other, axisym, all[from.index()], all[to.index()], scale))
+            }
+            _ => continue,
+        };
         let mut arc = None;
-        if best.0 <= 1e-6 * len.max(1e-9 * scale) {
-            let piece = pslg.piece_of[best.1 as usize] as usize;
+        if let Some(piece) = piece {
             if let Curve::Arc { center, radius, .. } = arr.pieces[piece].curve {
                 if arc_index[piece] == u32::MAX {
                     // Share one record between pieces of the same circle.

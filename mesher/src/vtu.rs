@@ -369,6 +369,7 @@ mod tests {
             conductors: vec!["c".into()],
             outer: OuterBoundary::FixedPotential,
             size_points: vec![],
+            thin: vec![],
             boundary_pieces: vec![],
         };
         let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.02)).unwrap().mesh;

@@ -123,6 +123,7 @@ pub fn solve_case(case: &Case, order: u8, max_size_m: f64) -> (mesher::Mesh, Pro
         conductors: vec!["inner".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(max_size_m)).unwrap().mesh;

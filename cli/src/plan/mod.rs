@@ -182,7 +182,8 @@ pub struct Plan {
     /// Named points (`[[point]]`).
     pub points: Vec<NamedPoint>,
     /// Pieces of the outer boundary with their own conditions (`[[boundary.piece]]`).
-    pub boundary_pieces: Vec<BoundaryPieceSpec>,
+    pub thin: vec![],
+    boundary_pieces: Vec<BoundaryPieceSpec>,
     /// The load cases (`[[load_case]]`); empty: the model's potentials as given are the one
     /// case.
     pub load_cases: Vec<LoadCase>,
@@ -596,6 +597,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         conductors: conductors.iter().map(|c| c.name.clone()).collect(),
         outer,
         size_points,
+        thin: vec![],
         boundary_pieces: boundary_pieces
             .iter()
             .map(|b| mesher::BoundaryPiece { curve: b.stretch.curve, wall: b.stretch.wall() })

@@ -105,6 +105,7 @@ fn utilisation_factor_of_a_sphere_above_a_plane() {
         conductors: vec!["ball".into(), "plane".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![SizePoint { at: [0.0, 0.5 * p], size_m: 1.5e-4 }],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.05)).unwrap().mesh;

@@ -155,6 +155,7 @@ fn run_open(
         conductors: specs.iter().map(|c| c.0.to_string()).collect(),
         outer: OuterBoundary::Open,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(h)).unwrap().mesh;

@@ -47,6 +47,7 @@ pub fn run(
         conductors: conductors.iter().map(|c| c.0.to_string()).collect(),
         outer: if outer.is_some() { OuterBoundary::FixedPotential } else { OuterBoundary::ZeroFlux },
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(h)).unwrap().mesh;

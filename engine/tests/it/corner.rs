@@ -205,6 +205,7 @@ fn corner_geometry(symmetry: Symmetry, shapes: Vec<Shape>) -> Geometry {
         conductors: vec!["zero".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

@@ -21,6 +21,7 @@ fn run(
         conductors: (0..specs.len()).map(|k| format!("c{k}")).collect(),
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(order).with_max_size_m(h)).unwrap().mesh;

@@ -155,6 +155,7 @@ fn peak_fields_on_both_sides_of_a_coaxial_interface() {
         conductors: vec!["core".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let problem = Problem {
@@ -193,6 +194,7 @@ fn peak_field_on_a_cylinder_above_a_ground_plane() {
         conductors: vec!["wire".into(), "plane".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let problem = electrode_over_earth();
@@ -249,6 +251,7 @@ fn energy_estimate_at_an_electrode_end_on_a_slab_face() {
         conductors: vec!["electrode".into(), "earth".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let problem = Problem {
@@ -316,6 +319,7 @@ fn peak_field_on_a_sphere_above_a_ground_plane() {
         conductors: vec!["ball".into(), "plane".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let problem = electrode_over_earth();

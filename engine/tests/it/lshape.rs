@@ -53,6 +53,7 @@ pub fn l_shape() -> Geometry {
         conductors: vec!["zero".into()],
         outer: OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

@@ -87,6 +87,7 @@ fn capacitance_matrix_of_plates_and_field_in_layers() {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.008)).unwrap().mesh;
@@ -209,6 +210,7 @@ fn rotated_plates(angle: f64, eps: f64, order: u8) -> mesher::Mesh {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     generate(&geo, &mesher::RefineParams::new().with_order(order).with_max_size_m(0.007)).unwrap().mesh
@@ -291,6 +293,7 @@ fn axisymmetric_space_charge_parabola_with_p2() {
         conductors: vec!["a".into(), "b".into()],
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     let mesh = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.006)).unwrap().mesh;
@@ -356,6 +359,7 @@ fn coax_mesh(eps: f64, order: u8) -> mesher::Mesh {
         conductors: vec!["core".into()],
         outer: mesher::OuterBoundary::FixedPotential,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     };
     mesher::generate(&geo, &mesher::RefineParams::new().with_order(order)).unwrap().mesh

@@ -15,6 +15,7 @@ pub fn planar(shapes: Vec<Shape>, conductors: &[&str]) -> Geometry {
         conductors: conductors.iter().map(|s| s.to_string()).collect(),
         outer: OuterBoundary::ZeroFlux,
         size_points: vec![],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

@@ -29,6 +29,7 @@ fn open_model(symmetry: Symmetry, domain: Outline, electrode: Outline, near_circ
         conductors: vec!["hv".into()],
         outer: OuterBoundary::Open,
         size_points: vec![SizePoint { at: near_circle, size_m: 0.005 }],
+        thin: vec![],
         boundary_pieces: vec![],
     }
 }

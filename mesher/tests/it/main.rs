@@ -20,3 +20,5 @@ mod import;
 mod layers;
 /// Random simple polygons with holes: termination, validity, coverage, areas.
 mod props;
+/// Thin electrodes: both faces meshed, square-root ends, misplacement refused.
+mod thin;
