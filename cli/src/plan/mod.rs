@@ -182,8 +182,7 @@ pub struct Plan {
     /// Named points (`[[point]]`).
     pub points: Vec<NamedPoint>,
     /// Pieces of the outer boundary with their own conditions (`[[boundary.piece]]`).
-    pub thin: vec![],
-    boundary_pieces: Vec<BoundaryPieceSpec>,
+    pub boundary_pieces: Vec<BoundaryPieceSpec>,
     /// The load cases (`[[load_case]]`); empty: the model's potentials as given are the one
     /// case.
     pub load_cases: Vec<LoadCase>,

@@ -38,8 +38,7 @@ pub struct MeshReport {
     pub outer_boundary: String,
     /// The pieces of the outer boundary with their own conditions (`[[boundary.piece]]`).
     #[serde(skip_serializing_if = "Vec::is_empty")]
-    pub thin: vec![],
-    boundary_pieces: Vec<PieceReport>,
+    pub boundary_pieces: Vec<PieceReport>,
     /// Conductors and how their potential is set.
     pub conductors: Vec<ConductorReport>,
     /// Per region.
@@ -280,7 +279,6 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
             (Some(v), None) => format!("fixed potential {v} V"),
             (None, None) => "zero normal flux".into(),
         },
-        thin: vec![],
         boundary_pieces: model
             .boundary_pieces
             .iter()
