@@ -54,7 +54,8 @@ use crate::fields::{eval_point, PointValue, SingularQuadrature};
 use crate::problem::Problem;
 use crate::solve::{Solution, EPSILON_0};
 use crate::space::{Element, P1, P2, QUAD_DEG2};
-use mesher::{Mesh, Symmetry, Xy};
+use mesher::{CornerFans, Mesh, Symmetry, Xy};
+use std::sync::Arc;
 use rayon::prelude::*;
 use std::borrow::Cow;
 
@@ -82,10 +83,15 @@ impl ErrorEstimate {
     }
 }
 
-/// One patch fit of the gradient around a vertex, in one region.
+/// A side of a vertex: a region, and the fan of that region's triangles around the
+/// vertex (more than one only on a thin electrode, whose faces are not averaged together;
+/// `Mesh::corner_fans`).
+pub(crate) type VertexSide = (u32, u8);
+
+/// One patch fit of the gradient around a vertex, on one side of it.
 #[derive(Clone, Copy, Debug)]
 struct PatchFit {
-    region: u32,
+    side: VertexSide,
     center: Xy,
     scale: f64,
     kind: FitKind,
@@ -167,16 +173,23 @@ fn branch_cut(points: &[Xy], center: Xy) -> f64 {
 /// The recovered gradient of a solution.
 #[derive(Clone)]
 struct Recovery {
-    /// The fits around every vertex, one per region there.
+    /// The fits around every vertex, one per side there.
     fits: Vec<Vec<PatchFit>>,
+    /// The fans of the corners (thin electrodes' faces).
+    fans: Arc<CornerFans>,
     /// G at the nodes of every element (3 values for P1, 6 for P2, in the element's node
     /// order).
     nodes: Vec<[[f64; 2]; 6]>,
 }
 
 impl Recovery {
-    fn fit_of(&self, v: u32, region: u32) -> &PatchFit {
-        self.fits[v as usize].iter().find(|f| f.region == region).expect("every vertex of the region has a fit")
+    fn fit_of(&self, v: u32, side: VertexSide) -> &PatchFit {
+        self.fits[v as usize].iter().find(|f| f.side == side).expect("every side of a vertex has a fit")
+    }
+
+    /// The fit of corner `k` of triangle `t`: its vertex's, on the triangle's side.
+    fn corner_fit(&self, mesh: &Mesh, t: usize, k: usize) -> &PatchFit {
+        self.fit_of(mesh.triangles[t][k], (mesh.regions[t], self.fans.of(t, k)))
     }
 
     /// G at reference point (ξ, η) of triangle `t`, physical position `x`: interpolated
@@ -185,7 +198,7 @@ impl Recovery {
     /// there).
     fn at(&self, mesh: &Mesh, t: usize, singular_corner: Option<usize>, xi: f64, eta: f64, x: Xy) -> [f64; 2] {
         if let Some(k) = singular_corner {
-            return self.fit_of(mesh.triangles[t][k], mesh.regions[t]).eval(x);
+            return self.corner_fit(mesh, t, k).eval(x);
         }
         let phi = if mesh.mid_nodes.is_empty() {
             let l = P1::values(xi, eta);
@@ -211,12 +224,14 @@ pub(crate) struct RecoveryPlan {
     p2: bool,
     /// Sample points per element (reference coordinates).
     points: Vec<(f64, f64)>,
-    /// Per vertex, one plan per region there.
+    /// Per vertex, one plan per side there.
     patches: Vec<Vec<PatchPlan>>,
+    /// The fans of the corners (thin electrodes' faces).
+    fans: Arc<CornerFans>,
 }
 
 struct PatchPlan {
-    region: u32,
+    side: VertexSide,
     center: Xy,
     scale: f64,
     triangles: Vec<u32>,
@@ -284,18 +299,44 @@ impl RecoveryPlan {
         let nv = mesh.num_vertices as usize;
         let (start, around) = mesh.vertex_triangles();
         let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
+        let fans = Arc::new(mesh.corner_fans());
+        // The side of triangle t at its vertex w.
+        let side_at = |t: u32, w: u32| -> VertexSide {
+            let k = mesh.triangles[t as usize].iter().position(|&x| x == w).expect("star triangle holds w");
+            (mesh.regions[t as usize], fans.of(t as usize, k))
+        };
         let patches: Vec<Vec<PatchPlan>> = (0..nv as u32)
             .into_par_iter()
             .map(|v| {
                 let center = mesh.nodes[v as usize];
-                let mut regions: Vec<u32> = star(v).iter().map(|&t| mesh.regions[t as usize]).collect();
-                regions.sort_unstable();
-                regions.dedup();
-                regions
+                let mut sides: Vec<VertexSide> = star(v).iter().map(|&t| side_at(t, v)).collect();
+                sides.sort_unstable();
+                sides.dedup();
+                // At a free end of a thin electrode the one fan goes all the way round: the
+                // singular fit's branch cut lies along the electrode.
+                let thin_cut = if fans.any() {
+                    let mut ends: Vec<u32> = star(v)
+                        .iter()
+                        .flat_map(|&t| mesh.triangles[t as usize])
+                        .filter(|&w| w != v && fans.is_thin_edge(v, w))
+                        .collect();
+                    ends.sort_unstable();
+                    ends.dedup();
+                    match ends[..] {
+                        [w] => {
+                            let q = mesh.nodes[w as usize];
+                            Some((q[1] - center[1]).atan2(q[0] - center[0]))
+                        }
+                        _ => None,
+                    }
+                } else {
+                    None
+                };
+                sides
                     .into_iter()
-                    .map(|region| {
-                        let mut patch: Vec<u32> =
-                            star(v).iter().copied().filter(|&t| mesh.regions[t as usize] == region).collect();
+                    .map(|side| {
+                        let region = side.0;
+                        let mut patch: Vec<u32> = star(v).iter().copied().filter(|&t| side_at(t, v) == side).collect();
                         let pts = |patch: &[u32]| -> Vec<Xy> {
                             patch
                                 .iter()
@@ -310,11 +351,15 @@ impl RecoveryPlan {
                         let mut found = None;
                         for grow in 0..2 {
                             if grow == 1 {
-                                // One more ring of elements of the same region.
+                                // One more ring of elements of the same region, on the
+                                // same face of a thin electrode.
                                 let mut more: Vec<u32> = patch
                                     .iter()
-                                    .flat_map(|&t| mesh.triangles[t as usize])
-                                    .flat_map(|w| star(w).iter().copied())
+                                    .flat_map(|&t| mesh.triangles[t as usize].map(move |w| (t, w)))
+                                    .flat_map(|(t, w)| {
+                                        let own = side_at(t, w);
+                                        star(w).iter().copied().filter(move |&o| side_at(o, w) == own)
+                                    })
                                     .filter(|&t| mesh.regions[t as usize] == region)
                                     .collect();
                                 more.sort_unstable();
@@ -331,7 +376,7 @@ impl RecoveryPlan {
                             let mut a = [[0.0; 6]; 6];
                             let solver = match lambda {
                                 Some(l) => {
-                                    let cut = branch_cut(&p, center);
+                                    let cut = thin_cut.unwrap_or_else(|| branch_cut(&p, center));
                                     for q in &p {
                                         let [uu, vv] = singular_gradients(
                                             (q[0] - center[0]) / scale,
@@ -367,12 +412,12 @@ impl RecoveryPlan {
                             }
                         }
                         let (scale, solver) = found.unwrap_or((1.0, Solver::Mean));
-                        PatchPlan { region, center, scale, triangles: patch, solver }
+                        PatchPlan { side, center, scale, triangles: patch, solver }
                     })
                     .collect()
             })
             .collect();
-        RecoveryPlan { p2, points, patches }
+        RecoveryPlan { p2, points, patches, fans }
     }
 
     /// The recovered gradient of `potential` (module docs).
@@ -446,27 +491,25 @@ impl RecoveryPlan {
                                 FitKind::Polynomial(c)
                             }
                         };
-                        PatchFit { region: pl.region, center: c, scale: s, kind }
+                        PatchFit { side: pl.side, center: c, scale: s, kind }
                     })
                     .collect()
             })
             .collect();
         let p2 = self.p2;
-        let mut rec = Recovery { fits, nodes: Vec::new() };
+        let mut rec = Recovery { fits, fans: Arc::clone(&self.fans), nodes: Vec::new() };
         rec.nodes = (0..nt)
             .into_par_iter()
             .map(|t| {
-                let tri = mesh.triangles[t];
-                let r = mesh.regions[t];
                 let mut g = [[0.0; 2]; 6];
-                for k in 0..3 {
-                    g[k] = rec.fit_of(tri[k], r).at_center();
+                for (k, gk) in g.iter_mut().enumerate().take(3) {
+                    *gk = rec.corner_fit(mesh, t, k).at_center();
                 }
                 if p2 {
                     let mids = mesh.mid_nodes[t];
                     for (k, (a, b)) in [(0, 1), (1, 2), (2, 0)].into_iter().enumerate() {
                         let x = mesh.nodes[mids[k] as usize];
-                        let (ga, gb) = (rec.fit_of(tri[a], r).eval(x), rec.fit_of(tri[b], r).eval(x));
+                        let (ga, gb) = (rec.corner_fit(mesh, t, a).eval(x), rec.corner_fit(mesh, t, b).eval(x));
                         g[3 + k] = [0.5 * (ga[0] + gb[0]), 0.5 * (ga[1] + gb[1])];
                     }
                 }
@@ -675,14 +718,33 @@ impl RecoveredField<'_> {
         ([-g[0], -g[1]], p.e)
     }
 
-    /// True when vertex `v` has a patch fit in `region`.
-    pub(crate) fn has_fit(&self, v: u32, region: u32) -> bool {
-        self.recovery.fits.get(v as usize).is_some_and(|f| f.iter().any(|f| f.region == region))
+    /// True when vertex `v` has a patch fit on `side`.
+    pub(crate) fn has_fit(&self, v: u32, side: VertexSide) -> bool {
+        self.recovery.fits.get(v as usize).is_some_and(|f| f.iter().any(|f| f.side == side))
     }
 
-    /// The recovered field E = −G at vertex `v` in `region` (the vertex patch's fit there).
-    pub(crate) fn field_at_vertex(&self, v: u32, region: u32) -> [f64; 2] {
-        let g = self.recovery.fit_of(v, region).at_center();
+    /// The recovered field E = −G at vertex `v` on `side` (the vertex patch's fit there).
+    pub(crate) fn field_at_vertex(&self, v: u32, side: VertexSide) -> [f64; 2] {
+        let g = self.recovery.fit_of(v, side).at_center();
         [-g[0], -g[1]]
+    }
+
+    /// The side of `region` at vertex `v` with the strongest recovered field (the face
+    /// of a thin electrode a peak there is on; the region itself elsewhere), if `v` has a
+    /// fit in `region`.
+    pub(crate) fn strongest_side(&self, v: u32, region: u32) -> Option<VertexSide> {
+        let fits = self.recovery.fits.get(v as usize)?;
+        fits.iter()
+            .filter(|f| f.side.0 == region)
+            .max_by(|a, b| {
+                let (ga, gb) = (a.at_center(), b.at_center());
+                ga[0].hypot(ga[1]).total_cmp(&gb[0].hypot(gb[1]))
+            })
+            .map(|f| f.side)
+    }
+
+    /// The fans of the mesh's corners.
+    pub(crate) fn fans(&self) -> &CornerFans {
+        &self.recovery.fans
     }
 }

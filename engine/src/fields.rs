@@ -20,11 +20,11 @@
 //!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364,
 //!   doi:10.1002/nme.1620330702 (why averaged gradients at vertices beat single-element ones).
 
-use crate::estimate::PrimalRecovery;
+use crate::estimate::{PrimalRecovery, VertexSide};
 use crate::problem::Problem;
 use crate::solve::Solution;
 use crate::space::{corner_graded_rule, Element, QuadPoint, P1, P2, QUAD_DEG4};
-use mesher::{Mesh, Xy};
+use mesher::{CornerFans, Mesh, Xy};
 
 /// The largest field strength in one region.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -125,24 +125,27 @@ pub(crate) fn eval_point(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta:
 pub(crate) struct VertexMean {
     pub node: u32,
     pub region: u32,
+    /// The fan of the region's triangles at the vertex (a face of a thin electrode; 0
+    /// elsewhere).
+    pub fan: u8,
     /// Weighted mean of the values.
     pub mean: [f64; 2],
     /// Largest single (one-sided) value's norm.
     pub max_norm: f64,
 }
 
-/// Groups (vertex, region, value, weight) entries by vertex and region and returns the
-/// weighted means, sorted by (vertex, region): the region-wise averaging used for field
-/// peaks and for gradient recovery (values are never mixed across an interface). Groups
-/// of zero total weight are left out.
-pub(crate) fn region_vertex_means(mut entries: Vec<(u32, u32, [f64; 2], f64)>) -> Vec<VertexMean> {
+/// Groups (vertex, side, value, weight) entries by vertex and side (region and fan) and
+/// returns the weighted means, sorted by (vertex, side): the region-wise averaging used for
+/// field peaks and for gradient recovery (values are never mixed across an interface, nor
+/// across a thin electrode). Groups of zero total weight are left out.
+pub(crate) fn region_vertex_means(mut entries: Vec<(u32, VertexSide, [f64; 2], f64)>) -> Vec<VertexMean> {
     entries.sort_unstable_by_key(|e| (e.0, e.1));
     let mut out = Vec::new();
     let mut i = 0;
     while i < entries.len() {
-        let (node, region) = (entries[i].0, entries[i].1);
+        let (node, side) = (entries[i].0, entries[i].1);
         let (mut sum, mut w, mut max_norm) = ([0.0; 2], 0.0, 0.0f64);
-        while i < entries.len() && entries[i].0 == node && entries[i].1 == region {
+        while i < entries.len() && entries[i].0 == node && entries[i].1 == side {
             let (v, a) = (entries[i].2, entries[i].3);
             sum[0] += a * v[0];
             sum[1] += a * v[1];
@@ -153,7 +156,7 @@ pub(crate) fn region_vertex_means(mut entries: Vec<(u32, u32, [f64; 2], f64)>) -
             i += 1;
         }
         if w > 0.0 {
-            out.push(VertexMean { node, region, mean: [sum[0] / w, sum[1] / w], max_norm });
+            out.push(VertexMean { node, region: side.0, fan: side.1, mean: [sum[0] / w, sum[1] / w], max_norm });
         }
     }
     out
@@ -170,14 +173,14 @@ pub fn element_fields(mesh: &Mesh, _problem: &Problem, solution: &Solution) -> E
     let nt = mesh.triangles.len();
     let mut centroid = Vec::with_capacity(nt);
     let mut max_magnitude = Vec::with_capacity(nt);
-    let at_vertex = vertex_fields(mesh, &solution.potential);
+    let primal = PrimalRecovery::new(mesh, &solution.potential);
+    let rec = primal.field(&solution.potential);
+    let at_vertex = vertex_fields(mesh, &solution.potential, rec.fans());
     for (t, own) in at_vertex.chunks_exact(3).enumerate() {
         let ec = eval_point(mesh, &solution.potential, t, 1.0 / 3.0, 1.0 / 3.0).e;
         centroid.push(ec);
         max_magnitude.push(own.iter().map(|v| v.2[0].hypot(v.2[1])).fold(ec[0].hypot(ec[1]), f64::max));
     }
-    let primal = PrimalRecovery::new(mesh, &solution.potential);
-    let rec = primal.field(&solution.potential);
     let region_peaks = peaks_of(mesh, recovered_means(&primal.quad, &rec, region_vertex_means(at_vertex)), &[]);
     let mut nodal = vec![[0.0; 2]; mesh.nodes.len()];
     let mut weight = vec![0.0; mesh.nodes.len()];
@@ -293,13 +296,13 @@ pub(crate) fn corner_graded_rules() -> [Vec<QuadPoint>; 3] {
 /// order: the element's own field at its vertices, which the region-wise vertex means
 /// turn into peak values (the one-sided element errors at a vertex largely cancel in the
 /// area-weighted mean; values are never averaged across an interface).
-fn vertex_fields(mesh: &Mesh, potential: &[f64]) -> Vec<(u32, u32, [f64; 2], f64)> {
+fn vertex_fields(mesh: &Mesh, potential: &[f64], fans: &CornerFans) -> Vec<(u32, VertexSide, [f64; 2], f64)> {
     let mut out = Vec::with_capacity(3 * mesh.triangles.len());
     for t in 0..mesh.triangles.len() {
         let area = mesh.triangle_area(t).abs();
         for (k, (xi, eta)) in [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)].into_iter().enumerate() {
             let e = eval_point(mesh, potential, t, xi, eta).e;
-            out.push((mesh.triangles[t][k], mesh.regions[t], e, area));
+            out.push((mesh.triangles[t][k], (mesh.regions[t], fans.of(t, k)), e, area));
         }
     }
     out
@@ -372,20 +375,31 @@ pub fn exclusion_discs(mesh: &Mesh, given: Option<f64>) -> Vec<(Xy, f64)> {
 
 /// The region-wise vertex values behind the peaks: per (vertex, region) the recovered
 /// field (the largest one-sided element value at a singular vertex), sorted by (vertex,
-/// region), with the |E| a peak takes from it.
+/// region), with the |E| a peak takes from it. On a thin electrode, the face with the
+/// larger value.
 pub(crate) fn region_vertex_values(
     mesh: &Mesh,
     solution: &Solution,
     primal: &PrimalRecovery,
 ) -> Vec<(VertexMean, f64)> {
     let rec = primal.field(&solution.potential);
-    recovered_means(&primal.quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential)))
-        .into_iter()
-        .map(|g| {
-            let m = if primal.quad.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
-            (g, m)
-        })
-        .collect()
+    let mut out: Vec<(VertexMean, f64)> = Vec::new();
+    for g in recovered_means(
+        &primal.quad,
+        &rec,
+        region_vertex_means(vertex_fields(mesh, &solution.potential, rec.fans())),
+    ) {
+        let m = if primal.quad.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
+        match out.last_mut() {
+            Some(last) if last.0.node == g.node && last.0.region == g.region => {
+                if m > last.1 {
+                    *last = (g, m);
+                }
+            }
+            _ => out.push((g, m)),
+        }
+    }
+    out
 }
 
 /// [`region_peaks_away_from`] with the solution's recovery already made.
@@ -397,7 +411,7 @@ pub(crate) fn peaks_away_from_with(
 ) -> Vec<RegionPeak> {
     let quad = &primal.quad;
     let rec = primal.field(&solution.potential);
-    let means = recovered_means(quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential)));
+    let means = recovered_means(quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential, rec.fans())));
     let mut peaks = peaks_of(mesh, means, discs);
     polish_peaks(mesh, quad, &rec, &mut peaks, discs);
     // The rim of every disc belongs to the region left in: the field sampled there (it is
@@ -461,8 +475,8 @@ fn recovered_means(
     mut means: Vec<VertexMean>,
 ) -> Vec<VertexMean> {
     for g in &mut means {
-        if quad.lambda_at(g.node).is_none() && rec.has_fit(g.node, g.region) {
-            g.mean = rec.field_at_vertex(g.node, g.region);
+        if quad.lambda_at(g.node).is_none() && rec.has_fit(g.node, (g.region, g.fan)) {
+            g.mean = rec.field_at_vertex(g.node, (g.region, g.fan));
         }
     }
     means

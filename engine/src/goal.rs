@@ -106,14 +106,17 @@ pub enum Goal {
 const SECOND_OPINION_SAFETY: f64 = 1.25;
 
 /// The area-weighted mean of the elements' own fields at vertex `v` over the triangles of
-/// region `r` there.
-fn vertex_mean_field(mesh: &Mesh, potential: &[f64], v: u32, r: u32) -> [f64; 2] {
+/// its side `(region, fan)` there.
+fn vertex_mean_field(mesh: &Mesh, potential: &[f64], v: u32, (r, fan): (u32, u8), fans: &mesher::CornerFans) -> [f64; 2] {
     let (mut acc, mut w) = ([0.0; 2], 0.0);
     for (t, tri) in mesh.triangles.iter().enumerate() {
         if mesh.regions[t] != r {
             continue;
         }
         let Some(k) = tri.iter().position(|&x| x == v) else { continue };
+        if fans.of(t, k) != fan {
+            continue;
+        }
         let (xi, eta) = [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)][k];
         let e = crate::fields::eval_point(mesh, potential, t, xi, eta).e;
         let a = mesh.triangle_area(t).abs();
@@ -427,12 +430,14 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                 let scale = value / (2.0 * e.value * e.value);
                 let dwr = e.estimate / e.value * value;
                 let second = match (vertex_at(at), region) {
-                    (Some(v), Some(r)) if u.has_fit(v, r) => {
+                    (Some(v), Some(r)) if u.strongest_side(v, r).is_some() => {
                         // The recovered field there against the mean of the elements' own
                         // fields at the vertex: whichever of the two the peak is, their
-                        // distance bounds its error where the other is the better.
-                        let f = u.field_at_vertex(v, r);
-                        let mean = vertex_mean_field(mesh, &sol.potential, v, r);
+                        // distance bounds its error where the other is the better. (On a
+                        // thin electrode, on the face with the stronger field.)
+                        let side = u.strongest_side(v, r).expect("checked");
+                        let f = u.field_at_vertex(v, side);
+                        let mean = vertex_mean_field(mesh, &sol.potential, v, side, u.fans());
                         let other = if (f[0].hypot(f[1]) - value).abs() <= 1e-12 * value { mean } else { f };
                         SECOND_OPINION_SAFETY * (other[0].hypot(other[1]) - value).abs()
                     }

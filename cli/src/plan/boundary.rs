@@ -136,20 +136,7 @@ pub(super) fn pieces(
                 }
                 Curve::Line { from, to }
             }
-            (None, Some(a)) => {
-                let a = a.get_ref();
-                let center = cx.finite_xy(&a.center, key("arc.center"))?;
-                let radius = cx.positive(&a.radius, key("arc.radius"), "the radius")? * cx.unit_m;
-                let (d0, d1) = (*a.from_deg.get_ref(), *a.to_deg.get_ref());
-                let sweep = d1 - d0;
-                if !(d0.is_finite() && d1.is_finite() && sweep.abs() > 0.0 && sweep.abs() < 360.0) {
-                    return Err(cx
-                        .err(a.to_deg.span(), format!("the arc must sweep between 0° and 360° (it sweeps {sweep}°)"))
-                        .key(key("arc.to_deg"))
-                        .help("angles in degrees from +x; to_deg > from_deg runs counter-clockwise"));
-                }
-                Curve::Arc { center, radius, start: d0.to_radians(), sweep: sweep.to_radians() }
-            }
+            (None, Some(a)) => arc_curve(cx, a.get_ref(), &key)?,
             _ => {
                 return Err(cx
                     .err(whole, format!("boundary piece '{name}' needs exactly one of along or arc"))
@@ -261,4 +248,24 @@ pub(super) fn pieces(
         out.push(BoundaryPieceSpec { name, stretch: BoundaryStretch { curve, condition } });
     }
     Ok(out)
+}
+
+/// An arc given as `{ center, radius, from_deg, to_deg }` (model units, degrees from +x,
+/// counter-clockwise when to_deg > from_deg), in metres; `key` names its fields.
+pub(super) fn arc_curve(
+    cx: &Ctx<'_>,
+    a: &super::raw::RawArcPiece,
+    key: &dyn Fn(&str) -> String,
+) -> Result<Curve, ModelError> {
+    let center = cx.finite_xy(&a.center, key("arc.center"))?;
+    let radius = cx.positive(&a.radius, key("arc.radius"), "the radius")? * cx.unit_m;
+    let (d0, d1) = (*a.from_deg.get_ref(), *a.to_deg.get_ref());
+    let sweep = d1 - d0;
+    if !(d0.is_finite() && d1.is_finite() && sweep.abs() > 0.0 && sweep.abs() < 360.0) {
+        return Err(cx
+            .err(a.to_deg.span(), format!("the arc must sweep between 0° and 360° (it sweeps {sweep}°)"))
+            .key(key("arc.to_deg"))
+            .help("angles in degrees from +x; to_deg > from_deg runs counter-clockwise"));
+    }
+    Ok(Curve::Arc { center, radius, start: d0.to_radians(), sweep: sweep.to_radians() })
 }

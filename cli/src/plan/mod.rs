@@ -24,6 +24,7 @@ mod mesh_controls;
 mod probes;
 mod raw;
 mod shapes;
+mod thin;
 
 use boundary::boundary;
 use conductors::conductors;
@@ -206,6 +207,8 @@ pub struct Plan {
     pub import: Option<import::ImportPlan>,
     /// Byte spans of each shape's `name` value, for pointing at shapes in errors.
     shape_spans: Vec<Range<usize>>,
+    /// Byte spans of each thin electrode's `name` value.
+    thin_spans: Vec<Range<usize>>,
     source: String,
     path: std::path::PathBuf,
 }
@@ -213,13 +216,20 @@ pub struct Plan {
 impl Plan {
     /// Turns a mesher error into a diagnostic pointing at the shape it concerns.
     pub fn mesh_error(&self, e: &MeshError) -> ModelError {
-        let span = e
-            .shape()
-            .and_then(|name| self.geometry.shapes.iter().position(|s| s.name == name))
-            .map(|i| self.shape_spans[i].clone());
+        let shape = e.shape().and_then(|name| self.geometry.shapes.iter().position(|s| s.name == name));
+        let thin = e.shape().and_then(|name| self.geometry.thin.iter().position(|t| t.name == name));
+        let span = match (shape, thin) {
+            (Some(i), _) => Some(self.shape_spans[i].clone()),
+            (None, Some(i)) => Some(self.thin_spans[i].clone()),
+            (None, None) => None,
+        };
         let mut err = ModelError::new(&self.path, &self.source, span, e.message_in(self.unit_m, self.unit));
         if let Some(name) = e.shape() {
-            err = err.key(format!("in shape '{name}'"));
+            err = err.key(if thin.is_some() && shape.is_none() {
+                format!("in thin electrode '{name}'")
+            } else {
+                format!("in shape '{name}'")
+            });
         }
         if let MeshError::OverBudget { vertices, at_least, .. } = e {
             // The memory that mesh would need, solved (engine's measured bytes per unknown;
@@ -578,6 +588,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         outer,
         &conductors,
     )?;
+    let (thin, thin_spans) = thin::thin_electrodes(&cx, &raw, &conductors, import.is_some())?;
     let mut materials = materials;
     let load_cases = load_cases::load_cases(
         &cx,
@@ -596,7 +607,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         conductors: conductors.iter().map(|c| c.name.clone()).collect(),
         outer,
         size_points,
-        thin: vec![],
+        thin,
         boundary_pieces: boundary_pieces
             .iter()
             .map(|b| mesher::BoundaryPiece { curve: b.stretch.curve, wall: b.stretch.wall() })
@@ -633,6 +644,7 @@ pub fn parse(path: &Path, source: &str) -> Result<Plan, ModelError> {
         unit,
         import,
         shape_spans,
+        thin_spans,
         source: source.to_string(),
         path: path.to_path_buf(),
     };

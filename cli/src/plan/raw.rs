@@ -25,6 +25,8 @@ pub(super) struct RawModel {
     #[serde(default)]
     pub(super) point: Vec<S<RawNamedPoint>>,
     #[serde(default)]
+    pub(super) thin_electrode: Vec<S<RawThin>>,
+    #[serde(default)]
     pub(super) load_case: Vec<S<RawLoadCase>>,
     pub(super) breakdown: Option<S<RawBreakdown>>,
     pub(super) import: Option<S<RawImport>>,
@@ -253,6 +255,16 @@ pub(super) struct RawPiece {
     pub(super) potential_to_v: Option<S<f64>>,
     pub(super) potential_table: Option<S<Vec<S<[f64; 2]>>>>,
     pub(super) conductor: Option<S<String>>,
+}
+
+/// `[[thin_electrode]]`: a conductor of zero thickness.
+#[derive(Deserialize, Debug)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawThin {
+    pub(super) name: S<String>,
+    pub(super) conductor: S<String>,
+    pub(super) along: Option<S<Vec<S<[f64; 2]>>>>,
+    pub(super) arc: Option<S<RawArcPiece>>,
 }
 
 #[derive(Deserialize, Debug)]
