@@ -55,9 +55,9 @@ use crate::problem::Problem;
 use crate::solve::{Solution, EPSILON_0};
 use crate::space::{Element, P1, P2, QUAD_DEG2};
 use mesher::{CornerFans, Mesh, Symmetry, Xy};
-use std::sync::Arc;
 use rayon::prelude::*;
 use std::borrow::Cow;
+use std::sync::Arc;
 
 /// Per-element indicators and the global estimate.
 #[derive(Clone, Debug)]

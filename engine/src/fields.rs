@@ -384,11 +384,9 @@ pub(crate) fn region_vertex_values(
 ) -> Vec<(VertexMean, f64)> {
     let rec = primal.field(&solution.potential);
     let mut out: Vec<(VertexMean, f64)> = Vec::new();
-    for g in recovered_means(
-        &primal.quad,
-        &rec,
-        region_vertex_means(vertex_fields(mesh, &solution.potential, rec.fans())),
-    ) {
+    for g in
+        recovered_means(&primal.quad, &rec, region_vertex_means(vertex_fields(mesh, &solution.potential, rec.fans())))
+    {
         let m = if primal.quad.lambda_at(g.node).is_some() { g.max_norm } else { g.mean[0].hypot(g.mean[1]) };
         match out.last_mut() {
             Some(last) if last.0.node == g.node && last.0.region == g.region => {

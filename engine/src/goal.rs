@@ -107,7 +107,13 @@ const SECOND_OPINION_SAFETY: f64 = 1.25;
 
 /// The area-weighted mean of the elements' own fields at vertex `v` over the triangles of
 /// its side `(region, fan)` there.
-fn vertex_mean_field(mesh: &Mesh, potential: &[f64], v: u32, (r, fan): (u32, u8), fans: &mesher::CornerFans) -> [f64; 2] {
+fn vertex_mean_field(
+    mesh: &Mesh,
+    potential: &[f64],
+    v: u32,
+    (r, fan): (u32, u8),
+    fans: &mesher::CornerFans,
+) -> [f64; 2] {
     let (mut acc, mut w) = ([0.0; 2], 0.0);
     for (t, tri) in mesh.triangles.iter().enumerate() {
         if mesh.regions[t] != r {

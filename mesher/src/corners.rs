@@ -384,7 +384,11 @@ pub(crate) fn classify(
             let has_cond = matches!(sectors[k0].1, Side::Conductor(_)) || matches!(sectors[k1].1, Side::Conductor(_));
             let multi =
                 secs.iter().any(|s| (s.permittivity - secs[0].permittivity).abs() > 1e-12 * secs[0].permittivity);
+            // A run that starts and ends at one zero-opening conductor sector goes round the
+            // free end of a thin electrode.
+            let thin_end = k0 == k1 && sectors[k0].0 == 0.0 && has_cond;
             let kind = match (has_cond, multi) {
+                _ if thin_end => SingularKind::ThinEdge,
                 (true, false) => SingularKind::ConductorCorner,
                 (true, true) => SingularKind::TripleJunction,
                 (false, _) => SingularKind::BoundaryCorner,

@@ -20,6 +20,9 @@ pub enum SingularKind {
     BoundaryCorner,
     /// Dielectrics of different permittivity meet at a corner away from any conductor.
     DielectricCorner,
+    /// The free end of a thin electrode (a conductor of zero thickness), the field on both
+    /// faces: λ = ½ in one dielectric.
+    ThinEdge,
 }
 
 impl SingularKind {
@@ -30,6 +33,7 @@ impl SingularKind {
             SingularKind::TripleJunction => "triple junction",
             SingularKind::BoundaryCorner => "boundary corner",
             SingularKind::DielectricCorner => "dielectric corner",
+            SingularKind::ThinEdge => "thin electrode edge",
         }
     }
 }

@@ -32,3 +32,5 @@ mod report;
 mod shapes;
 /// `fieldgrade solve`: results, closed-form check, errors.
 mod solve;
+/// `[[thin_electrode]]`: zero-thickness conductors against conformal maps and elliptic integrals.
+mod thin;

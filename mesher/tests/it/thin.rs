@@ -38,6 +38,7 @@ fn a_straight_foil_is_meshed_with_both_faces_and_its_ends_are_square_root_edges(
     for s in &ends {
         assert!((s.lambda - 0.5).abs() < 1e-9, "{s:?}");
         assert!((s.opening - std::f64::consts::TAU).abs() < 1e-9);
+        assert_eq!(s.kind, mesher::SingularKind::ThinEdge);
     }
     // Where the foil crosses the interface the field is not singular for P2 (λ = 1 on
     // each side of a straight conductor crossing a straight interface at a right angle).
