@@ -251,9 +251,12 @@ impl Curve {
     /// Number of crossings of the ray from `p` towards +x, counted with the half-open rule
     /// (an endpoint counts when the curve leaves or enters the half plane `y > p.y`), so that
     /// crossings through shared vertices of a closed outline are counted exactly once.
-    fn ray_crossings(&self, p: Xy) -> u32 {
+    /// `ends_y` are the heights taken for the curve's two ends: the joints' heights shared
+    /// with the neighbouring curves, so that round-off in where an arc ends (sin 2π ≠ 0)
+    /// cannot count a crossing at a joint twice or not at all.
+    fn ray_crossings(&self, p: Xy, ends_y: [f64; 2]) -> u32 {
         match *self {
-            Curve::Line { from, to } => crossing_line(from, to, p) as u32,
+            Curve::Line { from, to } => crossing_line([from[0], ends_y[0]], [to[0], ends_y[1]], p) as u32,
             Curve::Arc { center, radius, start, sweep } => {
                 // Split the arc into y-monotone pieces at the top and bottom of the circle.
                 let mut cuts = vec![0.0, 1.0];
@@ -267,8 +270,14 @@ impl Curve {
                 cuts.sort_by(f64::total_cmp);
                 let mut n = 0;
                 for w in cuts.windows(2) {
-                    let a = self.point_at(w[0]);
-                    let b = self.point_at(w[1]);
+                    let mut a = self.point_at(w[0]);
+                    let mut b = self.point_at(w[1]);
+                    if w[0] == 0.0 {
+                        a[1] = ends_y[0];
+                    }
+                    if w[1] == 1.0 {
+                        b[1] = ends_y[1];
+                    }
                     if (a[1] > p[1]) != (b[1] > p[1]) {
                         // x of the monotone piece at height p.y.
                         let dy = p[1] - center[1];
@@ -462,7 +471,13 @@ impl Outline {
         if p[0] < bb[0] || p[0] > bb[2] || p[1] < bb[1] || p[1] > bb[3] {
             return false;
         }
-        let n: u32 = self.curves.iter().map(|c| c.ray_crossings(p)).sum();
+        let m = self.curves.len();
+        let n: u32 = (0..m)
+            .map(|k| {
+                let before = self.curves[(k + m - 1) % m].to()[1];
+                self.curves[k].ray_crossings(p, [before, self.curves[k].to()[1]])
+            })
+            .sum();
         n % 2 == 1
     }
 

@@ -41,6 +41,9 @@ pub struct MeshReport {
     pub boundary_pieces: Vec<PieceReport>,
     /// Conductors and how their potential is set.
     pub conductors: Vec<ConductorReport>,
+    /// The thin electrodes (`[[thin_electrode]]`): their conductor, length and edges.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub thin_electrodes: Vec<PieceReport>,
     /// Per region.
     pub regions: Vec<RegionReport>,
     /// Singular points.
@@ -49,7 +52,7 @@ pub struct MeshReport {
     pub warnings: Vec<String>,
 }
 
-/// One piece of the outer boundary.
+/// One piece of the outer boundary, or one thin electrode.
 #[derive(Serialize, Debug)]
 pub struct PieceReport {
     /// Name.
@@ -306,6 +309,29 @@ pub fn report_of(model: &Plan, mesh: &mesher::Mesh, complete: bool, note: Option
                 PieceReport { name: b.name.clone(), condition, length: curve.length() / k, edges }
             })
             .collect(),
+        thin_electrodes: model
+            .geometry
+            .thin
+            .iter()
+            .map(|t| {
+                let tol = 1e-9 * mesh.scale();
+                let on = |v: u32| t.curves.iter().any(|c| c.distance(mesh.nodes[v as usize]).0 <= tol);
+                let edges = mesh
+                    .edges
+                    .iter()
+                    .filter(|e| e.tag == mesher::EdgeTag::Conductor(t.conductor) && on(e.nodes[0]) && on(e.nodes[1]))
+                    .count();
+                PieceReport {
+                    name: t.name.clone(),
+                    condition: format!(
+                        "conductor {}, field on both faces",
+                        model.conductors[t.conductor as usize].name
+                    ),
+                    length: t.curves.iter().map(|c| c.length()).sum::<f64>() / k,
+                    edges,
+                }
+            })
+            .collect(),
         conductors: model
             .conductors
             .iter()
@@ -357,6 +383,9 @@ pub fn render_text(r: &MeshReport) -> String {
             _ => String::new(),
         };
         let _ = writeln!(s, "  {:<20} {how}", c.name);
+    }
+    for t in &r.thin_electrodes {
+        let _ = writeln!(s, "  thin       {}: {}, {} {u}, {} edges", t.name, t.condition, sig(t.length), t.edges);
     }
     let _ = writeln!(s, "\nregions");
     let _ = writeln!(

@@ -343,5 +343,120 @@ fn misused_thin_electrodes_are_located_errors() {
         "runs along the outer boundary",
     );
     // On the held boundary at another potential: the contact check.
-    bad("along = [[10.0, 3.0], [20.0, 3.0], [30.0, 3.0]]", "along = [[10.0, 0.0], [10.0, 5.0]]", "touches the outer boundary");
+    bad(
+        "along = [[10.0, 3.0], [20.0, 3.0], [30.0, 3.0]]",
+        "along = [[10.0, 0.0], [10.0, 5.0]]",
+        "touches the outer boundary",
+    );
+}
+
+#[test]
+fn a_thin_disc_in_open_space_has_capacitance_eight_epsilon_a() {
+    // A conducting disc of radius a and zero thickness, axisymmetric, in unbounded space:
+    // C = 8ε₀a (the oblate-spheroid limit; W. R. Smythe, Static and Dynamic Electricity,
+    // 3rd ed., 1968, §5.02; J. D. Jackson, Classical Electrodynamics, 3rd ed., 1999, §3.13).
+    // The disc meets the axis at a right angle (a cone of half-angle π/2: ν = 1, smooth)
+    // and its rim is a square-root edge.
+    let model = r#"
+[model]
+symmetry = "axisymmetric"
+length_unit = "mm"
+
+[[material]]
+name = "air"
+permittivity = 1.0
+
+[[conductor]]
+name = "disc"
+potential_v = 1000.0
+
+[[shape]]
+name = "space"
+material = "air"
+half_disc = { center = [0.0, 0.0], radius = 60.0 }
+
+[[thin_electrode]]
+name = "disc"
+conductor = "disc"
+along = [[0.0, 0.0], [10.0, 0.0]]
+
+[boundary]
+outer = "open"
+
+[mesh]
+order = 2
+"#;
+    let (r, _) = results(model, "check", &["--tol", "0.1%"]);
+    assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
+    let exact = 8.0 * EPS0 * 0.010 * 1000.0;
+    let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
+    let c = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == "charge of disc").expect("watched");
+    let bar = c["error_bar"]["absolute"].as_f64().unwrap();
+    assert!((q - exact).abs() <= bar.max(1e-6 * exact), "Q = {q} ± {bar} vs {exact}");
+    let sp = r["singular_points"].as_array().unwrap();
+    assert_eq!(sp.len(), 1, "{sp:?}");
+    assert_eq!(sp[0]["at"][0].as_f64(), Some(10.0), "model units");
+}
+
+#[test]
+fn a_floating_cylindrical_foil_of_two_arcs_floats_at_the_coaxial_potential() {
+    // A closed foil at r = 20 mm (two arc electrodes of one floating conductor) between a
+    // core of 10 mm at 1 kV and an earthed screen of 30 mm lies on an equipotential of the
+    // coaxial field: it floats at V·ln(b/r)/ln(b/a) and the core's charge stays
+    // 2πε·V/ln(b/a) (Griffiths 2017, problem 2.43).
+    let model = r#"
+[model]
+symmetry = "planar"
+length_unit = "mm"
+
+[[material]]
+name = "oil"
+permittivity = 2.2
+
+[[conductor]]
+name = "core"
+potential_v = 1000.0
+
+[[conductor]]
+name = "screen"
+floating = true
+
+[[shape]]
+name = "gap"
+material = "oil"
+circle = { center = [0.0, 0.0], radius = 30.0 }
+
+[[shape]]
+name = "core"
+conductor = "core"
+circle = { center = [0.0, 0.0], radius = 10.0 }
+
+[[thin_electrode]]
+name = "upper"
+conductor = "screen"
+arc = { center = [0.0, 0.0], radius = 20.0, from_deg = 0.0, to_deg = 180.0 }
+
+[[thin_electrode]]
+name = "lower"
+conductor = "screen"
+arc = { center = [0.0, 0.0], radius = 20.0, from_deg = 180.0, to_deg = 360.0 }
+
+[boundary]
+outer = "potential"
+potential_v = 0.0
+
+[mesh]
+order = 2
+"#;
+    let (r, _) = results(model, "check", &["--tol", "0.1%"]);
+    assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
+    let v = r["conductors"][1]["potential_v"].as_f64().unwrap();
+    let want = 1000.0 * (1.5f64).ln() / 3f64.ln();
+    assert!((v - want).abs() < 1e-5 * 1000.0, "{v} vs {want}");
+    let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
+    let exact = 2.0 * PI * EPS0 * 2.2 * 1000.0 / 3f64.ln();
+    let c = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == "charge of core").expect("watched");
+    let bar = c["error_bar"]["absolute"].as_f64().unwrap();
+    assert!((q - exact).abs() <= bar.max(1e-6 * exact), "Q = {q} ± {bar} vs {exact}");
+    assert!(r["singular_points"].as_array().unwrap().is_empty());
 }
