@@ -80,3 +80,59 @@ fn misplaced_foils_are_refused() {
     g.thin = vec![foil("f", vec![Curve::Line { from: [1.0, 0.75], to: [3.0, 0.75] }], 1)];
     assert!(generate(&g, &p).is_ok());
 }
+
+#[test]
+fn a_foil_ending_where_an_interface_bends_takes_the_two_dielectric_root() {
+    // Region B = [0, 2] × [0, 1] (εB) in A (εA), the foil along B's top edge from x = 0.5
+    // to its corner (2, 1). Round the tip from the foil: B over π/2, then A over 3π/2,
+    // conductor walls at both ends. With Φ = sin λφ in B and c·sin λ(2π − φ) in A,
+    // continuity of Φ and of εΦ′ at φ = π/2 gives
+    // εB·sin(3x)·cos(x) + εA·sin(x)·cos(3x) = 0, x = λπ/2 (derived for this test, the
+    // transfer condition of Grisvard 1985 for two sectors); for εA = εB, λ = ½.
+    for (eps_a, eps_b) in [(1.0, 1.0), (1.0, 4.0), (4.0, 1.0)] {
+        let mut geo = planar(
+            vec![
+                dielectric("a", Outline::rectangle("a", [-1.0, -1.0], [4.0, 3.0], 0.0).unwrap(), eps_a),
+                dielectric("b", Outline::rectangle("b", [0.0, 0.0], [2.0, 1.0], 0.0).unwrap(), eps_b),
+            ],
+            &["foil"],
+        );
+        geo.thin = vec![foil("f", vec![Curve::Line { from: [0.5, 1.0], to: [2.0, 1.0] }], 0)];
+        let out = generate(&geo, &RefineParams::new().with_order(2).with_max_size_m(0.3)).unwrap();
+        let tip = out
+            .mesh
+            .singular_points
+            .iter()
+            .find(|s| (s.at[0] - 2.0).abs() < 1e-12 && (s.at[1] - 1.0).abs() < 1e-12)
+            .expect("the tip");
+        let g = |lam: f64| {
+            let x = lam * std::f64::consts::PI / 2.0;
+            eps_b * (3.0 * x).sin() * x.cos() + eps_a * x.sin() * (3.0 * x).cos()
+        };
+        // The smallest root in (0, 1) by a scan and bisection.
+        let (mut lo, mut hi) = (1e-6, 1e-6);
+        for k in 1..10_000 {
+            let l = k as f64 * 1e-4;
+            if g(l).signum() != g(lo).signum() {
+                hi = l;
+                break;
+            }
+            lo = l;
+        }
+        for _ in 0..100 {
+            let m = 0.5 * (lo + hi);
+            if g(m).signum() == g(lo).signum() {
+                lo = m;
+            } else {
+                hi = m;
+            }
+        }
+        assert!((tip.lambda - lo).abs() < 1e-6, "εA {eps_a} εB {eps_b}: λ = {} vs {lo}", tip.lambda);
+        if eps_a == eps_b {
+            assert!((tip.lambda - 0.5).abs() < 1e-9);
+            assert_eq!(tip.kind, mesher::SingularKind::ThinEdge);
+        } else {
+            assert!((tip.lambda - 0.5).abs() > 1e-3, "the interface moves the root");
+        }
+    }
+}
