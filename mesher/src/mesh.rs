@@ -615,14 +615,14 @@ impl Mesh {
             }
             // Number the fans of each region in the order of their first triangle.
             let mut seen: Vec<(u32, usize)> = Vec::new();
-            for i in 0..tris.len() {
+            for (i, &ti) in tris.iter().enumerate() {
                 let r = root(&mut parent, i);
-                let region = self.regions[tris[i] as usize];
+                let region = self.regions[ti as usize];
                 if !seen.iter().any(|&(_, q)| q == r) {
                     seen.push((region, r));
                 }
                 let fan = seen.iter().filter(|&&(g, _)| g == region).position(|&(_, q)| q == r).unwrap_or(0);
-                let t = tris[i] as usize;
+                let t = ti as usize;
                 let k = self.triangles[t].iter().position(|&w| w == v).expect("star triangle holds v");
                 fans[t][k] = fan.min(u8::MAX as usize) as u8;
             }
