@@ -20,7 +20,6 @@
 use crate::geometry::{Symmetry, Xy};
 use crate::import::GridFile;
 use crate::mesh::{ArcGeom, EdgeTag, Mesh, TaggedEdge};
-use rayon::prelude::*;
 
 /// What an imported region id becomes.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -266,21 +265,15 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
             is_vertex[v as usize] = true;
         }
     }
-    let mut by_xy: Vec<u32> = (0..grid.points.len() as u32).filter(|&v| is_vertex[v as usize]).collect();
-    by_xy.par_sort_by(|&a, &b| {
-        let (p, q) = (grid.points[a as usize], grid.points[b as usize]);
-        p[0].total_cmp(&q[0]).then(p[1].total_cmp(&q[1]))
-    });
-    for w in by_xy.windows(2) {
-        let (p, q) = (grid.points[w[0] as usize], grid.points[w[1] as usize]);
-        if (p[0] - q[0]).powi(2) + (p[1] - q[1]).powi(2) <= (1e-13 * scale).powi(2) {
-            return fail(format!(
-                "nodes {} and {} coincide at {}: merge duplicate nodes (the cells on either side are not joined)",
-                w[0],
-                w[1],
-                at(w[0])
-            ));
-        }
+    let vertices: Vec<u32> = (0..grid.points.len() as u32).filter(|&v| is_vertex[v as usize]).collect();
+    let xy_of = |v: u32| [grid.points[v as usize][0], grid.points[v as usize][1]];
+    if let Some((a, b)) = crate::mesh::first_coincident(xy_of, &vertices, |_| false, 1e-13 * scale) {
+        return fail(format!(
+            "nodes {} and {} coincide at {}: merge duplicate nodes (the cells on either side are not joined)",
+            a.min(b),
+            a.max(b),
+            at(a.min(b))
+        ));
     }
     // Hanging nodes: a vertex inside an edge that only one cell has (the other side of a
     // non-conforming edge was split). Boundary edges are few; a uniform bucket grid of their

@@ -7,6 +7,38 @@ use crate::singular_point::SingularPoint;
 use rayon::prelude::*;
 use std::collections::HashMap;
 
+/// Two of the points `ids` (positions by `point`) closer than `tol` (in the same `family`, when the points fall
+/// into families compared only within themselves), if any: sorted by coordinates as
+/// order-preserving integer keys (far faster than comparing floats through the point
+/// array), then neighbours compared.
+pub(crate) fn first_coincident(
+    point: impl Fn(u32) -> Xy + Sync,
+    ids: &[u32],
+    family: impl Fn(u32) -> bool + Sync,
+    tol: f64,
+) -> Option<(u32, u32)> {
+    let ordered = |v: f64| {
+        let b = v.to_bits();
+        if b >> 63 == 1 {
+            !b
+        } else {
+            b | (1 << 63)
+        }
+    };
+    let mut order: Vec<(bool, u64, u64, u32)> = ids
+        .par_iter()
+        .map(|&i| {
+            let p = point(i);
+            (family(i), ordered(p[0]), ordered(p[1]), i)
+        })
+        .collect();
+    order.par_sort_unstable();
+    order.windows(2).find_map(|w| {
+        let (p, q) = (point(w[0].3), point(w[1].3));
+        (w[0].0 == w[1].0 && norm(sub(p, q)) <= tol).then_some((w[0].3, w[1].3))
+    })
+}
+
 /// Key of the undirected edge a–b: smaller id in the high half.
 pub(crate) fn edge_key(a: u32, b: u32) -> u64 {
     ((a.min(b) as u64) << 32) | a.max(b) as u64
@@ -410,17 +442,7 @@ impl Mesh {
             }
             i = j;
         }
-        // Duplicate nodes: sort by coordinates (as order-preserving integer keys, which
-        // sorts far faster than comparing floats through the node array), then compare
-        // neighbours.
-        let ordered = |v: f64| {
-            let b = v.to_bits();
-            if b >> 63 == 1 {
-                !b
-            } else {
-                b | (1 << 63)
-            }
-        };
+        // Duplicate nodes (`first_coincident`).
         // Nodes used only by the mapped open-boundary exterior live in inverted coordinates
         // and may coincide with physical nodes: compare each family within itself.
         let mut mapped = vec![false; n];
@@ -444,21 +466,9 @@ impl Mesh {
         // arc (checked above), so it could coincide with another node only where two
         // triangles overlap, which the pairing of edges already rules out for a mesh that
         // does not fold over itself. (Sorting all P2 nodes took 70 % of this validation.)
-        let mut order: Vec<(bool, u64, u64, u32)> = self.nodes[..nv]
-            .iter()
-            .enumerate()
-            .map(|(i, p)| (mapped[i], ordered(p[0]), ordered(p[1]), i as u32))
-            .collect();
-        order.par_sort_unstable();
-        for w in order.windows(2) {
-            if w[0].0 != w[1].0 {
-                continue;
-            }
-            let (i, j) = (w[0].3 as usize, w[1].3 as usize);
-            let (p, q) = (self.nodes[i], self.nodes[j]);
-            if norm(sub(p, q)) <= 1e-13 * scale {
-                return bad(format!("nodes {i} and {j} coincide at {p:?}"));
-            }
+        let ids: Vec<u32> = (0..nv as u32).collect();
+        if let Some((i, j)) = first_coincident(|v| self.nodes[v as usize], &ids, |v| mapped[v as usize], 1e-13 * scale) {
+            return bad(format!("nodes {i} and {j} coincide at {:?}", self.nodes[i as usize]));
         }
         if let Some(i) = used.iter().position(|u| !u) {
             return bad(format!("node {i} at {:?} belongs to no triangle", self.nodes[i]));
