@@ -517,7 +517,16 @@ pub fn import_mesh(grid: &GridFile, spec: &ImportSpec) -> Result<Imported, Impor
         singular_points: Vec::new(),
         exterior: None,
     };
-    mesh.validate().map_err(|e| ImportError(format!("the imported mesh fails validation: {e}")))?;
+    // The validation's edge list comes from the file's, not from a second sort: vertices
+    // keep their order under the renumbering (new ids ascend with the file's), so edge keys
+    // do too, and so do the kept triangles' positions.
+    let edges: Vec<(u64, u32, u8)> = adj
+        .iter()
+        .filter(|e| kept_at[e.1 as usize] != u32::MAX)
+        .map(|&(k, t, l)| (key(new_id[(k >> 32) as usize], new_id[k as u32 as usize]), kept_at[t as usize], l))
+        .collect();
+    debug_assert_eq!(edges, mesh.sorted_edges(), "the renumbering keeps the edge order");
+    mesh.validate_with(Some(&edges)).map_err(|e| ImportError(format!("the imported mesh fails validation: {e}")))?;
     Ok(Imported { mesh, warnings })
 }
 
