@@ -344,37 +344,40 @@ const LONG_TEXT: usize = 1 << 16;
 
 /// `xml` with every text run longer than [`LONG_TEXT`] between a tag's end and the next tag
 /// replaced by one character, and for each such run (sorted) where its stand-in lies in the
-/// result and where the run lies in `xml`. Runs with entity references (`&`) stay, so the
-/// parser resolves them; an array's data holds none (numbers or base64).
-fn elide_long_text(xml: &str) -> (std::borrow::Cow<'_, str>, Vec<(usize, std::ops::Range<usize>)>) {
-    let mut out = String::new();
+/// result and where the run lies in `xml`. Only ASCII runs without entity references (`&`)
+/// are left out (an array's data: numbers or base64); others stay, for the parser to check
+/// and resolve.
+fn elide_long_text(xml: &[u8]) -> (Vec<u8>, Vec<(usize, std::ops::Range<usize>)>) {
+    let mut out = Vec::new();
     let mut runs = Vec::new();
     let (mut copied, mut pos) = (0, 0);
-    while let Some(g) = xml[pos..].find('>').map(|k| pos + k + 1) {
-        let Some(l) = xml[g..].find('<').map(|k| g + k) else { break };
-        if l - g > LONG_TEXT && !xml[g..l].contains('&') {
-            out.push_str(&xml[copied..g]);
+    while let Some(g) = memchr::memchr(b'>', &xml[pos..]).map(|k| pos + k + 1) {
+        let Some(l) = memchr::memchr(b'<', &xml[g..]).map(|k| g + k) else { break };
+        let run = &xml[g..l];
+        if run.len() > LONG_TEXT && run.is_ascii() && memchr::memchr(b'&', run).is_none() {
+            out.extend_from_slice(&xml[copied..g]);
             runs.push((out.len(), g..l));
-            out.push('0');
+            out.push(b'0');
             copied = l;
         }
         pos = l;
     }
-    if runs.is_empty() {
-        return (std::borrow::Cow::Borrowed(xml), runs);
-    }
-    out.push_str(&xml[copied..]);
-    (std::borrow::Cow::Owned(out), runs)
+    out.extend_from_slice(&xml[copied..]);
+    (out, runs)
 }
 
 /// Reads a VTK XML unstructured grid.
 fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
     // The XML part is everything before the appended block, which is binary.
     let split = find(bytes, b"<AppendedData").unwrap_or(bytes.len());
-    let text = std::str::from_utf8(&bytes[..split])
-        .map_err(|e| ReadError(format!("the XML part of the file is not UTF-8 text ({e})")))?;
-    // Borrowed unless the appended block was cut off and the root must be closed.
-    let mut xml = std::borrow::Cow::Borrowed(text);
+    // The XML parser sees the document with its long text runs (the arrays' data) left
+    // out, which it would otherwise scan character by character (a fifth of the whole read
+    // of a 180 MB base64 file); only that skeleton is checked to be UTF-8 (checking the
+    // whole took as long again), the runs being ASCII.
+    let xml = &bytes[..split];
+    let (skeleton, runs) = elide_long_text(xml);
+    let mut skeleton = String::from_utf8(skeleton)
+        .map_err(|e| ReadError(format!("the XML part of the file is not UTF-8 text ({})", e.utf8_error())))?;
     let mut appended: Option<(&[u8], bool)> = None;
     if split < bytes.len() {
         let tag_end =
@@ -389,21 +392,21 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
             return err("the appended data does not start with '_' after <AppendedData>");
         }
         appended = Some((&bytes[at + 1..], base64));
-        xml.to_mut().push_str("</VTKFile>");
+        skeleton.push_str("</VTKFile>");
     }
-    // The XML parser sees the document with its long text runs (the arrays' data) left out,
-    // which it would otherwise scan character by character (a fifth of the whole read of a
-    // 180 MB base64 file).
-    let (skeleton, runs) = elide_long_text(&xml);
     let doc = roxmltree::Document::parse(&skeleton).map_err(|e| ReadError(format!("malformed XML: {e}")))?;
     // A node's text: the elided run it stands for, or its own.
-    fn node_text<'a>(node: roxmltree::Node<'a, 'a>, xml: &'a str, runs: &[(usize, std::ops::Range<usize>)]) -> &'a str {
+    fn node_text<'a>(
+        node: roxmltree::Node<'a, 'a>,
+        xml: &'a [u8],
+        runs: &[(usize, std::ops::Range<usize>)],
+    ) -> &'a [u8] {
         match node.first_child().filter(|c| c.is_text()) {
             Some(t) => match runs.binary_search_by_key(&t.range().start, |r| r.0) {
                 Ok(k) => &xml[runs[k].1.clone()],
-                Err(_) => node.text().unwrap_or(""),
+                Err(_) => node.text().unwrap_or("").as_bytes(),
             },
-            None => "",
+            None => b"",
         }
     }
     let root = doc.root_element();
@@ -448,12 +451,16 @@ fn read_vtu(bytes: &[u8]) -> Result<GridFile, ReadError> {
         )))?;
         let fmt = node.attribute("format").unwrap_or("ascii");
         match fmt {
-            "ascii" => node_text(node, &xml, &runs)
-                .split_ascii_whitespace()
-                .map(|t| t.parse::<f64>().map_err(|_| ReadError(format!("data array '{name}': '{t}' is not a number"))))
+            "ascii" => node_text(node, xml, &runs)
+                .split(u8::is_ascii_whitespace)
+                .filter(|t| !t.is_empty())
+                .map(|t| {
+                    let t = std::str::from_utf8(t).unwrap_or("?");
+                    t.parse::<f64>().map_err(|_| ReadError(format!("data array '{name}': '{t}' is not a number")))
+                })
                 .collect(),
             "binary" => {
-                let (bytes, range) = layout.payload_base64(node_text(node, &xml, &runs).as_bytes(), name)?;
+                let (bytes, range) = layout.payload_base64(node_text(node, xml, &runs), name)?;
                 Ok(ty.decode(&bytes[range], little))
             }
             "appended" => {

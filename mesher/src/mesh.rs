@@ -467,7 +467,8 @@ impl Mesh {
         // triangles overlap, which the pairing of edges already rules out for a mesh that
         // does not fold over itself. (Sorting all P2 nodes took 70 % of this validation.)
         let ids: Vec<u32> = (0..nv as u32).collect();
-        if let Some((i, j)) = first_coincident(|v| self.nodes[v as usize], &ids, |v| mapped[v as usize], 1e-13 * scale) {
+        if let Some((i, j)) = first_coincident(|v| self.nodes[v as usize], &ids, |v| mapped[v as usize], 1e-13 * scale)
+        {
             return bad(format!("nodes {i} and {j} coincide at {:?}", self.nodes[i as usize]));
         }
         if let Some(i) = used.iter().position(|u| !u) {
