@@ -141,7 +141,7 @@ at = [-5.0, 5.0]
 /// there, V = (V₀/π)·(arg(η − 1) − arg(η + 1)), the imaginary part of
 /// F = (V₀/π)·ln((η − 1)/(η + 1)), so |E| = |F′(z)| = V₀ / (d·|η|). The far ends are exact to
 /// e^(−5π) ≈ 1.5e-7 (left) and e^(−5π) (right).
-fn slab_exact(x: f64, y: f64) -> (f64, f64) {
+pub(crate) fn slab_exact(x: f64, y: f64) -> (f64, f64) {
     let d = 10.0;
     // ζ + 1 = 1 + e^(πx/d)·(cos πy/d + i sin πy/d).
     let m = (PI * x / d).exp();

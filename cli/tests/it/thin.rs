@@ -134,20 +134,11 @@ name = "above"
 at = [-5.0, 5.0]
 "#;
 
-/// The semi-infinite plate's exact V and |E| at (x, y) mm, by conformal mapping (the
-/// textbook method, e.g. W. R. Smythe, Static and Dynamic Electricity, 3rd ed., 1968,
-/// ch. 4; derived for this test): each half of the channel is the slab 0 < y′ < d with
-/// y′ = d − |y|, ζ = e^(πz′/d) and η = √(ζ + 1) map it onto the first quadrant, and
-/// V = (V₀/π)·(arg(η − 1) − arg(η + 1)), |E| = V₀ / (d·|η|).
+/// The semi-infinite plate's exact V and |E| at (x, y) mm: each half of the channel is the
+/// half-covered slab of `pieces.rs` (its conformal map, Smythe 1968, ch. 4) with the plate
+/// as the electrode, at y′ = d − |y|.
 fn half_plane_exact(x: f64, y: f64) -> (f64, f64) {
-    let d = 10.0;
-    let y = d - y.abs();
-    let m = (PI * x / d).exp();
-    let (re, im) = (1.0 + m * (PI * y / d).cos(), m * (PI * y / d).sin());
-    let r = re.hypot(im).sqrt();
-    let half = 0.5 * im.atan2(re);
-    let (er, ei) = (r * half.cos(), r * half.sin());
-    (1000.0 / PI * (ei.atan2(er - 1.0) - ei.atan2(er + 1.0)), 1000.0 / (0.010 * er.hypot(ei)))
+    crate::pieces::slab_exact(x, 10.0 - y.abs())
 }
 
 #[test]
