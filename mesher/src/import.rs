@@ -6,7 +6,8 @@
 //!
 //! Formats: "VTK File Formats", VTK User's Guide (Kitware, 11th ed., 2010), ch. 19, and the
 //! VTK XML file format description (vtk.org, "VTK XML Formats"). The XML is parsed by the
-//! roxmltree crate; base64 by the base64 crate; zlib by flate2.
+//! roxmltree crate (its skeleton: the arrays' long text runs are found with memchr and
+//! left out); base64 by the base64 crate; zlib by flate2.
 //!
 //! What is read is the file as it stands — points, cells, integer cell arrays — with every
 //! length and index checked here, so that nothing later indexes out of range. Turning it into
