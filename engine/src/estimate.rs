@@ -299,7 +299,7 @@ impl RecoveryPlan {
         let nv = mesh.num_vertices as usize;
         let (start, around) = mesh.vertex_triangles();
         let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
-        let fans = Arc::new(mesh.corner_fans());
+        let fans = Arc::new(mesh.corner_fans((&start, &around)));
         // The side of triangle t at its vertex w.
         let side_at = |t: u32, w: u32| -> VertexSide {
             let k = mesh.triangles[t as usize].iter().position(|&x| x == w).expect("star triangle holds w");

@@ -435,13 +435,14 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             Goal::PeakField { value, at, region } if e.value > 0.0 => {
                 let scale = value / (2.0 * e.value * e.value);
                 let dwr = e.estimate / e.value * value;
-                let second = match (vertex_at(at), region) {
-                    (Some(v), Some(r)) if u.strongest_side(v, r).is_some() => {
+                // The face with the stronger field on a thin electrode; the region itself
+                // elsewhere.
+                let side = vertex_at(at).zip(region).and_then(|(v, r)| Some((v, u.strongest_side(v, r)?)));
+                let second = match side {
+                    Some((v, side)) => {
                         // The recovered field there against the mean of the elements' own
                         // fields at the vertex: whichever of the two the peak is, their
-                        // distance bounds its error where the other is the better. (On a
-                        // thin electrode, on the face with the stronger field.)
-                        let side = u.strongest_side(v, r).expect("checked");
+                        // distance bounds its error where the other is the better.
                         let f = u.field_at_vertex(v, side);
                         let mean = vertex_mean_field(mesh, &sol.potential, v, side, u.fans());
                         let other = if (f[0].hypot(f[1]) - value).abs() <= 1e-12 * value { mean } else { f };

@@ -194,13 +194,12 @@ impl Arrangement {
                         })
                     }
                     Side::Outside => {
-                        let name = geo.thin.iter().find(|t| t.conductor == c).map_or(String::new(), |t| t.name.clone());
+                        // The electrode the piece came from: the one whose curves hold it.
                         let at = pc.curve.point_at(0.5);
-                        let name = geo
-                            .thin
-                            .iter()
-                            .find(|t| t.conductor == c && t.curves.iter().any(|k| k.distance(at).0 <= 1e3 * tol))
-                            .map_or(name, |t| t.name.clone());
+                        let on = |t: &&crate::geometry::ThinElectrode| {
+                            t.conductor == c && t.curves.iter().any(|k| k.distance(at).0 <= 1e3 * tol)
+                        };
+                        let name = geo.thin.iter().find(on).map_or(String::new(), |t| t.name.clone());
                         return Err(MeshError::ThinOnBoundary { name, at });
                     }
                 }

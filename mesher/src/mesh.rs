@@ -562,9 +562,9 @@ impl Mesh {
     /// that vertex it belongs to. Around a vertex on a thin electrode (a conductor edge
     /// with triangles on both sides) the triangles of one region split into fans on either
     /// face, which must not be averaged together (the normal field changes sign across
-    /// the electrode); elsewhere every corner is in fan 0.
-    pub fn corner_fans(&self) -> CornerFans {
-        let (start, around) = self.vertex_triangles();
+    /// the electrode); elsewhere every corner is in fan 0. `(start, around)` is
+    /// [`Mesh::vertex_triangles`], which callers that have it pass in.
+    pub fn corner_fans(&self, (start, around): (&[u32], &[u32])) -> CornerFans {
         let star = |v: u32| &around[start[v as usize] as usize..start[v as usize + 1] as usize];
         // A thin edge a→b (region on the left) also has a triangle with the edge b→a.
         let has_directed = |a: u32, b: u32| {

@@ -12,6 +12,14 @@ fn results(text: &str, command: &str, extra: &[&str]) -> (Value, String) {
     (r, out)
 }
 
+/// The absolute error bar `check` gives the charge of `conductor`.
+fn charge_bar(r: &Value, conductor: &str) -> f64 {
+    let watched = r["convergence"].as_array().unwrap();
+    let q =
+        watched.iter().find(|q| q["quantity"] == format!("charge of {conductor}").as_str()).expect("charge watched");
+    q["error_bar"]["absolute"].as_f64().unwrap()
+}
+
 /// K(k), the complete elliptic integral of the first kind (modulus k), by the
 /// arithmetic–geometric mean: K = π / (2·AGM(1, √(1 − k²))) (Abramowitz & Stegun 1964,
 /// 17.6).
@@ -67,13 +75,7 @@ fn a_thin_strip_between_earthed_planes_has_the_conformal_map_capacitance() {
     let k = 1.0 / (PI * 10.0 / (2.0 * 10.0)).cosh();
     let exact = 4.0 * EPS0 * ellip_k((1.0 - k * k).sqrt()) / ellip_k(k);
     let c = r["capacitance_matrix_f"]["values"][0][0].as_f64().unwrap();
-    let q = &r["convergence"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|q| q["quantity"].as_str().unwrap().starts_with("charge of strip"))
-        .expect("charge watched");
-    let bar = q["error_bar"]["absolute"].as_f64().unwrap() / 1000.0;
+    let bar = charge_bar(&r, "strip") / 1000.0;
     assert!((c - exact).abs() <= bar.max(1e-6 * exact), "C = {c} ± {bar} vs {exact}");
     assert!(bar <= 1e-3 * exact);
     // Both ends found: square-root edges (λ = ½), named as thin electrode edges.
@@ -225,8 +227,7 @@ order = 2
     let k: f64 = 2.0 / 6.0;
     let exact = EPS0 * ellip_k((1.0 - k * k).sqrt()) / ellip_k(k) * 1000.0;
     let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
-    let c = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == "charge of plus").expect("watched");
-    let bar = c["error_bar"]["absolute"].as_f64().unwrap();
+    let bar = charge_bar(&r, "plus");
     assert!((q - exact).abs() <= bar.max(1e-6 * exact), "Q = {q} ± {bar} vs {exact}");
     assert!((r["conductors"][1]["charge_c"].as_f64().unwrap() + q).abs() < 1e-6 * q);
     assert_eq!(r["singular_points"].as_array().unwrap().len(), 4);
@@ -381,8 +382,7 @@ order = 2
     assert_eq!(r["adaptivity"]["converged"], true, "{}", r["adaptivity"]["reason"]);
     let exact = 8.0 * EPS0 * 0.010 * 1000.0;
     let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
-    let c = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == "charge of disc").expect("watched");
-    let bar = c["error_bar"]["absolute"].as_f64().unwrap();
+    let bar = charge_bar(&r, "disc");
     assert!((q - exact).abs() <= bar.max(1e-6 * exact), "Q = {q} ± {bar} vs {exact}");
     let sp = r["singular_points"].as_array().unwrap();
     assert_eq!(sp.len(), 1, "{sp:?}");
@@ -446,8 +446,7 @@ order = 2
     assert!((v - want).abs() < 1e-5 * 1000.0, "{v} vs {want}");
     let q = r["conductors"][0]["charge_c"].as_f64().unwrap();
     let exact = 2.0 * PI * EPS0 * 2.2 * 1000.0 / 3f64.ln();
-    let c = r["convergence"].as_array().unwrap().iter().find(|q| q["quantity"] == "charge of core").expect("watched");
-    let bar = c["error_bar"]["absolute"].as_f64().unwrap();
+    let bar = charge_bar(&r, "core");
     assert!((q - exact).abs() <= bar.max(1e-6 * exact), "Q = {q} ± {bar} vs {exact}");
     assert!(r["singular_points"].as_array().unwrap().is_empty());
 }

@@ -24,7 +24,8 @@ fn a_straight_foil_is_meshed_with_both_faces_and_its_ends_are_square_root_edges(
     // conductor edges, each with triangles on both sides.
     assert!((total_area(m) - 8.0).abs() < 1e-9);
     assert!((covered_length(m, [1.5, 1.0], [2.5, 1.0], 1e-9) - 1.0).abs() < 1e-9);
-    let fans = m.corner_fans();
+    let (start, around) = m.vertex_triangles();
+    let fans = m.corner_fans((&start, &around));
     assert!(fans.any());
     let thin: Vec<_> = m.edges.iter().filter(|e| matches!(e.tag, EdgeTag::Conductor(0))).collect();
     assert!(!thin.is_empty());
