@@ -87,7 +87,9 @@ pub use adapt::{
     Watched,
 };
 pub use budget::{predicted_memory_bytes, unknowns_per_vertex, unknowns_within};
-pub use certify::{certify, BarStatus, ErrorBar, QuantityClass, ORDER_BAND, SETTLED_FRACTION};
+pub use certify::{
+    certify, BarStatus, ErrorBar, QuantityClass, FUNCTIONAL_ESTIMATE_SAFETY, ORDER_BAND, SETTLED_FRACTION,
+};
 pub use checks::{
     condenser_grading, creepage_path, electrode_distance, field_line_starts, field_utilisation, local_peaks,
     stress_check, stressed_volume, trace_field_lines, CreepageChain, CreepagePath, CreepageRow, Electrode, FieldLine,

@@ -23,6 +23,7 @@
 //! compressed data arrays), VTK User's Guide; RFC 1950 (zlib) and RFC 4648 (base64).
 
 use crate::mesh::{EdgeTag, Mesh};
+use rayon::prelude::*;
 use std::collections::HashMap;
 use std::io::{self, Read, Write};
 
@@ -37,6 +38,11 @@ pub enum VtuEncoding {
 
 /// Uncompressed bytes per zlib block (VTK's own default).
 const BLOCK: usize = 32 * 1024;
+
+/// The zlib level: the fastest. On the bushing demo's fields (Float32 values, Int32
+/// connectivity) the default level 6 made the file only 9 % smaller at several times the
+/// time (`bench-results/check.md`).
+const COMPRESSION: flate2::Compression = flate2::Compression::fast();
 
 /// The values of one data array.
 enum Data {
@@ -146,16 +152,20 @@ impl Doc {
                     r => r,
                 };
                 let mut header: Vec<u64> = vec![raw.len().div_ceil(BLOCK) as u64, BLOCK as u64, last as u64];
-                let mut body = Vec::new();
-                for chunk in raw.chunks(BLOCK) {
-                    let mut z = flate2::write::ZlibEncoder::new(Vec::new(), flate2::Compression::default());
-                    z.write_all(chunk)?;
-                    let c = z.finish()?;
-                    header.push(c.len() as u64);
-                    body.extend_from_slice(&c);
-                }
+                // Blocks are independent zlib streams: compressed in parallel, joined in order.
+                let blocks: Vec<Vec<u8>> = raw
+                    .par_chunks(BLOCK)
+                    .map(|chunk| {
+                        let mut z = flate2::write::ZlibEncoder::new(Vec::new(), COMPRESSION);
+                        z.write_all(chunk)?;
+                        z.finish()
+                    })
+                    .collect::<io::Result<_>>()?;
+                header.extend(blocks.iter().map(|c| c.len() as u64));
                 self.appended.extend(header.iter().flat_map(|x| x.to_le_bytes()));
-                self.appended.extend_from_slice(&body);
+                for c in &blocks {
+                    self.appended.extend_from_slice(c);
+                }
             }
         }
         Ok(())

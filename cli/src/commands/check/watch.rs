@@ -252,9 +252,9 @@ pub(super) fn watch(
                 }
             }
             if let Quantity::Energy = q {
-                // |W − W_h| = ½‖V − V_h‖², recovered: ½η² (the energy estimate's own
-                // indicators already drive the marking).
-                return w.with_estimate(0.5 * est.global * est.global, None);
+                // |W − W_h| = ½‖V − V_h‖², recovered: ½η², triangle by triangle ½ηₜ².
+                let indicators = est.indicators.iter().map(|e| 0.5 * e * e).collect();
+                return w.with_estimate(0.5 * est.global * est.global, Some(indicators));
             }
             match slot.map(|k| &estimates[k]) {
                 Some(e) => w.with_estimate(e.estimate, Some(e.indicators.clone())),
