@@ -471,6 +471,12 @@ impl Outline {
         if p[0] < bb[0] || p[0] > bb[2] || p[1] < bb[1] || p[1] > bb[3] {
             return false;
         }
+        self.contains_in_bbox(p)
+    }
+
+    /// [`Outline::contains`] for a point already known to lie in the outline's bounding box
+    /// (the crossing count alone, without recomputing the box).
+    pub(crate) fn contains_in_bbox(&self, p: Xy) -> bool {
         let m = self.curves.len();
         let n: u32 = (0..m)
             .map(|k| {

@@ -46,7 +46,7 @@ use crate::geometry::{norm, sub, Curve, Outline, Xy};
 enum Source {
     Inside { outline: Outline, bbox: [f64; 4], h: f64 },
     Point { at: Xy, h: f64 },
-    Curve { curve: Curve, h: f64 },
+    Curve { curve: Curve, bbox: [f64; 4], h: f64 },
     Corner { at: Xy, h0: f64, radius: f64, mu: f64 },
     Background(std::sync::Arc<BackgroundSize>),
 }
@@ -206,7 +206,8 @@ impl SizeField {
 
     /// Adds a size `h` along a curve.
     pub(crate) fn add_curve(&mut self, curve: Curve, h: f64) {
-        self.sources.push((Source::Curve { curve, h }, SizeSource::Arc));
+        let bbox = curve.bbox();
+        self.sources.push((Source::Curve { curve, bbox, h }, SizeSource::Arc));
     }
 
     /// Adds sizes given on an earlier mesh (the adaptive loop's request).
@@ -268,30 +269,54 @@ impl SizeField {
 
     /// [`SizeField::size_below`] with the index of the source that gives it (`None`: the cap).
     fn smallest_source(&self, p: Xy, cap: f64) -> (f64, Option<usize>) {
+        // The earlier mesh's request first: usually the smallest size, it bounds the answer
+        // from the start, so that the bounding boxes below skip most outlines and curves
+        // without their distance. A source is skipped only when its lower bound exceeds
+        // that bound (it can then neither win nor tie), so the answer and the source named
+        // are those of the plain scan in order.
+        let first_background = self.sources.iter().position(|(s, _)| matches!(s, Source::Background(_)));
+        let background = first_background.and_then(|i| match &self.sources[i].0 {
+            Source::Background(bg) => bg.size_at(p),
+            _ => None,
+        });
+        let bound = background.map_or(cap, |b| b.min(cap));
         let mut h = cap;
         let mut which = None;
+        // Cheap lower bound on the distance to a bounding box.
+        let box_distance = |bbox: &[f64; 4]| {
+            let dx = (bbox[0] - p[0]).max(p[0] - bbox[2]).max(0.0);
+            let dy = (bbox[1] - p[1]).max(p[1] - bbox[3]).max(0.0);
+            (dx * dx + dy * dy).sqrt()
+        };
         for (i, (s, _)) in self.sources.iter().enumerate() {
             let v = match s {
                 Source::Inside { outline, bbox, h: hs } => {
-                    // Cheap lower bound on the distance first: the bounding box.
-                    let dx = (bbox[0] - p[0]).max(p[0] - bbox[2]).max(0.0);
-                    let dy = (bbox[1] - p[1]).max(p[1] - bbox[3]).max(0.0);
-                    let lb = dx.hypot(dy);
-                    if *hs + self.slope * lb >= h {
+                    let lb = box_distance(bbox);
+                    let least = *hs + self.slope * lb;
+                    if least >= h || least > bound {
                         continue;
                     }
-                    if lb == 0.0 && outline.contains(p) {
+                    if lb == 0.0 && outline.contains_in_bbox(p) {
                         *hs
                     } else {
                         *hs + self.slope * outline.distance(p)
                     }
                 }
                 Source::Point { at, h } => *h + self.slope * norm(sub(p, *at)),
-                Source::Curve { curve, h } => *h + self.slope * curve.distance(p).0,
-                Source::Background(bg) => match bg.size_at(p) {
-                    Some(v) => v,
-                    None => continue,
-                },
+                Source::Curve { curve, bbox, h: hc } => {
+                    let least = *hc + self.slope * box_distance(bbox);
+                    if least >= h || least > bound {
+                        continue;
+                    }
+                    *hc + self.slope * curve.distance(p).0
+                }
+                Source::Background(bg) => {
+                    let v = if Some(i) == first_background { background } else { bg.size_at(p) };
+                    match v {
+                        Some(v) => v,
+                        None => continue,
+                    }
+                }
                 Source::Corner { at, h0, radius, mu } => {
                     let r = norm(sub(p, *at));
                     if r < *radius {
