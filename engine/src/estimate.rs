@@ -50,7 +50,7 @@
 //!   practical engineering analysis", Int. J. Numer. Methods Eng. 24 (1987) 337–357,
 //!   doi:10.1002/nme.1620240206.
 
-use crate::fields::{eval_point, point_basis, PointValue, SingularQuadrature};
+use crate::fields::{eval_point, PointValue, SingularQuadrature};
 use crate::problem::Problem;
 use crate::solve::{Solution, EPSILON_0};
 use crate::space::{Element, P1, P2, QUAD_DEG2};
@@ -150,6 +150,9 @@ fn basis(s: f64, t: f64) -> [f64; 6] {
     [1.0, s, t, s * s, s * t, t * t]
 }
 
+/// One gradient sample: position and ∇V_h.
+type Sample = (Xy, [f64; 2]);
+
 /// The largest distance of a sample point from `center` (the patch scale), if positive.
 fn patch_scale_of(points: &[Xy], center: Xy) -> Option<f64> {
     let scale2 = points.iter().map(|p| (p[0] - center[0]).powi(2) + (p[1] - center[1]).powi(2)).fold(0.0, f64::max);
@@ -170,10 +173,8 @@ fn branch_cut(points: &[Xy], center: Xy) -> f64 {
 /// The recovered gradient of a solution.
 #[derive(Clone)]
 struct Recovery {
-    /// The fits around every vertex, one per side there: those of vertex v are
-    /// `fits[start[v]..start[v + 1]]`.
-    fits: Vec<PatchFit>,
-    start: Arc<Vec<u32>>,
+    /// The fits around every vertex, one per side there.
+    fits: Vec<Vec<PatchFit>>,
     /// The fans of the corners (thin electrodes' faces).
     fans: Arc<CornerFans>,
     /// G at the nodes of every element (3 values for P1, 6 for P2, in the element's node
@@ -182,17 +183,8 @@ struct Recovery {
 }
 
 impl Recovery {
-    /// The fits of vertex `v` (none for a node that is not a vertex).
-    fn fits_of(&self, v: u32) -> &[PatchFit] {
-        let v = v as usize;
-        if v + 1 >= self.start.len() {
-            return &[];
-        }
-        &self.fits[self.start[v] as usize..self.start[v + 1] as usize]
-    }
-
     fn fit_of(&self, v: u32, side: VertexSide) -> &PatchFit {
-        self.fits_of(v).iter().find(|f| f.side == side).expect("every side of a vertex has a fit")
+        self.fits[v as usize].iter().find(|f| f.side == side).expect("every side of a vertex has a fit")
     }
 
     /// The fit of corner `k` of triangle `t`: its vertex's, on the triangle's side.
@@ -232,10 +224,8 @@ pub(crate) struct RecoveryPlan {
     p2: bool,
     /// Sample points per element (reference coordinates).
     points: Vec<(f64, f64)>,
-    /// One plan per side of every vertex, vertex by vertex: those of vertex v are
-    /// `patches[start[v]..start[v + 1]]`.
-    patches: Vec<PatchPlan>,
-    start: Arc<Vec<u32>>,
+    /// Per vertex, one plan per side there.
+    patches: Vec<Vec<PatchPlan>>,
     /// The fans of the corners (thin electrodes' faces).
     fans: Arc<CornerFans>,
 }
@@ -427,147 +417,108 @@ impl RecoveryPlan {
                     .collect()
             })
             .collect();
-        let mut start = Vec::with_capacity(patches.len() + 1);
-        start.push(0u32);
-        for p in &patches {
-            start.push(start[start.len() - 1] + p.len() as u32);
-        }
-        let patches = patches.into_iter().flatten().collect();
-        RecoveryPlan { p2, points, patches, start: Arc::new(start), fans }
+        RecoveryPlan { p2, points, patches, fans }
     }
 
     /// The recovered gradient of `potential` (module docs).
     fn apply(&self, mesh: &Mesh, potential: &[f64]) -> Recovery {
-        self.apply_many(mesh, &[potential]).pop().expect("one field in, one recovery out")
-    }
-
-    /// The recovered gradients of up to [`MAX_FIELDS`] nodal fields of one mesh: the
-    /// isoparametric map of every sample point and the basis of every patch sample are
-    /// evaluated once for all of them.
-    fn apply_many(&self, mesh: &Mesh, potentials: &[&[f64]]) -> Vec<Recovery> {
-        let nf = potentials.len();
-        assert!(nf <= MAX_FIELDS, "at most {MAX_FIELDS} fields per recovery");
         let k = self.points.len();
         let nt = mesh.triangles.len();
-        // Per sample point: its position, then ∇V_h of each field.
-        let mut at = vec![[0.0; 2]; nt * k];
-        let mut grads = vec![[0.0; 2]; nt * k * nf];
-        at.par_iter_mut().zip(grads.par_chunks_mut(nf.max(1))).enumerate().for_each(|(i, (x, g))| {
-            let (xi, eta) = self.points[i % k];
-            let b = point_basis(mesh, i / k, xi, eta);
-            *x = b.at;
-            for (gf, u) in g.iter_mut().zip(potentials) {
-                *gf = b.gradient(u);
-            }
-        });
-        let per_patch: Vec<[PatchFit; MAX_FIELDS]> = self
+        let samples: Vec<Sample> = (0..nt * k)
+            .into_par_iter()
+            .map(|i| {
+                let (xi, eta) = self.points[i % k];
+                let PointValue { e, at, .. } = eval_point(mesh, potential, i / k, xi, eta);
+                (at, [-e[0], -e[1]])
+            })
+            .collect();
+        let fits: Vec<Vec<PatchFit>> = self
             .patches
             .par_iter()
-            .map(|pl| {
-                let samples = pl.triangles.iter().flat_map(|&t| t as usize * k..(t as usize + 1) * k);
-                let sample = |i: usize| (at[i], &grads[i * nf..(i + 1) * nf]);
-                let (c, s) = (pl.center, pl.scale);
-                let mut kinds = [FitKind::Polynomial([[0.0; 6]; 2]); MAX_FIELDS];
-                match &pl.solver {
-                    Solver::Poly { m, inv } => {
-                        let mut rhs = [[[0.0; 6]; 2]; MAX_FIELDS];
-                        for i in samples {
-                            let (q, g) = sample(i);
-                            let b = basis((q[0] - c[0]) / s, (q[1] - c[1]) / s);
-                            for (r, g) in rhs.iter_mut().zip(g) {
-                                for j in 0..*m {
-                                    r[0][j] += b[j] * g[0];
-                                    r[1][j] += b[j] * g[1];
-                                }
-                            }
-                        }
-                        for (kind, r) in kinds.iter_mut().zip(&rhs).take(nf) {
-                            let mut coef = [[0.0; 6]; 2];
-                            for comp in 0..2 {
-                                for i in 0..*m {
-                                    coef[comp][i] = (0..*m).map(|j| inv[i][j] * r[comp][j]).sum();
-                                }
-                            }
-                            *kind = FitKind::Polynomial(coef);
-                        }
-                    }
-                    Solver::Singular { lambda, cut, inv } => {
-                        let mut rhs = [[0.0; 4]; MAX_FIELDS];
-                        for i in samples {
-                            let (q, g) = sample(i);
-                            let [uu, vv] = singular_gradients((q[0] - c[0]) / s, (q[1] - c[1]) / s, *lambda, *cut);
-                            for (r, g) in rhs.iter_mut().zip(g) {
-                                for (row, y) in [([uu[0], vv[0], 1.0, 0.0], g[0]), ([uu[1], vv[1], 0.0, 1.0], g[1])] {
-                                    for i in 0..4 {
-                                        r[i] += row[i] * y;
+            .map(|plans| {
+                plans
+                    .iter()
+                    .map(|pl| {
+                        let samples = pl.triangles.iter().flat_map(|&t| &samples[t as usize * k..(t as usize + 1) * k]);
+                        let (c, s) = (pl.center, pl.scale);
+                        let kind = match &pl.solver {
+                            Solver::Poly { m, inv } => {
+                                let mut rhs = [[0.0; 6]; 2];
+                                for (q, g) in samples {
+                                    let b = basis((q[0] - c[0]) / s, (q[1] - c[1]) / s);
+                                    for i in 0..*m {
+                                        rhs[0][i] += b[i] * g[0];
+                                        rhs[1][i] += b[i] * g[1];
                                     }
                                 }
+                                let mut coef = [[0.0; 6]; 2];
+                                for comp in 0..2 {
+                                    for i in 0..*m {
+                                        coef[comp][i] = (0..*m).map(|j| inv[i][j] * rhs[comp][j]).sum();
+                                    }
+                                }
+                                FitKind::Polynomial(coef)
                             }
-                        }
-                        for (kind, r) in kinds.iter_mut().zip(&rhs).take(nf) {
-                            let mut coef = [0.0; 4];
-                            for i in 0..4 {
-                                coef[i] = (0..4).map(|j| inv[i][j] * r[j]).sum();
+                            Solver::Singular { lambda, cut, inv } => {
+                                let mut rhs = [0.0; 4];
+                                for (q, g) in samples {
+                                    let [uu, vv] =
+                                        singular_gradients((q[0] - c[0]) / s, (q[1] - c[1]) / s, *lambda, *cut);
+                                    for (row, y) in [([uu[0], vv[0], 1.0, 0.0], g[0]), ([uu[1], vv[1], 0.0, 1.0], g[1])]
+                                    {
+                                        for i in 0..4 {
+                                            rhs[i] += row[i] * y;
+                                        }
+                                    }
+                                }
+                                let mut coef = [0.0; 4];
+                                for i in 0..4 {
+                                    coef[i] = (0..4).map(|j| inv[i][j] * rhs[j]).sum();
+                                }
+                                FitKind::Singular { lambda: *lambda, cut: *cut, coef }
                             }
-                            *kind = FitKind::Singular { lambda: *lambda, cut: *cut, coef };
-                        }
-                    }
-                    Solver::Mean => {
-                        let (mut sum, mut n) = ([[0.0; 2]; MAX_FIELDS], 0.0);
-                        for i in samples {
-                            for (acc, g) in sum.iter_mut().zip(sample(i).1) {
-                                acc[0] += g[0];
-                                acc[1] += g[1];
+                            Solver::Mean => {
+                                let (mut sum, mut n) = ([0.0; 2], 0.0);
+                                for (_, g) in samples {
+                                    sum[0] += g[0];
+                                    sum[1] += g[1];
+                                    n += 1.0;
+                                }
+                                let n = f64::max(n, 1.0);
+                                let mut c = [[0.0; 6]; 2];
+                                c[0][0] = sum[0] / n;
+                                c[1][0] = sum[1] / n;
+                                FitKind::Polynomial(c)
                             }
-                            n += 1.0;
-                        }
-                        let n = f64::max(n, 1.0);
-                        for (kind, acc) in kinds.iter_mut().zip(&sum).take(nf) {
-                            let mut c = [[0.0; 6]; 2];
-                            c[0][0] = acc[0] / n;
-                            c[1][0] = acc[1] / n;
-                            *kind = FitKind::Polynomial(c);
-                        }
-                    }
-                }
-                kinds.map(|kind| PatchFit { side: pl.side, center: c, scale: s, kind })
+                        };
+                        PatchFit { side: pl.side, center: c, scale: s, kind }
+                    })
+                    .collect()
             })
             .collect();
         let p2 = self.p2;
-        (0..nf)
-            .map(|f| {
-                let fits = per_patch.par_iter().map(|fits| fits[f]).collect();
-                let mut rec =
-                    Recovery { fits, start: Arc::clone(&self.start), fans: Arc::clone(&self.fans), nodes: Vec::new() };
-                rec.nodes = (0..nt)
-                    .into_par_iter()
-                    .map(|t| {
-                        let mut g = [[0.0; 2]; 6];
-                        for (k, gk) in g.iter_mut().enumerate().take(3) {
-                            *gk = rec.corner_fit(mesh, t, k).at_center();
-                        }
-                        if p2 {
-                            let mids = mesh.mid_nodes[t];
-                            for (k, (a, b)) in [(0, 1), (1, 2), (2, 0)].into_iter().enumerate() {
-                                let x = mesh.nodes[mids[k] as usize];
-                                let (ga, gb) = (rec.corner_fit(mesh, t, a).eval(x), rec.corner_fit(mesh, t, b).eval(x));
-                                g[3 + k] = [0.5 * (ga[0] + gb[0]), 0.5 * (ga[1] + gb[1])];
-                            }
-                        }
-                        g
-                    })
-                    .collect();
-                rec
+        let mut rec = Recovery { fits, fans: Arc::clone(&self.fans), nodes: Vec::new() };
+        rec.nodes = (0..nt)
+            .into_par_iter()
+            .map(|t| {
+                let mut g = [[0.0; 2]; 6];
+                for (k, gk) in g.iter_mut().enumerate().take(3) {
+                    *gk = rec.corner_fit(mesh, t, k).at_center();
+                }
+                if p2 {
+                    let mids = mesh.mid_nodes[t];
+                    for (k, (a, b)) in [(0, 1), (1, 2), (2, 0)].into_iter().enumerate() {
+                        let x = mesh.nodes[mids[k] as usize];
+                        let (ga, gb) = (rec.corner_fit(mesh, t, a).eval(x), rec.corner_fit(mesh, t, b).eval(x));
+                        g[3 + k] = [0.5 * (ga[0] + gb[0]), 0.5 * (ga[1] + gb[1])];
+                    }
+                }
+                g
             })
-            .collect()
+            .collect();
+        rec
     }
 }
-
-/// Fields recovered together by one pass over a mesh (`RecoveryPlan::apply_many`). Four:
-/// their samples, fits and recovered nodal gradients take about 0.2 GB on a mesh of 3·10⁵
-/// P2 unknowns (from the array sizes), while the recoveries of all nine goals of the
-/// bushing demo at once would take twice that.
-pub(crate) const MAX_FIELDS: usize = 4;
 
 /// The absolute permittivity tensor ε₀·εᵣ of region `r`.
 fn absolute_permittivity(problem: &Problem, r: usize) -> [[f64; 2]; 2] {
@@ -638,18 +589,10 @@ pub(crate) struct RecoveredField<'a> {
     recovery: Cow<'a, Recovery>,
 }
 
-/// Recovers the gradients of up to [`MAX_FIELDS`] nodal fields with a plan made for their
-/// mesh (the plan is shared by all the fields of one mesh; one pass over the mesh for all).
-pub(crate) fn recover_fields_with<'a>(
-    plan: &RecoveryPlan,
-    mesh: &Mesh,
-    potentials: &[&'a [f64]],
-) -> Vec<RecoveredField<'a>> {
-    potentials
-        .iter()
-        .zip(plan.apply_many(mesh, potentials))
-        .map(|(&potential, r)| RecoveredField { potential, recovery: Cow::Owned(r) })
-        .collect()
+/// Recovers the gradient of `potential` with a plan made for its mesh (the plan is shared
+/// by all the fields of one mesh).
+pub(crate) fn recover_field_with<'a>(plan: &RecoveryPlan, mesh: &Mesh, potential: &'a [f64]) -> RecoveredField<'a> {
+    RecoveredField { potential, recovery: Cow::Owned(plan.apply(mesh, potential)) }
 }
 
 /// A solution's recovered gradient with the quadrature and the recovery plan it was made
@@ -714,54 +657,44 @@ pub(crate) fn primal_samples(mesh: &Mesh, quad: &SingularQuadrature, u: &Recover
     PrimalSamples { start, data: per.concat() }
 }
 
-/// A weight ω over the domain (a goal's smooth bump), for [`error_products`].
-pub(crate) type Weight<'a> = Option<&'a (dyn Fn(Xy) -> f64 + Sync)>;
-
-/// Per field and triangle: the error product ∫ₜ (G_u − ∇u_h)ᵀ ε (G_z − ∇z_h) w dA of the
-/// primal (sampled once, [`primal_samples`]) and each recovered dual field z (signed), and,
-/// for its weight ω, ∫ₜ ω·(G_u − ∇u_h)ᵀ(G_u − ∇u_h) w dA and ∫ₜ ω·|∇u_h|² w dA and
-/// ∫ₜ ω w dA (w = 1 planar, 2πr axisymmetric). The fields share one pass over the mesh:
-/// each quadrature point's isoparametric map is evaluated once for all of them.
+/// Per triangle: the error product ∫ₜ (G_u − ∇u_h)ᵀ ε (G_z − ∇z_h) w dA of the primal
+/// (sampled once, [`primal_samples`]) and a recovered dual field (signed), and, for a
+/// weight ω, ∫ₜ ω·(G_u − ∇u_h)ᵀ(G_u − ∇u_h) w dA and ∫ₜ ω·|∇u_h|² w dA and ∫ₜ ω w dA
+/// (w = 1 planar, 2πr axisymmetric).
 pub(crate) fn error_products(
     mesh: &Mesh,
     problem: &Problem,
     quad: &SingularQuadrature,
     u: &PrimalSamples,
-    zs: &[(RecoveredField<'_>, Weight<'_>)],
-) -> Vec<Vec<[f64; 4]>> {
-    let nf = zs.len();
-    let per: Vec<Vec<[f64; 4]>> = (0..mesh.triangles.len())
+    z: &RecoveredField<'_>,
+    omega: Option<&(dyn Fn(Xy) -> f64 + Sync)>,
+) -> Vec<[f64; 4]> {
+    (0..mesh.triangles.len())
         .into_par_iter()
         .map(|t| {
             let eps = absolute_permittivity(problem, mesh.regions[t] as usize);
             let corner = quad.corner(mesh, t);
-            let mut out = vec![[0.0; 4]; nf];
+            let mut out = [0.0; 4];
             let samples = &u.data[u.start[t]..u.start[t + 1]];
             for (&(xi, eta, _), s) in quad.rule(corner).iter().zip(samples) {
                 let [weight, x, y, ex, ey, dux, duy] = *s;
-                let b = point_basis(mesh, t, xi, eta);
-                for ((z, omega), out) in zs.iter().zip(out.iter_mut()) {
-                    // ∇z_h, and the recovered G_z.
-                    let gh = b.gradient(z.potential);
-                    let gz = z.recovery.at(mesh, t, corner, xi, eta, [x, y]);
-                    let dz = [gz[0] - gh[0], gz[1] - gh[1]];
-                    out[0] += weight
-                        * (dux * (eps[0][0] * dz[0] + eps[0][1] * dz[1])
-                            + duy * (eps[1][0] * dz[0] + eps[1][1] * dz[1]));
-                    if let Some(om) = omega {
-                        let o = om([x, y]);
-                        if o != 0.0 {
-                            out[1] += weight * o * (dux * dux + duy * duy);
-                            out[2] += weight * o * (ex * ex + ey * ey);
-                            out[3] += weight * o;
-                        }
+                let pz = eval_point(mesh, z.potential, t, xi, eta);
+                let gz = z.recovery.at(mesh, t, corner, xi, eta, [x, y]);
+                let dz = [gz[0] + pz.e[0], gz[1] + pz.e[1]];
+                out[0] += weight
+                    * (dux * (eps[0][0] * dz[0] + eps[0][1] * dz[1]) + duy * (eps[1][0] * dz[0] + eps[1][1] * dz[1]));
+                if let Some(om) = omega {
+                    let o = om([x, y]);
+                    if o != 0.0 {
+                        out[1] += weight * o * (dux * dux + duy * duy);
+                        out[2] += weight * o * (ex * ex + ey * ey);
+                        out[3] += weight * o;
                     }
                 }
             }
             out
         })
-        .collect();
-    (0..nf).map(|f| per.iter().map(|o| o[f]).collect()).collect()
+        .collect()
 }
 
 impl RecoveredField<'_> {
@@ -787,7 +720,7 @@ impl RecoveredField<'_> {
 
     /// True when vertex `v` has a patch fit on `side`.
     pub(crate) fn has_fit(&self, v: u32, side: VertexSide) -> bool {
-        self.recovery.fits_of(v).iter().any(|f| f.side == side)
+        self.recovery.fits.get(v as usize).is_some_and(|f| f.iter().any(|f| f.side == side))
     }
 
     /// The recovered field E = −G at vertex `v` on `side` (the vertex patch's fit there).
@@ -800,9 +733,8 @@ impl RecoveredField<'_> {
     /// of a thin electrode a peak there is on; the region itself elsewhere), if `v` has a
     /// fit in `region`.
     pub(crate) fn strongest_side(&self, v: u32, region: u32) -> Option<VertexSide> {
-        self.recovery
-            .fits_of(v)
-            .iter()
+        let fits = self.recovery.fits.get(v as usize)?;
+        fits.iter()
             .filter(|f| f.side.0 == region)
             .max_by(|a, b| {
                 let (ga, gb) = (a.at_center(), b.at_center());

@@ -96,59 +96,6 @@ pub(crate) fn isoparametric<const N: usize, E: Element<N>>(
     (g, s, j, p, det)
 }
 
-/// The shape functions of one triangle at one reference point (ξ, η): what every field of
-/// the mesh shares there, so that several fields (a solution and its dual problems) are
-/// evaluated with one isoparametric map.
-pub(crate) struct PointBasis {
-    /// Node ids (the first `n` count).
-    pub ids: [u32; 6],
-    /// 3 (P1) or 6 (P2).
-    pub n: usize,
-    /// Physical gradients ∇φₖ = J⁻ᵀ ∇̂φₖ.
-    pub grads: [[f64; 2]; 6],
-    /// Values φₖ.
-    pub values: [f64; 6],
-    /// The physical point.
-    pub at: Xy,
-    /// Jacobian determinant.
-    pub det: f64,
-}
-
-impl PointBasis {
-    /// ∇V of the nodal field `potential` here.
-    pub fn gradient(&self, potential: &[f64]) -> [f64; 2] {
-        let mut g = [0.0; 2];
-        for k in 0..self.n {
-            let v = potential[self.ids[k] as usize];
-            g[0] += v * self.grads[k][0];
-            g[1] += v * self.grads[k][1];
-        }
-        g
-    }
-}
-
-/// The shape functions of triangle `t` at reference point (ξ, η).
-pub(crate) fn point_basis(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> PointBasis {
-    fn build<const N: usize, E: Element<N>>(ids: [u32; 6], x: &[Xy; N], xi: f64, eta: f64) -> PointBasis {
-        let (g, v, j, at, det) = isoparametric::<N, E>(x, xi, eta);
-        let mut grads = [[0.0; 2]; 6];
-        let mut values = [0.0; 6];
-        for k in 0..N {
-            grads[k] = [(j[1][1] * g[k][0] - j[1][0] * g[k][1]) / det, (-j[0][1] * g[k][0] + j[0][0] * g[k][1]) / det];
-            values[k] = v[k];
-        }
-        PointBasis { ids, n: N, grads, values, at, det }
-    }
-    let tri = mesh.triangles[t];
-    if mesh.mid_nodes.is_empty() {
-        build::<3, P1>([tri[0], tri[1], tri[2], 0, 0, 0], &tri.map(|i| mesh.nodes[i as usize]), xi, eta)
-    } else {
-        let m = mesh.mid_nodes[t];
-        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
-        build::<6, P2>(ids, &ids.map(|i| mesh.nodes[i as usize]), xi, eta)
-    }
-}
-
 pub(crate) fn eval_point(mesh: &Mesh, potential: &[f64], t: usize, xi: f64, eta: f64) -> PointValue {
     fn eval<const N: usize, E: Element<N>>(x: &[Xy; N], u: &[f64; N], xi: f64, eta: f64) -> PointValue {
         let (g, s, j, p, det) = isoparametric::<N, E>(x, xi, eta);

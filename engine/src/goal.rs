@@ -43,10 +43,10 @@
 //!   error estimates. Part 1", Int. J. Numer. Methods Eng. 33 (1992) 1331–1364 (the
 //!   recovered gradients).
 
-use crate::estimate::{error_products, primal_samples, recover_fields_with, MAX_FIELDS};
-use crate::fields::{point_basis, PointBasis};
+use crate::estimate::{error_products, primal_samples, recover_field_with};
 use crate::problem::Problem;
 use crate::solve::{DualCase, FactoredSolution};
+use crate::space::{Element, P1, P2};
 use mesher::{Mesh, Symmetry, Xy};
 
 /// A quantity of interest whose error is estimated.
@@ -180,6 +180,44 @@ pub struct GoalEstimate {
     pub indicators: Vec<f64>,
 }
 
+/// Shape functions of triangle `t` at reference point (ξ, η).
+struct Basis {
+    /// Node ids (the first `n` count).
+    ids: [u32; 6],
+    /// 3 (P1) or 6 (P2).
+    n: usize,
+    /// Physical gradients.
+    grads: [[f64; 2]; 6],
+    /// Values.
+    values: [f64; 6],
+    /// The physical point.
+    at: Xy,
+    /// Jacobian determinant.
+    det: f64,
+}
+
+fn basis_at(mesh: &Mesh, t: usize, xi: f64, eta: f64) -> Basis {
+    fn build<const N: usize, E: Element<N>>(ids: [u32; 6], x: &[Xy; N], xi: f64, eta: f64) -> Basis {
+        let (g, v, j, at, det) = crate::fields::isoparametric::<N, E>(x, xi, eta);
+        let mut grads = [[0.0; 2]; 6];
+        let mut values = [0.0; 6];
+        for k in 0..N {
+            // ∇φ = J⁻ᵀ ∇̂φ.
+            grads[k] = [(j[1][1] * g[k][0] - j[1][0] * g[k][1]) / det, (-j[0][1] * g[k][0] + j[0][0] * g[k][1]) / det];
+            values[k] = v[k];
+        }
+        Basis { ids, n: N, grads, values, at, det }
+    }
+    let tri = mesh.triangles[t];
+    if mesh.mid_nodes.is_empty() {
+        build::<3, P1>([tri[0], tri[1], tri[2], 0, 0, 0], &tri.map(|i| mesh.nodes[i as usize]), xi, eta)
+    } else {
+        let m = mesh.mid_nodes[t];
+        let ids = [tri[0], tri[1], tri[2], m[0], m[1], m[2]];
+        build::<6, P2>(ids, &ids.map(|i| mesh.nodes[i as usize]), xi, eta)
+    }
+}
+
 /// The triangles that reach into the disc (centre, radius): their corners' bounding box,
 /// widened by a tenth for curved P2 edges, comes within the radius of the centre.
 fn near_disc(mesh: &Mesh, center: Xy, radius: f64) -> impl Iterator<Item = usize> + '_ {
@@ -201,7 +239,7 @@ fn disc_load(
     mesh: &Mesh,
     quad: &crate::fields::SingularQuadrature,
     (center, radius, region): (Xy, f64, Option<u32>),
-    mut add: impl FnMut(&PointBasis, f64, &mut [f64]),
+    mut add: impl FnMut(&Basis, f64, &mut [f64]),
 ) -> Vec<f64> {
     let axisym = mesh.symmetry == Symmetry::Axisymmetric;
     let mut load = vec![0.0; mesh.nodes.len()];
@@ -211,7 +249,7 @@ fn disc_load(
             continue;
         }
         for &(xi, eta, w) in quad.rule(quad.corner(mesh, t)) {
-            let b = point_basis(mesh, t, xi, eta);
+            let b = basis_at(mesh, t, xi, eta);
             let o = bump(center, radius, b.at);
             if o == 0.0 {
                 continue;
@@ -302,13 +340,9 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
             }
         }
     }
-    let duals = solved.solve_duals(problem, &cases);
+    let mut duals = solved.solve_duals(problem, &cases).into_iter();
     let grid = crate::probe::TriangleGrid::new(mesh);
-    // Each goal's dual field (a capacitance column for a charge, a dual solve otherwise)
-    // and its weight; recovered and multiplied with the primal error a few at a time, each
-    // pass over the mesh shared by all its fields.
-    let mut next_dual = duals.iter();
-    let fields: Vec<(&[f64], Option<(Xy, f64)>)> = goals
+    let estimates: Vec<GoalEstimate> = goals
         .iter()
         .map(|g| match *g {
             Goal::Charge(k) => {
@@ -318,37 +352,8 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     .iter()
                     .position(|&c| c == k)
                     .expect("a charge goal names a conductor at a fixed potential");
-                (&solved.columns[col][..], None)
-            }
-            Goal::LocalField { center, radius_m, .. } => {
-                (&next_dual.next().expect("one dual per local field")[..], Some((center, radius_m)))
-            }
-            Goal::FloatingPotential(_) | Goal::LocalPotential { .. } => {
-                (&next_dual.next().expect("one dual per floating or local potential")[..], None)
-            }
-            Goal::PeakField { .. } | Goal::PointPotential { .. } => {
-                unreachable!("peaks and point potentials were turned into local goals")
-            }
-        })
-        .collect();
-    let bumps: Vec<Option<Box<dyn Fn(Xy) -> f64 + Sync>>> = fields
-        .iter()
-        .map(|f| f.1.map(|(c, r)| Box::new(move |x: Xy| bump(c, r, x)) as Box<dyn Fn(Xy) -> f64 + Sync>))
-        .collect();
-    let mut products: Vec<Vec<[f64; 4]>> = Vec::with_capacity(goals.len());
-    for chunk in (0..goals.len()).collect::<Vec<_>>().chunks(MAX_FIELDS) {
-        let potentials: Vec<&[f64]> = chunk.iter().map(|&i| fields[i].0).collect();
-        let zs: Vec<_> = recover_fields_with(plan, mesh, &potentials)
-            .into_iter()
-            .zip(chunk.iter().map(|&i| bumps[i].as_deref()))
-            .collect();
-        products.extend(error_products(mesh, problem, quad, &primal, &zs));
-    }
-    let estimates: Vec<GoalEstimate> = goals
-        .iter()
-        .zip(products)
-        .map(|(g, mut p)| match *g {
-            Goal::Charge(k) => {
+                let z = recover_field_with(plan, mesh, &solved.columns[col]);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
                 let sum: f64 = p.iter().map(|x| x[0]).sum();
                 GoalEstimate {
                     value: sol.conductor_charges[k],
@@ -356,12 +361,21 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                     indicators: p.iter().map(|x| x[0].abs()).collect(),
                 }
             }
-            Goal::FloatingPotential(k) => GoalEstimate {
-                value: sol.conductor_potentials[k],
-                estimate: p.iter().map(|x| x[0]).sum(),
-                indicators: p.iter().map(|x| x[0].abs()).collect(),
-            },
-            Goal::LocalField { region, .. } => {
+            Goal::FloatingPotential(k) => {
+                let zp = duals.next().expect("one dual per floating potential");
+                let z = recover_field_with(plan, mesh, &zp);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
+                GoalEstimate {
+                    value: sol.conductor_potentials[k],
+                    estimate: p.iter().map(|x| x[0]).sum(),
+                    indicators: p.iter().map(|x| x[0].abs()).collect(),
+                }
+            }
+            Goal::LocalField { center, radius_m, region } => {
+                let zp = duals.next().expect("one dual per local field");
+                let z = recover_field_with(plan, mesh, &zp);
+                let omega = move |x: Xy| bump(center, radius_m, x);
+                let mut p = error_products(mesh, problem, quad, &primal, &z, Some(&omega));
                 if let Some(r) = region {
                     for (t, x) in p.iter_mut().enumerate() {
                         if mesh.regions[t] != r {
@@ -385,6 +399,9 @@ pub fn goal_estimates(mesh: &Mesh, problem: &Problem, solved: &FactoredSolution,
                 }
             }
             Goal::LocalPotential { center, .. } => {
+                let zp = duals.next().expect("one dual per local potential");
+                let z = recover_field_with(plan, mesh, &zp);
+                let p = error_products(mesh, problem, quad, &primal, &z, None);
                 let value = grid
                     .locate(mesh, center)
                     .map_or(0.0, |(t, xi, eta)| crate::fields::eval_point(mesh, &sol.potential, t, xi, eta).v);
