@@ -30,10 +30,11 @@ use crate::mesh::Mesh;
 /// area over the product of the two longer edges.
 fn min_sine(a: Xy, b: Xy, c: Xy) -> f64 {
     let area2 = (b[0] - a[0]) * (c[1] - a[1]) - (c[0] - a[0]) * (b[1] - a[1]);
-    let l = |p: Xy, q: Xy| (p[0] - q[0]).hypot(p[1] - q[1]);
-    let (x, y, z) = (l(a, b), l(b, c), l(c, a));
+    // Squared edge lengths: one square root for the two longer edges' product.
+    let l2 = |p: Xy, q: Xy| (p[0] - q[0]).powi(2) + (p[1] - q[1]).powi(2);
+    let (x, y, z) = (l2(a, b), l2(b, c), l2(c, a));
     let shortest = x.min(y).min(z);
-    area2 * shortest / (x * y * z)
+    area2 / (x * y * z / shortest).sqrt()
 }
 
 /// Smooths the vertices of a linear mesh in place (`passes` sweeps). Vertices on tagged
