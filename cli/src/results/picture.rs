@@ -450,7 +450,7 @@ fn png_uri(w: usize, h: usize, rgba: &[u8]) -> String {
         let mut enc = png::Encoder::new(&mut bytes, w as u32, h as u32);
         enc.set_color(png::ColorType::Rgba);
         enc.set_depth(png::BitDepth::Eight);
-        enc.set_compression(png::Compression::High);
+        enc.set_compression(png::Compression::Balanced);
         if let Ok(mut wr) = enc.write_header() {
             let _ = wr.write_image_data(rgba);
         }
