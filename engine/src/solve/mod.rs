@@ -451,18 +451,24 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
         factor = Some(f);
     }
     let t3 = Instant::now();
-    let column = |c: usize, out: &mut Vec<f64>| {
-        for (i, v) in out.iter_mut().enumerate() {
-            *v = b[(i, c)];
-        }
-    };
-    column(0, &mut col);
-    let mut sol = finish(mesh, problem, &system, &col, true);
+    // The load case and the capacitance columns are independent: finished side by side
+    // (each `finish` is one sequential pass over the mesh).
+    let column = |c: usize| -> Vec<f64> { (0..m).map(|i| b[(i, c)]).collect() };
+    let (sol, finished) = rayon::join(
+        || finish(mesh, problem, &system, &column(0), true),
+        || {
+            use rayon::prelude::*;
+            cases
+                .par_iter()
+                .enumerate()
+                .map(|(c, p)| finish(mesh, p, &system, &column(c + 1), false))
+                .collect::<Vec<_>>()
+        },
+    );
+    let mut sol = sol;
     let mut columns = Vec::with_capacity(cases.len());
     let mut cmat = vec![vec![0.0; fixed.len()]; fixed.len()];
-    for (c, p) in cases.iter().enumerate() {
-        column(c + 1, &mut col);
-        let s = finish(mesh, p, &system, &col, false);
+    for (c, s) in finished.into_iter().enumerate() {
         for (row, &i) in fixed.iter().enumerate() {
             cmat[row][c] = s.conductor_charges[i];
         }
