@@ -180,6 +180,8 @@ pub struct SizeField {
     slope: f64,
     /// Each source with what it stands for (the setting a refusal names).
     sources: Vec<(Source, SizeSource)>,
+    /// The index of the first earlier mesh's request among the sources, looked up first.
+    first_background: Option<usize>,
 }
 
 impl SizeField {
@@ -190,7 +192,7 @@ impl SizeField {
     #[track_caller]
     pub fn uniform(h_max: f64, gradation: f64, h_floor: f64) -> SizeField {
         assert!(h_max > 0.0 && h_floor > 0.0 && gradation > 1.0, "invalid size field parameters");
-        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new() }
+        SizeField { h_max, h_floor, slope: gradation - 1.0, sources: Vec::new(), first_background: None }
     }
 
     /// Adds a size `h` inside (and on) the closed outline of shape `shape` (its index).
@@ -213,6 +215,7 @@ impl SizeField {
     /// Adds sizes given on an earlier mesh (the adaptive loop's request).
     pub fn add_background(&mut self, mut bg: BackgroundSize) {
         bg.limit_gradation(self.slope);
+        self.first_background.get_or_insert(self.sources.len());
         self.sources.push((Source::Background(std::sync::Arc::new(bg)), SizeSource::Background));
     }
 
@@ -235,7 +238,7 @@ impl SizeField {
 
     /// True when sizes from an earlier mesh are part of the field.
     pub fn has_background(&self) -> bool {
-        self.sources.iter().any(|s| s.1 == SizeSource::Background)
+        self.first_background.is_some()
     }
 
     /// The smallest size the field may return.
@@ -274,7 +277,7 @@ impl SizeField {
         // without their distance. A source is skipped only when its lower bound exceeds
         // that bound (it can then neither win nor tie), so the answer and the source named
         // are those of the plain scan in order.
-        let first_background = self.sources.iter().position(|(s, _)| matches!(s, Source::Background(_)));
+        let first_background = self.first_background;
         let background = first_background.and_then(|i| match &self.sources[i].0 {
             Source::Background(bg) => bg.size_at(p),
             _ => None,

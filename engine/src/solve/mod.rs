@@ -454,7 +454,7 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
     // The load case and the capacitance columns are independent: finished side by side
     // (each `finish` is one sequential pass over the mesh).
     let column = |c: usize| -> Vec<f64> { (0..m).map(|i| b[(i, c)]).collect() };
-    let (sol, finished) = rayon::join(
+    let (mut sol, finished) = rayon::join(
         || finish(mesh, problem, &system, &column(0), true),
         || {
             use rayon::prelude::*;
@@ -465,7 +465,6 @@ fn solve_cases(mesh: &Mesh, problem: &Problem, with_capacitance: bool) -> Result
                 .collect::<Vec<_>>()
         },
     );
-    let mut sol = sol;
     let mut columns = Vec::with_capacity(cases.len());
     let mut cmat = vec![vec![0.0; fixed.len()]; fixed.len()];
     for (c, s) in finished.into_iter().enumerate() {
