@@ -18,8 +18,8 @@
 //! smallest step: its bar is held up by the changes of earlier, coarser meshes, which only
 //! further meshes clear, whatever their size (measured on the rounded bushing: 0.1 % at
 //! 214 708 unknowns instead of 290 029, 0.79× the wall time, `bench-results/check.md`).
-//! A marked triangle's size is clamped to [¼, ¾]·hₜ ([1/32, ¾]·hₜ at a singular point, which needs many halvings), an unmarked one's to
-//! [1, 2]·hₜ. When the marked set is too small to reach the count even at its finest (the
+//! A marked triangle's size is clamped to [¼, ¾]·hₜ ([1/32, ¾]·hₜ at a singular point,
+//! which needs many halvings), an unmarked one's to [1, 2]·hₜ. When the marked set is too small to reach the count even at its finest (the
 //! error sits in a handful of triangles at singular points, which grading makes cheap), the
 //! count is reached by letting every triangle refine to the same ε. The sizes go to the mesher as a background size field on the old mesh
 //! (continuous, graded; see `mesher::BackgroundSize`) and the geometry is meshed afresh
