@@ -11,6 +11,7 @@ use engine::{
     FactoredSolution, GasKind, LineEnd, PeakSite, Problem, StressCheck,
 };
 use mesher::{Mesh, Xy};
+use rayon::prelude::*;
 use serde::Serialize;
 
 /// The cautions of the breakdown checks (with the general ones of every result).
@@ -469,9 +470,46 @@ pub fn breakdown_checks(
         .collect();
     let separation = plan.breakdown.peak_separation_m.unwrap_or(0.02 * mesh.scale());
     lap.mark("peaks away");
-    let locals = solved.local_peaks(mesh, discs, plan.breakdown.local_peaks, separation);
+    let stressed_volumes = || -> Vec<StressedVolumeResult> {
+        peaks
+        .par_iter()
+        .filter(|p| p.1 > 0.0)
+        .map(|&(r, e, _, _)| {
+            let m = material(r).and_then(|m| m.weibull_shape);
+            let sv = stressed_volume(mesh, sol, r, e, &plan.breakdown.stressed_fractions, m, discs);
+            let w = sv.weibull;
+            StressedVolumeResult {
+                region: region_name(r),
+                e_ref_v_per_m: e,
+                volume_m3: sv.volume_m3,
+                above: sv.above,
+                weibull_shape: m,
+                weibull_effective_volume_m3: w.and_then(|w| w.effective_volume),
+                weibull_effective_volume_outside_discs_m3: w.map(|w| w.outside_discs),
+                note: w.and_then(|w| w.diverges_at).map(|s| {
+                    format!(
+                        "V_eff diverges at singular point S{} (m·(1 − λ) ≥ 2, λ = {:.4}): model the real edge radius; outside the discs around singular points it is finite",
+                        s + 1,
+                        mesh.singular_points[s].lambda
+                    )
+                }),
+            }
+        })
+        .collect()
+    };
+    // The local peaks, the grading checks and the stressed volumes are independent passes
+    // over the mesh, mostly sequential each: side by side.
+    let ((locals, grading), stressed_volumes) = rayon::join(
+        || {
+            rayon::join(
+                || solved.local_peaks(mesh, discs, plan.breakdown.local_peaks, separation),
+                || grading_checks(plan, mesh, problem, solved),
+            )
+        },
+        stressed_volumes,
+    );
+    lap.mark("local peaks, grading and stressed volumes");
     // Singular coefficients (A, k) of the field-singular points, where a conductor bounds them.
-    lap.mark("local peaks");
     let singular: Vec<(usize, Option<(f64, f64)>)> = mesh
         .singular_points
         .iter()
@@ -511,8 +549,6 @@ pub fn breakdown_checks(
     lap.mark("creepage paths");
     let gas = gas_checks(plan, mesh, solved, &mut files);
     lap.mark("gas");
-    let grading = grading_checks(plan, mesh, problem, solved);
-    lap.mark("grading");
     let load_cases = cases
         .iter()
         .map(|case| {
@@ -676,32 +712,6 @@ pub fn breakdown_checks(
         })
         .collect();
     lap.mark("cases and field factors");
-    let stressed_volumes = peaks
-        .iter()
-        .filter(|p| p.1 > 0.0)
-        .map(|&(r, e, _, _)| {
-            let m = material(r).and_then(|m| m.weibull_shape);
-            let sv = stressed_volume(mesh, sol, r, e, &plan.breakdown.stressed_fractions, m, discs);
-            let w = sv.weibull;
-            StressedVolumeResult {
-                region: region_name(r),
-                e_ref_v_per_m: e,
-                volume_m3: sv.volume_m3,
-                above: sv.above,
-                weibull_shape: m,
-                weibull_effective_volume_m3: w.and_then(|w| w.effective_volume),
-                weibull_effective_volume_outside_discs_m3: w.map(|w| w.outside_discs),
-                note: w.and_then(|w| w.diverges_at).map(|s| {
-                    format!(
-                        "V_eff diverges at singular point S{} (m·(1 − λ) ≥ 2, λ = {:.4}): model the real edge radius; outside the discs around singular points it is finite",
-                        s + 1,
-                        mesh.singular_points[s].lambda
-                    )
-                }),
-            }
-        })
-        .collect();
-    lap.mark("stressed volumes");
     let creepage = paths
         .iter()
         .map(|(i, path)| {
