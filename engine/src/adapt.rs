@@ -19,9 +19,11 @@
 //! further meshes clear, whatever their size (measured on the rounded bushing: 0.1 % at
 //! 214 708 unknowns instead of 290 029, 0.79× the wall time, `bench-results/check.md`).
 //! A marked triangle's size is clamped to [¼, ¾]·hₜ ([1/32, ¾]·hₜ at a singular point,
-//! which needs many halvings), an unmarked one's to [1, 2]·hₜ. When the marked set is too small to reach the count even at its finest (the
-//! error sits in a handful of triangles at singular points, which grading makes cheap), the
-//! count is reached by letting every triangle refine to the same ε. The sizes go to the mesher as a background size field on the old mesh
+//! which needs many halvings), an unmarked one's to [1, 2]·hₜ. When the marked set is too
+//! small to reach the count even at its finest (the error sits in a handful of triangles at
+//! singular points, which grading makes cheap), the count is reached by letting every
+//! triangle refine to the same ε. The sizes go to the mesher as a background size field on
+//! the old mesh
 //! (continuous, graded; see `mesher::BackgroundSize`) and the geometry is meshed afresh
 //! (arcs, tags and the corner analysis stay exact). If the new mesh has fewer than 1.3×
 //! the triangles, the loop asks again for more: successive meshes form a refinement
@@ -188,6 +190,11 @@ impl Watched {
     pub fn reported_only(mut self) -> Watched {
         self.decides = false;
         self
+    }
+
+    /// The scale its relative figures are taken against: max(|value|, floor).
+    pub fn scale(&self) -> f64 {
+        self.value.abs().max(self.floor).max(f64::MIN_POSITIVE)
     }
 
     /// The same with its own estimate and its indicators.
@@ -384,7 +391,7 @@ pub fn adapt_from(
                 .watched
                 .iter()
                 .zip(&watched)
-                .map(|(a, b)| (b.value - a.value).abs() / b.value.abs().max(b.floor).max(f64::MIN_POSITIVE))
+                .map(|(a, b)| (b.value - a.value).abs() / b.scale())
                 .fold(0.0, f64::max),
             None => f64::NAN,
         };
@@ -462,13 +469,12 @@ pub fn adapt_from(
         let mut factor = if watching { 0.0 } else { (rel / ap.tolerance).powf(2.0 / p) };
         for (w, b) in step.watched.iter().zip(&step.bars) {
             if w.decides && b.status != BarStatus::Converged {
-                let (e, safety) = match w.class {
-                    QuantityClass::Functional => (1.0 / p, crate::certify::FUNCTIONAL_ESTIMATE_SAFETY),
-                    QuantityClass::Field => (2.0 / p, 1.0),
+                let e = match w.class {
+                    QuantityClass::Functional => 1.0 / p,
+                    QuantityClass::Field => 2.0 / p,
                 };
-                let scale = w.value.abs().max(w.floor).max(f64::MIN_POSITIVE);
                 let need = match b.estimate {
-                    Some(est) => safety * est / scale,
+                    Some(est) => w.class.estimate_safety() * est / w.scale(),
                     None => b.relative,
                 };
                 if need.is_finite() {
@@ -555,7 +561,7 @@ fn combined_indicators(est: &ErrorEstimate, step: &AdaptStep, tolerance: f64) ->
         if b.status == BarStatus::Converged || ind.len() != theta.len() {
             continue;
         }
-        let scale = tolerance * w.value.abs().max(w.floor).max(f64::MIN_POSITIVE);
+        let scale = tolerance * w.scale();
         for (t, z) in theta.iter_mut().zip(ind) {
             *t += z.abs() / scale;
         }

@@ -40,10 +40,10 @@
 //!   faster), or settled (its last two changes below a quarter of the tolerance: remeshing
 //!   noise, whatever their signs; the bar is then twice the largest of the last three
 //!   changes that lie in that band: two small changes in a row may follow a larger jump of
-//!   the same noise — a
-//!   point potential's changes 1.3·10⁻⁵, 3·10⁻⁷, 6·10⁻⁷ left it 1.5·10⁻⁶ from the exact
-//!   value, three times a bar from the last two), and the change before the last was itself within the tolerance (one
-//!   small change after a large one proves nothing).
+//!   the same noise — a point potential's changes 1.3·10⁻⁵, 3·10⁻⁷, 6·10⁻⁷ left it
+//!   1.5·10⁻⁶ from the exact value, three times a bar from the last two), and the change
+//!   before the last was itself within the tolerance (one small change after a large one
+//!   proves nothing).
 //!
 //! A sequence that oscillates or grows above a quarter of the tolerance, or converges slower
 //! than the band (pre-asymptotic, or a quantity that is singular), is *not converged*,
@@ -73,6 +73,15 @@ pub enum QuantityClass {
 }
 
 impl QuantityClass {
+    /// The factor on the quantity's own estimate in its bar: [`FUNCTIONAL_ESTIMATE_SAFETY`]
+    /// for a functional, 1 for a field value.
+    pub fn estimate_safety(self) -> f64 {
+        match self {
+            QuantityClass::Functional => FUNCTIONAL_ESTIMATE_SAFETY,
+            QuantityClass::Field => 1.0,
+        }
+    }
+
     /// The order in h = N^(−1/2) theory predicts for elements of order `p`.
     pub fn theory_order(self, p: u8) -> f64 {
         let p = p.max(1) as f64;
@@ -141,11 +150,7 @@ pub fn certify(
     let value = sequence.last().map(|s| s.1).unwrap_or(f64::NAN);
     let scale = value.abs().max(floor).max(f64::MIN_POSITIVE);
     let estimate = estimate.filter(|e| e.is_finite()).map(f64::abs);
-    let safety = match class {
-        QuantityClass::Functional => FUNCTIONAL_ESTIMATE_SAFETY,
-        QuantityClass::Field => 1.0,
-    };
-    let post = safety * estimate.unwrap_or(0.0);
+    let post = class.estimate_safety() * estimate.unwrap_or(0.0);
     let change = |k: usize| (sequence[k].1 - sequence[k - 1].1).abs() / scale;
     let finish = |seq_bar: f64, ok: bool, why: String, study: Option<ConvergenceStudy>| {
         let absolute = seq_bar.max(post);
@@ -212,7 +217,14 @@ pub fn certify(
             if trend { gci(lo) } else { gci(lo).max(carried(lo)) },
             previous_small,
             if previous_small {
-                format!("monotone and faster than theory (order {p:.2} > {hi:.1}): GCI with order {lo:.1}{}", if trend { " (a trend of four meshes)" } else { ", at least the change before the last carried at that order" })
+                format!(
+                    "monotone and faster than theory (order {p:.2} > {hi:.1}): GCI with order {lo:.1}{}",
+                    if trend {
+                        " (a trend of four meshes)"
+                    } else {
+                        ", at least the change before the last carried at that order"
+                    }
+                )
             } else {
                 format!("monotone, order {p:.2}, but the change before the last ({d2:.2e}) exceeds the tolerance")
             },
@@ -320,6 +332,23 @@ mod tests {
         let gci = GCI_SAFETY_FACTOR * (1.64945 - 1.6491) / ((115_800.0f64 / 54_173.0).sqrt() - 1.0);
         assert!((bar.absolute - gci).abs() <= 1e-9 * gci, "{} vs {gci}", bar.absolute);
         assert_eq!(bar.status, BarStatus::Converged, "{}", bar.reason);
+    }
+
+    #[test]
+    fn a_settled_bar_covers_the_noise_of_the_last_three_changes() {
+        // The half-plane edge's point potential (cli tests, 2026-12-04): changes 1.33e-5,
+        // 3.2e-7, 6.0e-7 of the 1 kV floor, all below a quarter of the tolerance; it ended
+        // 1.5e-6 from the exact value. The bar is twice the largest of the three.
+        let seq = vec![(15_670usize, 467.2017289), (22_634, 467.2079244), (33_738, 467.2080757), (49_272, 467.2083543)];
+        let bar = certify(&seq, None, QuantityClass::Functional, 2, 1000.0, 1e-3);
+        assert!(bar.reason.contains("settled"), "{}", bar.reason);
+        let noise = 2.0 * (467.2079244 - 467.2017289);
+        assert!((bar.absolute - noise).abs() <= 1e-9 * noise, "{} vs {noise}", bar.absolute);
+        // A change above the band is a coarser mesh's error, not noise: it stays out.
+        let seq = vec![(15_670usize, 1.0), (22_634, 1.001), (33_738, 1.0010001), (49_272, 1.0010003)];
+        let bar = certify(&seq, None, QuantityClass::Field, 2, 0.0, 1e-3);
+        assert!(bar.reason.contains("settled"), "{}", bar.reason);
+        assert!(bar.absolute < 1e-6, "{}", bar.absolute);
     }
 
     #[test]

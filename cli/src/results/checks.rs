@@ -437,6 +437,14 @@ pub struct CreepageResult {
 /// name (`check`), or nothing (`solve`).
 pub type BarLookup<'a> = &'a dyn Fn(&str) -> Option<(f64, f64)>;
 
+/// Why the Weibull effective volume diverges at singular point `s` (index) of exponent λ.
+fn divergence_note(s: usize, lambda: f64) -> String {
+    format!(
+        "V_eff diverges at singular point S{} (m·(1 − λ) ≥ 2, λ = {lambda:.4}): model the real edge radius; outside the discs around singular points it is finite",
+        s + 1
+    )
+}
+
 /// The breakdown checks of `sol` on `mesh`, for every load case of the plan, and the
 /// creepage CSV files (name, contents). `discs` are the exclusion discs around singular
 /// points; `bar_of` gives the certified peak values and bars where `check` has them.
@@ -472,30 +480,24 @@ pub fn breakdown_checks(
     lap.mark("peaks away");
     let stressed_volumes = || -> Vec<StressedVolumeResult> {
         peaks
-        .par_iter()
-        .filter(|p| p.1 > 0.0)
-        .map(|&(r, e, _, _)| {
-            let m = material(r).and_then(|m| m.weibull_shape);
-            let sv = stressed_volume(mesh, sol, r, e, &plan.breakdown.stressed_fractions, m, discs);
-            let w = sv.weibull;
-            StressedVolumeResult {
-                region: region_name(r),
-                e_ref_v_per_m: e,
-                volume_m3: sv.volume_m3,
-                above: sv.above,
-                weibull_shape: m,
-                weibull_effective_volume_m3: w.and_then(|w| w.effective_volume),
-                weibull_effective_volume_outside_discs_m3: w.map(|w| w.outside_discs),
-                note: w.and_then(|w| w.diverges_at).map(|s| {
-                    format!(
-                        "V_eff diverges at singular point S{} (m·(1 − λ) ≥ 2, λ = {:.4}): model the real edge radius; outside the discs around singular points it is finite",
-                        s + 1,
-                        mesh.singular_points[s].lambda
-                    )
-                }),
-            }
-        })
-        .collect()
+            .par_iter()
+            .filter(|p| p.1 > 0.0)
+            .map(|&(r, e, _, _)| {
+                let m = material(r).and_then(|m| m.weibull_shape);
+                let sv = stressed_volume(mesh, sol, r, e, &plan.breakdown.stressed_fractions, m, discs);
+                let w = sv.weibull;
+                StressedVolumeResult {
+                    region: region_name(r),
+                    e_ref_v_per_m: e,
+                    volume_m3: sv.volume_m3,
+                    above: sv.above,
+                    weibull_shape: m,
+                    weibull_effective_volume_m3: w.and_then(|w| w.effective_volume),
+                    weibull_effective_volume_outside_discs_m3: w.map(|w| w.outside_discs),
+                    note: w.and_then(|w| w.diverges_at).map(|s| divergence_note(s, mesh.singular_points[s].lambda)),
+                }
+            })
+            .collect()
     };
     // The local peaks, the grading checks and the stressed volumes are independent passes
     // over the mesh, mostly sequential each: side by side.
